@@ -1,0 +1,58 @@
+// The one place that decides tolerances, step sizes and limits. The CLI, the language server
+// and the editor all start from DEFAULT_SETTINGS and overlay the project configuration file
+// (and, in the editor, user settings where the file is silent).
+
+/** Unit roundoff of IEEE 754-2019 binary32 (float32): 2^-24. */
+export const UNIT_ROUNDOFF_F32 = 2 ** -24;
+/** Unit roundoff of IEEE 754-2019 binary64 (float64): 2^-53. */
+export const UNIT_ROUNDOFF_F64 = 2 ** -53;
+
+/** Everything a check needs to know besides the op itself. Plain JSON. */
+export interface CheckSettings {
+  /** Seed of the input generator; an op's `@seed` overrides it. */
+  seed: number;
+  /**
+   * Relative tolerance for float64 (and plain number) ops: an element is a mismatch when
+   * |analytic - numeric| exceeds tolerance * max(|analytic|, |numeric|) plus the numeric
+   * estimate's own error bound. 1e-6 sits far above the ~u^(2/3) ≈ 4e-11 accuracy of a
+   * well-scaled central difference in float64 (Nocedal & Wright, 2nd ed., §8.1) and far below
+   * the smallest bug the corpus must catch (1e-4 relative).
+   */
+  toleranceF64: number;
+  /**
+   * Relative tolerance for float32 ops: u32^(2/3) ≈ 1.5e-5 is the best a central difference
+   * can do in float32 (same analysis, u = 2^-24); 1e-3 leaves room for accumulated roundoff
+   * in reductions (common practice, not from a handbook).
+   */
+  toleranceF32: number;
+  /** Parameters with more elements than this get the dot-product test plus a subset. */
+  largeParamElements: number;
+  /** Random upstream gradients per op (one backward call each). */
+  upstreamProbes: number;
+  /** Dot-product probes per large parameter (two forwards and a backward each). */
+  dotProductProbes: number;
+  /** Elements of a large parameter also checked column by column. */
+  subsetElements: number;
+  /** How often a point with a kink is redrawn before the op is called inconclusive. */
+  kinkResamples: number;
+  /** Wall-clock limit of one op's whole check, in milliseconds. */
+  timeLimitMs: number;
+  /** Memory limit of the runner process, in MiB. */
+  memoryLimitMb: number;
+  /** Largest output or input, in elements, that an op may produce. */
+  maxElements: number;
+}
+
+export const DEFAULT_SETTINGS: CheckSettings = {
+  seed: 1234,
+  toleranceF64: 1e-6,
+  toleranceF32: 1e-3,
+  largeParamElements: 4096,
+  upstreamProbes: 2,
+  dotProductProbes: 4,
+  subsetElements: 32,
+  kinkResamples: 3,
+  timeLimitMs: 10_000,
+  memoryLimitMb: 1024,
+  maxElements: 4_000_000,
+};

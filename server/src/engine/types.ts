@@ -1,0 +1,202 @@
+// The data shapes shared by discovery, the numeric engine, the sandbox, the CLI and the
+// language server. Everything here is plain JSON-serialisable data: it crosses the process
+// boundary to the sandbox and back.
+
+/** Element types of `@sample` specs (see docs in ../shared/design/interface.md §1). */
+export type SampleDtype = 'f64' | 'f32' | 'num' | 'i32' | 'int';
+
+/** A parsed `@sample` spec. */
+export type SampleSpec =
+  | {
+      kind: 'random';
+      dtype: SampleDtype;
+      /** [] for a plain `num` or `int`; [d1, d2, ...] otherwise. */
+      shape: number[];
+      /** Inclusive range; default [-1, 1]. */
+      range: [number, number];
+      /** Points every element keeps away from (kinks, poles). */
+      avoid: number[];
+      /** Drawn but not differentiated (`fixed` keyword). */
+      fixed: boolean;
+    }
+  | { kind: 'literal'; value: unknown };
+
+/** A 1-based position in a source file. */
+export interface SourcePosition {
+  line: number;
+  column: number;
+}
+
+/** An annotation or set-up mistake, pointing at the offending tag (1-based). */
+export interface Problem extends SourcePosition {
+  message: string;
+  endLine?: number;
+  endColumn?: number;
+}
+
+/** One JSDoc tag of an op, with its place (for diagnostics and related information). */
+export interface TagLocation extends SourcePosition {
+  tag: string; // 'backward', 'sample', ...
+  /** For `@sample`: the parameter it draws (e.g. `x`, `this.weight`). */
+  param?: string;
+  endLine: number;
+  endColumn: number;
+}
+
+/** One parameter of the forward, or a `this.FIELD` of a method op. */
+export interface ParamDescriptor {
+  /** Parameter name, or `this.FIELD` for a field of the instance. */
+  name: string;
+  isField: boolean;
+  /** Absent when the op uses `@samples FACTORY`. */
+  sample?: SampleSpec;
+}
+
+/** One argument the backward receives, in order. */
+export type BackwardArg =
+  | { kind: 'param'; name: string } // a forward parameter (or `this.FIELD`), by name
+  | { kind: 'output' } // `$y`: the forward's output at the sample point
+  | { kind: 'upstream' }; // `$dy`: the upstream gradient
+
+/** How the sandbox finds an op's functions in the module it evaluated. */
+export interface OpTarget {
+  kind: 'function' | 'method';
+  /** Top-level binding of the forward (function), or the method name (method). */
+  forwardName: string;
+  /** The class binding, for methods. */
+  className?: string;
+  /** Top-level binding, or a method of the same class when the forward is a method. */
+  backwardName: string;
+  /** Whether the backward is a method of the class (called on the same instance). */
+  backwardIsMethod: boolean;
+  /** `@samples FACTORY`: exported/top-level function `(random) => unknown[]`. */
+  samplesFactory?: string;
+  /** `@construct FACTORY`: top-level function returning the instance. */
+  constructFactory?: string;
+}
+
+/** An annotated forward/backward pair found by discovery. */
+export interface OpDescriptor {
+  /** Absolute path of the source file. */
+  file: string;
+  /** Position of the forward's name (1-based), and where it ends. */
+  line: number;
+  column: number;
+  endLine: number;
+  endColumn: number;
+  /** Display name: `softplus`, or `Class.method` for a method. */
+  forward: string;
+  /** Name of the backward as written in `@backward`. */
+  backward: string;
+  target: OpTarget;
+  /** Forward parameters in declaration order, then `this.FIELD` entries in tag order. */
+  params: ParamDescriptor[];
+  /** Arguments of the backward in order (explicit list or the default). */
+  backwardArgs: BackwardArg[];
+  /** `@fixed` names (with `@samples`). */
+  fixed: string[];
+  /** `@tolerance` override (relative). */
+  tolerance?: number;
+  /** `@seed` override. */
+  seed?: number;
+  /** Every tag of the op with its place. */
+  tags: TagLocation[];
+  /** Where the backward is declared, when discovery could resolve it in this file. */
+  backwardLocation?: SourcePosition & { file: string };
+  /** Annotation mistakes; non-empty means the op is reported as `error` without running. */
+  problems: Problem[];
+}
+
+export type Verdict = 'pass' | 'mismatch' | 'inconclusive' | 'error';
+
+/** The element where a parameter's gradient is worst. */
+export interface WorstElement {
+  /** Multi-index into the parameter's shape ([] for a scalar). */
+  index: number[];
+  analytic: number;
+  numeric: number;
+}
+
+/** Error against step size for the worst element: the data of the report's log-log plot. */
+export interface StepScan {
+  steps: number[];
+  /** |analytic - central difference at that step|, same length as `steps`. */
+  absErrors: number[];
+}
+
+/** How a parameter was checked. */
+export type CheckMethod =
+  | 'full' // one central difference per element
+  | 'grouped' // structurally orthogonal elements share perturbations (Curtis, Powell & Reid 1974)
+  | 'dot-product'; // adjoint dot-product probes plus a random subset of full columns
+
+/** Per-parameter result. */
+export interface ParamResult {
+  name: string;
+  verdict: Verdict;
+  maxAbsError: number;
+  maxRelError: number;
+  worst: WorstElement | null;
+  /** Shape of the parameter ([] for a scalar) and its element type. */
+  shape: number[];
+  dtype: SampleDtype;
+  method: CheckMethod;
+  /** Elements in the parameter, and how many were compared element by element. */
+  elements: number;
+  checkedElements: number;
+  /** Evidence-backed hints about this parameter's mismatch. */
+  hints: string[];
+  /** Error against step size at the worst element (for the report). */
+  stepScan?: StepScan;
+  /** Per-element relative error for 2-D parameters up to a size cap, row-major (for the report). */
+  errorMap?: number[];
+}
+
+/** Calls the check made, for benchmarks and the report. */
+export interface CallCounts {
+  forward: number;
+  backward: number;
+}
+
+/** What the engine returns for one op (the sandbox adds nothing numeric). */
+export interface CheckOutcome {
+  verdict: Verdict;
+  seed: number;
+  message: string;
+  hints: string[];
+  params: ParamResult[];
+  calls: CallCounts;
+  /**
+   * The sample inputs that produced the verdict, for "copy as regression test": argument list
+   * (and `this.FIELD` values) as JSON-safe values with typed arrays as { dtype, data }.
+   * Capped in size; absent when too large.
+   */
+  inputs?: { args: unknown[]; fields: Record<string, unknown> };
+}
+
+/** One op's entry in the report (the `--json` `pairs` entries). */
+export interface OpResult extends CheckOutcome {
+  /** Relative to the current folder (CLI) with `/` separators, or absolute (server). */
+  file: string;
+  line: number;
+  forward: string | null;
+  backward: string | null;
+  elapsedMs: number;
+  problems?: Problem[];
+  /** Text the op printed with `console`. */
+  output?: string;
+}
+
+export interface ReportSummary {
+  pass: number;
+  mismatch: number;
+  inconclusive: number;
+  error: number;
+}
+
+/** The `--json` report, version 1. */
+export interface Report {
+  version: 1;
+  pairs: OpResult[];
+  summary: ReportSummary;
+}
