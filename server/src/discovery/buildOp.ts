@@ -1,0 +1,343 @@
+// Turns one annotated declaration (a ForwardSite and its JSDoc tags) into an OpDescriptor:
+// parses every tag, matches @sample tags to parameters, resolves the backward and factories in
+// the module, builds the backward's argument list, and records each mistake where it stands.
+import ts from 'typescript';
+import type { BackwardArg, OpDescriptor, ParamDescriptor, SampleSpec, TagLocation } from '../engine/types';
+import type { ForwardSite } from './forwardSites';
+import { findMethod, type Binding, type ModuleBindings } from './moduleBindings';
+import { parseBackwardTag, parseNameListTag, parseNameTag, parseSeedTag, parseToleranceTag, type ParsedBackward } from './otherTags';
+import type { PositionMapper, Span, SpanProblem } from './positions';
+import { nonNumberReturn } from './returnType';
+import { parseSampleTag, type SampleTarget } from './sampleTag';
+import { classifyTag, closestWord, type OpTagName } from './tagNames';
+import type { RawTag } from './tagText';
+
+export interface BuildContext {
+  fileName: string;
+  bindings: ModuleBindings;
+  mapper: PositionMapper;
+}
+
+/** Tags that make a declaration an op, or show that one was meant (then reported as incomplete). */
+const OP_MARKING_TAGS: readonly OpTagName[] = ['backward', 'sample', 'samples'];
+/** Tags an op may carry once. */
+const SINGLE_TAGS: readonly OpTagName[] = ['backward', 'samples', 'construct', 'tolerance', 'seed'];
+
+interface OurTag {
+  name: OpTagName;
+  raw: RawTag;
+}
+
+/** Builds the op of a declaration, or returns undefined when its JSDoc does not mark one. */
+export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext): OpDescriptor | undefined {
+  const problems: SpanProblem[] = [];
+  const ours: OurTag[] = [];
+  let marked = false;
+  for (const raw of rawTags) {
+    const cls = classifyTag(raw.name);
+    if (cls.kind === 'ours') {
+      ours.push({ name: cls.name, raw });
+      if (OP_MARKING_TAGS.includes(cls.name)) marked = true;
+    } else if (cls.kind === 'misspelled') {
+      problems.push({ ...raw.nameSpan, message: `unknown tag @${raw.name}; did you mean @${cls.suggestion}?` });
+      if (OP_MARKING_TAGS.includes(cls.suggestion)) marked = true;
+    }
+  }
+  if (!marked) return undefined;
+
+  if (site.unsupported) problems.push({ ...site.nameSpan, message: site.unsupported });
+
+  // Tags given more than once where one is meant.
+  const firstOf = new Map<OpTagName, OurTag>();
+  for (const t of ours) {
+    if (firstOf.has(t.name) && SINGLE_TAGS.includes(t.name)) problems.push({ ...t.raw.nameSpan, message: `@${t.name} is given twice; an op takes one` });
+    if (!firstOf.has(t.name)) firstOf.set(t.name, t);
+  }
+  const isMethod = site.kind === 'method';
+
+  // Forward parameters: plain names only.
+  const paramNames: string[] = [];
+  const paramSpans = new Map<string, Span>();
+  for (const p of site.fn?.parameters ?? []) {
+    if (ts.isIdentifier(p.name) && p.name.text === 'this') continue; // TypeScript's `this` type, not an argument
+    if (!ts.isIdentifier(p.name) || p.dotDotDotToken) {
+      problems.push({ start: p.getStart(), end: p.getEnd(), message: `parameters must be plain names (found '${p.getText()}'): rest and destructured parameters cannot be sampled` });
+      continue;
+    }
+    paramNames.push(p.name.text);
+    paramSpans.set(p.name.text, { start: p.name.getStart(), end: p.name.getEnd() });
+  }
+
+  // @samples and @construct factories.
+  const samplesTag = firstOf.get('samples');
+  let samplesFactory: string | undefined;
+  if (samplesTag) {
+    const r = parseNameTag(samplesTag.raw, 'a function (random) => argument list');
+    problems.push(...r.problems);
+    if (r.name && r.span) {
+      samplesFactory = r.name;
+      checkTopLevelFunction(r.name, r.span, '@samples factory', ctx.bindings, problems);
+    }
+  }
+  const constructTag = firstOf.get('construct');
+  let constructFactory: string | undefined;
+  if (constructTag) {
+    const r = parseNameTag(constructTag.raw, 'a function returning the instance');
+    problems.push(...r.problems);
+    if (!isMethod) problems.push({ ...constructTag.raw.nameSpan, message: '@construct only applies to methods: it builds the instance the method is called on' });
+    else if (r.name && r.span) {
+      constructFactory = r.name;
+      checkTopLevelFunction(r.name, r.span, '@construct factory', ctx.bindings, problems);
+    }
+  }
+
+  // @sample tags, matched to parameters and fields.
+  const samples = new Map<string, SampleSpec | undefined>();
+  const fieldOrder: string[] = [];
+  for (const t of ours) {
+    if (t.name !== 'sample') continue;
+    const parsed = parseSampleTag(t.raw);
+    problems.push(...parsed.problems);
+    const target = parsed.target;
+    if (!target) continue;
+    const misplaced = sampleTargetProblem(target, isMethod, paramNames, samples, samplesFactory, site);
+    if (misplaced) {
+      problems.push({ ...target.span, message: misplaced });
+      continue;
+    }
+    samples.set(target.name, parsed.spec);
+    if (target.isField) fieldOrder.push(target.name);
+  }
+  if (!samplesTag) {
+    for (const name of paramNames) {
+      if (!samples.has(name)) problems.push({ ...paramSpans.get(name)!, message: `parameter '${name}' has no @sample: add \`@sample ${name} SPEC\` (or use @samples FACTORY)` });
+    }
+  }
+  const params: ParamDescriptor[] = [
+    ...paramNames.map((name) => withSample({ name, isField: false }, samples.get(name))),
+    ...fieldOrder.map((name) => withSample({ name, isField: true }, samples.get(name))),
+  ];
+
+  // @fixed (with @samples).
+  const fixed: string[] = [];
+  for (const t of ours) {
+    if (t.name !== 'fixed') continue;
+    const r = parseNameListTag(t.raw);
+    problems.push(...r.problems);
+    if (!samplesTag) {
+      problems.push({ ...t.raw.nameSpan, message: '@fixed goes with @samples; with @sample, write `fixed` at the end of the spec' });
+      continue;
+    }
+    for (const n of r.names) {
+      const known = n.name.startsWith('this.') ? samples.has(n.name) : paramNames.includes(n.name);
+      if (!known) problems.push({ ...n.span, message: `@fixed: '${n.name}' is not a parameter of ${displayName(site)}${suggest(n.name, paramNames)}` });
+      else if (!fixed.includes(n.name)) fixed.push(n.name);
+    }
+  }
+
+  // @tolerance and @seed.
+  let tolerance: number | undefined;
+  const tolTag = firstOf.get('tolerance');
+  if (tolTag) {
+    const r = parseToleranceTag(tolTag.raw);
+    problems.push(...r.problems);
+    tolerance = r.value;
+  }
+  let seed: number | undefined;
+  const seedTag = firstOf.get('seed');
+  if (seedTag) {
+    const r = parseSeedTag(seedTag.raw);
+    problems.push(...r.problems);
+    seed = r.value;
+  }
+
+  // The forward itself must be callable synchronously.
+  const fnFlags = site.fn ? functionFlavour(site.fn) : undefined;
+  if (fnFlags) problems.push({ ...site.nameSpan, message: `${displayName(site)} is ${fnFlags}: checks call the forward synchronously and need a plain return value` });
+
+  // @backward: name, resolution, argument list.
+  const backTag = firstOf.get('backward');
+  let parsedBack: ParsedBackward = { problems: [] };
+  if (backTag) {
+    parsedBack = parseBackwardTag(backTag.raw);
+    problems.push(...parsedBack.problems);
+  } else if (!problems.some((p) => /did you mean @backward\?/.test(p.message))) {
+    const first = ours[0]?.raw.nameSpan ?? site.nameSpan;
+    problems.push({ ...first, message: `${displayName(site)} has sampling tags but no @backward: add \`@backward NAME\` naming its gradient function` });
+  }
+  const backwardName = parsedBack.name ?? '';
+  const resolved = parsedBack.name && parsedBack.nameSpan ? resolveBackward(parsedBack.name, parsedBack.nameSpan, site, ctx.bindings, problems) : undefined;
+
+  const backwardArgs = parsedBack.args
+    ? explicitBackwardArgs(parsedBack, site, paramNames, samples, problems)
+    : defaultBackwardArgs(isMethod, paramNames);
+
+  const tags: TagLocation[] = ours.map((t) => {
+    const start = ctx.mapper.at(t.raw.span.start);
+    const end = ctx.mapper.at(t.raw.span.end);
+    const loc: TagLocation = { tag: t.name, line: start.line, column: start.column, endLine: end.line, endColumn: end.column };
+    if (t.name === 'sample') {
+      const target = parseSampleTag(t.raw).target;
+      if (target) loc.param = target.name;
+    }
+    return loc;
+  });
+
+  const start = ctx.mapper.at(site.nameSpan.start);
+  const end = ctx.mapper.at(site.nameSpan.end);
+  const op: OpDescriptor = {
+    file: ctx.fileName,
+    line: start.line,
+    column: start.column,
+    endLine: end.line,
+    endColumn: end.column,
+    forward: displayName(site),
+    backward: backwardName,
+    target: {
+      kind: site.kind,
+      forwardName: site.name,
+      backwardName,
+      backwardIsMethod: resolved?.isMethod ?? false,
+    },
+    params,
+    backwardArgs,
+    fixed,
+    tags,
+    problems: problems.sort((a, b) => a.start - b.start).map((p) => ctx.mapper.problem(p)),
+  };
+  if (site.className !== undefined) op.target.className = site.className;
+  if (samplesFactory) op.target.samplesFactory = samplesFactory;
+  if (constructFactory) op.target.constructFactory = constructFactory;
+  if (tolerance !== undefined) op.tolerance = tolerance;
+  if (seed !== undefined) op.seed = seed;
+  if (resolved?.span) op.backwardLocation = { file: ctx.fileName, ...ctx.mapper.at(resolved.span.start) };
+  return op;
+}
+
+function displayName(site: ForwardSite): string {
+  const name = site.name || '(anonymous)';
+  return site.kind === 'method' ? `${site.className || '(anonymous class)'}.${name}` : name;
+}
+
+function suggest(name: string, candidates: readonly string[]): string {
+  const near = closestWord(name, candidates);
+  return near ? `; did you mean '${near}'?` : '';
+}
+
+function withSample(p: { name: string; isField: boolean }, spec: SampleSpec | undefined): ParamDescriptor {
+  return spec ? { ...p, sample: spec } : p;
+}
+
+/** Why a `@sample` target does not fit this op, or undefined when it does. */
+function sampleTargetProblem(
+  target: SampleTarget,
+  isMethod: boolean,
+  paramNames: readonly string[],
+  samples: ReadonlyMap<string, unknown>,
+  samplesFactory: string | undefined,
+  site: ForwardSite,
+): string | undefined {
+  if (target.isField && !isMethod) return `'${target.name}': this.FIELD samples only apply to methods`;
+  if (!target.isField && !paramNames.includes(target.name)) return `@sample: '${target.name}' is not a parameter of ${displayName(site)}${suggest(target.name, paramNames)}`;
+  if (samples.has(target.name)) return `@sample ${target.name} is given twice`;
+  if (!target.isField && samplesFactory) return `@sample ${target.name} conflicts with @samples ${samplesFactory}: the factory supplies the arguments (use @fixed for ones not differentiated)`;
+  return undefined;
+}
+
+/** 'async', 'a generator' or undefined for a plain function. */
+function functionFlavour(fn: ts.SignatureDeclaration): string | undefined {
+  const mods = ts.canHaveModifiers(fn) ? ts.getModifiers(fn) : undefined;
+  if (mods?.some((m) => m.kind === ts.SyntaxKind.AsyncKeyword)) return 'async';
+  if ((ts.isFunctionDeclaration(fn) || ts.isFunctionExpression(fn) || ts.isMethodDeclaration(fn)) && fn.asteriskToken) return 'a generator';
+  return undefined;
+}
+
+function bindingKindProblem(name: string, b: Binding, role: string): string | undefined {
+  if (b.kind === 'class') return `${role} '${name}' is a class, not a function`;
+  if (b.kind === 'other') return `${role} '${name}' is not a function`;
+  const flavour = b.fn ? functionFlavour(b.fn) : undefined;
+  if (flavour) return `${role} '${name}' is ${flavour}: it must return its result directly`;
+  return undefined;
+}
+
+/** Factories must be top-level functions (or imports) of this module. */
+function checkTopLevelFunction(name: string, span: Span, role: string, bindings: ModuleBindings, problems: SpanProblem[]): void {
+  const b = bindings.topLevel.get(name);
+  if (!b) {
+    problems.push({ ...span, message: `${role} '${name}' is not declared at the top level of this module or imported into it${suggest(name, [...bindings.topLevel.keys()])}` });
+    return;
+  }
+  const bad = bindingKindProblem(name, b, role);
+  if (bad) problems.push({ ...span, message: bad });
+}
+
+/** Finds the backward: for a method, on the class first; then among the module's top-level names. */
+function resolveBackward(
+  name: string,
+  span: Span,
+  site: ForwardSite,
+  bindings: ModuleBindings,
+  problems: SpanProblem[],
+): { isMethod: boolean; span?: Span } | undefined {
+  let unknownBase = false;
+  if (site.kind === 'method' && site.classNode) {
+    const m = findMethod(site.classNode, name, bindings);
+    if (m.found) {
+      const flavour = m.fn ? functionFlavour(m.fn) : undefined;
+      if (flavour) problems.push({ ...span, message: `backward '${name}' is ${flavour}: it must return its result directly` });
+      return { isMethod: true, span: m.span };
+    }
+    unknownBase = m.unknownBase;
+  }
+  const b = bindings.topLevel.get(name);
+  if (b) {
+    const bad = bindingKindProblem(name, b, 'backward');
+    if (bad) problems.push({ ...span, message: bad });
+    return { isMethod: false, span: b.span };
+  }
+  // The class extends one declared elsewhere: the backward may be inherited; the run will tell.
+  if (unknownBase) return { isMethod: true };
+  const where = site.kind === 'method' ? `a method of ${site.className || 'the class'}, a top-level function of this module or an import` : 'a top-level function of this module or an import';
+  const candidates = [...bindings.topLevel.keys(), ...(site.classNode ? site.classNode.members.flatMap((m) => (m.name && ts.isIdentifier(m.name) ? [m.name.text] : [])) : [])];
+  problems.push({ ...span, message: `backward '${name}' not found: it must be ${where}${suggest(name, candidates)}` });
+  return undefined;
+}
+
+function defaultBackwardArgs(isMethod: boolean, paramNames: readonly string[]): BackwardArg[] {
+  if (isMethod) return [{ kind: 'upstream' }];
+  return [...paramNames.map((name): BackwardArg => ({ kind: 'param', name })), { kind: 'upstream' }];
+}
+
+function explicitBackwardArgs(
+  parsed: ParsedBackward,
+  site: ForwardSite,
+  paramNames: readonly string[],
+  samples: ReadonlyMap<string, unknown>,
+  problems: SpanProblem[],
+): BackwardArg[] {
+  const args: BackwardArg[] = [];
+  const seen = new Set<string>();
+  for (const a of parsed.args ?? []) {
+    const key = a.kind === 'param' ? a.name : a.kind === 'output' ? '$y' : '$dy';
+    if (seen.has(key)) problems.push({ ...a.span, message: `@backward: '${key}' is listed twice` });
+    seen.add(key);
+    if (a.kind !== 'param') {
+      args.push({ kind: a.kind });
+      continue;
+    }
+    if (a.isField) {
+      if (site.kind !== 'method') problems.push({ ...a.span, message: `@backward: '${a.name}' names a field, but ${displayName(site)} is not a method` });
+      else if (!samples.has(a.name)) problems.push({ ...a.span, message: `@backward: '${a.name}' has no @sample; add \`@sample ${a.name} SPEC\` to pass it` });
+    } else if (!paramNames.includes(a.name)) {
+      problems.push({ ...a.span, message: `@backward: '${a.name}' is not a parameter of ${displayName(site)}${suggest(a.name, paramNames)}` });
+    }
+    args.push({ kind: 'param', name: a.name });
+  }
+  if (!seen.has('$dy') && parsed.listSpan) {
+    const returns = nonNumberReturn(site.fn?.type);
+    if (returns) {
+      problems.push({ ...parsed.listSpan, message: `@backward: the list has no $dy, but ${displayName(site)} returns ${returns}; without $dy the forward must return a number` });
+    }
+  }
+  return args;
+}

@@ -1,0 +1,139 @@
+// Finds the declarations whose JSDoc may mark an op: top-level functions, consts bound to a
+// function, methods of top-level classes; and, so a misplaced tag is not silently ignored,
+// annotated declarations anywhere else (reported as not reachable).
+import ts from 'typescript';
+import { unwrapExpression } from './moduleBindings';
+import type { Span } from './positions';
+
+export interface ForwardSite {
+  kind: 'function' | 'method';
+  /** Binding or method name; '' when the declaration has none. */
+  name: string;
+  /** Where the op is shown: the name, or the declaration's first keyword when unnamed. */
+  nameSpan: Span;
+  className?: string;
+  classNode?: ts.ClassLikeDeclaration;
+  /** The node whose JSDoc holds the tags. */
+  docHost: ts.Node;
+  /** The function itself (absent when the annotated thing is not a function). */
+  fn?: ts.SignatureDeclaration;
+  /** Why the checker cannot run this declaration as it stands; becomes a problem on the op. */
+  unsupported?: string;
+}
+
+const NOT_TOP_LEVEL =
+  'is not at the top level of the module: only top-level functions, consts bound to a function and methods of top-level classes can be checked';
+
+function spanOf(node: ts.Node): Span {
+  return { start: node.getStart(), end: node.getEnd() };
+}
+
+function isFunctionLike(e: ts.Expression): e is ts.ArrowFunction | ts.FunctionExpression {
+  return ts.isArrowFunction(e) || ts.isFunctionExpression(e);
+}
+
+function hasModifier(node: ts.Node, flag: ts.ModifierFlags): boolean {
+  return (ts.getCombinedModifierFlags(node as ts.Declaration) & flag) !== 0;
+}
+
+/** The name of a declaration as text, if it is a plain identifier. */
+function plainName(name: ts.Node | undefined): string | undefined {
+  return name && ts.isIdentifier(name) ? name.text : undefined;
+}
+
+/** Sites of one top-level statement. */
+function statementSites(st: ts.Statement): ForwardSite[] {
+  if (ts.isFunctionDeclaration(st)) {
+    const site: ForwardSite = {
+      kind: 'function',
+      name: st.name?.text ?? '',
+      nameSpan: spanOf(st.name ?? st),
+      docHost: st,
+      fn: st,
+    };
+    if (!st.name) site.unsupported = 'this function has no name: give it one so the checker can reach it';
+    else if (!st.body) site.unsupported = `'${st.name.text}' has no body here (an overload signature or a declaration): put the tags on the implementation`;
+    if (!st.name) site.nameSpan = { start: st.getStart(), end: st.getStart() + (st.getText().startsWith('export') ? 'export'.length : 'function'.length) };
+    return [site];
+  }
+  if (ts.isVariableStatement(st)) {
+    return st.declarationList.declarations.flatMap((d): ForwardSite[] => {
+      if (!ts.isIdentifier(d.name)) return [];
+      const init = d.initializer && unwrapExpression(d.initializer);
+      const site: ForwardSite = { kind: 'function', name: d.name.text, nameSpan: spanOf(d.name), docHost: d };
+      if (init && isFunctionLike(init)) site.fn = init;
+      else site.unsupported = `'${d.name.text}' is not bound to a function: @backward goes on a function, a const bound to an arrow function or function expression, or a class method`;
+      return [site];
+    });
+  }
+  if (ts.isClassDeclaration(st)) {
+    const className = st.name?.text ?? '';
+    return st.members.flatMap((m) => memberSite(m, className, st, st.name ? undefined : 'this class has no name: give it one so the checker can reach it'));
+  }
+  if (ts.isExportAssignment(st)) {
+    return [{ kind: 'function', name: '', nameSpan: spanOf(st), docHost: st, unsupported: 'an anonymous default export cannot be reached: declare a named function and export that' }];
+  }
+  return [];
+}
+
+function memberSite(m: ts.ClassElement, className: string, cls: ts.ClassLikeDeclaration, classProblem?: string): ForwardSite[] {
+  if (!(ts.isMethodDeclaration(m) || ts.isPropertyDeclaration(m) || ts.isGetAccessor(m) || ts.isSetAccessor(m) || ts.isConstructorDeclaration(m))) return [];
+  const name = plainName(m.name) ?? '';
+  const site: ForwardSite = {
+    kind: 'method',
+    name,
+    nameSpan: spanOf(m.name ?? m.getFirstToken() ?? m),
+    className,
+    classNode: cls,
+    docHost: m,
+  };
+  if (ts.isMethodDeclaration(m)) site.fn = m;
+  else if (ts.isPropertyDeclaration(m) && m.initializer && isFunctionLike(unwrapExpression(m.initializer))) site.fn = unwrapExpression(m.initializer) as ts.SignatureDeclaration;
+  if (classProblem) site.unsupported = classProblem;
+  else if (ts.isConstructorDeclaration(m)) site.unsupported = 'a constructor cannot be an op: annotate a method (use @construct to build the instance)';
+  else if (ts.isGetAccessor(m) || ts.isSetAccessor(m)) site.unsupported = 'an accessor cannot be an op: annotate a method';
+  else if (!site.fn) site.unsupported = `'${name}' is not a method: @backward goes on a method or a field bound to a function`;
+  else if (!m.name || !ts.isIdentifier(m.name)) site.unsupported = 'the method needs a plain name (not private #, computed or quoted) so the checker can call it';
+  else if (hasModifier(m, ts.ModifierFlags.Static)) site.unsupported = `'${name}' is static: checks call methods on an instance; make it a top-level function instead`;
+  else if (ts.isMethodDeclaration(m) && !m.body) site.unsupported = `'${name}' has no body here (an overload signature or an abstract method): put the tags on the implementation`;
+  return [site];
+}
+
+/** Annotatable declarations below the top level (inside functions, namespaces, blocks, object literals, class expressions). */
+function nestedSites(root: ts.Node, out: ForwardSite[]): void {
+  const visit = (node: ts.Node): void => {
+    let name: string | undefined;
+    let host: ts.Node | undefined;
+    if (ts.isFunctionDeclaration(node) || ts.isMethodDeclaration(node) || ts.isPropertyDeclaration(node) || ts.isPropertyAssignment(node)) {
+      name = plainName(node.name) ?? '';
+      host = node;
+    } else if (ts.isVariableDeclaration(node)) {
+      name = plainName(node.name) ?? '';
+      host = node;
+    }
+    if (host) {
+      const at = (host as ts.NamedDeclaration).name ?? host;
+      out.push({ kind: 'function', name: name ?? '', nameSpan: spanOf(at), docHost: host, unsupported: `'${name || 'this declaration'}' ${NOT_TOP_LEVEL}` });
+    }
+    ts.forEachChild(node, visit);
+  };
+  ts.forEachChild(root, visit);
+}
+
+/**
+ * Every place an op could be declared, in source order. Top-level sites are candidates; nested
+ * ones always carry `unsupported` (they matter only when they have our tags).
+ */
+export function findForwardSites(sf: ts.SourceFile): ForwardSite[] {
+  const sites: ForwardSite[] = [];
+  for (const st of sf.statements) {
+    sites.push(...statementSites(st));
+    // Look inside for annotated declarations the checker cannot reach.
+    if (ts.isClassDeclaration(st)) {
+      for (const m of st.members) nestedSites(m, sites);
+    } else if (ts.isVariableStatement(st)) {
+      for (const d of st.declarationList.declarations) if (d.initializer) nestedSites(d.initializer, sites);
+    } else nestedSites(st, sites);
+  }
+  return sites;
+}

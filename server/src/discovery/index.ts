@@ -1,0 +1,84 @@
+// Discovery: finds the annotated forward/backward pairs of one TypeScript source text and
+// parses their tags into OpDescriptors, with every mistake placed at its line and column.
+// One parse, no type checker: the language server calls this on every save.
+import ts from 'typescript';
+import type { OpDescriptor, Problem, TagLocation } from '../engine/types';
+import { buildOp } from './buildOp';
+import { findForwardSites } from './forwardSites';
+import { collectBindings } from './moduleBindings';
+import { PositionMapper } from './positions';
+import { readDocTags } from './tagText';
+
+export { OP_TAG_NAMES, type OpTagName } from './tagNames';
+export { DEFAULT_SAMPLE_RANGE } from './sampleTag';
+export { MAX_SEED } from './otherTags';
+
+export interface DiscoveryResult {
+  ops: OpDescriptor[];
+  /** Failures of the whole file (syntax errors): none of its ops can run. */
+  fileProblems: Problem[];
+}
+
+/** Never throws: an internal failure becomes a file problem at line 1. */
+export function discoverOps(fileName: string, text: string): DiscoveryResult {
+  try {
+    return discover(fileName, String(text));
+  } catch (err) {
+    const why = err instanceof Error ? err.message : String(err);
+    return { ops: [], fileProblems: [{ line: 1, column: 1, message: `Gradient Probe could not read this file's annotations (internal error: ${why})` }] };
+  }
+}
+
+function discover(fileName: string, text: string): DiscoveryResult {
+  const sf = ts.createSourceFile(fileName, text, ts.ScriptTarget.Latest, true);
+  const mapper = new PositionMapper(sf);
+  const fileProblems = syntaxProblems(sf, mapper);
+  // Without a tag character there is nothing to find; skip the walk (a common case on save).
+  if (!text.includes('@')) return { ops: [], fileProblems };
+  const bindings = collectBindings(sf);
+  const ops: OpDescriptor[] = [];
+  for (const site of findForwardSites(sf)) {
+    const tags = readDocTags(text, site.docHost);
+    if (tags.length === 0) continue;
+    const op = buildOp(site, tags, { fileName, bindings, mapper });
+    if (op) ops.push(op);
+  }
+  ops.sort((a, b) => a.line - b.line || a.column - b.column);
+  return { ops, fileProblems };
+}
+
+/**
+ * The parser's own diagnostics. They are not in the compiler's public typings, but every
+ * SourceFile carries them; without them a broken file would look like one with no ops.
+ */
+function syntaxProblems(sf: ts.SourceFile, mapper: PositionMapper): Problem[] {
+  const diags = (sf as unknown as { parseDiagnostics?: readonly ts.Diagnostic[] }).parseDiagnostics ?? [];
+  return diags.map((d) => {
+    const start = d.start ?? 0;
+    return mapper.problem({ start, end: start + (d.length ?? 0), message: ts.flattenDiagnosticMessageText(d.messageText, '\n') });
+  });
+}
+
+/** What sits at a 1-based position: an op's forward name or one of its tags (for hover). */
+export interface OpAtPosition {
+  op: OpDescriptor;
+  /** The tag under the position, when it is on a tag rather than the forward's name. */
+  tag?: TagLocation;
+}
+
+function within(line: number, column: number, r: { line: number; column: number; endLine: number; endColumn: number }): boolean {
+  const afterStart = line > r.line || (line === r.line && column >= r.column);
+  // The end column is exclusive, but a cursor just past the last character still counts.
+  const beforeEnd = line < r.endLine || (line === r.endLine && column <= r.endColumn);
+  return afterStart && beforeEnd;
+}
+
+/** Finds the op whose forward name or tag covers the position (1-based line and column). */
+export function findOpAt(result: DiscoveryResult, line: number, column: number): OpAtPosition | undefined {
+  for (const op of result.ops) {
+    if (within(line, column, op)) return { op };
+    const tag = op.tags.find((t) => within(line, column, t));
+    if (tag) return { op, tag };
+  }
+  return undefined;
+}
