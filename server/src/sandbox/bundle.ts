@@ -1,0 +1,207 @@
+// Bundles one source file (the editor's unsaved text, or the file on disk) with its relative
+// imports and packages into one script for the sandbox, in memory, with esbuild; appends code
+// that exposes the ops' bindings (exported or not); caches bundles by the content of every input.
+import { createHash } from 'node:crypto';
+import { readFileSync, statSync } from 'node:fs';
+import { builtinModules } from 'node:module';
+import { dirname, extname, isAbsolute, relative, resolve } from 'node:path';
+import * as esbuild from 'esbuild';
+import type * as esbuildTypes from 'esbuild';
+
+/** Bundles kept in memory; a workspace rarely has more files with ops open at once. */
+const MAX_CACHED_BUNDLES = 128;
+
+/** A binding name we may splice into code: a plain identifier, nothing else. */
+const IDENTIFIER = /^[A-Za-z_$][A-Za-z0-9_$]*$/;
+
+export interface BundleRequest {
+  /** Absolute path of the source file. */
+  file: string;
+  /** Its text (may differ from the disk: an unsaved editor buffer). */
+  text: string;
+  /** Top-level names to expose: forward, class, backward, samples and construct factories. */
+  bindings: string[];
+}
+
+export type BundleResult =
+  | { ok: true; code: string; key: string; cached: boolean; buildMs: number }
+  | { ok: false; message: string; location?: { file: string; line: number; column: number } };
+
+export interface BundleStats {
+  /** esbuild runs (cache misses that bundled). */
+  builds: number;
+  /** Requests answered from the cache after re-validating every input. */
+  cacheHits: number;
+  failures: number;
+}
+
+interface InputRecord {
+  path: string;
+  size: number;
+  mtimeMs: number;
+  hash: string;
+}
+
+interface CacheEntry {
+  code: string;
+  key: string;
+  inputs: InputRecord[];
+}
+
+const LOADERS: Record<string, esbuildTypes.Loader> = {
+  '.ts': 'ts', '.mts': 'ts', '.cts': 'ts', '.tsx': 'tsx', '.js': 'js', '.mjs': 'js', '.cjs': 'js', '.jsx': 'jsx',
+};
+
+function sha256(...parts: string[]): string {
+  const h = createHash('sha256');
+  for (const p of parts) h.update(p).update('\0');
+  return h.digest('hex');
+}
+
+/** The code appended to the entry: `globalThis.__gradientProbeExposed = { name: …, … }`. */
+export function exposeCode(bindings: string[]): string {
+  const names = [...new Set(bindings)].filter((n) => IDENTIFIER.test(n)).sort();
+  const fields = names.map((n) => `  ${JSON.stringify(n)}: typeof ${n} !== 'undefined' ? ${n} : undefined`);
+  return `\n;globalThis.__gradientProbeExposed = {\n${fields.join(',\n')}\n};\n`;
+}
+
+function isBuiltinModule(name: string): boolean {
+  const bare = name.startsWith('node:') ? name.slice(5) : name;
+  return builtinModules.includes(bare.split('/')[0] ?? bare);
+}
+
+/** Turns esbuild's first error into one sentence naming the import and where it is. */
+function describeFailure(entry: string, workDir: string, errors: esbuildTypes.Message[]): BundleResult {
+  const first = errors[0];
+  if (!first) return { ok: false, message: `the module could not be bundled` };
+  let text = first.text;
+  const unresolved = /^Could not resolve "([^"]+)"/.exec(text);
+  if (unresolved) {
+    const name = unresolved[1];
+    text = isBuiltinModule(name)
+      ? `cannot import "${name}": Node's built-in modules are not available to code checked in the sandbox`
+      : `cannot import "${name}": no such file or package`;
+  }
+  const loc = first.location;
+  if (!loc) return { ok: false, message: text };
+  const file = resolve(workDir, loc.file);
+  const line = loc.line;
+  const column = loc.column + 1;
+  const where = file === entry ? `line ${line}` : `${relative(dirname(entry), file) || file}:${line}:${column}`;
+  const more = errors.length > 1 ? ` (and ${errors.length - 1} more error${errors.length > 2 ? 's' : ''})` : '';
+  return { ok: false, message: `${text} (${where})${more}`, location: { file, line, column } };
+}
+
+export class Bundler {
+  readonly stats: BundleStats = { builds: 0, cacheHits: 0, failures: 0 };
+  private readonly cache = new Map<string, CacheEntry>();
+
+  /** Bundles a file for the sandbox; never rejects. */
+  async bundle(request: BundleRequest): Promise<BundleResult> {
+    const file = resolve(request.file);
+    const bindings = [...new Set(request.bindings)].sort();
+    const bad = bindings.find((b) => !IDENTIFIER.test(b));
+    if (bad !== undefined) return { ok: false, message: `"${bad}" is not a plain identifier` };
+    const requestKey = sha256(file, request.text, bindings.join(','));
+    const cached = this.cache.get(requestKey);
+    if (cached && this.stillValid(cached)) {
+      this.cache.delete(requestKey);
+      this.cache.set(requestKey, cached);
+      this.stats.cacheHits++;
+      return { ok: true, code: cached.code, key: cached.key, cached: true, buildMs: 0 };
+    }
+    this.cache.delete(requestKey);
+    const started = performance.now();
+    const result = await this.build(file, request.text, bindings);
+    if (!result.ok) {
+      this.stats.failures++;
+      return result;
+    }
+    this.stats.builds++;
+    this.cache.set(requestKey, result.entry);
+    while (this.cache.size > MAX_CACHED_BUNDLES) {
+      const oldest = this.cache.keys().next().value;
+      if (oldest === undefined) break;
+      this.cache.delete(oldest);
+    }
+    return { ok: true, code: result.entry.code, key: result.entry.key, cached: false, buildMs: performance.now() - started };
+  }
+
+  /** Forgets every cached bundle. */
+  clear(): void {
+    this.cache.clear();
+  }
+
+  /** An input is unchanged when its size and mtime match, or else its content hash does. */
+  private stillValid(entry: CacheEntry): boolean {
+    for (const input of entry.inputs) {
+      let st;
+      try {
+        st = statSync(input.path);
+      } catch {
+        return false;
+      }
+      if (st.size === input.size && st.mtimeMs === input.mtimeMs) continue;
+      try {
+        if (sha256(readFileSync(input.path, 'latin1')) !== input.hash) return false;
+      } catch {
+        return false;
+      }
+      input.size = st.size;
+      input.mtimeMs = st.mtimeMs;
+    }
+    return true;
+  }
+
+  private async build(file: string, text: string, bindings: string[]): Promise<{ ok: true; entry: CacheEntry } | (BundleResult & { ok: false })> {
+    const workDir = dirname(file);
+    const loader = LOADERS[extname(file).toLowerCase()] ?? 'ts';
+    const entryContents = text + exposeCode(bindings);
+    const entryPlugin: esbuildTypes.Plugin = {
+      name: 'gradient-probe-entry',
+      setup(build) {
+        // The entry's text comes from the caller (an unsaved buffer), also when another
+        // module imports it back (an import cycle).
+        build.onLoad({ filter: /.*/, namespace: 'file' }, (args) =>
+          resolve(args.path) === file ? { contents: entryContents, loader, resolveDir: workDir } : undefined,
+        );
+      },
+    };
+    let out: esbuildTypes.BuildResult<{ write: false; metafile: true }>;
+    try {
+      out = await esbuild.build({
+        entryPoints: [file],
+        absWorkingDir: workDir,
+        bundle: true,
+        write: false,
+        metafile: true,
+        format: 'iife',
+        platform: 'neutral',
+        // With platform 'neutral' esbuild reads no package.json main field unless told to.
+        mainFields: ['module', 'main'],
+        target: 'es2022',
+        logLevel: 'silent',
+        plugins: [entryPlugin],
+      });
+    } catch (e) {
+      const errors = (e as { errors?: esbuildTypes.Message[] }).errors;
+      if (Array.isArray(errors) && errors.length > 0) return describeFailure(file, workDir, errors) as BundleResult & { ok: false };
+      return { ok: false, message: `the module could not be bundled: ${(e as Error).message}` };
+    }
+    const output = out.outputFiles[0];
+    if (!output) return { ok: false, message: 'the bundler produced no output' };
+    const code = output.text;
+    const inputs: InputRecord[] = [];
+    for (const key of Object.keys(out.metafile.inputs)) {
+      const path = isAbsolute(key) ? key : resolve(workDir, key);
+      if (path === file) continue; // its content is part of the cache key
+      try {
+        const st = statSync(path);
+        inputs.push({ path, size: st.size, mtimeMs: st.mtimeMs, hash: sha256(readFileSync(path, 'latin1')) });
+      } catch {
+        // Not a file on disk (a virtual namespace): nothing to re-validate.
+      }
+    }
+    return { ok: true, entry: { code, key: sha256(code), inputs } };
+  }
+}

@@ -1,0 +1,157 @@
+// The runner process (built to dist/sandbox-child.js): receives one op's whole check per
+// message, runs it in a fresh hardened vm context under one timeout, and answers with plain
+// strings. Started by RunnerPool with the permission flag, an empty environment and no stdio.
+'use strict';
+import * as vm from 'node:vm';
+import type { ChildMessage, HelloMessage, JobMessage, ParentMessage } from './protocol';
+import { CONTEXT_SETUP_SOURCE, FIXED_DATE_MS, wrapWithBuiltins } from './contextSetup';
+
+/** Compiled bundles kept per process; the parent resends a bundle this child evicted. */
+const MAX_CACHED_BUNDLES = 32;
+
+/** Time allowed to read the console text after a job, in milliseconds: it is a join of strings. */
+const OUTPUT_READ_TIMEOUT_MS = 1000;
+
+const setupScript = new vm.Script(CONTEXT_SETUP_SOURCE, { filename: 'gradient-probe-context-setup.js' });
+const driveScript = new vm.Script('__gradientProbeDrive()', { filename: 'gradient-probe-drive.js' });
+const outputScript = new vm.Script('__gradientProbeOutput()', { filename: 'gradient-probe-output.js' });
+let engineScript: vm.Script | undefined;
+const bundleScripts = new Map<string, vm.Script>();
+
+function send(message: ChildMessage): void {
+  process.send?.(message);
+}
+
+/** Checks from inside that the permission model really denies reading an arbitrary file. */
+function helloMessage(): HelloMessage {
+  const permission = (process as { permission?: { has(scope: string, ref?: string): boolean } }).permission;
+  let permissionActive = false;
+  if (permission) {
+    try {
+      permissionActive = permission.has('fs.read', '/') === false && permission.has('child') === false;
+    } catch {
+      permissionActive = false;
+    }
+  }
+  const isolation = permissionActive
+    ? 'permission model active: no file access beyond the runner script, no child processes, workers or native addons'
+    : 'permission model not active in this runtime: user code runs in a hardened vm context without it';
+  return { type: 'hello', pid: process.pid, nodeVersion: process.version, permissionActive, isolation };
+}
+
+function compileBundle(job: JobMessage): vm.Script | undefined {
+  const cached = bundleScripts.get(job.bundleKey);
+  if (cached) {
+    // Re-insert to keep the map in least-recently-used order.
+    bundleScripts.delete(job.bundleKey);
+    bundleScripts.set(job.bundleKey, cached);
+    return cached;
+  }
+  if (job.bundleCode === undefined) return undefined;
+  const script = new vm.Script(wrapWithBuiltins(job.bundleCode), { filename: 'user-bundle.js' });
+  bundleScripts.set(job.bundleKey, script);
+  while (bundleScripts.size > MAX_CACHED_BUNDLES) {
+    const oldest = bundleScripts.keys().next().value;
+    if (oldest === undefined) break;
+    bundleScripts.delete(oldest);
+  }
+  return script;
+}
+
+function isTimeout(e: unknown): boolean {
+  return typeof e === 'object' && e !== null && (e as { code?: unknown }).code === 'ERR_SCRIPT_EXECUTION_TIMEOUT';
+}
+
+/** Reads the op's console text as a primitive string, whatever the context did. */
+function readOutput(context: vm.Context): string {
+  try {
+    const text: unknown = outputScript.runInContext(context, { timeout: OUTPUT_READ_TIMEOUT_MS });
+    return typeof text === 'string' ? text : '';
+  } catch {
+    return '';
+  }
+}
+
+function hostErrorText(e: unknown): string {
+  return e instanceof Error ? e.message : String(e);
+}
+
+function runJob(job: JobMessage): void {
+  const started = performance.now();
+  const elapsed = (): number => performance.now() - started;
+  if (!engineScript) {
+    send({ type: 'result', id: job.id, ok: false, error: 'internal: the runner has no engine', timedOut: false, output: '', elapsedMs: 0 });
+    return;
+  }
+  let bundleScript: vm.Script | undefined;
+  try {
+    bundleScript = compileBundle(job);
+  } catch (e) {
+    send({ type: 'result', id: job.id, ok: false, error: `the bundled module does not compile: ${hostErrorText(e)}`, timedOut: false, output: '', elapsedMs: elapsed() });
+    return;
+  }
+  if (!bundleScript) {
+    send({ type: 'missing-bundle', id: job.id });
+    return;
+  }
+  // A fresh context per op: globalThis writes and prototype changes die with it. The global
+  // object has no prototype, so `globalThis.constructor.constructor` cannot reach the host's
+  // Function (with a plain `{}` it does: checked on Node 20).
+  const context = vm.createContext(Object.create(null), {
+    name: 'gradient-probe op',
+    codeGeneration: { strings: false, wasm: false },
+    microtaskMode: 'afterEvaluate',
+  });
+  let tagged: unknown;
+  try {
+    const setup: unknown = setupScript.runInContext(context);
+    if (typeof setup !== 'function') throw new Error('context setup did not evaluate to a function');
+    // Our own function, called with primitives before any user code exists in the context.
+    (setup as (seed: number, now: number, limit: number) => void)(job.seed, FIXED_DATE_MS, job.outputLimitChars);
+    const sandboxGlobal = context as Record<string, unknown>;
+    sandboxGlobal.__gradientProbeEngine = engineScript.runInContext(context);
+    sandboxGlobal.__gradientProbeModule = bundleScript.runInContext(context);
+    sandboxGlobal.__gradientProbeRequest = job.requestJson;
+    tagged = driveScript.runInContext(context, { timeout: job.timeLimitMs });
+  } catch (e) {
+    const output = readOutput(context);
+    if (isTimeout(e)) {
+      send({ type: 'result', id: job.id, ok: false, error: `timed out after ${job.timeLimitMs} ms`, timedOut: true, output, elapsedMs: elapsed() });
+    } else {
+      send({ type: 'result', id: job.id, ok: false, error: `the runner failed: ${hostErrorText(e)}`, timedOut: false, output, elapsedMs: elapsed() });
+    }
+    return;
+  }
+  const output = readOutput(context);
+  if (typeof tagged !== 'string' || tagged.length === 0) {
+    send({ type: 'result', id: job.id, ok: false, error: 'internal: the check returned no result', timedOut: false, output, elapsedMs: elapsed() });
+    return;
+  }
+  const body = tagged.slice(1);
+  switch (tagged[0]) {
+    case 'R':
+      send({ type: 'result', id: job.id, ok: true, outcomeJson: body, output, elapsedMs: elapsed() });
+      return;
+    case 'L':
+      send({ type: 'result', id: job.id, ok: false, error: `the module threw while loading: ${body}`, timedOut: false, output, elapsedMs: elapsed() });
+      return;
+    default:
+      send({ type: 'result', id: job.id, ok: false, error: body, timedOut: false, output, elapsedMs: elapsed() });
+  }
+}
+
+function onMessage(raw: unknown): void {
+  const message = raw as ParentMessage;
+  if (message.type === 'init') {
+    engineScript = new vm.Script(wrapWithBuiltins(message.engineCode), { filename: 'engine-in-sandbox.js' });
+  } else if (message.type === 'job') {
+    runJob(message);
+  }
+}
+
+if (typeof process.send === 'function') {
+  process.on('message', onMessage);
+  // The parent going away (crash, kill) must not leave this process behind.
+  process.on('disconnect', () => process.exit(0));
+  send(helloMessage());
+}

@@ -1,0 +1,185 @@
+// Source text of the script that prepares each fresh vm context before any user code runs:
+// it removes globals no op needs, seeds Math.random, fixes the clock, installs a console that
+// collects text, and defines the one driver the runner process calls (under one vm timeout).
+// Everything here is evaluated INSIDE the context, so every object it creates belongs to the
+// context: no host function ever becomes reachable from user code.
+
+/**
+ * Built-ins handed to the engine and the user bundle as function parameters. Global lookups in a
+ * vm context go through an interceptor and cost 2–12× on numeric loops (measured, see
+ * shared/design/sandbox.md); parameters are plain local variables.
+ */
+export const CONTEXT_BUILTINS = [
+  'globalThis', 'Math', 'Object', 'Array', 'Number', 'String', 'Boolean', 'Symbol', 'BigInt',
+  'Function', 'JSON', 'Reflect', 'Proxy', 'Promise', 'Map', 'Set', 'WeakMap', 'WeakSet', 'Date',
+  'RegExp', 'Error', 'TypeError', 'RangeError', 'SyntaxError', 'ReferenceError', 'EvalError',
+  'URIError', 'AggregateError', 'ArrayBuffer', 'DataView', 'Float64Array', 'Float32Array',
+  'Int32Array', 'Uint32Array', 'Int16Array', 'Uint16Array', 'Int8Array', 'Uint8Array',
+  'Uint8ClampedArray', 'BigInt64Array', 'BigUint64Array', 'isFinite', 'isNaN', 'parseFloat',
+  'parseInt', 'console',
+] as const;
+
+/** Wraps engine or bundle code in a function that receives CONTEXT_BUILTINS as parameters. */
+export function wrapWithBuiltins(code: string): string {
+  // The newline before `})` keeps a trailing line comment (source map URL) from eating it.
+  return `(function (${CONTEXT_BUILTINS.join(', ')}) {\n${code}\n})`;
+}
+
+/**
+ * The clock value every op sees through `Date.now()` and `new Date()`: 2021-06-01T00:00:00Z, an
+ * arbitrary fixed instant, so an op that reads the clock behaves the same on every run.
+ */
+export const FIXED_DATE_MS = 1622505600000;
+
+/**
+ * Evaluates to a function `(seed, fixedNow, outputLimit) => void`. After it ran, the context has
+ * `__gradientProbeDrive()` (loads engine and module, runs the check, returns a tagged string:
+ * 'R' + outcome JSON, 'L' + load error, 'E' + engine failure) and `__gradientProbeOutput()`
+ * (the console text), both non-writable. The host puts the wrapped engine, the wrapped module
+ * and the request JSON in `__gradientProbeEngine`, `__gradientProbeModule`,
+ * `__gradientProbeRequest` before calling the driver; the driver removes them first.
+ */
+export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, outputLimit) {
+  'use strict';
+  const g = globalThis;
+  const BUILTIN_NAMES = ${JSON.stringify(CONTEXT_BUILTINS)};
+  // Shared memory, blocking waits and WebAssembly are not needed by any op and escape the
+  // limits we set (Atomics.wait blocks outside the vm timeout's reach of promise jobs; wasm
+  // memory is not on the JS heap). Code generation from strings is off by context option.
+  for (const name of ['WebAssembly', 'SharedArrayBuffer', 'Atomics', 'console']) {
+    try { delete g[name]; } catch (e) { /* non-configurable: leave it */ }
+  }
+
+  // Seeded Math.random: mulberry32, a 32-bit generator (public domain, T. Ettinger), so two
+  // runs of the same op with the same seed see the same numbers.
+  let state = (seed >>> 0) ^ 0x9e3779b9;
+  const random = function random() {
+    state = (state + 0x6d2b79f5) | 0;
+    let t = Math.imul(state ^ (state >>> 15), 1 | state);
+    t = (t + Math.imul(t ^ (t >>> 7), 61 | t)) ^ t;
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+  Object.defineProperty(Math, 'random', { value: random, writable: true, configurable: true });
+
+  // A fixed clock for user code; the engine keeps the real one for its own time budget.
+  const RealDate = Date;
+  const realNow = RealDate.now;
+  const FixedDate = function Date(...args) {
+    if (new.target === undefined) return new RealDate(fixedNow).toString();
+    return Reflect.construct(RealDate, args.length === 0 ? [fixedNow] : args, new.target);
+  };
+  FixedDate.prototype = RealDate.prototype;
+  FixedDate.now = function now() { return fixedNow; };
+  FixedDate.UTC = RealDate.UTC;
+  FixedDate.parse = RealDate.parse;
+  Object.defineProperty(RealDate.prototype, 'constructor', { value: FixedDate, writable: true, configurable: true });
+  Object.defineProperty(g, 'Date', { value: FixedDate, writable: true, configurable: true });
+  Object.defineProperty(g, '__gradientProbeClock', { value: function clock() { return realNow(); }, writable: false, configurable: false });
+
+  // Console text is collected per op, up to outputLimit characters, and never printed.
+  const chunks = [];
+  let used = 0;
+  let truncated = false;
+  const show = (v, depth) => {
+    if (typeof v === 'string') return depth === 0 ? v : JSON.stringify(v);
+    if (typeof v === 'number' || typeof v === 'boolean' || typeof v === 'undefined' || v === null) return String(v);
+    if (typeof v === 'bigint') return String(v) + 'n';
+    if (typeof v === 'symbol') return v.toString();
+    if (typeof v === 'function') return '[function ' + (v.name || 'anonymous') + ']';
+    if (v instanceof Error) return (v.name || 'Error') + ': ' + v.message;
+    if (ArrayBuffer.isView(v) && !(v instanceof DataView)) {
+      const n = v.length;
+      const head = Array.prototype.slice.call(v, 0, 20).map((x) => String(x)).join(', ');
+      return v.constructor.name + '(' + n + ') [' + head + (n > 20 ? ', …' : '') + ']';
+    }
+    if (depth >= 2) return Array.isArray(v) ? '[Array]' : '[Object]';
+    if (Array.isArray(v)) {
+      const items = v.slice(0, 20).map((x) => show(x, depth + 1));
+      return '[' + items.join(', ') + (v.length > 20 ? ', …' : '') + ']';
+    }
+    const keys = Object.keys(v).slice(0, 20);
+    return '{ ' + keys.map((k) => k + ': ' + show(v[k], depth + 1)).join(', ') + ' }';
+  };
+  const write = (prefix, args) => {
+    if (truncated) return;
+    let line = prefix;
+    for (let i = 0; i < args.length; i++) {
+      let piece;
+      try { piece = show(args[i], 0); } catch (e) { piece = '[unprintable]'; }
+      line += (i > 0 ? ' ' : '') + piece;
+    }
+    line += '\n';
+    if (used + line.length > outputLimit) {
+      chunks.push(line.slice(0, Math.max(0, outputLimit - used)));
+      chunks.push('\n… output truncated at ' + outputLimit + ' characters\n');
+      truncated = true;
+      return;
+    }
+    used += line.length;
+    chunks.push(line);
+  };
+  const counts = new Map();
+  const consoleObject = {
+    log(...a) { write('', a); },
+    info(...a) { write('', a); },
+    debug(...a) { write('', a); },
+    warn(...a) { write('warn: ', a); },
+    error(...a) { write('error: ', a); },
+    trace(...a) { write('trace: ', a); },
+    dir(v) { write('', [v]); },
+    table(v) { write('', [v]); },
+    assert(ok, ...a) { if (!ok) write('assertion failed: ', a); },
+    count(label = 'default') { const n = (counts.get(label) || 0) + 1; counts.set(label, n); write('', [label + ': ' + n]); },
+    group(...a) { if (a.length) write('', a); },
+    groupEnd() {},
+    time() {},
+    timeEnd() {},
+  };
+  Object.defineProperty(g, 'console', { value: consoleObject, writable: true, configurable: true });
+  Object.defineProperty(g, '__gradientProbeOutput', {
+    value: function output() { return chunks.join(''); }, writable: false, configurable: false,
+  });
+
+  // Captured now, before user code can replace any of them.
+  const builtins = BUILTIN_NAMES.map((name) => (name === 'globalThis' ? g : g[name]));
+  const apply = Reflect.apply;
+  const describe = (e) => {
+    try {
+      if (e !== null && typeof e === 'object' && typeof e.message === 'string') {
+        const name = typeof e.name === 'string' && e.name ? e.name : 'Error';
+        return name + ': ' + e.message;
+      }
+      return 'a non-Error value was thrown: ' + (typeof e === 'string' ? JSON.stringify(e) : String(e));
+    } catch (inner) {
+      return 'an unprintable value was thrown';
+    }
+  };
+  const take = (name) => { const v = g[name]; delete g[name]; return v; };
+
+  const drive = function drive() {
+    const engine = take('__gradientProbeEngine');
+    const mod = take('__gradientProbeModule');
+    const request = take('__gradientProbeRequest');
+    try {
+      apply(engine, undefined, builtins);
+    } catch (e) {
+      return 'E' + 'the check engine failed to load: ' + describe(e);
+    }
+    const run = g.__gradientProbeRun;
+    if (typeof run !== 'function') return 'E' + 'the check engine did not define __gradientProbeRun';
+    try {
+      apply(mod, g, builtins);
+    } catch (e) {
+      return 'L' + describe(e);
+    }
+    let result;
+    try {
+      result = run(g.__gradientProbeExposed, request);
+    } catch (e) {
+      return 'E' + 'the check engine threw: ' + describe(e);
+    }
+    if (typeof result !== 'string') return 'E' + 'the check engine returned ' + typeof result + ', not a string';
+    return 'R' + result;
+  };
+  Object.defineProperty(g, '__gradientProbeDrive', { value: drive, writable: false, configurable: false });
+})`;
