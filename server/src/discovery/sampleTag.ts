@@ -5,6 +5,7 @@ import { TagCursor, type Token } from './lexer';
 import type { Span, SpanProblem } from './positions';
 import type { RawTag } from './tagText';
 import { closestWord } from './tagNames';
+import { findJsonSyntaxError } from './jsonError';
 
 const DTYPES: readonly SampleDtype[] = ['f64', 'f32', 'num', 'i32', 'int'];
 /** Element types that are single numbers when written without dimensions. */
@@ -207,15 +208,19 @@ function parseLiteral(c: TagCursor, eq: Token, param: string, problems: SpanProb
     problems.push(c.problemAt(eq, `@sample ${param}: missing JSON value after '='`));
     return undefined;
   }
+  // Our own grammar check first: it gives the failing character on every runtime.
+  const syntax = findJsonSyntaxError(json);
+  if (syntax) {
+    const at = eq.end + syntax.offset;
+    problems.push(c.problemAt({ kind: 'other', text: '', start: at, end: at + 1 }, `@sample ${param}: invalid JSON value: ${syntax.message}`));
+    return undefined;
+  }
   try {
     return { kind: 'literal', value: JSON.parse(json) as unknown };
   } catch (err) {
+    // Not expected after the grammar check; kept so a runtime difference cannot throw.
     const msg = err instanceof Error ? err.message : String(err);
-    // V8 names the failing character as "position N"; point there when it does.
-    const m = /position (\d+)/.exec(msg);
-    const at = m ? eq.end + Math.min(Number(m[1]), json.length - 1) : eq.end + lead;
-    const token: Token = { kind: 'other', text: '', start: at, end: at + 1 };
-    problems.push(c.problemAt(token, `@sample ${param}: invalid JSON value (${msg})`));
+    problems.push(c.problemAt({ kind: 'other', text: '', start: eq.end + lead, end: eq.end + lead + 1 }, `@sample ${param}: invalid JSON value (${msg})`));
     return undefined;
   }
 }
