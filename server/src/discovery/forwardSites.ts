@@ -78,7 +78,8 @@ function statementSites(st: ts.Statement): ForwardSite[] {
 
 function memberSite(m: ts.ClassElement, className: string, cls: ts.ClassLikeDeclaration, classProblem?: string): ForwardSite[] {
   if (!(ts.isMethodDeclaration(m) || ts.isPropertyDeclaration(m) || ts.isGetAccessor(m) || ts.isSetAccessor(m) || ts.isConstructorDeclaration(m))) return [];
-  const name = plainName(m.name) ?? '';
+  // Unreachable members still get a readable name for the report: `constructor`, `#hidden`.
+  const name = ts.isConstructorDeclaration(m) ? 'constructor' : (plainName(m.name) ?? m.name?.getText() ?? '');
   const site: ForwardSite = {
     kind: 'method',
     name,

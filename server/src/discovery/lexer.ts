@@ -14,7 +14,8 @@ export interface Token {
   end: number;
 }
 
-const WORD = /[A-Za-z_$][A-Za-z0-9_$]*/y;
+// Identifiers as in ECMA-262 §12.7 (Unicode ID_Start / ID_Continue, plus `$` and `_`).
+const WORD = /[\p{ID_Start}$_][\p{ID_Continue}$\u200C\u200D]*/uy;
 // Numbers as in JSON and JavaScript decimal literals, with an optional sign (ECMA-262 §12.9.3).
 const NUMBER = /[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?/y;
 const PUNCT = '[](),=.';
@@ -43,8 +44,10 @@ export function tokenize(body: string): Token[] {
       i += word[0].length;
       continue;
     }
-    tokens.push({ kind: PUNCT.includes(ch) ? 'punct' : 'other', text: ch, start: i, end: i + 1 });
-    i++;
+    // One whole code point, so a surrogate pair is never split.
+    const cp = String.fromCodePoint(body.codePointAt(i)!);
+    tokens.push({ kind: PUNCT.includes(cp) ? 'punct' : 'other', text: cp, start: i, end: i + cp.length });
+    i += cp.length;
   }
   return tokens;
 }

@@ -38,8 +38,16 @@ export function parseBackwardTag(tag: RawTag): ParsedBackward {
   }
   const nameSpan = c.spanOf(head);
   if (c.peek()?.text === '.') {
-    problems.push(c.problemAt(c.peek(), `@backward: '${head.text}.…' is not a plain name; name a function of this module (import it first)`));
-    return { name: head.text, nameSpan, problems };
+    // `lib.fn`: cover the whole dotted name; it is not resolved (the sandbox binds plain names).
+    let last: Token = head;
+    while (c.peek()?.text === '.' && c.peek(1)?.kind === 'word') {
+      c.next();
+      last = c.next()!;
+    }
+    const whole = { start: nameSpan.start, end: c.spanOf(last).end };
+    const dotted = tag.body.slice(head.start, last.end);
+    problems.push({ ...whole, message: `@backward: '${dotted}' is not a plain name; import the function into this module and name it` });
+    return { name: dotted, problems };
   }
   const open = c.eat('(');
   if (!open) {

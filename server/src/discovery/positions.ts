@@ -19,7 +19,10 @@ export class PositionMapper {
   constructor(private readonly sourceFile: ts.SourceFile) {}
 
   at(offset: number): SourcePosition {
-    const clamped = Math.max(0, Math.min(offset, this.sourceFile.text.length));
+    const text = this.sourceFile.text;
+    let clamped = Math.max(0, Math.min(offset, text.length));
+    // Never between the two characters of a CRLF line end: that is no place on either line.
+    if (clamped > 0 && text[clamped - 1] === '\r' && text[clamped] === '\n') clamped--;
     const lc = this.sourceFile.getLineAndCharacterOfPosition(clamped);
     return { line: lc.line + 1, column: lc.character + 1 };
   }
