@@ -78,6 +78,8 @@ export interface PoolStats {
 
 /** What isolation the runners really have, as reported from inside the latest runner. */
 export interface IsolationReport {
+  /** Process id of the runner that reported (for diagnostics). */
+  pid: number;
   permissionFlag: string | undefined;
   permissionActive: boolean;
   addressSpaceLimitMb: number | undefined;
@@ -180,6 +182,7 @@ export class RunnerPool {
     parts.push(limit ? `address space limit ${limit} MiB` : 'no address-space limit (prlimit not available)');
     parts.push(`resident memory watched (limit ${last.memoryLimitMb + RESIDENT_HEADROOM_MB} MiB)`);
     return {
+      pid: last.hello.pid,
       permissionFlag: last.command.permissionFlag,
       permissionActive: last.hello.permissionActive,
       addressSpaceLimitMb: limit,

@@ -1,0 +1,215 @@
+// Hostile and broken user code through the real Checker: real discovery, real esbuild, real
+// runner processes and the real engine. Each bad op must become that op's `error` while the
+// host stays up and every other op still runs.
+import assert from 'node:assert/strict';
+import { existsSync, mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { Checker } from '../../server/src/core/checker';
+import { describeResults, fixture, resultOf, settingsWith } from './helpers';
+
+describe('sandbox: an op that never returns', function () {
+  this.timeout(60_000);
+  // Short enough to keep the suite quick, long enough for a correct op on a loaded 2-core machine.
+  const settings = settingsWith({ timeLimitMs: 2500 });
+  let checker: Checker;
+  before(() => {
+    // One runner: the op after the hang can only run if the hung runner was replaced.
+    checker = new Checker({ settings, workers: 1 });
+  });
+  after(() => checker.dispose());
+
+  it('times out, is reported on its own op, and the next op runs on a replacement runner', async () => {
+    const results = await checker.checkFile(fixture('hostile', 'loop.ts'));
+    const spin = resultOf(results, 'spin');
+    assert.equal(spin.verdict, 'error', describeResults(results));
+    assert.match(spin.message, /timed out after 2500 ms/);
+    assert.equal(spin.line, 7);
+    const cube = resultOf(results, 'cube');
+    assert.equal(cube.verdict, 'pass', describeResults(results));
+    const stats = checker.stats.pool;
+    assert.equal(stats.timeouts, 1);
+    assert.ok(stats.spawned >= 2, `a replacement runner was started (spawned ${stats.spawned})`);
+  });
+});
+
+describe('sandbox: allocation bombs', function () {
+  this.timeout(120_000);
+  // A small heap makes each bomb hit a limit within seconds; the time limit is far above that,
+  // so the memory limits (not the clock) must stop them.
+  const settings = settingsWith({ memoryLimitMb: 256, timeLimitMs: 60_000 });
+  let checker: Checker;
+  before(() => {
+    checker = new Checker({ settings, workers: 1 });
+  });
+  after(() => checker.dispose());
+
+  for (const name of ['mapBomb', 'arrayBomb', 'bufferBomb']) {
+    it(`${name} becomes an error on its op and the host stays up`, async () => {
+      const hostBefore = process.memoryUsage().rss;
+      const results = await checker.checkFile(fixture('hostile', 'memory.ts'), { filter: name });
+      assert.equal(results.length, 1);
+      const r = resultOf(results, name);
+      assert.equal(r.verdict, 'error', describeResults(results));
+      assert.match(r.message, /memory|allocation failed|Invalid array length|runner process died/i);
+      // The host did not take the allocation: it grew by far less than the bomb's size.
+      const grownMb = (process.memoryUsage().rss - hostBefore) / 2 ** 20;
+      assert.ok(grownMb < 200, `host grew by ${grownMb.toFixed(0)} MiB`);
+    });
+  }
+
+  it('a correct op of the same file still passes after the bombs', async () => {
+    const results = await checker.checkFile(fixture('hostile', 'memory.ts'), { filter: 'double' });
+    assert.equal(resultOf(results, 'double').verdict, 'pass', describeResults(results));
+  });
+});
+
+describe('sandbox: recursion and throws', function () {
+  this.timeout(60_000);
+  let checker: Checker;
+  let results: Awaited<ReturnType<Checker['checkFile']>>;
+  before(async () => {
+    checker = new Checker({ settings: settingsWith({}) });
+    results = await checker.checkFile(fixture('hostile', 'failures.ts'));
+  });
+  after(() => checker.dispose());
+
+  it('unbounded recursion is an error naming the stack overflow', () => {
+    const r = resultOf(results, 'recurse');
+    assert.equal(r.verdict, 'error', describeResults(results));
+    assert.match(r.message, /call stack/i);
+  });
+
+  it('a thrown Error is an error carrying its message', () => {
+    const r = resultOf(results, 'throwsError');
+    assert.equal(r.verdict, 'error');
+    assert.match(r.message, /solar panel angle out of range/);
+  });
+
+  it('a thrown number and a thrown string are errors carrying the value', () => {
+    const n = resultOf(results, 'throwsNumber');
+    assert.equal(n.verdict, 'error');
+    assert.match(n.message, /4242/);
+    const s = resultOf(results, 'throwsString');
+    assert.equal(s.verdict, 'error');
+    assert.match(s.message, /inverter offline/);
+  });
+});
+
+describe('sandbox: attempts to reach the host', function () {
+  this.timeout(60_000);
+  let checker: Checker;
+  let markerDir: string;
+  let results: Awaited<ReturnType<Checker['checkFile']>>;
+  // What each attempt must meet inside the context itself: nothing there to call, or code
+  // generation refused. (A host object leaking in would get further and be stopped only by the
+  // permission model, "Access to this API has been restricted": that must not be needed.)
+  const expected: Record<string, RegExp> = {
+    viaRequire: /is not a function/,
+    viaProcess: /Cannot read properties of undefined \(reading 'mainModule'\)/,
+    viaConstructorChain: /Code generation from strings disallowed/,
+    viaThisConstructor: /Code generation from strings disallowed/,
+    viaFunction: /Code generation from strings disallowed/,
+    viaFetch: /fetch is not defined/,
+    viaExit: /Cannot read properties of undefined \(reading 'exit'\)/,
+  };
+  const attempts = Object.keys(expected);
+
+  before(async () => {
+    markerDir = mkdtempSync(join(tmpdir(), 'gp-escape-'));
+    const file = fixture('hostile', 'escape.ts');
+    const text = readFileSync(file, 'utf8').replace('__MARKER_DIR__', markerDir);
+    checker = new Checker({ settings: settingsWith({}) });
+    results = await checker.checkFile(file, { text });
+  });
+  after(async () => {
+    await checker.dispose();
+    rmSync(markerDir, { recursive: true, force: true });
+  });
+
+  it('no attempt wrote a file', () => {
+    assert.deepEqual(readdirSync(markerDir), []);
+  });
+
+  for (const name of attempts) {
+    it(`${name} fails on its own op`, () => {
+      const r = resultOf(results, name);
+      assert.equal(r.verdict, 'error', describeResults(results));
+      assert.match(r.message, expected[name]);
+    });
+  }
+
+  it('the host process is untouched (process.exit in the op did not end it)', () => {
+    assert.equal(process.exitCode ?? 0, 0);
+    assert.equal(results.length, attempts.length);
+  });
+
+  it('the runner reports the permission model from inside when the runtime has the flag', () => {
+    const iso = checker.isolation();
+    assert.ok(iso, 'a runner said hello');
+    if (iso.permissionFlag) assert.equal(iso.permissionActive, true, iso.summary);
+    else assert.match(iso.summary, /not active/);
+  });
+});
+
+describe('sandbox: changes to built-ins and globalThis do not leak', function () {
+  this.timeout(60_000);
+  let checker: Checker;
+  before(() => {
+    // One runner, so every op below runs in the same process, one after another.
+    checker = new Checker({ settings: settingsWith({}), workers: 1 });
+  });
+  after(() => checker.dispose());
+
+  it('into the next op of the same file', async () => {
+    const results = await checker.checkFile(fixture('leaks', 'polluter.ts'));
+    assert.equal(resultOf(results, 'halve').verdict, 'pass', describeResults(results));
+    assert.equal(resultOf(results, 'square').verdict, 'pass', describeResults(results));
+  });
+
+  it('into an op of the next file', async () => {
+    const results = await checker.checkFile(fixture('leaks', 'victim.ts'));
+    assert.equal(resultOf(results, 'negate').verdict, 'pass', describeResults(results));
+    assert.ok(checker.stats.pool.warmJobs >= 2, 'the same warm runner served the later ops');
+    assert.equal(checker.stats.pool.spawned, 1);
+  });
+});
+
+describe('sandbox: console output', function () {
+  this.timeout(60_000);
+  let checker: Checker;
+  before(() => {
+    checker = new Checker({ settings: settingsWith({}), workers: 1 });
+  });
+  after(() => checker.dispose());
+
+  it('is captured per op and the ops still pass', async () => {
+    const results = await checker.checkFile(fixture('console.ts'));
+    const triple = resultOf(results, 'triple');
+    const shift = resultOf(results, 'shift');
+    assert.equal(triple.verdict, 'pass', describeResults(results));
+    assert.equal(shift.verdict, 'pass', describeResults(results));
+    assert.match(triple.output ?? '', /^triple saw 2 panels$/m);
+    assert.match(triple.output ?? '', /^warn: tripleBackward called$/m);
+    assert.doesNotMatch(triple.output ?? '', /shift saw/);
+    assert.match(shift.output ?? '', /^shift saw \{ first: true \}$/m);
+    assert.doesNotMatch(shift.output ?? '', /triple/);
+  });
+});
+
+describe('sandbox: a missing file', function () {
+  it('is one error entry with no forward, not an exception', async () => {
+    const checker = new Checker({ settings: settingsWith({}) });
+    try {
+      const missing = join(tmpdir(), 'gp-no-such-dir', 'nothing.ts');
+      assert.equal(existsSync(missing), false);
+      const results = await checker.checkFile(missing);
+      assert.equal(results.length, 1);
+      assert.equal(results[0].forward, null);
+      assert.equal(results[0].verdict, 'error');
+      assert.match(results[0].message, /cannot read the file/);
+    } finally {
+      await checker.dispose();
+    }
+  });
+});
