@@ -17,7 +17,7 @@ export interface ReportedPair {
   verdict: string;
   message: string;
   hints?: string[];
-  params?: { name: string; verdict: string; maxRelError: number }[];
+  params?: { name: string; verdict: string; maxRelError: number; hints?: string[] }[];
 }
 
 /** A labelled op with what the report said about it (verdict 'absent' when it is not in the report). */
@@ -59,7 +59,7 @@ export function judge(labels: CorpusLabels, pairs: ReportedPair[]): { ops: Judge
         what: label.what,
         verdict: pair?.verdict ?? 'absent',
         message: pair?.message ?? '',
-        hints: pair?.hints ?? [],
+        hints: allHints(pair),
         worstRelError: rels.length > 0 ? Math.max(...rels) : null,
       });
     }
@@ -93,4 +93,10 @@ export function classSummary(ops: JudgedOp[]): string {
       return `${c} (${ops.filter((x) => x.label === c).length}): ${parts.join(', ')}`;
     })
     .join('\n');
+}
+
+/** The op's hints and its parameters' hints, each once. */
+export function allHints(pair: ReportedPair | undefined): string[] {
+  if (!pair) return [];
+  return [...new Set([...(pair.hints ?? []), ...(pair.params ?? []).flatMap((p) => p.hints ?? [])])];
 }
