@@ -1,0 +1,55 @@
+// The explanation of an op that did not pass, as plain lines: message, annotation problems
+// with file:line:column, per-parameter evidence and hints, seed, captured console output.
+
+import type { OpResult, ParamResult } from '../engine/types';
+import { formatIndex, formatNumber, formatRelError, stripControl } from './format';
+
+/** Lines of captured console output shown before the rest is cut. */
+const MAX_OUTPUT_LINES = 12;
+
+/** Explanation lines for one op; none for a pass. `withOutput: false` leaves the console output out. */
+export function detailLines(pair: OpResult, { withOutput = true }: { withOutput?: boolean } = {}): string[] {
+  if (pair.verdict === 'pass') return [];
+  const out: string[] = [];
+  const problems = pair.problems ?? [];
+  const message = withoutRestatedProblem(pair.message, problems[0]?.message);
+  if (message) out.push(...message.split('\n'));
+  for (const problem of problems) out.push(`${pair.file}:${problem.line}:${problem.column}: ${problem.message}`);
+  for (const param of pair.params) {
+    if (param.verdict === 'pass') continue;
+    out.push(paramLine(param));
+    for (const hint of param.hints) out.push(`  hint: ${hint}`);
+  }
+  for (const hint of pair.hints) out.push(`hint: ${hint}`);
+  // An annotation error never ran, so its seed explains nothing.
+  if (problems.length === 0) out.push(`seed ${pair.seed}`);
+  if (withOutput) out.push(...outputLines(pair.output));
+  return out;
+}
+
+/**
+ * The message without its copy of the first problem ("annotation problem: <problem> (line …)"),
+ * since the problems are listed below it with their exact places.
+ */
+function withoutRestatedProblem(message: string, firstProblem: string | undefined): string {
+  if (!firstProblem) return message;
+  const at = message.indexOf(`: ${firstProblem}`);
+  return at > 0 ? message.slice(0, at) : message;
+}
+
+/** One parameter's evidence: errors and the worst element's two values. */
+export function paramLine(param: ParamResult): string {
+  const head = `${param.name} (${param.verdict}): max rel error ${formatRelError(param.maxRelError)}, max abs error ${formatNumber(param.maxAbsError)}`;
+  if (!param.worst) return head;
+  const w = param.worst;
+  return `${head}; at ${param.name}${formatIndex(w.index)} backward gives ${formatNumber(w.analytic)}, finite differences ${formatNumber(w.numeric)}`;
+}
+
+function outputLines(output: string | undefined): string[] {
+  const text = (output ?? '').replace(/\s+$/, '');
+  if (text === '') return [];
+  const lines = text.split('\n');
+  const out = ['console output:', ...lines.slice(0, MAX_OUTPUT_LINES).map((l) => `  | ${stripControl(l)}`)];
+  if (lines.length > MAX_OUTPUT_LINES) out.push(`  | ... ${lines.length - MAX_OUTPUT_LINES} more lines (in the --json report)`);
+  return out;
+}

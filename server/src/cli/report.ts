@@ -1,0 +1,62 @@
+// Assembles the version-1 report from the Checker's results (paths relative to the current
+// folder, stable order, counts) and decides the exit code. Shared by every output format.
+
+import { isAbsolute, relative } from 'node:path';
+import type { OpResult, ParamResult, Report, ReportSummary, Verdict } from '../engine/types';
+import { toSlashes } from '../project/paths';
+
+/** Verdicts in the order summaries list them. */
+export const VERDICTS: readonly Verdict[] = ['pass', 'mismatch', 'inconclusive', 'error'];
+
+/** Builds the report: `file` relative to `cwd` with `/`, pairs ordered by file, line, name. */
+export function buildReport(results: readonly OpResult[], cwd: string): Report {
+  const pairs = results.map((r) => ({ ...r, file: reportPath(r.file, cwd) }));
+  pairs.sort((a, b) => compare(a.file, b.file) || a.line - b.line || compare(a.forward ?? '', b.forward ?? ''));
+  return { version: 1, pairs, summary: summarize(pairs) };
+}
+
+/** Counts of each verdict. */
+export function summarize(pairs: readonly Pick<OpResult, 'verdict'>[]): ReportSummary {
+  const summary: ReportSummary = { pass: 0, mismatch: 0, inconclusive: 0, error: 0 };
+  for (const pair of pairs) summary[pair.verdict] += 1;
+  return summary;
+}
+
+/** Whether a verdict makes the run fail (`inconclusive` only when asked). */
+export function isFailing(verdict: Verdict, failOnInconclusive = false): boolean {
+  return verdict === 'mismatch' || verdict === 'error' || (failOnInconclusive && verdict === 'inconclusive');
+}
+
+/** 0 when no op failed, 1 when any did (the interface's exit codes; 2 is decided by the caller). */
+export function exitCodeFor(report: Report, failOnInconclusive = false): 0 | 1 {
+  return report.pairs.some((p) => isFailing(p.verdict, failOnInconclusive)) ? 1 : 0;
+}
+
+/**
+ * The parameter a one-line summary should name: the worst of those that share the op's verdict
+ * (the one that explains it), else the worst overall.
+ */
+export function worstParam(pair: Pick<OpResult, 'verdict' | 'params'>): ParamResult | undefined {
+  const sameVerdict = pair.params.filter((p) => p.verdict === pair.verdict);
+  const pool = sameVerdict.length > 0 ? sameVerdict : pair.params;
+  let worst: ParamResult | undefined;
+  for (const p of pool) {
+    if (!worst || relError(p) > relError(worst)) worst = p;
+  }
+  return worst;
+}
+
+/** A path as reports show it: relative to `cwd` with `/`; absolute only on another drive. */
+export function reportPath(file: string, cwd: string): string {
+  if (!isAbsolute(file)) return toSlashes(file);
+  const rel = relative(cwd, file);
+  return isAbsolute(rel) ? toSlashes(file) : toSlashes(rel);
+}
+
+function relError(p: ParamResult): number {
+  return Number.isFinite(p.maxRelError) ? p.maxRelError : Number.POSITIVE_INFINITY;
+}
+
+function compare(a: string, b: string): number {
+  return a < b ? -1 : a > b ? 1 : 0;
+}
