@@ -33,6 +33,36 @@ describe('sandbox: an op that never returns', function () {
   });
 });
 
+describe('sandbox: a module whose top-level code fails', function () {
+  this.timeout(60_000);
+  let checker: Checker;
+  before(() => {
+    checker = new Checker({ settings: settingsWith({ timeLimitMs: 2000 }), workers: 1 });
+  });
+  after(() => checker.dispose());
+
+  it('throwing at load makes every op an error with the message, after one run', async () => {
+    const results = await checker.checkFile(fixture('hostile', 'loadThrows.ts'));
+    assert.equal(results.length, 2);
+    for (const r of results) {
+      assert.equal(r.verdict, 'error');
+      assert.match(r.message, /the module threw while loading: Error: irradiance table is empty/);
+    }
+    assert.equal(checker.stats.pool.jobsStarted, 1, 'the second op was not run');
+  });
+
+  it('hanging at load makes every op a timeout "while loading", after one run', async () => {
+    const started = checker.stats.pool.jobsStarted;
+    const results = await checker.checkFile(fixture('hostile', 'loadLoops.ts'));
+    assert.equal(results.length, 2);
+    for (const r of results) {
+      assert.equal(r.verdict, 'error');
+      assert.match(r.message, /timed out after 2000 ms while loading the module/);
+    }
+    assert.equal(checker.stats.pool.jobsStarted - started, 1, 'the second op was not run');
+  });
+});
+
 describe('sandbox: allocation bombs', function () {
   this.timeout(120_000);
   // A small heap makes each bomb hit a limit within seconds; the time limit is far above that,

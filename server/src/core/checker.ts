@@ -188,6 +188,12 @@ export class Checker {
         runnable.map(async (i) => {
           const op = ops[i];
           const run = await this.pool.run({ bundleKey: bundle.key, bundleCode: bundle.code, op, settings, signal: stop.signal });
+          if ('error' in run && run.cause === 'load' && !stop.signal.aborted) {
+            // The module itself fails before any op code runs: the other ops of this file
+            // would meet the same failure (or the same hang), so they are not run.
+            stopReason = run.error;
+            stop.abort();
+          }
           results[i] = emit(
             'outcome' in run
               ? resultFromOutcome(abs, op, run.outcome, run.elapsedMs, run.output)

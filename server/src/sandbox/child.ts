@@ -15,6 +15,7 @@ const OUTPUT_READ_TIMEOUT_MS = 1000;
 const setupScript = new vm.Script(CONTEXT_SETUP_SOURCE, { filename: 'gradient-probe-context-setup.js' });
 const driveScript = new vm.Script('__gradientProbeDrive()', { filename: 'gradient-probe-drive.js' });
 const outputScript = new vm.Script('__gradientProbeOutput()', { filename: 'gradient-probe-output.js' });
+const phaseScript = new vm.Script('__gradientProbePhase()', { filename: 'gradient-probe-phase.js' });
 let engineScript: vm.Script | undefined;
 const bundleScripts = new Map<string, vm.Script>();
 
@@ -72,6 +73,16 @@ function readOutput(context: vm.Context): string {
   }
 }
 
+/** The driver's phase when a job stopped, as a primitive string ('' when unreadable). */
+function readPhase(context: vm.Context): string {
+  try {
+    const phase: unknown = phaseScript.runInContext(context, { timeout: OUTPUT_READ_TIMEOUT_MS });
+    return typeof phase === 'string' ? phase : '';
+  } catch {
+    return '';
+  }
+}
+
 function hostErrorText(e: unknown): string {
   return e instanceof Error ? e.message : String(e);
 }
@@ -80,14 +91,14 @@ function runJob(job: JobMessage): void {
   const started = performance.now();
   const elapsed = (): number => performance.now() - started;
   if (!engineScript) {
-    send({ type: 'result', id: job.id, ok: false, error: 'internal: the runner has no engine', timedOut: false, output: '', elapsedMs: 0 });
+    send({ type: 'result', id: job.id, ok: false, error: 'internal: the runner has no engine', timedOut: false, duringLoad: false, output: '', elapsedMs: 0 });
     return;
   }
   let bundleScript: vm.Script | undefined;
   try {
     bundleScript = compileBundle(job);
   } catch (e) {
-    send({ type: 'result', id: job.id, ok: false, error: `the bundled module does not compile: ${hostErrorText(e)}`, timedOut: false, output: '', elapsedMs: elapsed() });
+    send({ type: 'result', id: job.id, ok: false, error: `the bundled module does not compile: ${hostErrorText(e)}`, timedOut: false, duringLoad: false, output: '', elapsedMs: elapsed() });
     return;
   }
   if (!bundleScript) {
@@ -116,15 +127,19 @@ function runJob(job: JobMessage): void {
   } catch (e) {
     const output = readOutput(context);
     if (isTimeout(e)) {
-      send({ type: 'result', id: job.id, ok: false, error: `timed out after ${job.timeLimitMs} ms`, timedOut: true, output, elapsedMs: elapsed() });
+      const duringLoad = readPhase(context) === 'load';
+      const error = duringLoad
+        ? `timed out after ${job.timeLimitMs} ms while loading the module (its top-level code did not finish)`
+        : `timed out after ${job.timeLimitMs} ms`;
+      send({ type: 'result', id: job.id, ok: false, error, timedOut: true, duringLoad, output, elapsedMs: elapsed() });
     } else {
-      send({ type: 'result', id: job.id, ok: false, error: `the runner failed: ${hostErrorText(e)}`, timedOut: false, output, elapsedMs: elapsed() });
+      send({ type: 'result', id: job.id, ok: false, error: `the runner failed: ${hostErrorText(e)}`, timedOut: false, duringLoad: false, output, elapsedMs: elapsed() });
     }
     return;
   }
   const output = readOutput(context);
   if (typeof tagged !== 'string' || tagged.length === 0) {
-    send({ type: 'result', id: job.id, ok: false, error: 'internal: the check returned no result', timedOut: false, output, elapsedMs: elapsed() });
+    send({ type: 'result', id: job.id, ok: false, error: 'internal: the check returned no result', timedOut: false, duringLoad: false, output, elapsedMs: elapsed() });
     return;
   }
   const body = tagged.slice(1);
@@ -133,10 +148,10 @@ function runJob(job: JobMessage): void {
       send({ type: 'result', id: job.id, ok: true, outcomeJson: body, output, elapsedMs: elapsed() });
       return;
     case 'L':
-      send({ type: 'result', id: job.id, ok: false, error: `the module threw while loading: ${body}`, timedOut: false, output, elapsedMs: elapsed() });
+      send({ type: 'result', id: job.id, ok: false, error: `the module threw while loading: ${body}`, timedOut: false, duringLoad: true, output, elapsedMs: elapsed() });
       return;
     default:
-      send({ type: 'result', id: job.id, ok: false, error: body, timedOut: false, output, elapsedMs: elapsed() });
+      send({ type: 'result', id: job.id, ok: false, error: body, timedOut: false, duringLoad: false, output, elapsedMs: elapsed() });
   }
 }
 

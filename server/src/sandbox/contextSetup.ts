@@ -156,6 +156,11 @@ export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, output
   };
   const take = (name) => { const v = g[name]; delete g[name]; return v; };
 
+  // Which part of the job is running, so a timeout can say whether the module's own top-level
+  // code hung (then every op of the file would hang the same way) or the check did.
+  let phase = 'engine';
+  Object.defineProperty(g, '__gradientProbePhase', { value: function currentPhase() { return phase; }, writable: false, configurable: false });
+
   const drive = function drive() {
     const engine = take('__gradientProbeEngine');
     const mod = take('__gradientProbeModule');
@@ -167,11 +172,13 @@ export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, output
     }
     const run = g.__gradientProbeRun;
     if (typeof run !== 'function') return 'E' + 'the check engine did not define __gradientProbeRun';
+    phase = 'load';
     try {
       apply(mod, g, builtins);
     } catch (e) {
       return 'L' + describe(e);
     }
+    phase = 'check';
     let result;
     try {
       result = run(g.__gradientProbeExposed, request);

@@ -58,6 +58,7 @@ export type RunResult =
   | { error: string; output?: string; elapsedMs: number; cause: RunFailureCause };
 
 /** Why a job failed without an outcome. */
+/** 'load': the module's top-level code threw or hung, so every op of its file would fail the same way. */
 export type RunFailureCause = 'timeout' | 'crash' | 'memory' | 'cancelled' | 'load' | 'runner' | 'closed';
 
 /** Counters for tests, benchmarks and logs (no timing: tests assert on these). */
@@ -368,7 +369,7 @@ export class RunnerPool {
         ? { outcome, output: message.output, elapsedMs: message.elapsedMs }
         : { error: 'the check returned malformed data', output: message.output, elapsedMs: message.elapsedMs, cause: 'runner' };
     } else {
-      const cause: RunFailureCause = message.timedOut ? 'timeout' : message.error.startsWith('the module threw') ? 'load' : 'runner';
+      const cause: RunFailureCause = message.duringLoad ? 'load' : message.timedOut ? 'timeout' : 'runner';
       result = { error: message.error, output: message.output, elapsedMs: message.elapsedMs, cause };
       if (message.timedOut) this.stats.timeouts++;
     }
@@ -382,7 +383,9 @@ export class RunnerPool {
     }
     runner.state = 'idle';
     this.hold(runner, false);
-    this.dispatch();
+    // Next turn: the caller may react to this result by cancelling queued jobs (a module that
+    // fails at load), and a job that never starts costs nothing while a started one costs a runner.
+    setImmediate(() => this.dispatch());
   }
 
   private finishJob(runner: Runner, result: RunResult): void {

@@ -41,7 +41,17 @@ export interface HelloMessage {
 /** Child → parent: the outcome of one job. */
 export type ResultMessage =
   | { type: 'result'; id: number; ok: true; outcomeJson: string; output: string; elapsedMs: number }
-  | { type: 'result'; id: number; ok: false; error: string; timedOut: boolean; output: string; elapsedMs: number };
+  | {
+      type: 'result';
+      id: number;
+      ok: false;
+      error: string;
+      timedOut: boolean;
+      /** True when the module's own top-level code threw or hung: every op of its file would fail the same way. */
+      duringLoad: boolean;
+      output: string;
+      elapsedMs: number;
+    };
 
 /** Child → parent: the child evicted (or never had) the bundle; resend the job with its code. */
 export interface MissingBundleMessage {
