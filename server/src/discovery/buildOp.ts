@@ -94,12 +94,14 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   // @sample tags, matched to parameters and fields.
   const samples = new Map<string, SampleSpec | undefined>();
   const fieldOrder: string[] = [];
+  const sampleTargets = new Map<RawTag, string>();
   for (const t of ours) {
     if (t.name !== 'sample') continue;
     const parsed = parseSampleTag(t.raw);
     problems.push(...parsed.problems);
     const target = parsed.target;
     if (!target) continue;
+    sampleTargets.set(t.raw, target.name);
     const misplaced = sampleTargetProblem(target, isMethod, paramNames, samples, samplesFactory, site);
     if (misplaced) {
       problems.push({ ...target.span, message: misplaced });
@@ -176,10 +178,8 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     const start = ctx.mapper.at(t.raw.span.start);
     const end = ctx.mapper.at(t.raw.span.end);
     const loc: TagLocation = { tag: t.name, line: start.line, column: start.column, endLine: end.line, endColumn: end.column };
-    if (t.name === 'sample') {
-      const target = parseSampleTag(t.raw).target;
-      if (target) loc.param = target.name;
-    }
+    const param = sampleTargets.get(t.raw);
+    if (param !== undefined) loc.param = param;
     return loc;
   });
 

@@ -100,9 +100,14 @@ function memberSite(m: ts.ClassElement, className: string, cls: ts.ClassLikeDecl
   return [site];
 }
 
-/** Annotatable declarations below the top level (inside functions, namespaces, blocks, object literals, class expressions). */
-function nestedSites(root: ts.Node, out: ForwardSite[]): void {
+/**
+ * Annotatable declarations below the top level (inside functions, namespaces, blocks, object
+ * literals, class expressions). Only subtrees whose text holds an `@` can hold a tag, so the
+ * walk skips the rest (`atOffsets`: sorted offsets of every `@` in the file).
+ */
+function nestedSites(root: ts.Node, out: ForwardSite[], atOffsets: readonly number[]): void {
   const visit = (node: ts.Node): void => {
+    if (!containsOffset(atOffsets, node.pos, node.end)) return;
     let name: string | undefined;
     let host: ts.Node | undefined;
     if (ts.isFunctionDeclaration(node) || ts.isMethodDeclaration(node) || ts.isPropertyDeclaration(node) || ts.isPropertyAssignment(node)) {
@@ -121,20 +126,34 @@ function nestedSites(root: ts.Node, out: ForwardSite[]): void {
   ts.forEachChild(root, visit);
 }
 
+/** Whether some offset in the sorted list lies in [start, end). */
+function containsOffset(sorted: readonly number[], start: number, end: number): boolean {
+  let lo = 0;
+  let hi = sorted.length;
+  while (lo < hi) {
+    const mid = (lo + hi) >>> 1;
+    if (sorted[mid]! < start) lo = mid + 1;
+    else hi = mid;
+  }
+  return lo < sorted.length && sorted[lo]! < end;
+}
+
 /**
  * Every place an op could be declared, in source order. Top-level sites are candidates; nested
  * ones always carry `unsupported` (they matter only when they have our tags).
  */
 export function findForwardSites(sf: ts.SourceFile): ForwardSite[] {
   const sites: ForwardSite[] = [];
+  const atOffsets: number[] = [];
+  for (let i = sf.text.indexOf('@'); i !== -1; i = sf.text.indexOf('@', i + 1)) atOffsets.push(i);
   for (const st of sf.statements) {
     sites.push(...statementSites(st));
     // Look inside for annotated declarations the checker cannot reach.
     if (ts.isClassDeclaration(st)) {
-      for (const m of st.members) nestedSites(m, sites);
+      for (const m of st.members) nestedSites(m, sites, atOffsets);
     } else if (ts.isVariableStatement(st)) {
-      for (const d of st.declarationList.declarations) if (d.initializer) nestedSites(d.initializer, sites);
-    } else nestedSites(st, sites);
+      for (const d of st.declarationList.declarations) if (d.initializer) nestedSites(d.initializer, sites, atOffsets);
+    } else nestedSites(st, sites, atOffsets);
   }
   return sites;
 }

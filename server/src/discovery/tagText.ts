@@ -27,20 +27,23 @@ export function readRawTag(text: string, tag: ts.JSDocTag): RawTag {
   const close = text.indexOf('*/', nameEnd);
   if (close !== -1 && close < stop) stop = close;
 
-  let body = '';
+  // The body is built from whole line pieces (cheap), remembering where each piece starts.
+  const pieces: string[] = [];
   const bodyOffsets: number[] = [];
   let i = nameEnd;
   while (i < stop) {
-    const ch = text[i];
-    body += ch;
-    bodyOffsets.push(i);
-    i++;
-    if (ch === '\n') {
+    const nl = text.indexOf('\n', i);
+    const lineEnd = nl === -1 || nl >= stop ? stop : nl + 1;
+    pieces.push(text.slice(i, lineEnd));
+    for (let k = i; k < lineEnd; k++) bodyOffsets.push(k);
+    i = lineEnd;
+    if (lineEnd < stop) {
       // Continuation line: skip indentation and one leading `*`, as JSDoc readers do.
       while (i < stop && (text[i] === ' ' || text[i] === '\t' || text[i] === '\r')) i++;
       if (i < stop && text[i] === '*') i++;
     }
   }
+  let body = pieces.join('');
   // Drop trailing blanks so the tag's range ends at its last visible character.
   let keep = body.length;
   while (keep > 0 && /\s/.test(body[keep - 1]!)) keep--;
@@ -69,8 +72,12 @@ export function readDocTags(text: string, host: ts.Node): RawTag[] {
   for (const tag of ts.getJSDocTags(host)) {
     const doc = tag.parent;
     const docStart = doc && ts.isJSDoc(doc) ? doc.pos : tag.pos;
-    const before = text.slice(docStart, tag.pos).match(FENCE);
-    if (before && before.length % 2 === 1) continue;
+    const docText = text.slice(docStart, tag.pos);
+    // Most comments have no fence at all: skip the count then.
+    if (docText.includes('```') || docText.includes('~~~')) {
+      const before = docText.match(FENCE);
+      if (before && before.length % 2 === 1) continue;
+    }
     out.push(readRawTag(text, tag));
   }
   return out;
