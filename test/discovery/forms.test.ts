@@ -2,7 +2,7 @@
 // (interface.md §1, "Marking an op"), with exact positions of names and tags.
 import assert from 'node:assert/strict';
 import { findOpAt, OP_TAG_NAMES } from '../../server/src/discovery/index';
-import { at, discover, opNamed } from './helpers';
+import { at, discover, expectProblem, opNamed } from './helpers';
 
 // Fixture: a fictional greenhouse climate controller's ops (our own scenario).
 const FORMS = `import { ventBackward as importedVentBackward } from './vents';
@@ -256,19 +256,25 @@ function b() {}
     assert.deepEqual(op.tags.map((t) => t.param ?? t.tag), ['backward', 'x']);
   });
 
-  it('accepts a class field bound to an arrow function as a method', () => {
-    const res = discover(`class Gate {
+  it('rejects a class field holding a function, forward or backward: the engine calls prototype methods', () => {
+    const text = `class Gate {
   /**
    * @backward openBackward
    * @sample v num
    */
   open = (v: number): number => v;
+  /**
+   * @backward shutBackward
+   * @sample v num
+   */
+  shut(v: number): number { return v; }
   openBackward = (dy: number) => dy;
+  shutBackward = (dy: number) => dy;
 }
-`);
-    const op = opNamed(res, 'Gate.open');
-    assert.deepEqual(op.problems, []);
-    assert.equal(op.target.backwardIsMethod, true);
+`;
+    const res = discover(text);
+    expectProblem(text, opNamed(res, 'Gate.open'), 'open =', /'open' is a field holding a function, not a method/);
+    expectProblem(text, opNamed(res, 'Gate.shut'), 'shutBackward\n', /backward 'shutBackward' not found: it must be a method of Gate/);
   });
 
   it('assumes a method backward may be inherited from a base class declared elsewhere', () => {

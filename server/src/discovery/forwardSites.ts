@@ -88,9 +88,12 @@ function memberSite(m: ts.ClassElement, className: string, cls: ts.ClassLikeDecl
     classNode: cls,
     docHost: m,
   };
+  const boundField = ts.isPropertyDeclaration(m) && m.initializer && isFunctionLike(unwrapExpression(m.initializer));
   if (ts.isMethodDeclaration(m)) site.fn = m;
-  else if (ts.isPropertyDeclaration(m) && m.initializer && isFunctionLike(unwrapExpression(m.initializer))) site.fn = unwrapExpression(m.initializer) as ts.SignatureDeclaration;
+  else if (boundField) site.fn = unwrapExpression(m.initializer!) as ts.SignatureDeclaration;
   if (classProblem) site.unsupported = classProblem;
+  // The engine takes methods from the class prototype; a field only exists on instances.
+  else if (boundField) site.unsupported = `'${name}' is a field holding a function, not a method: checks call methods from the class, so write \`${name}(...) { ... }\``;
   else if (ts.isConstructorDeclaration(m)) site.unsupported = 'a constructor cannot be an op: annotate a method (use @construct to build the instance)';
   else if (ts.isGetAccessor(m) || ts.isSetAccessor(m)) site.unsupported = 'an accessor cannot be an op: annotate a method';
   else if (!site.fn) site.unsupported = `'${name}' is not a method: @backward goes on a method or a field bound to a function`;

@@ -65,12 +65,14 @@ export function collectBindings(sf: ts.SourceFile): ModuleBindings {
   return { topLevel, classes };
 }
 
-/** A member that can be called on an instance: a non-static method or function-valued field. */
-function instanceMember(cls: ts.ClassLikeDeclaration, name: string): ts.ClassElement | undefined {
-  return cls.members.find((m) => {
-    if (!m.name || !ts.isIdentifier(m.name) || m.name.text !== name) return false;
-    if (ts.getCombinedModifierFlags(m as ts.Declaration) & ts.ModifierFlags.Static) return false;
-    return ts.isMethodDeclaration(m) || ts.isPropertyDeclaration(m);
+/**
+ * A non-static method of the class: what the engine finds on the class prototype. (A field
+ * holding a function lives on instances only, so it does not count.)
+ */
+function prototypeMethod(cls: ts.ClassLikeDeclaration, name: string): ts.MethodDeclaration | undefined {
+  return cls.members.find((m): m is ts.MethodDeclaration => {
+    if (!ts.isMethodDeclaration(m) || !ts.isIdentifier(m.name) || m.name.text !== name) return false;
+    return (ts.getCombinedModifierFlags(m) & ts.ModifierFlags.Static) === 0;
   });
 }
 
@@ -85,16 +87,8 @@ export function findMethod(cls: ts.ClassLikeDeclaration, name: string, bindings:
   let cur: ts.ClassLikeDeclaration | undefined = cls;
   while (cur && !seen.has(cur)) {
     seen.add(cur);
-    const m = instanceMember(cur, name);
-    if (m && m.name) {
-      let fn: ts.SignatureDeclaration | undefined;
-      if (ts.isMethodDeclaration(m)) fn = m;
-      else if (ts.isPropertyDeclaration(m) && m.initializer) {
-        const init = unwrapExpression(m.initializer);
-        if (ts.isArrowFunction(init) || ts.isFunctionExpression(init)) fn = init;
-      }
-      return { found: true, span: spanOf(m.name), fn };
-    }
+    const m = prototypeMethod(cur, name);
+    if (m) return { found: true, span: spanOf(m.name), fn: m };
     const ext: ts.ExpressionWithTypeArguments | undefined = cur.heritageClauses?.find((h) => h.token === ts.SyntaxKind.ExtendsKeyword)?.types[0];
     if (!ext) return { found: false, unknownBase: false };
     const base: ts.ClassDeclaration | undefined = ts.isIdentifier(ext.expression) ? bindings.classes.get(ext.expression.text) : undefined;
