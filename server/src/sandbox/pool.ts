@@ -448,6 +448,9 @@ export class RunnerPool {
     this.runners.delete(runner);
     return new Promise<void>((resolve) => {
       runner.proc.once('exit', () => resolve());
+      // An idle runner is unref'd; without this the caller's event loop could end before the
+      // exit event and leave this promise (and dispose()) pending forever.
+      runner.proc.ref();
       runner.proc.kill('SIGKILL');
     });
   }
