@@ -1,0 +1,138 @@
+// Built-ins the engine uses, captured when the engine loads. User code runs in the same vm
+// context afterwards and may replace globals or patch prototypes; the engine keeps the originals.
+
+export const F64 = Float64Array;
+export const F32 = Float32Array;
+export const I32 = Int32Array;
+
+export const abs = Math.abs;
+export const sqrt = Math.sqrt;
+export const floor = Math.floor;
+export const ceil = Math.ceil;
+export const min = Math.min;
+export const max = Math.max;
+export const log10 = Math.log10;
+export const pow = Math.pow;
+export const round = Math.round;
+export const fround = Math.fround;
+export const imul = Math.imul;
+export const cbrt = Math.cbrt;
+
+export const isFiniteNumber = Number.isFinite;
+export const isInteger = Number.isInteger;
+export const isArray = Array.isArray;
+export const isView = ArrayBuffer.isView;
+export const objectKeys = Object.keys;
+export const getPrototypeOf = Object.getPrototypeOf;
+export const objectPrototype = Object.prototype;
+export const hasOwn = Object.prototype.hasOwnProperty;
+export const reflectApply = Reflect.apply;
+export const reflectConstruct = Reflect.construct;
+export const toStringCall = String;
+const numberToPrecision = Number.prototype.toPrecision;
+const jsonStringify = JSON.stringify;
+const jsonParse = JSON.parse;
+
+export function stringifyJson(value: unknown): string {
+  return reflectApply(jsonStringify, JSON, [value]) as string;
+}
+
+export function parseJson(text: string): unknown {
+  return reflectApply(jsonParse, JSON, [text]);
+}
+
+/** `Object.prototype.hasOwnProperty.call(o, k)` with the captured original. */
+export function ownKey(o: object, k: string): boolean {
+  return reflectApply(hasOwn, o, [k]) as boolean;
+}
+
+/** A number for messages: integers as they are, others with `digits` significant digits. */
+export function formatNumber(v: number, digits = 6): string {
+  if (v !== v) return 'NaN';
+  if (v === Infinity) return 'Infinity';
+  if (v === -Infinity) return '-Infinity';
+  if (isInteger(v) && abs(v) < 1e15) return toStringCall(v);
+  const text = reflectApply(numberToPrecision, v, [digits]) as string;
+  // Drop trailing zeros of the mantissa: 0.500000 → 0.5, 1.20000e-7 → 1.2e-7.
+  const e = text.indexOf('e');
+  const mant = e < 0 ? text : text.slice(0, e);
+  const exp = e < 0 ? '' : text.slice(e);
+  let m = mant;
+  if (m.indexOf('.') >= 0) {
+    let end = m.length;
+    while (end > 0 && m[end - 1] === '0') end--;
+    if (m[end - 1] === '.') end--;
+    m = m.slice(0, end);
+  }
+  return m + exp;
+}
+
+/** `[i, j]` for a multi-index. */
+export function formatIndex(index: ArrayLike<number>): string {
+  let s = '[';
+  for (let i = 0; i < index.length; i++) s += (i > 0 ? ', ' : '') + toStringCall(index[i]);
+  return s + ']';
+}
+
+/** A short description of a thrown value that never throws itself. */
+export function describeThrown(e: unknown): string {
+  try {
+    if (e !== null && typeof e === 'object') {
+      const msg = (e as { message?: unknown }).message;
+      const name = (e as { name?: unknown }).name;
+      if (typeof msg === 'string') return typeof name === 'string' && name !== 'Error' ? `${name}: ${msg}` : msg;
+    }
+    return toStringCall(e);
+  } catch {
+    return 'an exception that could not be described';
+  }
+}
+
+/** `typeof` plus a class name where there is one, for "got …" in messages. */
+export function describeValue(v: unknown): string {
+  try {
+    if (v === null) return 'null';
+    if (v === undefined) return 'undefined';
+    if (typeof v === 'number') return `the number ${formatNumber(v)}`;
+    if (typeof v !== 'object' && typeof v !== 'function') return `a ${typeof v}`;
+    if (isArray(v)) return `an array of ${v.length}`;
+    if (isView(v)) {
+      const ctor = (v as { constructor?: { name?: unknown } }).constructor;
+      const name = ctor && typeof ctor.name === 'string' ? ctor.name : 'typed array';
+      return `a ${name} of ${(v as unknown as ArrayLike<number>).length}`;
+    }
+    if (typeof v === 'function') return 'a function';
+    return 'an object';
+  } catch {
+    return 'a value that could not be inspected';
+  }
+}
+
+/** Ascending sort of indices by a key, without Array.prototype.sort (user code may patch it). */
+export function sortIndicesBy(indices: number[], key: (i: number) => number, descending = false): number[] {
+  const n = indices.length;
+  const keys = new F64(n);
+  for (let i = 0; i < n; i++) keys[i] = descending ? -key(indices[i]) : key(indices[i]);
+  // Merge sort on positions: stable and O(n log n).
+  let src: number[] = [];
+  for (let i = 0; i < n; i++) src[i] = i;
+  let dst: number[] = new Array<number>(n);
+  for (let width = 1; width < n; width *= 2) {
+    for (let lo = 0; lo < n; lo += 2 * width) {
+      const mid = min(lo + width, n);
+      const hi = min(lo + 2 * width, n);
+      let a = lo;
+      let b = mid;
+      let k = lo;
+      while (a < mid && b < hi) dst[k++] = keys[src[a]] <= keys[src[b]] ? src[a++] : src[b++];
+      while (a < mid) dst[k++] = src[a++];
+      while (b < hi) dst[k++] = src[b++];
+    }
+    const t = src;
+    src = dst;
+    dst = t;
+  }
+  const out: number[] = [];
+  for (let i = 0; i < n; i++) out[i] = indices[src[i]];
+  return out;
+}

@@ -1,0 +1,411 @@
+// runCheck: one op's whole gradient check — draw inputs, call the forward and the backward,
+// estimate every differentiated parameter's gradient numerically (full, grouped or
+// dot-product), refine suspicious elements, redraw after kinks, and assemble the verdict.
+
+import { F64, abs, describeThrown, formatNumber, max, min } from './builtins';
+import { CheckStop, fail, giveUp } from './failure';
+import { chooseMethod, type Structure } from './methodChoice';
+import { dotProductProbes, type DotProbeResult } from './dotProductCheck';
+import { estimateColumns } from './fullCheck';
+import { estimateGrouped } from './groupedCheck';
+import { paramHints, swapHints, type ParamEvidence } from './hints';
+import { compareElements, floorsFor, type Comparison, type ElementEstimates } from './judge';
+import { elementLine } from './lines';
+import { elementName, unravelSlot, OpHarness } from './opHarness';
+import { describeOutputIndex, layoutPrecision } from './outputLayout';
+import type { ParamSlot } from './paramSlot';
+import { relativeFloorFactor, unitRoundoff, type Precision } from './precision';
+import { STREAM, STREAM_STRIDE, distinctIndices, substream } from './random';
+import { refineSuspicious, type KinkReport, type RefineSummary } from './refine';
+import { ERROR_MAP_MAX_ELEMENTS, captureInputs, finiteOnly, stepScan } from './reportData';
+import { DEFAULT_SETTINGS, type CheckSettings } from './settings';
+import type { CheckMethod, CheckOutcome, OpDescriptor, ParamResult, Verdict } from './types';
+
+export interface CheckRequest {
+  op: OpDescriptor;
+  settings: CheckSettings;
+}
+
+/**
+ * Share of settings.timeLimitMs the engine spends before it stops refining and reports what it
+ * has: the rest is left for the sandbox (bundle, context, serialisation) so its watchdog does
+ * not have to kill the check.
+ */
+const TIME_BUDGET_SHARE = 0.8;
+
+/**
+ * Most time, in milliseconds, a step scan may cost (26 forward calls, estimated from the timed
+ * baseline calls); above it the report goes without the scan. Our choice: the scan is a picture,
+ * not a verdict, and should not double the check of a large op.
+ */
+const STEP_SCAN_BUDGET_MS = 150;
+
+interface ParamCheck {
+  result: ParamResult;
+  evidence: ParamEvidence | null;
+  kink: KinkReport | null;
+  note: string;
+}
+
+interface Attempt {
+  h: OpHarness;
+  op: OpDescriptor;
+  settings: CheckSettings;
+  slots: ParamSlot[];
+  y0: Float64Array;
+  /** Upstream vectors of the full/grouped checks (K of them). */
+  ws: Float64Array[];
+  /** analytic[s][k]: gradient of slot s for upstream vector k. */
+  analytic: Float64Array[][];
+  /** Upstream vectors and gradients of the dot-product probes. */
+  dotUs: Float64Array[];
+  dotGrads: Float64Array[][];
+  uOut: number;
+  tol: number;
+  precision: Precision;
+  outOfTime: () => boolean;
+  seed: number;
+  attempt: number;
+  structures: (Structure | null)[];
+  methods: CheckMethod[];
+  /** Time of one forward call at the sample point, in milliseconds (from the two baseline calls). */
+  forwardMs: number;
+}
+
+function emptyOutcome(verdict: Verdict, seed: number, message: string, calls: { forward: number; backward: number }): CheckOutcome {
+  return { verdict, seed, message, hints: [], params: [], calls: { forward: calls.forward, backward: calls.backward } };
+}
+
+/** Checks one op. Never throws: every failure is a verdict with a message. */
+export function runCheck(exposed: Record<string, unknown>, request: CheckRequest, clock: () => number): CheckOutcome {
+  let seed = 0;
+  let calls = { forward: 0, backward: 0 };
+  try {
+    const op = request.op;
+    const settings: CheckSettings = { ...DEFAULT_SETTINGS, ...(request.settings ?? {}) };
+    seed = typeof op.seed === 'number' ? op.seed : settings.seed;
+    if (op.problems && op.problems.length > 0) return emptyOutcome('error', seed, op.problems[0].message, calls);
+    const start = clock();
+    const deadline = start + TIME_BUDGET_SHARE * settings.timeLimitMs;
+    const outOfTime = (): boolean => clock() > deadline;
+    const h = new OpHarness(op, exposed);
+    calls = h.calls;
+    const kinks: KinkReport[] = [];
+    for (let attempt = 0; attempt <= settings.kinkResamples; attempt++) {
+      const result = runAttempt(h, op, settings, seed, attempt, outOfTime, clock);
+      if ('kink' in result) {
+        kinks[kinks.length] = result.kink;
+        continue;
+      }
+      if (attempt > 0) {
+        const first = kinks[0];
+        const note = `redrawn ${attempt}× after a non-differentiable point near ${elementName(first.slot, first.index)} = ${formatNumber(first.value)}`;
+        result.message = result.message ? `${result.message}; ${note}` : note;
+      }
+      return finiteOnly(result);
+    }
+    const last = kinks[kinks.length - 1];
+    return finiteOnly(emptyOutcome(
+      'inconclusive',
+      seed,
+      `non-differentiable point near ${elementName(last.slot, last.index)} = ${formatNumber(last.value)} (slopes on either side differ by ${formatNumber(abs(last.jump), 3)}); ${settings.kinkResamples} redraw${settings.kinkResamples === 1 ? '' : 's'} met a kink too — add \`avoid\` points to the @sample`,
+      calls,
+    ));
+  } catch (e) {
+    if (e instanceof CheckStop) return finiteOnly(emptyOutcome(e.verdict, seed, e.message, calls));
+    return finiteOnly(emptyOutcome('error', seed, `internal error in the check engine: ${describeThrown(e)}`, calls));
+  }
+}
+
+function runAttempt(
+  h: OpHarness,
+  op: OpDescriptor,
+  settings: CheckSettings,
+  seed: number,
+  attempt: number,
+  outOfTime: () => boolean,
+  clock: () => number,
+): CheckOutcome | { kink: KinkReport } {
+  const stream = (purpose: number) => substream(seed, attempt * STREAM_STRIDE + purpose);
+  const sample = h.prepare(stream(STREAM.inputs), settings.maxElements);
+  const inputs = captureInputs(sample);
+  const slots = sample.slots;
+  if (slots.length === 0) fail('no parameter is differentiated: every input is fixed, a literal, an integer or not numbers');
+
+  // Baseline: output at the sample point, input mutation, determinism.
+  const guard = h.guardInputs();
+  const t0 = clock();
+  const y0 = h.forwardInto(null, true);
+  const changedByForward = guard.firstChange(h.inputValues());
+  if (changedByForward !== null) fail(`forward changed its input ${changedByForward}`);
+  const layout = h.layout as NonNullable<typeof h.layout>;
+  if (layout.size > settings.maxElements) fail(`forward output has ${layout.size} elements, more than the limit of ${settings.maxElements}`);
+  const t1 = clock();
+  const y1 = h.forwardInto(null, true);
+  const forwardMs = max(0, min(clock() - t1, t1 - t0));
+  for (let j = 0; j < y0.length; j++) {
+    if (y0[j] !== y1[j]) {
+      giveUp(`forward is not deterministic: two calls at the same input differ at ${describeOutputIndex(layout, j)} (${formatNumber(y0[j], 17)} then ${formatNumber(y1[j], 17)})`);
+    }
+  }
+  if (!h.takesUpstream && layout.kind !== 'number') {
+    fail(`the backward takes no $dy, so the forward must return a number; it returned ${layout.size} values`);
+  }
+
+  // Precision and tolerance: float32 anywhere in the parameters or the output rounds every value.
+  let precision: Precision = layoutPrecision(layout);
+  for (let s = 0; s < slots.length; s++) if (slots[s].precision === 'f32') precision = 'f32';
+  const uOut = unitRoundoff(precision);
+  const tol = typeof op.tolerance === 'number' && op.tolerance > 0 ? op.tolerance : precision === 'f32' ? settings.toleranceF32 : settings.toleranceF64;
+
+  // Upstream vectors: uniform in [-1, 1] (K of them), or the plain gradient when there is no $dy.
+  const m = y0.length;
+  const K = h.takesUpstream ? max(1, settings.upstreamProbes) : 1;
+  const upstreamRandom = stream(STREAM.upstream);
+  const ws: Float64Array[] = [];
+  for (let k = 0; k < K; k++) {
+    const w = new F64(m);
+    for (let j = 0; j < m; j++) w[j] = h.takesUpstream ? 2 * upstreamRandom() - 1 : 1;
+    ws[k] = w;
+  }
+
+  // Structure of each parameter's Jacobian (forward calls only), then the method.
+  const structures: (Structure | null)[] = [];
+  const methods: CheckMethod[] = [];
+  const structureRandom = stream(STREAM.structure);
+  for (let s = 0; s < slots.length; s++) {
+    const choice = chooseMethod(h, slots[s], y0, settings, structureRandom);
+    structures[s] = choice.structure;
+    methods[s] = choice.method;
+  }
+
+  // Backward calls: K upstream probes, plus the dot-product probes when a parameter needs them.
+  const analytic: Float64Array[][] = [];
+  for (let s = 0; s < slots.length; s++) analytic[s] = [];
+  const dotUs: Float64Array[] = [];
+  const dotGrads: Float64Array[][] = [];
+  for (let s = 0; s < slots.length; s++) dotGrads[s] = [];
+  let needsDot = false;
+  for (let s = 0; s < slots.length; s++) if (methods[s] === 'dot-product') needsDot = true;
+  const P = needsDot ? max(1, settings.dotProductProbes) : 0;
+  for (let p = 0; p < P; p++) {
+    const u = new F64(m);
+    for (let j = 0; j < m; j++) u[j] = h.takesUpstream ? 2 * upstreamRandom() - 1 : 1;
+    dotUs[p] = u;
+  }
+  const scratch = new F64(m);
+  let backwardCalls = 0;
+  const callBackward = (w: Float64Array, into: Float64Array[]): void => {
+    // A method's backward may read state its forward cached: run the forward at the sample point first.
+    if (h.backwardNeedsFreshForward && backwardCalls > 0) h.forwardInto(scratch, true);
+    backwardCalls++;
+    h.backwardInto(h.takesUpstream ? w : null, y0, slots, into);
+    const changed = guard.firstChange(h.inputValues());
+    if (changed !== null) fail(`backward changed its input ${changed}`);
+  };
+  for (let k = 0; k < K; k++) {
+    const into: Float64Array[] = [];
+    for (let s = 0; s < slots.length; s++) into[s] = new F64(slots[s].size);
+    callBackward(ws[k], into);
+    for (let s = 0; s < slots.length; s++) analytic[s][k] = into[s];
+  }
+  for (let p = 0; p < P; p++) {
+    const into: Float64Array[] = [];
+    for (let s = 0; s < slots.length; s++) into[s] = new F64(slots[s].size);
+    if (h.takesUpstream) callBackward(dotUs[p], into);
+    else for (let s = 0; s < slots.length; s++) into[s] = analytic[s][0];
+    for (let s = 0; s < slots.length; s++) dotGrads[s][p] = into[s];
+  }
+
+  const at: Attempt = {
+    h, op, settings, slots, y0, ws, analytic, dotUs, dotGrads, uOut, tol, precision, outOfTime, seed, attempt, structures, methods, forwardMs,
+  };
+  const checks: ParamCheck[] = [];
+  for (let s = 0; s < slots.length; s++) checks[s] = checkParam(at, s, stream(STREAM.subset + 0 * s));
+
+  let anyMismatch = false;
+  let anyInconclusive = false;
+  let kink: KinkReport | null = null;
+  for (let s = 0; s < checks.length; s++) {
+    if (checks[s].result.verdict === 'mismatch') anyMismatch = true;
+    if (checks[s].result.verdict === 'inconclusive') anyInconclusive = true;
+    if (checks[s].kink !== null && kink === null) kink = checks[s].kink;
+  }
+  if (!anyMismatch && kink !== null) return { kink };
+
+  // Hints, step scans and error maps for the report.
+  const evidence: ParamEvidence[] = [];
+  for (let s = 0; s < checks.length; s++) {
+    const c = checks[s];
+    if (c.evidence === null) continue;
+    if (c.result.verdict === 'mismatch') c.result.hints = paramHints(c.evidence, slots);
+    evidence[evidence.length] = c.evidence;
+  }
+  const opHints = anyMismatch ? swapHints(evidence.filter((e) => checks[slots.indexOf(e.slot)].result.verdict === 'mismatch')) : [];
+  for (let s = 0; s < checks.length; s++) addReportData(at, s, checks[s]);
+
+  const verdict: Verdict = anyMismatch ? 'mismatch' : anyInconclusive ? 'inconclusive' : 'pass';
+  const messages: string[] = [];
+  for (let s = 0; s < checks.length; s++) if (checks[s].note) messages[messages.length] = checks[s].note;
+  const outcome: CheckOutcome = {
+    verdict,
+    seed,
+    message: messages.join('; '),
+    hints: opHints,
+    params: checks.map((c) => c.result),
+    calls: { forward: h.calls.forward, backward: h.calls.backward },
+  };
+  if (inputs !== undefined) outcome.inputs = inputs;
+  return outcome;
+}
+
+/** Numeric estimates, comparison and refinement of one parameter. */
+function checkParam(at: Attempt, s: number, subsetRandom: () => number): ParamCheck {
+  const slot = at.slots[s];
+  const analytic = at.analytic[s];
+  const n = slot.size;
+  let est: ElementEstimates | null = null;
+  let dot: DotProbeResult[] = [];
+  let complete = true;
+  let method = at.methods[s];
+  if (method === 'grouped') {
+    est = estimateGrouped(at.h, slot, at.structures[s] as Structure, at.ws, at.uOut, at.outOfTime);
+    // An output moved outside the hypothesised bands: the structure guess was wrong, use a general method.
+    if (est === null) method = n > at.settings.largeParamElements ? 'dot-product' : 'full';
+  }
+  if (est !== null) {
+    // grouped estimates are in place
+  } else if (method === 'dot-product') {
+    const dirRandom = substream(at.seed, at.attempt * STREAM_STRIDE + STREAM.directions + 0 * s);
+    dot = dotProductProbes(at.h, slot, at.dotUs, at.dotGrads[s], at.y0, at.uOut, at.tol, dirRandom);
+    const subset = distinctIndices(subsetRandom, n, min(n, at.settings.subsetElements));
+    est = estimateColumns(at.h, slot, subset, at.ws, at.uOut, at.outOfTime);
+    complete = subset.length === n;
+  } else {
+    const all: number[] = [];
+    for (let i = 0; i < n; i++) all[i] = i;
+    est = estimateColumns(at.h, slot, all, at.ws, at.uOut, at.outOfTime);
+  }
+  const floorPrecision: Precision = slot.precision === 'f32' || at.precision === 'f32' ? 'f32' : 'f64';
+  const floors = floorsFor(analytic, est, relativeFloorFactor(floorPrecision));
+  const cmp = compareElements(analytic, est, at.tol, floors);
+  const refine = refineSuspicious(at.h, slot, analytic, est, cmp, at.ws, at.y0, at.uOut, at.tol, at.outOfTime, method === 'grouped');
+  return summarise(at, s, method, est, cmp, refine, dot, complete);
+}
+
+function summarise(
+  at: Attempt,
+  s: number,
+  method: CheckMethod,
+  est: ElementEstimates,
+  cmp: Comparison,
+  refine: RefineSummary,
+  dot: DotProbeResult[],
+  complete: boolean,
+): ParamCheck {
+  const slot = at.slots[s];
+  const analytic = at.analytic[s];
+  let maxAbs = 0;
+  let maxRel = 0;
+  let worstPos = -1;
+  let worstPriority = -1;
+  for (let p = 0; p < est.indices.length; p++) {
+    const i = est.indices[p];
+    for (let k = 0; k < analytic.length; k++) maxAbs = max(maxAbs, abs(analytic[k][i] - est.numeric[k][p]));
+    // The worst element is a confirmed mismatch when there is one, then the largest relative error.
+    const state = cmp.state[p];
+    const priority = state === 'mismatch' ? 2 : state === 'suspicious' || state === 'uncertain' ? 1 : 0;
+    if (priority > worstPriority || (priority === worstPriority && cmp.rel[p] > maxRel)) {
+      worstPos = p;
+      worstPriority = max(worstPriority, priority);
+    }
+    maxRel = max(maxRel, cmp.rel[p]);
+  }
+  let dotMismatch = 0;
+  let dotUncertain = 0;
+  let dotKink = false;
+  for (let p = 0; p < dot.length; p++) {
+    maxRel = max(maxRel, dot[p].relError);
+    if (dot[p].state === 'mismatch') dotMismatch++;
+    if (dot[p].state === 'uncertain') dotUncertain++;
+    if (dot[p].state === 'kink') dotKink = true;
+  }
+
+  let verdict: Verdict = 'pass';
+  let note = '';
+  if (refine.confirmed > 0 || dotMismatch > 0) {
+    verdict = 'mismatch';
+    if (refine.confirmed > 0 && worstPos >= 0) {
+      const p = worstPos;
+      const k = cmp.worstProbe[p];
+      const i = est.indices[p];
+      note = `gradient of '${slot.name}' disagrees at ${elementName(slot, i)}: backward ${formatNumber(analytic[k][i])}, finite differences ${formatNumber(est.numeric[k][p])} (relative error ${formatNumber(cmp.rel[p], 3)})`;
+    } else {
+      note = `gradient of '${slot.name}' fails the dot-product test in ${dotMismatch} of ${dot.length} random directions (worst relative error ${formatNumber(maxRelOf(dot), 3)})`;
+    }
+  } else if (refine.uncertain > 0 || dotUncertain > 0 || refine.unrefined > 0) {
+    verdict = 'inconclusive';
+    note = refine.uncertainNote !== ''
+      ? `'${slot.name}': ${refine.uncertainNote}`
+      : refine.unrefined > 0
+        ? `'${slot.name}': ${refine.unrefined} suspicious element${refine.unrefined === 1 ? '' : 's'} could not be refined within the limits`
+        : `'${slot.name}': the dot-product estimate is unreliable in ${dotUncertain} direction${dotUncertain === 1 ? '' : 's'}`;
+  }
+  let kink = refine.kink;
+  if (kink === null && dotKink && verdict !== 'mismatch') {
+    // A kink met along a random direction: report it at the parameter's first element.
+    kink = { slot, index: 0, value: slot.get(0), jump: 0 };
+  }
+
+  const worst = worstPos >= 0
+    ? {
+        index: unravelSlot(slot, est.indices[worstPos]),
+        analytic: analytic[cmp.worstProbe[worstPos]][est.indices[worstPos]],
+        numeric: est.numeric[cmp.worstProbe[worstPos]][worstPos],
+      }
+    : null;
+  const result: ParamResult = {
+    name: slot.name,
+    verdict,
+    maxAbsError: maxAbs,
+    maxRelError: maxRel,
+    worst,
+    shape: slot.shape.slice(),
+    dtype: slot.dtype,
+    method,
+    elements: slot.size,
+    checkedElements: est.indices.length,
+    hints: [],
+  };
+  const evidence: ParamEvidence = { slot, analytic, est, cmp, tol: at.tol, complete: complete && est.indices.length === slot.size };
+  (result as ParamResultWithPos).__worstPos = worstPos;
+  return { result, evidence, kink, note };
+}
+
+type ParamResultWithPos = ParamResult & { __worstPos?: number };
+
+function maxRelOf(dot: DotProbeResult[]): number {
+  let m = 0;
+  for (let p = 0; p < dot.length; p++) m = max(m, dot[p].relError);
+  return m;
+}
+
+/** Step scan at the worst element and the error map of a 2-D parameter. */
+function addReportData(at: Attempt, s: number, c: ParamCheck): void {
+  const r = c.result as ParamResultWithPos;
+  const pos = r.__worstPos ?? -1;
+  delete r.__worstPos;
+  const ev = c.evidence;
+  if (ev === null || pos < 0) return;
+  const slot = at.slots[s];
+  if (ev.complete && slot.shape.length === 2 && slot.size <= ERROR_MAP_MAX_ELEMENTS) {
+    const map: number[] = [];
+    for (let p = 0; p < ev.est.indices.length; p++) map[ev.est.indices[p]] = ev.cmp.rel[p];
+    r.errorMap = map;
+  }
+  if (26 * at.forwardMs > STEP_SCAN_BUDGET_MS || at.outOfTime()) return;
+  const i = ev.est.indices[pos];
+  const k = ev.cmp.worstProbe[pos];
+  const line = elementLine(at.h, slot, i);
+  r.stepScan = stepScan(line, at.ws[k], at.analytic[s][k][i], max(1, abs(slot.get(i))));
+}

@@ -1,0 +1,103 @@
+// Grouped check: structurally orthogonal elements (no output depends on two of them) are
+// perturbed together, and each moved output is credited to the one element whose band holds it
+// (Curtis, Powell & Reid, "On the estimation of sparse Jacobian matrices", J. Inst. Math. Appl.
+// 13 (1974) 117–119). An elementwise op's whole diagonal comes from one pair of forward calls.
+
+import { F64, abs, max, min } from './builtins';
+import { giveUp } from './failure';
+import type { ElementEstimates } from './judge';
+import { anchorOf, type Structure } from './methodChoice';
+import type { OpHarness } from './opHarness';
+import type { ParamSlot } from './paramSlot';
+import { ROUNDOFF_ULPS, relativeStep } from './precision';
+
+/**
+ * Estimates every element of a slot with one pair of forward calls per colour class. Returns
+ * null when an output moved outside every band of its group: the structure hypothesis was
+ * wrong, and the caller falls back to another method (never to a verdict).
+ */
+export function estimateGrouped(
+  h: OpHarness,
+  slot: ParamSlot,
+  st: Structure,
+  ws: Float64Array[],
+  uOut: number,
+  outOfTime: () => boolean,
+): ElementEstimates | null {
+  const n = slot.size;
+  const m = st.m;
+  const K = ws.length;
+  const indices: number[] = new Array<number>(n);
+  for (let i = 0; i < n; i++) indices[i] = i;
+  const numeric: Float64Array[] = [];
+  const bound: Float64Array[] = [];
+  for (let k = 0; k < K; k++) {
+    numeric[k] = new F64(n);
+    bound[k] = new F64(n);
+  }
+  const x0 = slot.snapshot();
+  const denom = new F64(n);
+  let plus: Float64Array = new F64(m);
+  let minus: Float64Array = new F64(m);
+  const rel = relativeStep(slot.precision);
+  const typed = slot.typed;
+  const pert = h.perturbation;
+  for (let g = 0; g < st.colours; g++) {
+    if (outOfTime()) giveUp(`check of '${slot.name}' stopped at the time limit after ${g} of ${st.colours} grouped perturbations`);
+    pert.slot = slot;
+    pert.several = true;
+    try {
+      // x + h: every element of colour g moves by its own step u^(1/3)·max(1, |x_i|).
+      if (typed !== null) {
+        for (let i = g; i < n; i += st.colours) {
+          const x = x0[i];
+          typed[i] = x + rel * (x < -1 ? -x : x > 1 ? x : 1);
+          denom[i] = typed[i];
+        }
+      } else {
+        for (let i = g; i < n; i += st.colours) denom[i] = slot.set(i, x0[i] + rel * max(1, abs(x0[i])));
+      }
+      plus = h.forwardInto(plus, true);
+      if (typed !== null) {
+        for (let i = g; i < n; i += st.colours) {
+          const x = x0[i];
+          typed[i] = x - rel * (x < -1 ? -x : x > 1 ? x : 1);
+          denom[i] -= typed[i];
+        }
+      } else {
+        for (let i = g; i < n; i += st.colours) denom[i] -= slot.set(i, x0[i] - rel * max(1, abs(x0[i])));
+      }
+      minus = h.forwardInto(minus, true);
+    } finally {
+      if (typed !== null) for (let i = g; i < n; i += st.colours) typed[i] = x0[i];
+      else for (let i = g; i < n; i += st.colours) slot.set(i, x0[i]);
+      pert.slot = null;
+    }
+    // Every moved output must lie in the band of exactly one element of the group.
+    let movedTotal = 0;
+    for (let j = 0; j < m; j++) if (plus[j] !== minus[j]) movedTotal++;
+    let movedInBands = 0;
+    for (let i = g; i < n; i += st.colours) {
+      const a = anchorOf(i, n, m);
+      const jLo = max(0, a + st.lo);
+      const jHi = min(m - 1, a + st.hi);
+      const d = denom[i];
+      for (let k = 0; k < K; k++) {
+        const w = ws[k];
+        let s = 0;
+        let r = 0;
+        for (let j = jLo; j <= jHi; j++) {
+          const p = plus[j];
+          const q = minus[j];
+          s += w[j] * (p - q);
+          r += abs(w[j]) * (abs(p) + abs(q));
+        }
+        numeric[k][i] = s / d;
+        bound[k][i] = (ROUNDOFF_ULPS * uOut * r) / d;
+      }
+      for (let j = jLo; j <= jHi; j++) if (plus[j] !== minus[j]) movedInBands++;
+    }
+    if (movedInBands !== movedTotal) return null;
+  }
+  return { indices, numeric, bound };
+}

@@ -1,0 +1,92 @@
+// The per-element comparison of an analytic gradient value with a numeric estimate and its
+// error bound, and the per-parameter error figures (max absolute/relative error, worst element).
+
+import { abs, max } from './builtins';
+
+/**
+ * Whether |a − n| exceeds what tolerance and the estimate's own error allow:
+ * |a − n| > tol·max(|a|, |n|, floor) + bound. Returns the excess (> 0 means suspicious).
+ * The floor is the level below which values count as zero (see relativeFloorFactor).
+ */
+export function excessOf(a: number, n: number, bound: number, tol: number, floor: number): number {
+  return abs(a - n) - tol * max(abs(a), abs(n), floor) - bound;
+}
+
+/**
+ * Relative error as reported: |a − n| / max(|a|, |n|, floor, bound/tol). Dividing by bound/tol
+ * too means an element whose difference is within its estimate's error reports at most about
+ * the tolerance, so two near-zero values, or an element the difference cannot resolve, never
+ * show a huge "relative" error on a passing check.
+ */
+export function relativeError(a: number, n: number, bound: number, tol: number, floor: number): number {
+  const d = abs(a - n);
+  if (d === 0) return 0;
+  const denom = max(abs(a), abs(n), floor, tol > 0 ? bound / tol : 0);
+  return denom > 0 ? d / denom : d === 0 ? 0 : 1;
+}
+
+/** Numeric estimates of a set of elements of one parameter, for every upstream probe. */
+export interface ElementEstimates {
+  /** Element indices, in the order of the arrays below. */
+  indices: number[];
+  /** numeric[k][pos]: estimate of (Jᵀ dy_k)[indices[pos]]. */
+  numeric: Float64Array[];
+  /** bound[k][pos]: the estimate's error bound (absolute). */
+  bound: Float64Array[];
+}
+
+/** Where an element stands after comparison (and refinement). */
+export type ElementState = 'ok' | 'suspicious' | 'mismatch' | 'uncertain' | 'kink';
+
+/** Figures of one parameter's comparison. */
+export interface Comparison {
+  /** Per position: worst excess over probes (> 0: suspicious). */
+  excess: Float64Array;
+  /** Per position: the probe with the worst excess. */
+  worstProbe: Int32Array;
+  /** Per position: relative error of the worst probe. */
+  rel: Float64Array;
+  state: ElementState[];
+  /** Per probe: the zero level (relative floor × largest value). */
+  floors: Float64Array;
+}
+
+/** The level below which values of probe k count as zero: factor × the largest |a| or |n|. */
+export function floorsFor(analytic: Float64Array[], est: ElementEstimates, floorFactor: number): Float64Array {
+  const K = analytic.length;
+  const floors = new Float64Array(K);
+  for (let k = 0; k < K; k++) {
+    let g = 0;
+    const a = analytic[k];
+    const n = est.numeric[k];
+    for (let p = 0; p < est.indices.length; p++) g = max(g, abs(a[est.indices[p]]), abs(n[p]));
+    floors[k] = floorFactor * g;
+  }
+  return floors;
+}
+
+/** Compares every estimated element against the analytic values. */
+export function compareElements(analytic: Float64Array[], est: ElementEstimates, tol: number, floors: Float64Array): Comparison {
+  const count = est.indices.length;
+  const excess = new Float64Array(count);
+  const worstProbe = new Int32Array(count);
+  const rel = new Float64Array(count);
+  const state: ElementState[] = new Array<ElementState>(count);
+  for (let p = 0; p < count; p++) {
+    const i = est.indices[p];
+    let best = -Infinity;
+    let bestK = 0;
+    for (let k = 0; k < analytic.length; k++) {
+      const e = excessOf(analytic[k][i], est.numeric[k][p], est.bound[k][p], tol, floors[k]);
+      if (e > best) {
+        best = e;
+        bestK = k;
+      }
+    }
+    excess[p] = best;
+    worstProbe[p] = bestK;
+    rel[p] = relativeError(analytic[bestK][i], est.numeric[bestK][p], est.bound[bestK][p], tol, floors[bestK]);
+    state[p] = best > 0 ? 'suspicious' : 'ok';
+  }
+  return { excess, worstProbe, rel, state, floors };
+}

@@ -1,0 +1,153 @@
+// Moving the inputs along a line — one element, or a whole parameter along a direction — in
+// place, evaluating the forward there, and restoring; plus the projections of output
+// differences onto upstream vectors that every difference quotient of the engine uses.
+
+import { F64, abs, max, min } from './builtins';
+import type { OpHarness } from './opHarness';
+import type { ParamSlot } from './paramSlot';
+import { centralStep, relativeStep } from './precision';
+import { RIDDERS_INITIAL_STEP } from './ridders';
+import { distanceToBarrier } from './sampling';
+
+/** A one-dimensional path x(t) through the input space, starting at the sample point. */
+export interface Line {
+  /**
+   * Moves to x(t), runs the forward into out, moves back. Returns the displacement actually
+   * taken (the stored value minus the start, for an element) or NaN when the output is not finite.
+   */
+  evalAt(t: number, out: Float64Array): number;
+  /** Central step of the line (Nocedal & Wright §8.1), in t units. */
+  readonly centralStep: number;
+  /** Largest step that keeps inside the sampled range and away from avoid points. */
+  readonly maxStep: number;
+  /** Ridders' initial step for this line (capped by maxStep). */
+  readonly refineStep: number;
+  /** The slot moved and, for an element line, the element (for messages). */
+  readonly slot: ParamSlot;
+  readonly element: number;
+}
+
+function isFiniteVector(v: Float64Array): boolean {
+  for (let j = 0; j < v.length; j++) {
+    const x = v[j];
+    if (x - x !== 0) return false;
+  }
+  return true;
+}
+
+/**
+ * Smallest cap of refinement steps relative to the central step: when an element sits right at
+ * a range end or avoid point, refinement still uses steps of at least this many central steps.
+ */
+const MIN_REFINE_STEPS = 4;
+
+/** The line through element i of a slot: x(t) = x + t·e_i. */
+export function elementLine(h: OpHarness, slot: ParamSlot, i: number): Line {
+  const x0 = slot.get(i);
+  const hc = centralStep(slot.precision, x0);
+  const barrier = distanceToBarrier(slot, x0);
+  const maxStep = max(barrier * 0.9, MIN_REFINE_STEPS * hc);
+  const scale = max(1, abs(x0));
+  return {
+    slot,
+    element: i,
+    centralStep: hc,
+    maxStep,
+    refineStep: min(RIDDERS_INITIAL_STEP * scale, maxStep),
+    evalAt(t: number, out: Float64Array): number {
+      const p = h.perturbation;
+      p.slot = slot;
+      p.index = i;
+      p.several = false;
+      const stored = slot.set(i, x0 + t);
+      p.value = stored;
+      try {
+        h.forwardInto(out, false);
+      } finally {
+        slot.set(i, x0);
+        p.slot = null;
+      }
+      return isFiniteVector(out) ? stored - x0 : NaN;
+    },
+  };
+}
+
+/**
+ * The line through a whole slot along direction d scaled per element by max(1, |x_i|), so the
+ * step is relative for every element: x_i(t) = x_i + t·d_i·max(1, |x_i|).
+ */
+export function directionLine(h: OpHarness, slot: ParamSlot, d: Float64Array): Line & { scaled: Float64Array } {
+  const n = slot.size;
+  const x0 = slot.snapshot();
+  const scaled = new F64(n);
+  let maxStep = Infinity;
+  for (let i = 0; i < n; i++) {
+    scaled[i] = d[i] * max(1, abs(x0[i]));
+    if (scaled[i] !== 0) {
+      const b = distanceToBarrier(slot, x0[i]);
+      if (b < Infinity) maxStep = min(maxStep, (b * 0.9) / abs(scaled[i]));
+    }
+  }
+  const hc = relativeStep(slot.precision);
+  maxStep = max(maxStep, MIN_REFINE_STEPS * hc);
+  return {
+    slot,
+    element: -1,
+    scaled,
+    centralStep: hc,
+    maxStep,
+    refineStep: min(RIDDERS_INITIAL_STEP, maxStep),
+    evalAt(t: number, out: Float64Array): number {
+      const p = h.perturbation;
+      p.slot = slot;
+      p.several = true;
+      for (let i = 0; i < n; i++) slot.set(i, x0[i] + t * scaled[i]);
+      try {
+        h.forwardInto(out, false);
+      } finally {
+        for (let i = 0; i < n; i++) slot.set(i, x0[i]);
+        p.slot = null;
+      }
+      return isFiniteVector(out) ? t : NaN;
+    },
+  };
+}
+
+/** ⟨w, a − b⟩ for each upstream vector w (K projections of one output difference). */
+export function projectDifference(ws: Float64Array[], a: Float64Array, b: Float64Array, out: Float64Array): Float64Array {
+  const m = a.length;
+  for (let k = 0; k < ws.length; k++) {
+    const w = ws[k];
+    let s = 0;
+    for (let j = 0; j < m; j++) s += w[j] * (a[j] - b[j]);
+    out[k] = s;
+  }
+  return out;
+}
+
+/** Σ_j |w_j|·(|a_j| + |b_j|) for each w: the magnitude behind a projected difference's roundoff. */
+export function projectMagnitude(ws: Float64Array[], a: Float64Array, b: Float64Array, out: Float64Array): Float64Array {
+  const m = a.length;
+  for (let k = 0; k < ws.length; k++) {
+    const w = ws[k];
+    let s = 0;
+    for (let j = 0; j < m; j++) s += abs(w[j]) * (abs(a[j]) + abs(b[j]));
+    out[k] = s;
+  }
+  return out;
+}
+
+/**
+ * Central difference quotients of every projection along a line at step t, or null when the
+ * forward is not finite at x(±t). Buffers are the caller's, reused across calls.
+ */
+export function centralOnLine(line: Line, ws: Float64Array[], t: number, plus: Float64Array, minus: Float64Array): Float64Array | null {
+  const sp = line.evalAt(t, plus);
+  if (sp !== sp) return null;
+  const sm = line.evalAt(-t, minus);
+  if (sm !== sm) return null;
+  const out = projectDifference(ws, plus, minus, new F64(ws.length));
+  const denom = sp - sm;
+  for (let k = 0; k < out.length; k++) out[k] /= denom;
+  return out;
+}

@@ -1,0 +1,115 @@
+// Chooses how to check one parameter: probe a few elements to see which outputs they move,
+// hypothesise a band structure of the Jacobian, and use grouped perturbations (Curtis, Powell &
+// Reid 1974) when they need clearly fewer forward calls than one column per element; otherwise
+// full columns, or the dot-product test for parameters above the large-parameter limit.
+
+import { F64, ceil, floor, max, min } from './builtins';
+import type { OpHarness } from './opHarness';
+import type { ParamSlot } from './paramSlot';
+import { centralStep } from './precision';
+import { distinctIndices, type RandomSource } from './random';
+import type { CheckSettings } from './settings';
+import type { CheckMethod } from './types';
+
+/**
+ * A band model of the Jacobian: element i moves only outputs j with
+ * anchor(i) + lo ≤ j ≤ anchor(i) + hi, where anchor(i) = floor(i·m/n). Elements i and i + colours
+ * (and any two with the same index modulo `colours`) never move the same output.
+ */
+export interface Structure {
+  lo: number;
+  hi: number;
+  /** Number of colour classes (forward pairs needed). */
+  colours: number;
+  n: number;
+  m: number;
+}
+
+/** Elements probed singly to learn the structure: the first, the last and this many random ones. */
+export const STRUCTURE_RANDOM_PROBES = 4;
+/** Parameters this small get full columns without probing (probing would cost about as much). */
+export const STRUCTURE_MIN_ELEMENTS = 12;
+/** Grouping is used only when it needs at most this share of the full check's columns. */
+export const GROUPED_MAX_SHARE = 0.5;
+
+export function anchorOf(i: number, n: number, m: number): number {
+  return floor((i * m) / n);
+}
+
+/**
+ * Smallest colour count C with anchor(i + C) − anchor(i) ≥ width for all i, or 0 when above
+ * maxColours. anchor(i + C) − anchor(i) ≥ floor(C·m/n), so C = ceil((width + 1)·n/m) always
+ * works; C = ceil(width·n/m) is tried first because it often does too.
+ */
+export function colourCount(n: number, m: number, width: number, maxColours: number): number {
+  const tight = max(1, ceil((width * n) / m));
+  const safe = max(1, ceil(((width + 1) * n) / m));
+  for (const c of tight === safe ? [tight] : [tight, safe]) {
+    if (c > maxColours) return 0;
+    let ok = true;
+    for (let i = 0; i + c < n; i++) {
+      if (anchorOf(i + c, n, m) - anchorOf(i, n, m) < width) {
+        ok = false;
+        break;
+      }
+    }
+    if (ok) return c;
+  }
+  return 0;
+}
+
+/**
+ * Probes elements one at a time (one forward each, at x + h·e_i) and records which outputs moved
+ * relative to y0. Returns the band of offsets from the anchor, or null when nothing moved.
+ */
+export function probeBand(h: OpHarness, slot: ParamSlot, y0: Float64Array, random: RandomSource): { lo: number; hi: number } | null {
+  const n = slot.size;
+  const m = y0.length;
+  const picks = distinctIndices(random, n - 2, STRUCTURE_RANDOM_PROBES);
+  const probes: number[] = [0, n - 1];
+  for (let q = 0; q < picks.length; q++) probes[probes.length] = picks[q] + 1;
+  const out = new F64(m);
+  let lo = Infinity;
+  let hi = -Infinity;
+  const pert = h.perturbation;
+  for (let q = 0; q < probes.length; q++) {
+    const i = probes[q];
+    const x0 = slot.get(i);
+    pert.slot = slot;
+    pert.index = i;
+    pert.several = false;
+    try {
+      pert.value = slot.set(i, x0 + centralStep(slot.precision, x0));
+      h.forwardInto(out, true);
+    } finally {
+      slot.set(i, x0);
+      pert.slot = null;
+    }
+    const a = anchorOf(i, n, m);
+    for (let j = 0; j < m; j++) {
+      if (out[j] !== y0[j]) {
+        lo = min(lo, j - a);
+        hi = max(hi, j - a);
+      }
+    }
+  }
+  return lo <= hi ? { lo, hi } : null;
+}
+
+export function chooseMethod(
+  h: OpHarness,
+  slot: ParamSlot,
+  y0: Float64Array,
+  settings: CheckSettings,
+  random: RandomSource,
+): { method: CheckMethod; structure: Structure | null } {
+  const n = slot.size;
+  const m = y0.length;
+  const fallback: CheckMethod = n > settings.largeParamElements ? 'dot-product' : 'full';
+  if (n < STRUCTURE_MIN_ELEMENTS) return { method: 'full', structure: null };
+  const band = probeBand(h, slot, y0, random) ?? { lo: 0, hi: 0 };
+  const width = band.hi - band.lo + 1;
+  const colours = colourCount(n, m, width, floor(n * GROUPED_MAX_SHARE));
+  if (colours === 0) return { method: fallback, structure: null };
+  return { method: 'grouped', structure: { lo: band.lo, hi: band.hi, colours, n, m } };
+}

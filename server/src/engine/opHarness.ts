@@ -1,0 +1,244 @@
+// Calls one op's forward and backward the way the interface describes (functions or methods on
+// one instance, `this.FIELD` values, the backward's argument list), counts the calls, and turns
+// every failure of user code into a message naming the part of the op at fault.
+
+import { F64, describeThrown, describeValue, formatIndex, formatNumber, reflectApply, reflectConstruct } from './builtins';
+import { fail } from './failure';
+import { readGradients } from './gradients';
+import { InputGuard } from './inputGuard';
+import { buildValue, describeOutputIndex, detectLayout, firstNonFinite, flattenInto, nonFiniteName, type OutputLayout } from './outputLayout';
+import type { ParamSlot } from './paramSlot';
+import type { RandomSource } from './random';
+import { drawSample, type Sample } from './sampling';
+import type { CallCounts, OpDescriptor } from './types';
+
+type AnyFunction = (...args: unknown[]) => unknown;
+
+/** Where the parameters currently are, for messages about a failing forward call. */
+export interface PerturbationState {
+  slot: ParamSlot | null;
+  index: number;
+  value: number;
+  /** Several elements moved together (grouped or directional perturbation). */
+  several: boolean;
+}
+
+function lookup(exposed: Record<string, unknown>, name: string): unknown {
+  try {
+    return exposed[name];
+  } catch (e) {
+    return fail(`reading '${name}' from the module threw ${describeThrown(e)}`);
+  }
+}
+
+export class OpHarness {
+  readonly calls: CallCounts = { forward: 0, backward: 0 };
+  readonly perturbation: PerturbationState = { slot: null, index: 0, value: 0, several: false };
+  private readonly forwardFn: AnyFunction;
+  private readonly backwardFn: AnyFunction;
+  private readonly classCtor: AnyFunction | null;
+  private readonly constructFn: AnyFunction | null;
+  private readonly samplesFn: AnyFunction | null;
+  private instance: Record<string, unknown> | null = null;
+  private sample: Sample | null = null;
+  /** Output shape, fixed by the first forward call. */
+  layout: OutputLayout | null = null;
+  /** Whether the backward receives `$dy`; when not, the forward returns a number. */
+  readonly takesUpstream: boolean;
+
+  constructor(
+    private readonly op: OpDescriptor,
+    exposed: Record<string, unknown>,
+  ) {
+    const t = op.target;
+    this.takesUpstream = op.backwardArgs.some((a) => a.kind === 'upstream');
+    if (t.kind === 'method') {
+      const className = t.className ?? '';
+      const cls = lookup(exposed, className);
+      if (typeof cls !== 'function') fail(`class '${className}' is not available in the module (got ${describeValue(cls)})`);
+      this.classCtor = cls as AnyFunction;
+      const proto = (cls as { prototype?: Record<string, unknown> }).prototype;
+      const fwd = proto ? proto[t.forwardName] : undefined;
+      if (typeof fwd !== 'function') fail(`forward '${op.forward}' is not a method of class '${className}' (got ${describeValue(fwd)})`);
+      this.forwardFn = fwd as AnyFunction;
+      const bwd = t.backwardIsMethod ? (proto ? proto[t.backwardName] : undefined) : lookup(exposed, t.backwardName);
+      if (typeof bwd !== 'function') {
+        fail(`backward '${op.backward}' is not ${t.backwardIsMethod ? `a method of class '${className}'` : 'a function of the module'} (got ${describeValue(bwd)})`);
+      }
+      this.backwardFn = bwd as AnyFunction;
+    } else {
+      const fwd = lookup(exposed, t.forwardName);
+      if (typeof fwd !== 'function') fail(`forward '${op.forward}' is not a function (got ${describeValue(fwd)})`);
+      this.forwardFn = fwd as AnyFunction;
+      this.classCtor = null;
+      const bwd = lookup(exposed, t.backwardName);
+      if (typeof bwd !== 'function') fail(`backward '${op.backward}' is not a function (got ${describeValue(bwd)})`);
+      this.backwardFn = bwd as AnyFunction;
+    }
+    this.constructFn = null;
+    if (t.constructFactory !== undefined) {
+      const f = lookup(exposed, t.constructFactory);
+      if (typeof f !== 'function') fail(`@construct ${t.constructFactory} is not a function (got ${describeValue(f)})`);
+      this.constructFn = f as AnyFunction;
+    }
+    this.samplesFn = null;
+    if (t.samplesFactory !== undefined) {
+      const f = lookup(exposed, t.samplesFactory);
+      if (typeof f !== 'function') fail(`@samples ${t.samplesFactory} is not a function (got ${describeValue(f)})`);
+      this.samplesFn = f as AnyFunction;
+    }
+  }
+
+  /** Creates the instance (methods) and draws the inputs of one attempt. */
+  prepare(rng: RandomSource, maxElements: number): Sample {
+    this.layout = null;
+    if (this.classCtor !== null) {
+      let inst: unknown;
+      const className = this.op.target.className ?? '';
+      try {
+        inst = this.constructFn !== null ? reflectApply(this.constructFn, undefined, []) : reflectConstruct(this.classCtor, []);
+      } catch (e) {
+        fail(this.constructFn !== null ? `@construct ${this.op.target.constructFactory} threw ${describeThrown(e)}` : `new ${className}() threw ${describeThrown(e)}`);
+      }
+      if (inst === null || typeof inst !== 'object') {
+        fail(`${this.constructFn !== null ? `@construct ${this.op.target.constructFactory}` : `new ${className}()`} gave ${describeValue(inst)}, expected an instance`);
+      }
+      this.instance = inst as Record<string, unknown>;
+    }
+    this.sample = drawSample(this.op, rng, this.instance, this.samplesFn as ((r: () => number) => unknown) | null, maxElements);
+    return this.sample;
+  }
+
+  private get args(): unknown[] {
+    return (this.sample as Sample).args;
+  }
+
+  /** A guard over every input (arguments, then fields), to detect a call that changes them. */
+  guardInputs(): InputGuard {
+    const s = this.sample as Sample;
+    const names: string[] = [];
+    for (let i = 0; i < s.argNames.length; i++) names[i] = s.argNames[i];
+    for (let i = 0; i < s.fields.length; i++) names[names.length] = `this.${s.fields[i].field}`;
+    return new InputGuard(names, this.inputValues());
+  }
+
+  /** Current values of every input, in the guard's order. */
+  inputValues(): unknown[] {
+    const s = this.sample as Sample;
+    const values: unknown[] = [];
+    for (let i = 0; i < s.args.length; i++) values[i] = s.args[i];
+    for (let i = 0; i < s.fields.length; i++) values[values.length] = (this.instance as Record<string, unknown>)[s.fields[i].field];
+    return values;
+  }
+
+  private whereText(): string {
+    const p = this.perturbation;
+    if (p.slot === null) return 'at the sample point';
+    if (p.several) return `with several elements of '${p.slot.name}' moved`;
+    return `with ${p.slot.name}${p.slot.shape.length ? formatIndex(unravelSlot(p.slot, p.index)) : ''} = ${formatNumber(p.value, 8)}`;
+  }
+
+  /** Calls the forward with the current inputs and returns what it returned. */
+  forwardRaw(): unknown {
+    this.calls.forward++;
+    try {
+      return reflectApply(this.forwardFn, this.instance ?? undefined, this.args);
+    } catch (e) {
+      return fail(`forward threw ${this.whereText()}: ${describeThrown(e)}`);
+    }
+  }
+
+  /**
+   * Calls the forward and copies its output into dest (allocated on the first call). With
+   * `requireFinite`, NaN or Infinity is an error naming the output index.
+   */
+  forwardInto(dest: Float64Array | null, requireFinite: boolean): Float64Array {
+    const raw = this.forwardRaw();
+    if (this.layout === null) {
+      this.layout = detectLayout(raw);
+      if (this.layout.size === 0) fail('forward output is empty');
+    }
+    const out = dest ?? new F64(this.layout.size);
+    flattenInto(raw, this.layout, out);
+    if (requireFinite) {
+      const j = firstNonFinite(out);
+      if (j >= 0) fail(`forward output has ${nonFiniteName(out[j])} at ${describeOutputIndex(this.layout, j)} ${this.whereText()}`);
+    }
+    return out;
+  }
+
+  /** Backward's argument list for an upstream gradient (flat, output-shaped) at output y. */
+  private backwardArgs(dy: Float64Array | null, y: Float64Array): unknown[] {
+    const s = this.sample as Sample;
+    const list: unknown[] = [];
+    const layout = this.layout as OutputLayout;
+    for (let i = 0; i < this.op.backwardArgs.length; i++) {
+      const a = this.op.backwardArgs[i];
+      if (a.kind === 'upstream') list[i] = buildValue(layout, dy as Float64Array);
+      else if (a.kind === 'output') list[i] = buildValue(layout, y);
+      else {
+        const name = a.name;
+        const pos = s.argNames.indexOf(name);
+        if (pos >= 0) list[i] = s.args[pos];
+        else {
+          const field = name.startsWith('this.') ? name.slice(5) : name;
+          let found = false;
+          for (let k = 0; k < s.fields.length; k++) {
+            if (s.fields[k].field === field) {
+              list[i] = (this.instance as Record<string, unknown>)[field];
+              found = true;
+            }
+          }
+          if (!found) fail(`@backward argument '${name}' is not a parameter of the forward`);
+        }
+      }
+    }
+    return list;
+  }
+
+  /**
+   * Calls the backward at the sample point with upstream gradient dy (null when the backward
+   * takes no `$dy`) and reads the gradients into dests (one per slot), checking them finite.
+   */
+  backwardInto(dy: Float64Array | null, y: Float64Array, slots: ParamSlot[], dests: Float64Array[]): void {
+    const list = this.backwardArgs(dy, y);
+    this.calls.backward++;
+    let result: unknown;
+    try {
+      result = reflectApply(this.backwardFn, this.op.target.backwardIsMethod ? (this.instance ?? undefined) : undefined, list);
+    } catch (e) {
+      fail(`backward threw: ${describeThrown(e)}`);
+    }
+    readGradients(result, slots, dests);
+    for (let p = 0; p < slots.length; p++) {
+      const j = firstNonFinite(dests[p]);
+      if (j >= 0) {
+        const where = slots[p].shape.length ? ` at index ${formatIndex(unravelSlot(slots[p], j))}` : '';
+        fail(`gradient of '${slots[p].name}' has ${nonFiniteName(dests[p][j])}${where}`);
+      }
+    }
+  }
+
+  /** Whether the backward runs on the instance after the forward (it may read cached state). */
+  get backwardNeedsFreshForward(): boolean {
+    return this.op.target.kind === 'method';
+  }
+}
+
+/** Multi-index of element i of a slot. */
+export function unravelSlot(slot: ParamSlot, i: number): number[] {
+  const idx: number[] = [];
+  let j = i;
+  for (let d = slot.shape.length - 1; d >= 0; d--) {
+    const s = slot.shape[d];
+    idx[d] = j % s;
+    j = (j - idx[d]) / s;
+  }
+  return idx;
+}
+
+/** `x[2, 1]` or `b` for element i of a slot. */
+export function elementName(slot: ParamSlot, i: number): string {
+  return slot.shape.length ? `${slot.name}${formatIndex(unravelSlot(slot, i))}` : slot.name;
+}
+

@@ -1,0 +1,102 @@
+// The engine's seeded random generator: every draw of a check (inputs, upstream gradients,
+// probe directions, subsets) comes from here, never from the context's Math.random.
+
+import { ceil, floor, imul } from './builtins';
+
+/** A source of uniform numbers in [0, 1). Injectable: anything with this shape works. */
+export type RandomSource = () => number;
+
+/**
+ * Weyl-sequence increment (2^32 / golden ratio) and the 32-bit finaliser of MurmurHash3, the
+ * construction of SplitMix (Steele, Lea & Flood, "Fast splittable pseudorandom number
+ * generators", OOPSLA 2014), cut down to 32-bit words so it needs no BigInt.
+ */
+const GOLDEN_GAMMA_32 = 0x9e3779b9;
+
+function mix32(z: number): number {
+  z = imul(z ^ (z >>> 16), 0x85ebca6b);
+  z = imul(z ^ (z >>> 13), 0xc2b2ae35);
+  return (z ^ (z >>> 16)) >>> 0;
+}
+
+/** Normalises any seed number to 32 bits (negative and fractional seeds map deterministically). */
+export function seedToState(seed: number): number {
+  if (seed !== seed) return 0;
+  const lo = seed >>> 0;
+  const hi = (seed / 4294967296) >>> 0; // seeds beyond 2^32 still differ
+  return mix32(lo ^ mix32(hi + GOLDEN_GAMMA_32));
+}
+
+/**
+ * Uniform doubles in [0, 1) with 53 random bits (two 32-bit outputs), so float64 samples are
+ * not restricted to a 2^-32 grid.
+ */
+export function createRandom(seed: number): RandomSource {
+  let state = seedToState(seed);
+  const next32 = (): number => {
+    state = (state + GOLDEN_GAMMA_32) | 0;
+    return mix32(state);
+  };
+  return () => {
+    const hi = next32() >>> 5; // 27 bits
+    const lo = next32() >>> 6; // 26 bits
+    return (hi * 67108864 + lo) / 9007199254740992; // (hi·2^26 + lo) / 2^53
+  };
+}
+
+/**
+ * An independent stream derived from a seed and a stream number: the redraws after a kink and
+ * the separate purposes of one check (inputs, upstream vectors, subsets) use different streams,
+ * so adding a draw in one never shifts the numbers of another.
+ */
+export function substream(seed: number, stream: number): RandomSource {
+  const base = seedToState(seed);
+  return createRandom(mix32(base ^ mix32((stream >>> 0) + GOLDEN_GAMMA_32)));
+}
+
+/** Stream numbers of one check attempt; attempt a uses STREAM_STRIDE·a + purpose. */
+export const STREAM = { inputs: 0, upstream: 1, directions: 2, subset: 3, structure: 4 } as const;
+export const STREAM_STRIDE = 16;
+
+/** Uniform in [lo, hi]. */
+export function uniform(random: RandomSource, lo: number, hi: number): number {
+  return lo + (hi - lo) * random();
+}
+
+/** Integer uniform in lo..hi inclusive. */
+export function uniformInt(random: RandomSource, lo: number, hi: number): number {
+  const a = ceil(lo);
+  const b = floor(hi);
+  if (b < a) return a;
+  return a + floor(random() * (b - a + 1));
+}
+
+/** `count` distinct integers from 0..n-1 (Floyd's algorithm; in ascending order). */
+export function distinctIndices(random: RandomSource, n: number, count: number): number[] {
+  if (count >= n) {
+    const all: number[] = [];
+    for (let i = 0; i < n; i++) all[i] = i;
+    return all;
+  }
+  const chosen = new Set<number>();
+  for (let j = n - count; j < n; j++) {
+    const t = floor(random() * (j + 1));
+    if (chosen.has(t)) chosen.add(j);
+    else chosen.add(t);
+  }
+  const out: number[] = [];
+  chosen.forEach((v) => {
+    out[out.length] = v;
+  });
+  // Ascending without Array.prototype.sort: insertion sort on a small list.
+  for (let i = 1; i < out.length; i++) {
+    const v = out[i];
+    let k = i - 1;
+    while (k >= 0 && out[k] > v) {
+      out[k + 1] = out[k];
+      k--;
+    }
+    out[k + 1] = v;
+  }
+  return out;
+}
