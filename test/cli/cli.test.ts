@@ -148,7 +148,8 @@ describe('gradient-probe command (spawned)', function () {
       const noisy = pairNamed(report, 'thermocouple');
       assert.match(noisy.output ?? '', /thermocouple read 3 channels/);
       assert.match(noisy.output ?? '', /"version": 99/);
-      assert.doesNotMatch(run.stdout, /thermocouple read/);
+      // Nothing but the report on stdout: it is exactly the report's own serialisation.
+      assert.equal(run.stdout, `${JSON.stringify(report, null, 2)}\n`);
       assert.doesNotMatch(run.stderr, /thermocouple read/);
     });
   });

@@ -15,10 +15,13 @@ export function detailLines(pair: OpResult, { withOutput = true }: { withOutput?
   const message = withoutRestatedProblem(pair.message, problems[0]?.message);
   if (message) out.push(...message.split('\n'));
   for (const problem of problems) out.push(`${pair.file}:${problem.line}:${problem.column}: ${problem.message}`);
-  for (const param of pair.params) {
-    if (param.verdict === 'pass') continue;
-    out.push(paramLine(param));
-    for (const hint of param.hints) out.push(`  hint: ${hint}`);
+  // The op's message already describes a single failing parameter's worst element; with
+  // several failing parameters (or no message) each gets its own line of evidence.
+  const failing = pair.params.filter((p) => p.verdict !== 'pass');
+  const perParamLines = failing.length > 1 || !message;
+  for (const param of failing) {
+    if (perParamLines) out.push(paramLine(param));
+    for (const hint of param.hints) out.push(`${perParamLines ? '  ' : ''}hint: ${hint}`);
   }
   for (const hint of pair.hints) out.push(`hint: ${hint}`);
   // An annotation error never ran, so its seed explains nothing.

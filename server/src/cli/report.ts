@@ -10,9 +10,19 @@ export const VERDICTS: readonly Verdict[] = ['pass', 'mismatch', 'inconclusive',
 
 /** Builds the report: `file` relative to `cwd` with `/`, pairs ordered by file, line, name. */
 export function buildReport(results: readonly OpResult[], cwd: string): Report {
-  const pairs = results.map((r) => ({ ...r, file: reportPath(r.file, cwd) }));
+  const pairs = results.map((r) => inReadingOrder({ ...r, file: reportPath(r.file, cwd) }));
   pairs.sort((a, b) => compare(a.file, b.file) || a.line - b.line || compare(a.forward ?? '', b.forward ?? ''));
   return { version: 1, pairs, summary: summarize(pairs) };
+}
+
+/** Keys a reader looks for first (the interface's example order); the rest follow as they came. */
+const LEADING_KEYS = ['file', 'line', 'forward', 'backward', 'verdict', 'seed', 'elapsedMs', 'message', 'hints', 'params', 'problems'] as const;
+
+function inReadingOrder(pair: OpResult): OpResult {
+  const ordered: Record<string, unknown> = {};
+  for (const key of LEADING_KEYS) if (pair[key] !== undefined) ordered[key] = pair[key];
+  for (const [key, value] of Object.entries(pair)) if (!(key in ordered)) ordered[key] = value;
+  return ordered as unknown as OpResult;
 }
 
 /** Counts of each verdict. */
