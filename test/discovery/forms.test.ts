@@ -232,6 +232,28 @@ function b() {}
     assert.deepEqual(res.ops[0]!.tags.map((t) => t.tag), ['backward', 'sample']);
   });
 
+  it('reads one-line JSDoc comments and tags from stacked JSDoc blocks', () => {
+    const text = `/** @backward fb @sample x num in [0, 1] */
+export function f(x: number) { return x; }
+function fb() {}
+/** Greenhouse module, version 2. */
+/**
+ * @backward gb
+ * @sample y num
+ */
+export function g(y: number) { return y; }
+function gb() {}
+`;
+    const r = discover(text);
+    const f = opNamed(r, 'f');
+    assert.deepEqual(f.problems, []);
+    assert.deepEqual(f.params[0]!.sample, { kind: 'random', dtype: 'num', shape: [], range: [0, 1], avoid: [], fixed: false });
+    // The @backward tag ends where its body ends, before the next tag on the same line.
+    const b = at(text, '@backward fb');
+    assert.deepEqual(f.tags[0], { tag: 'backward', line: b.line, column: b.column, endLine: b.line, endColumn: b.column + '@backward fb'.length });
+    assert.deepEqual(opNamed(r, 'g').problems, []);
+  });
+
   it('skips tags shown inside a fenced example', () => {
     const fenced = `/**
  * Usage:
