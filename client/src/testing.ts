@@ -1,0 +1,129 @@
+// The Testing view: every annotated op is a test item, grouped by file; running an item
+// checks that op through the server and reports pass or failure with the verdict's message.
+
+import * as vscode from 'vscode';
+import type { OpResult } from '../../server/src/engine/types';
+import { Methods, type CheckOpsParams, type CheckOpsResult, type FileOps, type ListWorkspaceOpsResult } from '../../server/src/lsp/protocol';
+import type { ProbeContext } from './context';
+
+export class ProbeTests implements vscode.Disposable {
+  readonly controller = vscode.tests.createTestController('gradientProbe', 'Gradient Probe');
+  private readonly disposables: vscode.Disposable[] = [this.controller];
+
+  constructor(private readonly ctx: ProbeContext) {
+    this.controller.resolveHandler = async (item) => {
+      if (!item) await this.loadWorkspace();
+    };
+    this.controller.refreshHandler = () => this.loadWorkspace();
+    this.disposables.push(
+      this.controller.createRunProfile('Check gradients', vscode.TestRunProfileKind.Run, (request, token) => this.run(request, token), true),
+    );
+  }
+
+  /** Asks the server for every op of the workspace (discovery only, nothing runs). */
+  async loadWorkspace(): Promise<void> {
+    const client = this.ctx.running;
+    if (!client) return;
+    const files = await client.sendRequest<ListWorkspaceOpsResult>(Methods.listWorkspaceOps, {});
+    for (const file of files) this.updateFile(file);
+  }
+
+  /** Adds, moves or removes the items of one file from the server's op states. */
+  updateFile(file: FileOps): void {
+    const uri = vscode.Uri.parse(file.uri);
+    let fileItem = this.controller.items.get(file.uri);
+    if (file.ops.length === 0) {
+      if (fileItem) this.controller.items.delete(file.uri);
+      return;
+    }
+    if (!fileItem) {
+      fileItem = this.controller.createTestItem(file.uri, vscode.workspace.asRelativePath(uri), uri);
+      this.controller.items.add(fileItem);
+    }
+    const children: vscode.TestItem[] = [];
+    for (const op of file.ops) {
+      const id = `${file.uri}#${op.forward}`;
+      const item = fileItem.children.get(id) ?? this.controller.createTestItem(id, op.forward, uri);
+      item.range = new vscode.Range(op.range.start.line, op.range.start.character, op.range.end.line, op.range.end.character);
+      item.description = op.state;
+      children.push(item);
+    }
+    fileItem.children.replace(children);
+  }
+
+  /** Runs the requested items: whole files or single ops, one server request per file. */
+  private async run(request: vscode.TestRunRequest, token: vscode.CancellationToken): Promise<void> {
+    const run = this.controller.createTestRun(request, 'Gradient Probe', true);
+    try {
+      const client = this.ctx.running;
+      const byFile = new Map<string, { fileItem: vscode.TestItem; ops: vscode.TestItem[] | undefined }>();
+      const roots = request.include ?? [...gather(this.controller.items)];
+      for (const item of roots) {
+        const fileItem = item.parent ?? item;
+        const entry = byFile.get(fileItem.id) ?? { fileItem, ops: [] };
+        if (item.parent) entry.ops?.push(item);
+        else entry.ops = undefined; // the whole file
+        byFile.set(fileItem.id, entry);
+      }
+      for (const { fileItem, ops } of byFile.values()) {
+        if (token.isCancellationRequested) break;
+        const items = ops ?? [...gather(fileItem.children)];
+        const excluded = new Set(request.exclude?.map((i) => i.id) ?? []);
+        const wanted = items.filter((i) => !excluded.has(i.id));
+        if (!client) {
+          for (const item of wanted) run.errored(item, new vscode.TestMessage('The Gradient Probe language server is not running.'));
+          continue;
+        }
+        for (const item of wanted) run.started(item);
+        const params: CheckOpsParams = { uri: fileItem.id, forwards: wanted.map((i) => i.label), force: true };
+        const answer = await client.sendRequest<CheckOpsResult>(Methods.checkOps, params, token);
+        const byName = new Map<string, OpResult>(answer.results.map((r) => [r.forward ?? '', r]));
+        for (const item of wanted) {
+          const result = byName.get(item.label);
+          if (!result) {
+            run.skipped(item);
+            if (answer.reason) run.appendOutput(`${item.label}: ${answer.reason}\r\n`);
+            continue;
+          }
+          report(run, item, result);
+        }
+      }
+    } catch (err) {
+      run.appendOutput(`Gradient Probe: ${err instanceof Error ? err.message : String(err)}\r\n`);
+    } finally {
+      run.end();
+    }
+  }
+
+  dispose(): void {
+    for (const d of this.disposables) d.dispose();
+  }
+}
+
+function report(run: vscode.TestRun, item: vscode.TestItem, result: OpResult): void {
+  const duration = result.elapsedMs;
+  if (result.output) run.appendOutput(result.output.replace(/\r?\n/g, '\r\n'), undefined, item);
+  if (result.verdict === 'pass') {
+    run.passed(item, duration);
+    return;
+  }
+  if (result.verdict === 'inconclusive') {
+    // Neither right nor wrong: the numeric estimate could not be trusted at the sample.
+    run.appendOutput(`${item.label}: inconclusive: ${result.message}\r\n`, undefined, item);
+    run.skipped(item);
+    return;
+  }
+  const message = new vscode.TestMessage(`${result.verdict}: ${result.message}`);
+  const worst = result.params.find((p) => p.verdict === result.verdict && p.worst) ?? result.params.find((p) => p.worst);
+  if (result.verdict === 'mismatch' && worst?.worst) {
+    message.expectedOutput = `numeric ${worst.worst.numeric} at ${worst.name}[${worst.worst.index.join(', ')}]`;
+    message.actualOutput = `backward ${worst.worst.analytic} at ${worst.name}[${worst.worst.index.join(', ')}]`;
+  }
+  if (item.uri && item.range) message.location = new vscode.Location(item.uri, item.range);
+  if (result.verdict === 'error') run.errored(item, message, duration);
+  else run.failed(item, message, duration);
+}
+
+function* gather(collection: vscode.TestItemCollection): Generator<vscode.TestItem> {
+  for (const [, item] of collection) yield item;
+}

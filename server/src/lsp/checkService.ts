@@ -1,0 +1,197 @@
+// Runs checks for the language server: one Checker for the whole server, the latest result of
+// every op per document, which ops are running, cancellation of stale runs, and reuse of a
+// result when neither the text nor the settings changed since it was computed.
+
+import { createHash } from 'node:crypto';
+import { Checker } from '../core/checker';
+import { DEFAULT_SETTINGS, type CheckSettings } from '../engine/settings';
+import type { OpResult } from '../engine/types';
+import { settingsKey } from './settings';
+
+/** A result and the (text, settings) it was computed for. */
+interface StoredResult {
+  key: string;
+  result: OpResult;
+}
+
+/** Why a run did not happen; shown to the user as is. */
+export class CheckRefused extends Error {}
+
+export interface CheckRequest {
+  uri: string;
+  fsPath: string;
+  text: string;
+  settings: CheckSettings;
+  /** Display names of the ops to check; undefined = every op of the file. */
+  forwards?: string[];
+  /** Ops of the file (display names) that the run will cover when `forwards` is undefined. */
+  knownForwards: string[];
+  /** Run even when a result for the same text and settings exists. */
+  force?: boolean;
+  /** Cancels this run (a client's cancellation); newer edits cancel it too. */
+  signal?: AbortSignal;
+}
+
+export class CheckService {
+  private checker: Checker | undefined;
+  private readonly results = new Map<string, Map<string, StoredResult>>();
+  private readonly running = new Map<string, Map<string, number>>();
+  private readonly controllers = new Map<string, Set<AbortController>>();
+  private trusted: boolean;
+
+  constructor(
+    options: { trusted: boolean; workers?: number },
+    /** Called whenever results or running states of a document change. */
+    private readonly onChange: (uri: string) => void,
+    private readonly log: (line: string) => void,
+  ) {
+    this.trusted = options.trusted;
+    this.workers = options.workers;
+  }
+
+  private readonly workers: number | undefined;
+
+  get isTrusted(): boolean {
+    return this.trusted;
+  }
+
+  /** Trust withdrawn: stop everything that runs user code at once. */
+  setTrusted(trusted: boolean): void {
+    this.trusted = trusted;
+    if (!trusted) for (const uri of [...this.controllers.keys()]) this.cancel(uri);
+  }
+
+  /** The text changed: results computed for older text stay visible but their runs stop. */
+  cancel(uri: string): void {
+    for (const controller of this.controllers.get(uri) ?? []) controller.abort();
+  }
+
+  latest(uri: string, forward: string): OpResult | undefined {
+    return this.results.get(uri)?.get(forward)?.result;
+  }
+
+  latestAll(uri: string): Map<string, OpResult> {
+    const out = new Map<string, OpResult>();
+    for (const [forward, stored] of this.results.get(uri) ?? []) out.set(forward, stored.result);
+    return out;
+  }
+
+  isRunning(uri: string, forward: string): boolean {
+    return (this.running.get(uri)?.get(forward) ?? 0) > 0;
+  }
+
+  knownUris(): string[] {
+    return [...new Set([...this.results.keys(), ...this.running.keys()])];
+  }
+
+  /** Drops what is known about a document whose file is gone. */
+  forget(uri: string): void {
+    this.cancel(uri);
+    this.results.delete(uri);
+    this.running.delete(uri);
+  }
+
+  /**
+   * Checks the requested ops of one document. Reuses a stored result when text and settings
+   * are unchanged (unless forced). Resolves with the results of the requested ops in file
+   * order; a cancelled run resolves with what finished before it stopped.
+   */
+  async check(request: CheckRequest): Promise<OpResult[]> {
+    if (!this.trusted) throw new CheckRefused('the workspace is not trusted, so no code from it runs');
+    const key = `${hashText(request.text)}|${settingsKey(request.settings)}`;
+    const wanted = request.forwards ?? request.knownForwards;
+    const stored = this.results.get(request.uri);
+    const reusable = !request.force && wanted.length > 0 && wanted.every((f) => stored?.get(f)?.key === key);
+    if (reusable) return wanted.map((f) => stored!.get(f)!.result);
+
+    const controller = new AbortController();
+    const onOuterAbort = (): void => controller.abort();
+    request.signal?.addEventListener('abort', onOuterAbort);
+    let controllers = this.controllers.get(request.uri);
+    if (!controllers) this.controllers.set(request.uri, (controllers = new Set()));
+    controllers.add(controller);
+    this.markRunning(request.uri, wanted, +1);
+    const finished = new Set<string>();
+    const collected: OpResult[] = [];
+    const accept = (result: OpResult): void => {
+      if (controller.signal.aborted) return;
+      const forward = result.forward ?? '';
+      if (request.forwards && !request.forwards.includes(forward)) return; // `filter` is a substring match
+      collected.push(result);
+      this.store(request.uri, forward, key, result);
+      if (wanted.includes(forward) && !finished.has(forward)) {
+        finished.add(forward);
+        this.markRunning(request.uri, [forward], -1);
+      }
+      this.onChange(request.uri);
+    };
+    try {
+      const checker = this.getChecker();
+      // The Checker's filter is a substring of the forward name: it narrows a one-op run,
+      // and `accept` drops the other ops it lets through.
+      const filter = request.forwards && request.forwards.length === 1 ? request.forwards[0]! : undefined;
+      const results = await checker.checkFile(request.fsPath, {
+        text: request.text,
+        signal: controller.signal,
+        settings: request.settings,
+        onResult: accept,
+        ...(filter !== undefined ? { filter } : {}),
+      });
+      // Results not seen through onResult (a Checker that reports only at the end).
+      for (const result of results) {
+        if (!collected.includes(result) && !finished.has(result.forward ?? '')) accept(result);
+      }
+    } catch (err) {
+      if (!controller.signal.aborted) {
+        this.log(`check of ${request.fsPath} failed: ${err instanceof Error ? err.stack ?? err.message : String(err)}`);
+        throw err;
+      }
+    } finally {
+      request.signal?.removeEventListener('abort', onOuterAbort);
+      controllers.delete(controller);
+      if (controllers.size === 0) this.controllers.delete(request.uri);
+      this.markRunning(request.uri, wanted.filter((f) => !finished.has(f)), -1);
+      this.onChange(request.uri);
+    }
+    const order = new Map(wanted.map((f, i) => [f, i] as const));
+    return collected.sort((a, b) => (order.get(a.forward ?? '') ?? 1e9) - (order.get(b.forward ?? '') ?? 1e9));
+  }
+
+  async dispose(): Promise<void> {
+    for (const uri of [...this.controllers.keys()]) this.cancel(uri);
+    const checker = this.checker;
+    this.checker = undefined;
+    if (checker) await checker.dispose();
+  }
+
+  private getChecker(): Checker {
+    if (!this.checker) {
+      // Per-call settings go with each checkFile; these are only the pool's starting point.
+      this.checker = new Checker({ settings: DEFAULT_SETTINGS, ...(this.workers !== undefined ? { workers: this.workers } : {}) });
+    }
+    return this.checker;
+  }
+
+  private store(uri: string, forward: string, key: string, result: OpResult): void {
+    let perDoc = this.results.get(uri);
+    if (!perDoc) this.results.set(uri, (perDoc = new Map()));
+    perDoc.set(forward, { key, result });
+  }
+
+  private markRunning(uri: string, forwards: string[], delta: number): void {
+    if (forwards.length === 0) return;
+    let perDoc = this.running.get(uri);
+    if (!perDoc) this.running.set(uri, (perDoc = new Map()));
+    for (const f of forwards) {
+      const n = Math.max(0, (perDoc.get(f) ?? 0) + delta);
+      if (n === 0) perDoc.delete(f);
+      else perDoc.set(f, n);
+    }
+    if (perDoc.size === 0) this.running.delete(uri);
+    this.onChange(uri);
+  }
+}
+
+function hashText(text: string): string {
+  return createHash('sha256').update(text).digest('hex').slice(0, 32);
+}

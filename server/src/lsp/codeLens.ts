@@ -1,0 +1,57 @@
+// Code lenses above every annotated op: the verdict with its figure (worst parameter, max
+// relative error, time) or "checking…" while it runs — clicking re-checks the op — and one
+// more that opens the op's report.
+
+import type { CodeLens } from 'vscode-languageserver';
+import type { DocumentFacts } from './documentFacts';
+import { millis, oneLine, opNameRange, sci, worstParam } from './format';
+import { ClientCommands, ServerCommands } from './protocol';
+
+export function codeLensesFor(facts: DocumentFacts): CodeLens[] {
+  const { snapshot } = facts;
+  const lenses: CodeLens[] = [];
+  for (const op of snapshot.ops) {
+    const range = opNameRange(op, snapshot.lines);
+    const args = [snapshot.uri, op.forward];
+    const recheck = (title: string): CodeLens => ({ range, command: { title, command: ServerCommands.recheck, arguments: args } });
+    if (op.problems.length > 0) {
+      lenses.push({ range, command: { title: `Gradient Probe: annotation error — ${oneLine(op.problems[0]!.message, 80)}`, command: '' } });
+      continue;
+    }
+    if (facts.configError) {
+      lenses.push({ range, command: { title: 'Gradient Probe: not checked — the project configuration file has an error', command: '' } });
+      continue;
+    }
+    if (!facts.trusted) {
+      lenses.push({ range, command: { title: 'Gradient Probe: not checked in an untrusted workspace', command: '' } });
+      continue;
+    }
+    if (facts.isRunning(op.forward)) {
+      lenses.push({ range, command: { title: 'Gradient Probe: checking…', command: '' } });
+      continue;
+    }
+    const result = facts.latest(op.forward);
+    if (!result) {
+      lenses.push(recheck('Gradient Probe: not checked yet — check now'));
+      continue;
+    }
+    const p = worstParam(result);
+    const time = millis(result.elapsedMs);
+    switch (result.verdict) {
+      case 'pass':
+        lenses.push(recheck(`✓ gradient ok${p ? ` · worst ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
+        break;
+      case 'mismatch':
+        lenses.push(recheck(`✗ gradient mismatch${p ? ` · ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
+        break;
+      case 'inconclusive':
+        lenses.push(recheck(`? inconclusive · ${oneLine(result.message, 60)} · ${time}`));
+        break;
+      case 'error':
+        lenses.push(recheck(`! could not check · ${oneLine(result.message, 60)}`));
+        break;
+    }
+    lenses.push({ range, command: { title: 'report', command: ClientCommands.openReport, arguments: args } });
+  }
+  return lenses;
+}

@@ -1,0 +1,99 @@
+// Diagnostics of one document: a check's verdict on the forward's name (mismatch and error as
+// errors, inconclusive as a warning) with related information pointing at the backward and the
+// `@sample` tag; annotation mistakes on the tag itself; why nothing ran when nothing may run.
+
+import { pathToFileURL } from 'node:url';
+import { DiagnosticSeverity, type Diagnostic, type DiagnosticRelatedInformation } from 'vscode-languageserver';
+import type { OpDescriptor, OpResult } from '../engine/types';
+import type { DocumentFacts } from './documentFacts';
+import { opNameRange, problemRange, toRange, verdictSentence, worstParam } from './format';
+
+/** The `source` of every diagnostic we publish. */
+export const DIAGNOSTIC_SOURCE = 'gradient-probe';
+
+/** One code per kind, so users can filter and the tests can tell them apart. */
+export const DiagnosticCodes = {
+  mismatch: 'gradient-mismatch',
+  inconclusive: 'gradient-inconclusive',
+  error: 'check-failed',
+  annotation: 'annotation',
+  untrusted: 'untrusted-workspace',
+  config: 'project-config',
+} as const;
+
+export function diagnosticsFor(facts: DocumentFacts): Diagnostic[] {
+  const { snapshot } = facts;
+  const out: Diagnostic[] = [];
+  for (const op of snapshot.ops) {
+    // Annotation mistakes are known without running anything, so they show even untrusted.
+    if (op.problems.length > 0) {
+      for (const problem of op.problems) {
+        out.push({
+          range: problemRange(problem, snapshot.lines),
+          severity: DiagnosticSeverity.Error,
+          source: DIAGNOSTIC_SOURCE,
+          code: DiagnosticCodes.annotation,
+          message: `${op.forward}: ${problem.message}`,
+        });
+      }
+      continue;
+    }
+    const range = opNameRange(op, snapshot.lines);
+    if (facts.configError) {
+      const related: DiagnosticRelatedInformation[] = facts.configError.file
+        ? [{ location: { uri: pathToFileURL(facts.configError.file).toString(), range: zeroRange() }, message: 'the project configuration file' }]
+        : [];
+      out.push({
+        range, severity: DiagnosticSeverity.Error, source: DIAGNOSTIC_SOURCE, code: DiagnosticCodes.config,
+        message: `${op.forward} not checked: ${facts.configError.message}`, relatedInformation: related,
+      });
+      continue;
+    }
+    if (!facts.trusted) {
+      out.push({
+        range, severity: DiagnosticSeverity.Information, source: DIAGNOSTIC_SOURCE, code: DiagnosticCodes.untrusted,
+        message: `${op.forward} not checked: this workspace is not trusted, and checking runs its code. Trust the folder to check it.`,
+      });
+      continue;
+    }
+    const result = facts.latest(op.forward);
+    if (!result || result.verdict === 'pass') continue;
+    out.push(resultDiagnostic(op, result, facts));
+  }
+  return out;
+}
+
+function resultDiagnostic(op: OpDescriptor, result: OpResult, facts: DocumentFacts): Diagnostic {
+  const { snapshot } = facts;
+  const severity = result.verdict === 'inconclusive' ? DiagnosticSeverity.Warning : DiagnosticSeverity.Error;
+  const code = DiagnosticCodes[result.verdict === 'pass' ? 'mismatch' : result.verdict];
+  const related: DiagnosticRelatedInformation[] = [];
+  if (op.backwardLocation) {
+    const loc = op.backwardLocation;
+    const lines = loc.file === snapshot.fsPath ? snapshot.lines : [];
+    related.push({
+      location: { uri: loc.file === snapshot.fsPath ? snapshot.uri : pathToFileURL(loc.file).toString(), range: toRange(loc, undefined, lines) },
+      message: `backward ${op.backward}`,
+    });
+  }
+  const param = worstParam(result);
+  const sampleTag = param ? op.tags.find((t) => t.tag === 'sample' && t.param === param.name) : undefined;
+  if (sampleTag) {
+    related.push({
+      location: { uri: snapshot.uri, range: toRange(sampleTag, { line: sampleTag.endLine, column: sampleTag.endColumn }, snapshot.lines) },
+      message: `how ${param!.name} is drawn (seed ${result.seed})`,
+    });
+  }
+  return {
+    range: opNameRange(op, snapshot.lines),
+    severity,
+    source: DIAGNOSTIC_SOURCE,
+    code,
+    message: `${op.forward}: ${verdictSentence(result)}`,
+    ...(related.length > 0 ? { relatedInformation: related } : {}),
+  };
+}
+
+function zeroRange(): Diagnostic['range'] {
+  return { start: { line: 0, character: 0 }, end: { line: 0, character: 0 } };
+}

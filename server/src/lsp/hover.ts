@@ -1,0 +1,67 @@
+// Hover on a forward's name or on one of its `@sample` tags: a Markdown table per parameter
+// (name, shape, max absolute and relative error, worst index, backward vs numeric there,
+// method), the hints and the seed, so a result can be read and reproduced where the code is.
+
+import { MarkupKind, type Hover, type Position } from 'vscode-languageserver';
+import type { OpDescriptor, ParamResult } from '../engine/types';
+import type { DocumentFacts } from './documentFacts';
+import { contains, figure, indexText, millis, opNameRange, sci, shapeText, toRange } from './format';
+
+export function hoverAt(facts: DocumentFacts, position: Position): Hover | null {
+  const { snapshot } = facts;
+  for (const op of snapshot.ops) {
+    const nameRange = opNameRange(op, snapshot.lines);
+    if (contains(nameRange, position)) return { range: nameRange, contents: { kind: MarkupKind.Markdown, value: opMarkdown(op, facts) } };
+    for (const tag of op.tags) {
+      if (tag.tag !== 'sample') continue;
+      const range = toRange(tag, { line: tag.endLine, column: tag.endColumn }, snapshot.lines);
+      if (contains(range, position)) {
+        return { range, contents: { kind: MarkupKind.Markdown, value: opMarkdown(op, facts, tag.param) } };
+      }
+    }
+  }
+  return null;
+}
+
+/** The hover text; `onlyParam` narrows the table to the parameter a `@sample` tag draws. */
+export function opMarkdown(op: OpDescriptor, facts: DocumentFacts, onlyParam?: string): string {
+  const head = `**${escape(op.forward)}** → backward \`${op.backward}\``;
+  if (op.problems.length > 0) {
+    return [head, '', 'Annotation errors (nothing runs until they are fixed):', '', ...op.problems.map((p) => `- line ${p.line}: ${escape(p.message)}`)].join('\n');
+  }
+  if (facts.configError) return [head, '', `Not checked: ${escape(facts.configError.message)}`].join('\n');
+  if (!facts.trusted) return [head, '', 'Not checked: this workspace is not trusted, and checking runs its code.'].join('\n');
+  const result = facts.latest(op.forward);
+  const running = facts.isRunning(op.forward);
+  if (!result) return [head, '', running ? 'checking…' : 'Not checked yet: save the file or click the lens.'].join('\n');
+  const lines = [
+    `${head} — **${result.verdict}** · seed ${result.seed} · ${millis(result.elapsedMs)}${running ? ' · re-checking…' : ''}`,
+    '',
+  ];
+  if (result.message && result.verdict !== 'pass') lines.push(escape(result.message), '');
+  const params = onlyParam === undefined ? result.params : result.params.filter((p) => p.name === onlyParam);
+  if (params.length > 0) {
+    lines.push(
+      '| parameter | shape | verdict | max abs error | max rel error | worst at | backward | numeric | method |',
+      '| --- | --- | --- | ---: | ---: | --- | ---: | ---: | --- |',
+      ...params.map(row),
+      '',
+    );
+  } else if (onlyParam !== undefined) {
+    lines.push(`\`${escape(onlyParam)}\` is not differentiated (fixed or a literal).`, '');
+  }
+  const hints = [...(onlyParam === undefined ? result.hints : []), ...params.flatMap((p) => p.hints.map((h) => `${p.name}: ${h}`))];
+  if (hints.length > 0) lines.push('Hints:', '', ...hints.map((h) => `- ${escape(h)}`), '');
+  lines.push(`Reproduce with seed ${result.seed}${op.seed !== undefined ? ' (the op’s @seed)' : ''}.`);
+  return lines.join('\n');
+}
+
+function row(p: ParamResult): string {
+  const checked = p.checkedElements < p.elements ? ` (${p.checkedElements}/${p.elements} el.)` : '';
+  return `| ${escape(p.name)} | ${shapeText(p)} | ${p.verdict} | ${sci(p.maxAbsError)} | ${sci(p.maxRelError)} | ${p.worst ? indexText(p.worst.index) : '—'} | ${figure(p.worst?.analytic)} | ${figure(p.worst?.numeric)} | ${p.method}${checked} |`;
+}
+
+/** Markdown's special characters in user-controlled text (names, messages). */
+function escape(text: string): string {
+  return text.replace(/[\\`*_{}[\]<>|#]/g, (c) => `\\${c}`);
+}

@@ -1,0 +1,198 @@
+// The language server's wiring: capabilities, and each LSP or custom message routed to its
+// feature module behind an error boundary, so a failing handler answers empty and logs
+// instead of taking the server down. `runLanguageServer` is what `gradient-probe lsp --stdio` calls.
+
+import { relative } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import {
+  CancellationToken, createConnection, DidChangeConfigurationNotification, FileChangeType, ProposedFeatures,
+  ResponseError, TextDocuments, TextDocumentSyncKind, type Connection, type InitializeParams, type InitializeResult,
+} from 'vscode-languageserver/node';
+import { TextDocument } from 'vscode-languageserver-textdocument';
+import { codeLensesFor } from './codeLens';
+import { checkOps, opReport, recheck, regressionTest } from './commands';
+import { DocumentEvents } from './documentEvents';
+import { hoverAt } from './hover';
+import {
+  Methods, ServerCommands, type CheckOpsParams, type OpReportParams, type ProbeInitializationOptions, type TrustChangedParams,
+} from './protocol';
+import { Session } from './session';
+import { checkWorkspace, listWorkspaceOps } from './workspaceCheck';
+
+/** Starts the server on stdio, IPC or a socket, whichever the command line names. */
+export function runLanguageServer(): void {
+  const connection = createConnection(ProposedFeatures.all);
+  // The server must outlive any bug in a handler; a stray error is logged, never fatal.
+  process.on('uncaughtException', (err) => connection.console.error(`unexpected error: ${err.stack ?? err.message}`));
+  process.on('unhandledRejection', (err) => connection.console.error(`unexpected rejection: ${err instanceof Error ? err.stack ?? err.message : String(err)}`));
+  startServer(connection);
+}
+
+/** Wires every handler onto a connection and starts listening. */
+export function startServer(connection: Connection): void {
+  const documents = new TextDocuments(TextDocument);
+  let session: Session | undefined;
+  let events: DocumentEvents | undefined;
+  let folders: string[] = [];
+  const log = (line: string): void => connection.console.log(line);
+
+  /** Runs a handler; on failure logs it and answers `fallback`. */
+  const guard = <T>(name: string, fallback: T, run: () => Promise<T> | T): Promise<T> =>
+    Promise.resolve()
+      .then(run)
+      .catch((err: unknown) => {
+        log(`${name} failed: ${err instanceof Error ? err.stack ?? err.message : String(err)}`);
+        return fallback;
+      });
+  /** For custom requests: the client gets the error text to show. */
+  const guardRequest = <T>(name: string, run: () => Promise<T>): Promise<T | ResponseError<void>> =>
+    run().catch((err: unknown) => {
+      log(`${name} failed: ${err instanceof Error ? err.stack ?? err.message : String(err)}`);
+      return new ResponseError<void>(-32603, `${name} failed: ${err instanceof Error ? err.message : String(err)}`);
+    });
+  const need = (): Session => {
+    if (!session) throw new Error('the server is not initialized');
+    return session;
+  };
+
+  connection.onInitialize((params: InitializeParams): InitializeResult => {
+    const options = (params.initializationOptions ?? {}) as ProbeInitializationOptions;
+    folders = workspaceFolderPaths(params);
+    session = new Session(connection, (uri) => documents.get(uri), {
+      // interface.md §3: a client that says nothing is trusted (someone started the server by hand).
+      trusted: options.workspaceTrusted !== false,
+      codeLensRefresh: params.capabilities.workspace?.codeLens?.refreshSupport === true,
+    });
+    events = new DocumentEvents(session);
+    return {
+      capabilities: {
+        textDocumentSync: { openClose: true, change: TextDocumentSyncKind.Incremental, save: { includeText: false } },
+        codeLensProvider: { resolveProvider: false },
+        hoverProvider: true,
+        executeCommandProvider: { commands: [ServerCommands.recheck] },
+        workspace: { workspaceFolders: { supported: true, changeNotifications: true } },
+      },
+      serverInfo: { name: 'gradient-probe', version: '0.1.0' },
+    };
+  });
+
+  connection.onInitialized(() => {
+    void guard('initialized', undefined, async () => {
+      await connection.client.register(DidChangeConfigurationNotification.type, { section: 'gradientProbe' });
+      connection.workspace.onDidChangeWorkspaceFolders((e) => {
+        const removed = new Set(e.removed.map((f) => fileURLToPath(f.uri)));
+        folders = [...folders.filter((f) => !removed.has(f)), ...e.added.map((f) => fileURLToPath(f.uri))];
+      });
+    });
+  });
+
+  documents.onDidOpen((e) => void guard('open', undefined, () => events?.opened(e)));
+  documents.onDidChangeContent((e) => void guard('change', undefined, () => events?.edited(e)));
+  documents.onDidSave((e) => void guard('save', undefined, () => events?.saved(e)));
+  documents.onDidClose((e) => void guard('close', undefined, () => events?.closed(e)));
+
+  connection.onCodeLens((params) =>
+    guard('code lens', [], async () => {
+      const facts = await need().facts(need().keyOf(params.textDocument.uri));
+      return facts ? codeLensesFor(facts) : [];
+    }));
+
+  connection.onHover((params) =>
+    guard('hover', null, async () => {
+      const facts = await need().facts(need().keyOf(params.textDocument.uri));
+      return facts ? hoverAt(facts, params.position) : null;
+    }));
+
+  connection.onExecuteCommand((params) =>
+    guard('command', null, async () => (params.command === ServerCommands.recheck ? recheck(need(), params.arguments) : null)));
+
+  connection.onNotification(Methods.trustChanged, (params: TrustChangedParams) =>
+    void guard('trust change', undefined, () => {
+      const s = need();
+      const trusted = params?.workspaceTrusted === true;
+      const was = s.checks.isTrusted;
+      s.checks.setTrusted(trusted);
+      for (const file of s.knownFiles()) s.changed(file);
+      if (trusted && !was) recheckOpenDocuments(s, false);
+    }));
+
+  connection.onDidChangeConfiguration(() =>
+    void guard('configuration change', undefined, () => {
+      need().settings.clear();
+      recheckOpenDocuments(need(), false);
+    }));
+
+  connection.onDidChangeWatchedFiles((params) =>
+    void guard('watched files', undefined, () => {
+      const s = need();
+      let configChanged = false;
+      for (const change of params.changes) {
+        if (change.uri.endsWith('/gradient-probe.json')) configChanged = true;
+        else if (change.type === FileChangeType.Deleted) s.forget(s.keyOf(change.uri));
+      }
+      if (configChanged) {
+        s.settings.clear();
+        recheckOpenDocuments(s, false);
+      }
+    }));
+
+  connection.onRequest(Methods.checkOps, (params: CheckOpsParams, token: CancellationToken) =>
+    guardRequest('check', () => checkOps(need(), params, signalOf(token))));
+
+  connection.onRequest(Methods.listWorkspaceOps, () => guardRequest('list ops', () => listWorkspaceOps(need(), folders)));
+
+  connection.onRequest(Methods.checkWorkspace, (_params: unknown, token: CancellationToken) =>
+    guardRequest('workspace check', () =>
+      checkWorkspace(need(), folders, signalOf(token), (p) => void connection.sendNotification(Methods.workspaceProgress, p), (file) => relativeToFolders(file, folders))));
+
+  connection.onRequest(Methods.opReport, (params: OpReportParams) => guardRequest('report', () => opReport(need(), params)));
+  connection.onRequest(Methods.regressionTest, (params: OpReportParams) => guardRequest('regression test', () => regressionTest(need(), params)));
+
+  connection.onShutdown(async () => {
+    events?.dispose();
+    await session?.dispose();
+  });
+
+  function recheckOpenDocuments(s: Session, force: boolean): void {
+    for (const doc of documents.all()) {
+      const key = s.keyOf(doc.uri);
+      s.changed(key);
+      void s.effectiveSettings(key).then((settings) => {
+        if (settings.checkWhen === 'on-command' || !s.checks.isTrusted) return;
+        return s.check(key, { force }).then(() => undefined);
+      }).catch((err: unknown) => log(`re-check of ${key}: ${err instanceof Error ? err.message : String(err)}`));
+    }
+  }
+
+  documents.listen(connection);
+  connection.listen();
+}
+
+function workspaceFolderPaths(params: InitializeParams): string[] {
+  const uris = params.workspaceFolders?.map((f) => f.uri) ?? (params.rootUri ? [params.rootUri] : []);
+  const out: string[] = [];
+  for (const uri of uris) {
+    try {
+      out.push(fileURLToPath(uri));
+    } catch {
+      // not a file: folder (a virtual file system); nothing on disk to walk
+    }
+  }
+  return out;
+}
+
+function relativeToFolders(file: string, folders: string[]): string {
+  for (const folder of folders) {
+    const rel = relative(folder, file);
+    if (!rel.startsWith('..')) return rel.split('\\').join('/');
+  }
+  return file;
+}
+
+/** LSP cancellation as an AbortSignal, which is what the Checker takes. */
+function signalOf(token: CancellationToken): AbortSignal {
+  const controller = new AbortController();
+  if (token.isCancellationRequested) controller.abort();
+  else token.onCancellationRequested(() => controller.abort());
+  return controller.signal;
+}

@@ -1,0 +1,195 @@
+// The server's state for one connection: open documents and files it has checked, their
+// discovery snapshots, settings and results, and pushing what changed to the client
+// (diagnostics, op states, status counts, a code-lens refresh). Features read it; server.ts wires it.
+
+import { readFileSync } from 'node:fs';
+import { dirname } from 'node:path';
+import { fileURLToPath, pathToFileURL } from 'node:url';
+import { CodeLensRefreshRequest, type Connection } from 'vscode-languageserver';
+import type { TextDocument } from 'vscode-languageserver-textdocument';
+import type { OpResult } from '../engine/types';
+import { CheckRefused, CheckService } from './checkService';
+import { diagnosticsFor } from './diagnostics';
+import { snapshotOf, type DocumentFacts, type DocumentSnapshot } from './documentFacts';
+import { Methods, type FileOps } from './protocol';
+import { SettingsCache, type EffectiveSettings } from './settings';
+import { opSummaries, statusOf } from './testsView';
+
+/** Coalesces bursts of results into one push; short enough to feel immediate. */
+const PUSH_DELAY_MS = 30;
+
+export interface SessionOptions {
+  trusted: boolean;
+  workers?: number;
+  /** Whether the client handles workspace/codeLens/refresh. */
+  codeLensRefresh: boolean;
+}
+
+export class Session {
+  readonly checks: CheckService;
+  readonly settings: SettingsCache;
+  private readonly snapshots = new Map<string, { version: number | null; snapshot: DocumentSnapshot }>();
+  /** The client's spelling of each file's URI (fsPath → uri), so we answer in its terms. */
+  private readonly uris = new Map<string, string>();
+  private readonly dirty = new Set<string>();
+  private pushTimer: NodeJS.Timeout | undefined;
+  private disposed = false;
+
+  constructor(
+    private readonly connection: Connection,
+    private readonly openDocument: (uri: string) => TextDocument | undefined,
+    private readonly options: SessionOptions,
+  ) {
+    this.checks = new CheckService({ trusted: options.trusted, ...(options.workers !== undefined ? { workers: options.workers } : {}) }, (key) => this.changed(key), (line) => this.log(line));
+    this.settings = new SettingsCache((uri) => connection.workspace.getConfiguration({ scopeUri: uri, section: 'gradientProbe' }));
+  }
+
+  log(line: string): void {
+    if (!this.disposed) this.connection.console.log(line);
+  }
+
+  /** The key every per-file map uses: the file path, whatever the client's URI spelling. */
+  keyOf(uri: string): string {
+    let fsPath: string;
+    try {
+      fsPath = fileURLToPath(uri);
+    } catch {
+      fsPath = uri; // not a file: URI (untitled:…); it is its own key and is never checked
+    }
+    if (!this.uris.has(fsPath)) this.uris.set(fsPath, uri);
+    return fsPath;
+  }
+
+  uriOf(fsPath: string): string {
+    return this.uris.get(fsPath) ?? pathToFileURL(fsPath).toString();
+  }
+
+  /** The current text of a file: the open buffer, else the disk. */
+  textOf(fsPath: string): { text: string; version: number | null } | undefined {
+    const doc = this.openDocument(this.uriOf(fsPath));
+    if (doc) return { text: doc.getText(), version: doc.version };
+    try {
+      return { text: readFileSync(fsPath, 'utf8'), version: null };
+    } catch {
+      return undefined;
+    }
+  }
+
+  snapshot(fsPath: string): DocumentSnapshot | undefined {
+    const current = this.textOf(fsPath);
+    if (!current) return undefined;
+    const cached = this.snapshots.get(fsPath);
+    if (cached && current.version !== null && cached.version === current.version) return cached.snapshot;
+    if (cached && current.version === null && cached.snapshot.text === current.text) return cached.snapshot;
+    const snapshot = snapshotOf(this.uriOf(fsPath), fsPath, current.text, (l) => this.log(l));
+    this.snapshots.set(fsPath, { version: current.version, snapshot });
+    return snapshot;
+  }
+
+  /** Settings of a document (`isFolder` false) or of a workspace folder. */
+  async effectiveSettings(fsPath: string, isFolder = false): Promise<EffectiveSettings> {
+    const settings = await this.settings.get(this.uriOf(fsPath), isFolder ? fsPath : dirname(fsPath));
+    for (const problem of settings.problems) this.warnOnce(problem);
+    return settings;
+  }
+
+  async facts(fsPath: string): Promise<DocumentFacts | undefined> {
+    const snapshot = this.snapshot(fsPath);
+    if (!snapshot) return undefined;
+    const settings = await this.effectiveSettings(fsPath);
+    return {
+      snapshot,
+      trusted: this.checks.isTrusted,
+      ...(settings.configError ? { configError: settings.configError } : {}),
+      latest: (forward) => this.checks.latest(fsPath, forward),
+      isRunning: (forward) => this.checks.isRunning(fsPath, forward),
+    };
+  }
+
+  /**
+   * Checks a file (all its ops or those named) with its current text and settings.
+   * Throws CheckRefused when nothing may run, saying why.
+   */
+  async check(fsPath: string, opts: { forwards?: string[]; force?: boolean; signal?: AbortSignal } = {}): Promise<OpResult[]> {
+    const settings = await this.effectiveSettings(fsPath);
+    if (settings.configError) throw new CheckRefused(settings.configError.message);
+    if (!this.checks.isTrusted) throw new CheckRefused('the workspace is not trusted, so no code from it runs');
+    const snapshot = this.snapshot(fsPath);
+    if (!snapshot) throw new CheckRefused(`${fsPath} cannot be read`);
+    const runnable = snapshot.ops.filter((op) => op.problems.length === 0).map((op) => op.forward);
+    this.changed(fsPath);
+    return this.checks.check({
+      uri: fsPath,
+      fsPath,
+      text: snapshot.text,
+      settings: settings.settings,
+      knownForwards: runnable,
+      ...(opts.forwards ? { forwards: opts.forwards.filter((f) => runnable.includes(f)) } : {}),
+      ...(opts.force !== undefined ? { force: opts.force } : {}),
+      ...(opts.signal ? { signal: opts.signal } : {}),
+    });
+  }
+
+  /** Schedules a push of everything the client shows about a file. */
+  changed(fsPath: string): void {
+    if (this.disposed) return;
+    this.dirty.add(fsPath);
+    if (!this.pushTimer) this.pushTimer = setTimeout(() => void this.push(), PUSH_DELAY_MS);
+  }
+
+  /** Every file the session knows: open documents and checked files. */
+  knownFiles(): string[] {
+    return [...new Set([...this.snapshots.keys(), ...this.checks.knownUris()])];
+  }
+
+  async pushNow(): Promise<void> {
+    await this.push();
+  }
+
+  forget(fsPath: string): void {
+    this.checks.forget(fsPath);
+    this.snapshots.delete(fsPath);
+    void this.connection.sendDiagnostics({ uri: this.uriOf(fsPath), diagnostics: [] });
+  }
+
+  async dispose(): Promise<void> {
+    this.disposed = true;
+    if (this.pushTimer) clearTimeout(this.pushTimer);
+    await this.checks.dispose();
+  }
+
+  private readonly warned = new Set<string>();
+  private warnOnce(message: string): void {
+    if (this.warned.has(message)) return;
+    this.warned.add(message);
+    void this.connection.window.showWarningMessage(`Gradient Probe: ${message}`);
+  }
+
+  private async push(): Promise<void> {
+    this.pushTimer = undefined;
+    const files = [...this.dirty];
+    this.dirty.clear();
+    for (const fsPath of files) {
+      try {
+        const facts = await this.facts(fsPath);
+        if (!facts || this.disposed) continue;
+        await this.connection.sendDiagnostics({ uri: facts.snapshot.uri, diagnostics: diagnosticsFor(facts) });
+        await this.connection.sendNotification(Methods.opStates, opSummaries(facts));
+      } catch (err) {
+        this.log(`could not update ${fsPath}: ${err instanceof Error ? err.message : String(err)}`);
+      }
+    }
+    if (this.disposed) return;
+    try {
+      const all: FileOps[] = [];
+      for (const fsPath of this.knownFiles()) {
+        const facts = await this.facts(fsPath);
+        if (facts) all.push(opSummaries(facts));
+      }
+      await this.connection.sendNotification(Methods.status, statusOf(all, this.checks.isTrusted));
+      if (this.options.codeLensRefresh) await this.connection.sendRequest(CodeLensRefreshRequest.type);
+    } catch (err) {
+      this.log(`could not refresh: ${err instanceof Error ? err.message : String(err)}`);
+    }
+  }
+}

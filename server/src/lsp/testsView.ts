@@ -1,0 +1,32 @@
+// Data for the client's Testing view and status bar: every op of a file with where it stands,
+// computed from the same facts as the diagnostics.
+
+import type { DocumentFacts } from './documentFacts';
+import { oneLine, opNameRange, verdictSentence } from './format';
+import type { FileOps, OpSummary, StatusParams } from './protocol';
+
+export function opSummaries(facts: DocumentFacts): FileOps {
+  const ops: OpSummary[] = facts.snapshot.ops.map((op) => {
+    const range = opNameRange(op, facts.snapshot.lines);
+    if (op.problems.length > 0) return { forward: op.forward, range, state: 'error', message: `annotation error: ${oneLine(op.problems[0]!.message)}` };
+    if (facts.configError) return { forward: op.forward, range, state: 'not-run', message: `not checked: ${oneLine(facts.configError.message)}` };
+    if (!facts.trusted) return { forward: op.forward, range, state: 'not-run', message: 'not checked: the workspace is not trusted' };
+    if (facts.isRunning(op.forward)) return { forward: op.forward, range, state: 'checking', message: 'checking…' };
+    const result = facts.latest(op.forward);
+    if (!result) return { forward: op.forward, range, state: 'unchecked', message: 'not checked yet' };
+    return { forward: op.forward, range, state: result.verdict, message: verdictSentence(result) };
+  });
+  return { uri: facts.snapshot.uri, ops };
+}
+
+/** Counts over files for the status bar. */
+export function statusOf(files: FileOps[], trusted: boolean): StatusParams {
+  const status: StatusParams = { pass: 0, mismatch: 0, inconclusive: 0, error: 0, checking: 0, trusted };
+  for (const file of files) {
+    for (const op of file.ops) {
+      if (op.state === 'checking') status.checking++;
+      else if (op.state === 'pass' || op.state === 'mismatch' || op.state === 'inconclusive' || op.state === 'error') status[op.state]++;
+    }
+  }
+  return status;
+}

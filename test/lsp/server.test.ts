@@ -1,0 +1,198 @@
+// Protocol-level tests of the language server: the real server in a child process, spoken to
+// with the real LSP client library, on the fixture workspace test/fixtures/lsp/.
+
+import assert from 'node:assert/strict';
+import type { CodeLens, Hover, MarkupContent } from 'vscode-languageserver-protocol/lib/node/main';
+import { Methods, type CheckWorkspaceResult, type ListWorkspaceOpsResult, type OpReportResult, type WorkspaceProgressParams } from '../../server/src/lsp/protocol';
+import { LspSession, lsp } from './lspSession';
+
+const { CodeLensRequest, DiagnosticSeverity, HoverRequest } = lsp;
+
+/**
+ * User settings the test "editor" returns. The time limit is short so the hanging fixture
+ * ends within the test (the default, 10 s, would only make the suite slower).
+ */
+const USER_SETTINGS = { timeLimitMs: 2500, tolerance: { f64: 1e-6 } };
+
+/** 0-based position of the `occurrence`-th `needle` in `text`. */
+function positionOf(text: string, needle: string, occurrence = 1): { line: number; character: number } {
+  let at = -1;
+  for (let i = 0; i < occurrence; i++) {
+    at = text.indexOf(needle, at + 1);
+    assert.ok(at >= 0, `"${needle}" not found`);
+  }
+  const before = text.slice(0, at);
+  return { line: before.split('\n').length - 1, character: at - before.lastIndexOf('\n') - 1 };
+}
+
+function hoverText(hover: Hover | null): string {
+  assert.ok(hover, 'no hover');
+  return (hover.contents as MarkupContent).value;
+}
+
+describe('language server over LSP (trusted workspace)', function () {
+  this.timeout(90_000);
+  let s: LspSession;
+
+  before(async () => {
+    s = new LspSession({ trusted: true, settings: USER_SETTINGS });
+    await s.initialize();
+  });
+  after(async () => {
+    await s.close();
+  });
+
+  it('puts a mismatch on the forward name with its size, worst index and related places', async () => {
+    const uri = await s.open('mismatch.ts');
+    const text = s.text('mismatch.ts');
+    const diags = await s.waitFor('mismatch diagnostic', () => {
+      const d = s.diagnostics.get(uri)?.filter((x) => x.code === 'gradient-mismatch');
+      return d && d.length > 0 ? d : undefined;
+    });
+    assert.equal(diags.length, 1);
+    const d = diags[0]!;
+    const name = positionOf(text, 'growth(');
+    assert.deepEqual(d.range.start, name);
+    assert.deepEqual(d.range.end, { line: name.line, character: name.character + 'growth'.length });
+    assert.equal(d.severity, DiagnosticSeverity.Error);
+    assert.equal(d.source, 'gradient-probe');
+    assert.match(String(d.message), /gradient of x is wrong: max relative error 5\.0e-1 at \[\d, \d\]/);
+    // d/dx e^(2x) = 2e^(2x) (chain rule; Abramowitz & Stegun ch. 4 gives d/dx e^x = e^x, from
+    // memory of §4.2): a backward returning e^(2x) is off by |a - n| / |n| = 1/2 at every element.
+    const report = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri, forward: 'growth' });
+    assert.ok(report.result, report.reason);
+    const x = report.result.params.find((p) => p.name === 'x')!;
+    assert.ok(Math.abs(x.maxRelError - 0.5) < 1e-6, `max relative error ${x.maxRelError}, expected 0.5`);
+    assert.deepEqual(x.shape, [2, 3]);
+    const related = d.relatedInformation ?? [];
+    assert.deepEqual(related.find((r) => r.message.startsWith('backward'))?.location.range.start, positionOf(text, 'growthBackward(', 1));
+    assert.equal(related.find((r) => r.message.startsWith('how x is drawn'))?.location.range.start.line, positionOf(text, '@sample x').line);
+  });
+
+  it('shows a passing op in a code lens and a per-parameter hover table', async () => {
+    const uri = await s.open('pass.ts');
+    const text = s.text('pass.ts');
+    await s.waitFor('softplus to pass', () => s.opState(uri, 'softplus') === 'pass');
+    assert.equal(s.diagnostics.get(uri)?.length ?? 0, 0, 'a pass publishes no diagnostic');
+    const lenses = await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } }) as CodeLens[];
+    const titles = lenses.map((l) => l.command?.title ?? '');
+    assert.equal(lenses.length, 2, titles.join(' | '));
+    assert.match(titles[0]!, /^✓ gradient ok · worst x \d\.\de-\d+ rel · \d/);
+    assert.equal(lenses[0]!.command?.command, 'gradientProbe.server.recheck');
+    assert.deepEqual(lenses[0]!.command?.arguments, [uri, 'softplus']);
+    assert.equal(lenses[1]!.command?.command, 'gradientProbe.openReport');
+    assert.deepEqual(lenses[0]!.range.start, positionOf(text, 'softplus('));
+
+    const hover = hoverText(await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: positionOf(text, 'softplus(') }));
+    assert.match(hover, /\*\*softplus\*\* → backward `softplusBackward` — \*\*pass\*\* · seed 1234/);
+    assert.match(hover, /\| x \| f64\[8\] \| pass \| /);
+    // The @sample tag's hover narrows the table to the parameter it draws.
+    const tagHover = hoverText(await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: positionOf(text, '@sample x') }));
+    assert.match(tagHover, /\| x \| f64\[8\] \|/);
+    const report = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri, forward: 'softplus' });
+    assert.ok(report.result!.params[0]!.maxRelError < USER_SETTINGS.tolerance.f64);
+  });
+
+  it('puts an annotation mistake on its tag and runs nothing for that op', async () => {
+    const uri = await s.open('annotation.ts');
+    const text = s.text('annotation.ts');
+    const diags = await s.waitFor('annotation diagnostic', () => s.diagnostics.get(uri)?.filter((d) => d.code === 'annotation').length ? s.diagnostics.get(uri) : undefined);
+    assert.equal(diags.length, 1);
+    assert.equal(diags[0]!.range.start.line, positionOf(text, '@sample x f65').line);
+    assert.equal(diags[0]!.severity, DiagnosticSeverity.Error);
+    assert.match(String(diags[0]!.message), /f65/);
+    const lenses = await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } }) as CodeLens[];
+    assert.match(lenses[0]!.command!.title, /annotation error/);
+  });
+
+  it('answers a hover while an op hangs, and an edit cancels the stale run', async () => {
+    const uri = await s.open('hang.ts');
+    const text = s.text('hang.ts');
+    await s.waitFor('stuck to be checking', () => s.opState(uri, 'stuck') === 'checking');
+    // The hover comes back while the run is still in flight: its text says so.
+    const hover = hoverText(await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: positionOf(text, 'stuck(') }));
+    assert.match(hover, /checking…/);
+    assert.equal(s.opState(uri, 'stuck'), 'checking', 'the hover was answered before the check ended');
+    // An edit (open-and-save mode: no new run) stops the run of the old text.
+    await s.append(uri, text.split('\n').length - 1, '// edited\n');
+    await s.waitFor('the stale run to stop', () => s.opState(uri, 'stuck') === 'unchecked');
+    // Had it not been cancelled, a "timed out" error would arrive after the time limit.
+    await new Promise((r) => setTimeout(r, USER_SETTINGS.timeLimitMs + 1500));
+    assert.equal(s.opState(uri, 'stuck'), 'unchecked');
+    assert.equal((s.diagnostics.get(uri) ?? []).length, 0);
+  });
+
+  it('lets the project file win over the user setting where both set a tolerance', async () => {
+    // Same op as mismatch.ts (relative error 1/2); loose/gradient-probe.json sets tolerance.f64 0.6.
+    const uri = await s.open('loose/growth.ts');
+    await s.waitFor('growth under the loose project file to pass', () => {
+      const state = s.opState(uri, 'growth');
+      return state === 'pass' || state === 'mismatch' ? state : undefined;
+    }).then((state) => assert.equal(state, 'pass'));
+  });
+
+  it('copies a regression test for a mismatch, and refuses one for a pass', async () => {
+    const snippet = await s.connection.sendRequest<{ snippet: string | null; reason?: string }>(Methods.regressionTest, { uri: s.uri('mismatch.ts'), forward: 'growth' });
+    assert.ok(snippet.snippet, snippet.reason);
+    assert.match(snippet.snippet, /^it\('growth: /m);
+    assert.match(snippet.snippet, /seed 1234/);
+    const none = await s.connection.sendRequest<{ snippet: string | null; reason?: string }>(Methods.regressionTest, { uri: s.uri('pass.ts'), forward: 'softplus' });
+    assert.equal(none.snippet, null);
+    assert.match(none.reason ?? '', /not a mismatch/);
+  });
+
+  it('lists and checks the whole workspace with progress and a summary', async () => {
+    const listed = await s.connection.sendRequest<ListWorkspaceOpsResult>(Methods.listWorkspaceOps, {});
+    const names = listed.flatMap((f) => f.ops.map((o) => o.forward)).sort();
+    assert.deepEqual(names, ['growth', 'growth', 'half', 'softplus', 'stuck']);
+    const progress: WorkspaceProgressParams[] = [];
+    const sub = s.connection.onNotification(Methods.workspaceProgress, (p: WorkspaceProgressParams) => progress.push(p));
+    const summary = await s.connection.sendRequest<CheckWorkspaceResult>(Methods.checkWorkspace, {});
+    sub.dispose();
+    assert.equal(summary.files, 5);
+    assert.equal(summary.cancelled, false);
+    // pass.ts and loose/growth.ts pass; mismatch.ts mismatches; annotation.ts and hang.ts (timed out) are errors.
+    assert.deepEqual({ pass: summary.pass, mismatch: summary.mismatch, error: summary.error }, { pass: 2, mismatch: 1, error: 2 });
+    assert.equal(progress.at(-1)?.done, 5);
+    assert.equal(progress.at(-1)?.total, 5);
+    const hang = s.uri('hang.ts');
+    await s.waitFor('the timeout diagnostic of hang.ts', () => s.diagnostics.get(hang)?.find((d) => d.code === 'check-failed'));
+    assert.match(String(s.diagnostics.get(hang)!.find((d) => d.code === 'check-failed')!.message), /time/);
+  });
+});
+
+describe('language server over LSP (untrusted workspace)', function () {
+  this.timeout(60_000);
+  let s: LspSession;
+
+  before(async () => {
+    s = new LspSession({ trusted: false, settings: USER_SETTINGS });
+    await s.initialize();
+  });
+  after(async () => {
+    await s.close();
+  });
+
+  it('runs no code until trust is granted, and says why', async () => {
+    const uri = await s.open('pass.ts');
+    const diags = await s.waitFor('the untrusted notice', () => s.diagnostics.get(uri)?.length ? s.diagnostics.get(uri) : undefined);
+    assert.equal(diags.length, 1);
+    assert.equal(diags[0]!.code, 'untrusted-workspace');
+    assert.equal(diags[0]!.severity, DiagnosticSeverity.Information);
+    const lenses = await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } }) as CodeLens[];
+    assert.match(lenses[0]!.command!.title, /untrusted/);
+    const refused = await s.connection.sendRequest<{ results: unknown[]; reason?: string }>(Methods.checkOps, { uri, force: true });
+    assert.equal(refused.results.length, 0);
+    assert.match(refused.reason ?? '', /not trusted/);
+    const summary = await s.connection.sendRequest<CheckWorkspaceResult>(Methods.checkWorkspace, {});
+    assert.equal(summary.pass + summary.mismatch + summary.inconclusive, 0);
+    assert.match(summary.reason ?? '', /not trusted/);
+    // Nothing was executed: the server never started a runner process.
+    assert.deepEqual(s.serverChildren(), []);
+    assert.equal(s.opState(uri, 'softplus'), 'not-run');
+
+    await s.connection.sendNotification(Methods.trustChanged, { workspaceTrusted: true });
+    await s.waitFor('softplus to pass once trusted', () => s.opState(uri, 'softplus') === 'pass');
+    assert.ok(s.serverChildren().length > 0, 'runner processes start once the workspace is trusted');
+  });
+});
