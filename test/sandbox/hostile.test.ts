@@ -33,6 +33,25 @@ describe('sandbox: an op that never returns', function () {
   });
 });
 
+describe('sandbox: an op stuck inside a built-in the vm timeout cannot interrupt', function () {
+  this.timeout(60_000);
+  let checker: Checker;
+  before(() => {
+    checker = new Checker({ settings: settingsWith({ timeLimitMs: 1000 }), workers: 1 });
+  });
+  after(() => checker.dispose());
+
+  it('is killed by the parent watchdog, and the next op runs on a replacement runner', async () => {
+    const results = await checker.checkFile(fixture('hostile', 'unstoppable.ts'));
+    const stuck = resultOf(results, 'sortForever');
+    assert.equal(stuck.verdict, 'error', describeResults(results));
+    assert.match(stuck.message, /timed out after 1000 ms \(the runner did not stop by itself and was killed\)/);
+    assert.equal(resultOf(results, 'double').verdict, 'pass', describeResults(results));
+    assert.equal(checker.stats.pool.timeouts, 1);
+    assert.equal(checker.stats.pool.spawned, 2);
+  });
+});
+
 describe('sandbox: a module whose top-level code fails', function () {
   this.timeout(60_000);
   let checker: Checker;
