@@ -15,10 +15,10 @@ export function detailLines(pair: OpResult, { withOutput = true }: { withOutput?
   const message = withoutRestatedProblem(pair.message, problems[0]?.message);
   if (message) out.push(...message.split('\n'));
   for (const problem of problems) out.push(`${pair.file}:${problem.line}:${problem.column}: ${problem.message}`);
-  // The op's message already describes a single failing parameter's worst element; with
-  // several failing parameters (or no message) each gets its own line of evidence.
+  // The engine's message already states each failing parameter's worst element; without one,
+  // each failing parameter gets its own line of evidence.
   const failing = pair.params.filter((p) => p.verdict !== 'pass');
-  const perParamLines = failing.length > 1 || !message;
+  const perParamLines = !message;
   for (const param of failing) {
     if (perParamLines) out.push(paramLine(param));
     for (const hint of param.hints) out.push(`${perParamLines ? '  ' : ''}hint: ${hint}`);
@@ -45,7 +45,8 @@ export function paramLine(param: ParamResult): string {
   const head = `${param.name} (${param.verdict}): max rel error ${formatRelError(param.maxRelError)}, max abs error ${formatNumber(param.maxAbsError)}`;
   if (!param.worst) return head;
   const w = param.worst;
-  return `${head}; at ${param.name}${formatIndex(w.index)} backward gives ${formatNumber(w.analytic)}, finite differences ${formatNumber(w.numeric)}`;
+  const where = w.index.length === 0 ? param.name : `${param.name}${formatIndex(w.index)}`;
+  return `${head}; at ${where} backward gives ${formatNumber(w.analytic)}, finite differences ${formatNumber(w.numeric)}`;
 }
 
 function outputLines(output: string | undefined): string[] {

@@ -20,6 +20,7 @@ export interface HumanOptions {
 /** Widest op name before it is shortened with an ellipsis, in characters. */
 const MAX_OP_WIDTH = 40;
 
+const SECONDARY_DETAIL = /^(seed \d|console output:|  \|)/;
 const ROW_MARGIN = '  ';
 const COLUMN_GAP = '  ';
 const HEADINGS = ['line', 'op', 'verdict', 'worst param', 'max rel error', 'worst index', 'time'] as const;
@@ -54,7 +55,8 @@ export function formatHuman(report: Report, options: HumanOptions): string {
       // Colour only the verdict cell; padding is computed on the plain text so columns stay aligned.
       const at = ROW_MARGIN.length + widths[0]! + COLUMN_GAP.length + widths[1]! + COLUMN_GAP.length;
       lines.push(text.slice(0, at) + paint.verdict(pair.verdict, cells[2]!) + text.slice(at + cells[2]!.length));
-      for (const detail of detailLines(pair)) lines.push(indent + paint.dim(detail));
+      // Messages, problems and hints stay at full strength; the seed and captured output recede.
+      for (const detail of detailLines(pair)) lines.push(indent + (SECONDARY_DETAIL.test(detail) ? paint.dim(detail) : detail));
     });
     lines.push('');
   }
