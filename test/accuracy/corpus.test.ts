@@ -62,6 +62,13 @@ describe('accuracy corpus through the command line', function () {
 
   const ofClass = (c: JudgedOp['label']): JudgedOp[] => ops.filter((o) => o.label === c);
 
+  it('holds the required mix of labelled ops (issue 2, "Accuracy bar")', function () {
+    const counts: Record<string, number> = { correct: 0, bug: 0, kink: 0, broken: 0 };
+    for (const entries of Object.values(loadLabels(root))) for (const l of Object.values(entries)) counts[l.class]++;
+    const total = Object.values(counts).reduce((a, b) => a + b, 0);
+    assert.ok(total >= 40 && counts.correct >= 16 && counts.bug >= 14 && counts.kink >= 4 && counts.broken >= 5, JSON.stringify(counts));
+  });
+
   it('exits with 1, because the corpus holds mismatches and errors (interface §3)', function () {
     assert.equal(status, 1);
   });
