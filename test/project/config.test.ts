@@ -7,7 +7,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { DEFAULT_SETTINGS } from '../../server/src/engine/settings';
 import {
-  CONFIG_FILE_NAME, ConfigError, checkSettingValue, findConfigFile, loadConfigFile, loadProjectConfig, readConfigValues,
+  CONFIG_FILE_NAME, ConfigError, checkSettingValue, findConfigFile, loadConfigFile, loadProjectConfig, readConfigFile, readConfigValues,
 } from '../../server/src/project/config';
 import { CONFIG_FIELDS } from '../../server/src/project/configFields';
 import { projectConfigSchema } from '../../server/src/project/configSchema';
@@ -98,6 +98,14 @@ describe('project configuration', () => {
     const file = writeConfig(join(root, 'a'), { seed: 2 });
     assert.equal(findConfigFile(deep), file);
     assert.equal(loadProjectConfig(deep).settings.seed, 2);
+  });
+
+  it('tells which keys a file sets, without defaults, for the editor\'s merge', () => {
+    const root = repo();
+    const file = writeConfig(root, { tolerance: { f32: 4e-3 }, exclude: ['gen/**'] });
+    assert.deepEqual(readConfigFile(file), { settings: { toleranceF32: 4e-3 }, exclude: ['gen/**'] });
+    writeConfig(root, { seed: 'x' });
+    assert.throws(() => readConfigFile(file), /"seed" must be/);
   });
 
   it('reads a named file with loadConfigFile, and names a missing one', () => {

@@ -110,6 +110,15 @@ export function loadProjectConfig(dir: string, overrides: Partial<CheckSettings>
 /** Reads one named configuration file (the CLI's `--config FILE`), no search. */
 export function loadConfigFile(file: string, overrides: Partial<CheckSettings> = {}): ProjectConfig {
   const abs = resolve(file);
+  return mergeConfig(abs, readConfigFile(abs), overrides);
+}
+
+/**
+ * What one configuration file says, validated but not merged: only the keys it sets (the
+ * editor fills the rest from user settings). Throws ConfigError like loadConfigFile.
+ */
+export function readConfigFile(file: string): ConfigValues {
+  const abs = resolve(file);
   const label = displayPath(abs);
   let text: string;
   try {
@@ -118,8 +127,7 @@ export function loadConfigFile(file: string, overrides: Partial<CheckSettings> =
   } catch {
     throw new ConfigError(`${label}: configuration file not found or not readable`, { file: abs });
   }
-  const raw = parseJsonText(text, label, abs);
-  return mergeConfig(abs, readConfigValues(raw, label, abs), overrides);
+  return readConfigValues(parseJsonText(text, label, abs), label, abs);
 }
 
 /** The configuration file that applies to `dir`, or undefined. */
