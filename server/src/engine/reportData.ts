@@ -23,7 +23,7 @@ export function stepScan(line: Line, w: Float64Array, analytic: number, scale: n
   const minus = new F64(m);
   const proj = new F64(1);
   for (let e = STEP_SCAN_DECADES.from; e >= STEP_SCAN_DECADES.to; e--) {
-    const t = pow(10, e) * scale;
+    const t = scale / pow(10, -e); // 1/10^k is correctly rounded, 10^-k from pow may not be
     if (t > line.maxStep) continue; // would cross an avoid point or leave the range
     const sp = line.evalAt(t, plus);
     const sm = line.evalAt(-t, minus);

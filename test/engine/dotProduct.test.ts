@@ -1,0 +1,77 @@
+// The adjoint dot-product identity ⟨u, A v⟩ = ⟨Aᵀu, v⟩ (Griewank & Walther, Evaluating
+// Derivatives, 2nd ed., SIAM 2008, tangent/adjoint duality) on random linear maps y = A x: the
+// engine's dot-product path must pass Aᵀ and reject A in its place.
+
+import assert from 'node:assert/strict';
+import { createRandom } from '../../server/src/engine/random';
+import { check, functionOp, show, spec } from './opBuilder';
+
+function randomMatrix(rows: number, cols: number, seed: number): Float64Array {
+  const r = createRandom(seed);
+  const a = new Float64Array(rows * cols);
+  for (let i = 0; i < a.length; i++) a[i] = 2 * r() - 1;
+  return a;
+}
+
+function linearMap(n: number, seed: number, useTransposeInBackward: boolean) {
+  const A = randomMatrix(n, n, seed);
+  return functionOp({
+    forward: (x: Float64Array) => {
+      const y = new Float64Array(n);
+      for (let i = 0; i < n; i++) {
+        let s = 0;
+        for (let j = 0; j < n; j++) s += A[i * n + j] * x[j];
+        y[i] = s;
+      }
+      return y;
+    },
+    backward: (_x: Float64Array, dy: Float64Array) => {
+      const g = new Float64Array(n);
+      for (let j = 0; j < n; j++) {
+        let s = 0;
+        // Correct: g = Aᵀ dy. The bug multiplies by A itself (a transposition forgotten).
+        for (let i = 0; i < n; i++) s += (useTransposeInBackward ? A[i * n + j] : A[j * n + i]) * dy[i];
+        g[j] = s;
+      }
+      return g;
+    },
+    params: [['x', spec('f64', [n], [-2, 2])]],
+  });
+}
+
+// Small limits so a 200-element parameter takes the large-parameter path.
+const large = { largeParamElements: 50, dotProductProbes: 4, subsetElements: 8 };
+
+describe('engine: dot-product test on random linear maps (Griewank & Walther)', () => {
+  for (const seed of [1, 2, 3]) {
+    it(`y = A x with Aᵀ in the backward passes by the dot-product path (matrix seed ${seed})`, () => {
+      const o = check(linearMap(200, seed, true), large);
+      assert.equal(o.verdict, 'pass', show(o));
+      assert.equal(o.params[0].method, 'dot-product');
+      assert.equal(o.params[0].checkedElements, 8);
+      // K = 2 upstream probes plus one backward per dot-product probe.
+      assert.equal(o.calls.backward, 2 + 4);
+    });
+
+    it(`A in place of Aᵀ (non-symmetric) is a mismatch (matrix seed ${seed})`, () => {
+      const o = check(linearMap(200, seed, false), large);
+      assert.equal(o.verdict, 'mismatch', show(o));
+      assert.equal(o.params[0].method, 'dot-product');
+    });
+
+    it(`the dot-product probes alone, without subset columns, reject A in place of Aᵀ (matrix seed ${seed})`, () => {
+      const o = check(linearMap(200, seed, false), { ...large, subsetElements: 0 });
+      assert.equal(o.verdict, 'mismatch', show(o));
+      assert.match(o.message, /dot-product test/);
+      const ok = check(linearMap(200, seed, true), { ...large, subsetElements: 0 });
+      assert.equal(ok.verdict, 'pass', show(ok));
+    });
+  }
+
+  it('small linear maps get full columns', () => {
+    const o = check(linearMap(6, 4, false));
+    assert.equal(o.verdict, 'mismatch', show(o));
+    assert.equal(o.params[0].method, 'full');
+    assert.equal(o.params[0].checkedElements, 6);
+  });
+});

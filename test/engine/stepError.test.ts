@@ -1,0 +1,69 @@
+// The central difference's error against step size (Nocedal & Wright, Numerical Optimization,
+// 2nd ed., §8.1): truncation error falls as h² until roundoff, growing as u/h, takes over near
+// h ≈ u^(1/3). Read from the step scan the engine reports for a correct op.
+
+import assert from 'node:assert/strict';
+import { check, functionOp, show, spec } from './opBuilder';
+
+function scanOf(f: (x: number) => number, df: (x: number) => number, at: number) {
+  const o = check(functionOp({
+    forward: (x: number) => f(x),
+    backward: (x: number) => df(x),
+    params: [['x', spec('num', [], [at, at])]],
+    backwardArgs: ['x'],
+  }));
+  assert.equal(o.verdict, 'pass', show(o));
+  const scan = o.params[0].stepScan;
+  assert.ok(scan, 'a passing op reports a step scan');
+  const err = (h: number): number => {
+    const k = scan.steps.findIndex((s) => Math.abs(s / h - 1) < 1e-9);
+    assert.ok(k >= 0, `step ${h} is in the scan`);
+    return scan.absErrors[k];
+  };
+  let best = 0;
+  for (let k = 1; k < scan.steps.length; k++) if (scan.absErrors[k] < scan.absErrors[best]) best = k;
+  return { err, bestStep: scan.steps[best], scan };
+}
+
+describe('engine: central-difference error against step (Nocedal & Wright §8.1)', () => {
+  for (const [name, f, df, at] of [
+    ['exp at 0.5', Math.exp, Math.exp, 0.5],
+    ['sin at 0.7', Math.sin, Math.cos, 0.7],
+  ] as const) {
+    it(`${name}: error falls 100× per decade of h in the truncation regime`, () => {
+      const { err } = scanOf(f, df, at);
+      // N&W §8.1: central-difference truncation error is (h²/6)|f'''| + O(h⁴), so 1e-2 → 1e-3 divides it by 100.
+      const ratio = err(1e-2) / err(1e-3);
+      assert.ok(ratio > 95 && ratio < 105, `error ratio ${ratio} should be ≈ 100`);
+      // The leading term itself: (h²/6)|f'''(x)| at h = 1e-2, within 1 %.
+      const third = name.startsWith('exp') ? Math.exp(at) : Math.cos(at);
+      const predicted = (1e-4 / 6) * third;
+      assert.ok(Math.abs(err(1e-2) / predicted - 1) < 0.01, `error ${err(1e-2)} vs (h²/6)|f'''| = ${predicted}`);
+    });
+
+    it(`${name}: the smallest error is near u^(1/3) ≈ 5e-6, roundoff dominates below`, () => {
+      const { err, bestStep } = scanOf(f, df, at);
+      // N&W §8.1: optimal step ≈ (3u|f|/|f'''|)^(1/3), about 5e-6..1e-5 here: the best decade is 1e-5 or 1e-6.
+      assert.ok([1e-5, 1e-6].some((s) => Math.abs(bestStep / s - 1) < 1e-9), `best step ${bestStep}`);
+      // Roundoff grows as u/h: four decades below the optimum the error is far larger.
+      assert.ok(err(1e-10) > 100 * err(1e-6), `err(1e-10) = ${err(1e-10)}, err(1e-6) = ${err(1e-6)}`);
+      assert.ok(err(1e-13) > err(1e-10), `err(1e-13) = ${err(1e-13)}, err(1e-10) = ${err(1e-10)}`);
+    });
+  }
+
+  it('a wrong gradient shows a flat floor instead of the V', () => {
+    const o = check(functionOp({
+      forward: (x: number) => Math.exp(x),
+      backward: (x: number) => 1.01 * Math.exp(x),
+      params: [['x', spec('num', [], [0.5, 0.5])]],
+      backwardArgs: ['x'],
+    }));
+    assert.equal(o.verdict, 'mismatch', show(o));
+    const scan = o.params[0].stepScan!;
+    // In the truncation regime the error no longer moves with h: it is the 1 % gap itself.
+    const gap = 0.01 * Math.exp(0.5);
+    for (let k = 0; k < scan.steps.length; k++) {
+      if (scan.steps[k] <= 1e-3 && scan.steps[k] >= 1e-8) assert.ok(Math.abs(scan.absErrors[k] / gap - 1) < 1e-3, `step ${scan.steps[k]}: ${scan.absErrors[k]}`);
+    }
+  });
+});
