@@ -33,6 +33,28 @@ describe('sandbox: an op that never returns', function () {
   });
 });
 
+describe('sandbox: the per-file total time cap', function () {
+  this.timeout(60_000);
+
+  it('stops a file whose ops together run past it, and says so on the ops it stopped', async () => {
+    // One runner and six ops that each use their whole 500 ms: at least 3,000 ms in total,
+    // past the cap of 5 × 500 ms.
+    const checker = new Checker({ settings: settingsWith({ timeLimitMs: 500 }), workers: 1 });
+    try {
+      const results = await checker.checkFile(fixture('hostile', 'spinMany.ts'));
+      assert.equal(results.length, 6);
+      for (const r of results) assert.equal(r.verdict, 'error');
+      const timedOut = results.filter((r) => /^timed out after 500 ms/.test(r.message));
+      const capped = results.filter((r) => /reached their total time limit of 2500 ms/.test(r.message));
+      assert.ok(timedOut.length >= 1, describeResults(results));
+      assert.ok(capped.length >= 1, describeResults(results));
+      assert.equal(timedOut.length + capped.length, 6, describeResults(results));
+    } finally {
+      await checker.dispose();
+    }
+  });
+});
+
 describe('sandbox: an op stuck inside a built-in the vm timeout cannot interrupt', function () {
   this.timeout(60_000);
   let checker: Checker;

@@ -7,6 +7,7 @@ import { bindingsOf, Checker, listOps } from '../../server/src/core/checker';
 import type { OpDescriptor } from '../../server/src/engine/types';
 import { Bundler } from '../../server/src/sandbox/bundle';
 import { RunnerPool, type RunResult } from '../../server/src/sandbox/pool';
+import { runnerCommand } from '../../server/src/sandbox/runnerCommand';
 import { fixture, settingsWith } from './helpers';
 
 async function loopFixture(): Promise<{ spin: OpDescriptor; cube: OpDescriptor; key: string; code: string }> {
@@ -102,6 +103,33 @@ describe('pool: runners', function () {
     await pool.dispose();
     const r = await pool.run({ bundleKey: fx.key, bundleCode: fx.code, op: fx.cube, settings });
     assert.ok('error' in r && r.cause === 'closed');
+  });
+});
+
+describe('pool: runner command line', () => {
+  it('keeps only ELECTRON_RUN_AS_NODE when the host is the editor\'s runtime in Node mode', () => {
+    const saved = process.env.ELECTRON_RUN_AS_NODE;
+    try {
+      process.env.ELECTRON_RUN_AS_NODE = '1';
+      const underEditor = runnerCommand({ childScript: '/x/sandbox-child.js', memoryLimitMb: 512, usePermission: true, useAddressLimit: true });
+      assert.deepEqual(underEditor.env, { ELECTRON_RUN_AS_NODE: '1' });
+      delete process.env.ELECTRON_RUN_AS_NODE;
+      const plain = runnerCommand({ childScript: '/x/sandbox-child.js', memoryLimitMb: 512, usePermission: true, useAddressLimit: true });
+      assert.deepEqual(plain.env, process.versions.electron ? { ELECTRON_RUN_AS_NODE: '1' } : {});
+    } finally {
+      if (saved === undefined) delete process.env.ELECTRON_RUN_AS_NODE;
+      else process.env.ELECTRON_RUN_AS_NODE = saved;
+    }
+  });
+
+  it('limits file reads to the runner script and leaves the flag out when told to', () => {
+    const withFlag = runnerCommand({ childScript: '/x/sandbox-child.js', memoryLimitMb: 512, usePermission: true, useAddressLimit: false });
+    if (withFlag.permissionFlag) assert.ok(withFlag.args.includes('--allow-fs-read=/x/sandbox-child.js'), withFlag.args.join(' '));
+    const without = runnerCommand({ childScript: '/x/sandbox-child.js', memoryLimitMb: 512, usePermission: false, useAddressLimit: false });
+    assert.equal(without.permissionFlag, undefined);
+    assert.ok(!without.args.some((a) => a.includes('permission') || a.startsWith('--allow-fs')), without.args.join(' '));
+    assert.equal(without.command, process.execPath);
+    assert.equal(without.args[without.args.length - 1], '/x/sandbox-child.js');
   });
 });
 
