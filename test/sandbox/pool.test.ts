@@ -98,6 +98,17 @@ describe('pool: runners', function () {
     assert.ok(pool.stats.bundlesSent >= 1 && pool.stats.bundlesSent <= 2, `bundles sent: ${pool.stats.bundlesSent}`);
   });
 
+  it('a runner that cannot start fails the job with the reason, after trying without the optional limits', async () => {
+    const logged: string[] = [];
+    pool = new RunnerPool({ size: 1, childScript: fixture('no-such-runner.js'), log: (l) => logged.push(l) });
+    const r = await pool.run({ bundleKey: fx.key, bundleCode: fx.code, op: fx.cube, settings });
+    assert.ok('error' in r && r.cause === 'runner', JSON.stringify(r));
+    assert.match(r.error, /the runner process could not start: .*Cannot find module/);
+    // First with every limit, then without the permission flag, then without prlimit.
+    assert.equal(pool.stats.spawned, 3);
+    assert.ok(logged.some((l) => /running without the permission model/.test(l)), logged.join('\n'));
+  });
+
   it('fails jobs clearly after dispose instead of hanging', async () => {
     pool = new RunnerPool({ size: 1 });
     await pool.dispose();

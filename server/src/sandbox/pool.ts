@@ -136,6 +136,13 @@ function parseOutcome(json: string): CheckOutcome | undefined {
   }
 }
 
+/** The most telling line of a runner's stderr: the first error line, else the last line that is not Node's version banner. */
+function telling(stderr: string): string | undefined {
+  const lines = stderr.split('\n').map((l) => l.trim()).filter((l) => l && !/^Node\.js v\d/.test(l));
+  const error = lines.find((l) => /^(\w*Error|FATAL ERROR)\b|Error:/.test(l));
+  return (error ?? lines[lines.length - 1])?.slice(0, 300);
+}
+
 /** A crash explained from the exit and the runner's stderr. */
 function describeCrash(code: number | null, signal: NodeJS.Signals | null, stderr: string, memoryLimitMb: number): string {
   const how = signal ? `signal ${signal}` : `exit code ${code}`;
@@ -143,8 +150,8 @@ function describeCrash(code: number | null, signal: NodeJS.Signals | null, stder
   if (heap || signal === 'SIGABRT' || signal === 'SIGSEGV' || signal === 'SIGTRAP' || code === 134) {
     return `the runner process died (${how}, likely out of memory: the op allocated beyond the ${memoryLimitMb} MiB memory limit)`;
   }
-  const lastLine = stderr.trim().split('\n').filter((l) => l.trim()).pop();
-  return `the runner process died (${how})${lastLine ? `: ${lastLine.trim().slice(0, 300)}` : ''}`;
+  const line = telling(stderr);
+  return `the runner process died (${how})${line ? `: ${line}` : ''}`;
 }
 
 export class RunnerPool {
@@ -414,7 +421,7 @@ export class RunnerPool {
     if (this.disposed) return;
     if (wasStarting && !runner.retiring) {
       this.startFailures++;
-      const why = runner.stderrTail.trim().split('\n').pop() ?? `exit code ${code}`;
+      const why = telling(runner.stderrTail) ?? (signal ? `signal ${signal}` : `exit code ${code}`);
       if (runner.command.permissionFlag && this.usePermission) {
         // Some runtimes (an editor's embedded Node) may refuse the flag: run without it and say so.
         this.usePermission = false;
