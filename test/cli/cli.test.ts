@@ -198,6 +198,9 @@ describe('gradient-probe command (spawned)', function () {
     const fuel = await runCli(['check', `${FIXTURES}/basic`, '--json', '--filter', 'fuel']);
     assert.equal(fuel.code, 1);
     assert.deepEqual((JSON.parse(fuel.stdout) as Report).pairs.map((p) => p.forward), ['fuelLog']);
+    const none = await runCli(['check', `${FIXTURES}/basic/passing.ts`, '--json', '--filter', 'glazr']);
+    assert.equal(none.code, 0);
+    assert.match(none.stderr, /no op's forward name contains "glazr"/);
     const glaze = await runCli(['check', `${FIXTURES}/basic`, '--json', '--filter', 'glaze']);
     assert.equal(glaze.code, 0, glaze.stdout);
     assert.deepEqual((JSON.parse(glaze.stdout) as Report).pairs.map((p) => p.forward), ['glazeResponse']);

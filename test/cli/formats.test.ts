@@ -9,6 +9,7 @@ import { formatHuman, summaryLine } from '../../server/src/cli/human';
 import { escapeXmlAttribute, escapeXmlText, formatJunit } from '../../server/src/cli/junit';
 import { buildReport, exitCodeFor, worstParam } from '../../server/src/cli/report';
 import { formatSarif, SARIF_SCHEMA_URI } from '../../server/src/cli/sarif';
+import { shouldUseColor } from '../../server/src/cli/terminal';
 import { reportViolations } from './helpers/reportShape';
 import { sarifViolations } from './helpers/sarifShape';
 import { findAll, parseXml } from './helpers/xml';
@@ -129,6 +130,16 @@ describe('human output', () => {
     assert.match(text, /^\s+seed 1234$/m);
     assert.match(text, /\| red and ]]> & <tag>$/m, 'user output is shown without control characters');
     assert.doesNotMatch(text, /bias \(pass\)/, 'passing parameters are not explained');
+  });
+
+  it('colours a terminal unless NO_COLOR is set and non-empty or TERM is dumb (no-color.org convention)', () => {
+    assert.equal(shouldUseColor('auto', true, {}), true);
+    assert.equal(shouldUseColor('auto', false, {}), false);
+    assert.equal(shouldUseColor('auto', true, { NO_COLOR: '1' }), false);
+    assert.equal(shouldUseColor('auto', true, { NO_COLOR: '' }), true);
+    assert.equal(shouldUseColor('auto', true, { TERM: 'dumb' }), false);
+    assert.equal(shouldUseColor('always', false, { NO_COLOR: '1' }), true);
+    assert.equal(shouldUseColor('never', true, {}), false);
   });
 
   it('lists only problems when asked, still counting all in the summary', () => {

@@ -60,6 +60,10 @@ export async function runCheckCommand(options: CheckOptions, io: CliIo, toolVers
     return EXIT_FAILED;
   }
   const report = buildReport(results, io.cwd);
+  if (options.filter !== undefined && report.pairs.length === 0 && files.length > 0) {
+    // A mistyped filter would otherwise pass a CI run silently.
+    io.stderr.write(`gradient-probe: no op's forward name contains "${options.filter}"\n`);
+  }
   const elapsedMs = performance.now() - started;
 
   const written = writeReportFiles(report, options, io, toolVersion);
