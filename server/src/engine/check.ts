@@ -4,7 +4,7 @@
 
 import { F64, abs, describeThrown, formatNumber, max, min } from './builtins';
 import { CheckStop, fail, giveUp } from './failure';
-import { chooseMethod, type Structure } from './methodChoice';
+import { GROUPED_WIDENINGS, chooseMethod, widened, type Structure } from './methodChoice';
 import { dotProductProbes, type DotProbeResult } from './dotProductCheck';
 import { estimateColumns } from './fullCheck';
 import { estimateGrouped } from './groupedCheck';
@@ -269,8 +269,13 @@ function checkParam(at: Attempt, s: number, subsetRandom: () => number): ParamCh
   let complete = true;
   let method = at.methods[s];
   if (method === 'grouped') {
-    est = estimateGrouped(at.h, slot, at.structures[s] as Structure, at.ws, at.uOut, at.outOfTime);
-    // An output moved outside the hypothesised bands: the structure guess was wrong, use a general method.
+    // An output moved outside the hypothesised bands: widen them, and after GROUPED_WIDENINGS
+    // use a general method. A wrong structure guess costs calls, never a verdict.
+    let st: Structure | null = at.structures[s];
+    for (let widening = 0; st !== null && est === null; widening++) {
+      est = estimateGrouped(at.h, slot, st, at.ws, at.uOut, at.outOfTime);
+      st = est === null && widening < GROUPED_WIDENINGS ? widened(st) : null;
+    }
     if (est === null) method = n > at.settings.largeParamElements ? 'dot-product' : 'full';
   }
   if (est !== null) {

@@ -68,8 +68,10 @@ export function dotProductProbes(
     let mag = 0;
     const w = us[p];
     for (let j = 0; j < m; j++) {
-      num += w[j] * (plus[j] - minus[j]);
-      mag += abs(w[j]) * (abs(plus[j]) + abs(minus[j]));
+      if (plus[j] !== minus[j]) {
+        num += w[j] * (plus[j] - minus[j]);
+        mag += abs(w[j]) * (abs(plus[j]) + abs(minus[j]));
+      }
     }
     const numeric = num / (sp - sm);
     // Roundoff of both evaluations through the projection, plus the summation of the analytic side.

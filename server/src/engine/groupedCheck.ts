@@ -89,8 +89,10 @@ export function estimateGrouped(
         for (let j = jLo; j <= jHi; j++) {
           const p = plus[j];
           const q = minus[j];
-          s += w[j] * (p - q);
-          r += abs(w[j]) * (abs(p) + abs(q));
+          if (p !== q) {
+            s += w[j] * (p - q);
+            r += abs(w[j]) * (abs(p) + abs(q));
+          }
         }
         numeric[k][i] = s / d;
         bound[k][i] = (ROUNDOFF_ULPS * uOut * r) / d;

@@ -125,13 +125,16 @@ export function projectDifference(ws: Float64Array[], a: Float64Array, b: Float6
   return out;
 }
 
-/** Σ_j |w_j|·(|a_j| + |b_j|) for each w: the magnitude behind a projected difference's roundoff. */
+/**
+ * Σ_j |w_j|·(|a_j| + |b_j|) over the outputs that differ, for each w: the magnitude behind a
+ * projected difference's roundoff (outputs that did not move add no roundoff to it).
+ */
 export function projectMagnitude(ws: Float64Array[], a: Float64Array, b: Float64Array, out: Float64Array): Float64Array {
   const m = a.length;
   for (let k = 0; k < ws.length; k++) {
     const w = ws[k];
     let s = 0;
-    for (let j = 0; j < m; j++) s += abs(w[j]) * (abs(a[j]) + abs(b[j]));
+    for (let j = 0; j < m; j++) if (a[j] !== b[j]) s += abs(w[j]) * (abs(a[j]) + abs(b[j]));
     out[k] = s;
   }
   return out;

@@ -25,8 +25,16 @@ export interface Structure {
   m: number;
 }
 
-/** Elements probed singly to learn the structure: the first, the last and this many random ones. */
-export const STRUCTURE_RANDOM_PROBES = 4;
+/**
+ * Elements probed singly to learn the structure: the first, the last, STRUCTURE_SPACED_PROBES
+ * evenly spaced ones (the offset of a band from the anchor drifts slowly along the parameter,
+ * e.g. in a 'valid' convolution, and evenly spaced probes see the whole drift) and
+ * STRUCTURE_RANDOM_PROBES random ones.
+ */
+export const STRUCTURE_SPACED_PROBES = 4;
+export const STRUCTURE_RANDOM_PROBES = 2;
+/** Times a violated band is widened (by half its width on each side) before giving up on grouping. */
+export const GROUPED_WIDENINGS = 2;
 /** Parameters this small get full columns without probing (probing would cost about as much). */
 export const STRUCTURE_MIN_ELEMENTS = 12;
 /** Grouping is used only when it needs at most this share of the full check's columns. */
@@ -65,9 +73,14 @@ export function colourCount(n: number, m: number, width: number, maxColours: num
 export function probeBand(h: OpHarness, slot: ParamSlot, y0: Float64Array, random: RandomSource): { lo: number; hi: number } | null {
   const n = slot.size;
   const m = y0.length;
+  const chosen = new Set<number>([0, n - 1]);
+  for (let q = 1; q <= STRUCTURE_SPACED_PROBES; q++) chosen.add(floor((q * n) / (STRUCTURE_SPACED_PROBES + 1)));
   const picks = distinctIndices(random, n - 2, STRUCTURE_RANDOM_PROBES);
-  const probes: number[] = [0, n - 1];
-  for (let q = 0; q < picks.length; q++) probes[probes.length] = picks[q] + 1;
+  for (let q = 0; q < picks.length; q++) chosen.add(picks[q] + 1);
+  const probes: number[] = [];
+  chosen.forEach((i) => {
+    probes[probes.length] = i;
+  });
   const out = new F64(m);
   let lo = Infinity;
   let hi = -Infinity;
@@ -94,6 +107,15 @@ export function probeBand(h: OpHarness, slot: ParamSlot, y0: Float64Array, rando
     }
   }
   return lo <= hi ? { lo, hi } : null;
+}
+
+/** The band widened by half its width on each side, or null when grouping would no longer pay. */
+export function widened(st: Structure): Structure | null {
+  const grow = max(1, ceil((st.hi - st.lo + 1) / 2));
+  const lo = st.lo - grow;
+  const hi = st.hi + grow;
+  const colours = colourCount(st.n, st.m, hi - lo + 1, floor(st.n * GROUPED_MAX_SHARE));
+  return colours === 0 ? null : { lo, hi, colours, n: st.n, m: st.m };
 }
 
 export function chooseMethod(

@@ -1,0 +1,139 @@
+// Grouped check: structurally orthogonal elements share one perturbation and each moved output
+// is credited to the element whose band holds it (Curtis, Powell & Reid, "On the estimation of
+// sparse Jacobian matrices", J. Inst. Math. Appl. 13 (1974) 117–119). An elementwise op's whole
+// diagonal comes from one pair of forward calls, so a million elements are all checked.
+
+import assert from 'node:assert/strict';
+import { check, functionOp, show, spec } from './opBuilder';
+
+function softsign(n: number, wrongAt: number | null) {
+  return functionOp({
+    forward: (x: Float64Array) => {
+      const y = new Float64Array(x.length);
+      for (let i = 0; i < x.length; i++) y[i] = x[i] / (1 + Math.abs(x[i]));
+      return y;
+    },
+    backward: (x: Float64Array, dy: Float64Array) => {
+      const g = new Float64Array(x.length);
+      for (let i = 0; i < x.length; i++) {
+        const d = 1 + Math.abs(x[i]);
+        g[i] = dy[i] / (d * d);
+      }
+      if (wrongAt !== null) g[wrongAt] *= 1 + 1e-4;
+      return g;
+    },
+    params: [['x', spec('f64', [n], [-3, 3], { avoid: [0] })]],
+  });
+}
+
+/** 'valid' 1-D convolution of x with a fixed 5-tap kernel: a banded Jacobian. */
+function conv(n: number, wrongAt: number | null) {
+  const w = [0.2, -0.5, 1, 0.7, -0.3];
+  const m = n - w.length + 1;
+  return functionOp({
+    forward: (x: Float64Array) => {
+      const y = new Float64Array(m);
+      for (let j = 0; j < m; j++) {
+        let s = 0;
+        for (let k = 0; k < w.length; k++) s += w[k] * Math.tanh(x[j + k]);
+        y[j] = s;
+      }
+      return y;
+    },
+    backward: (x: Float64Array, dy: Float64Array) => {
+      const g = new Float64Array(n);
+      for (let j = 0; j < m; j++) for (let k = 0; k < w.length; k++) g[j + k] += w[k] * dy[j] * (1 - Math.tanh(x[j + k]) ** 2);
+      if (wrongAt !== null) g[wrongAt] = -g[wrongAt];
+      return g;
+    },
+    params: [['x', spec('f64', [n], [-2, 2])]],
+  });
+}
+
+describe('engine: grouped check (Curtis, Powell & Reid 1974)', () => {
+  it('1,000,000-element elementwise op: pass, every element checked, few forward calls', () => {
+    const t0 = performance.now();
+    const o = check(softsign(1_000_000, null));
+    const ms = performance.now() - t0;
+    assert.equal(o.verdict, 'pass', show(o));
+    const p = o.params[0];
+    assert.equal(p.method, 'grouped');
+    assert.equal(p.elements, 1_000_000);
+    assert.equal(p.checkedElements, 1_000_000);
+    // 2 baseline + 8 structure probes + 2 for the one colour class; no refinement on a pass.
+    assert.ok(o.calls.forward <= 14, `forward calls ${o.calls.forward}`);
+    console.log(`      1e6 elementwise pass: ${ms.toFixed(0)} ms in-process, ${o.calls.forward} forward and ${o.calls.backward} backward calls`);
+  });
+
+  it('1,000,000-element elementwise op with one element off by 1e-4: mismatch at that index', () => {
+    const t0 = performance.now();
+    const o = check(softsign(1_000_000, 654_321));
+    const ms = performance.now() - t0;
+    assert.equal(o.verdict, 'mismatch', show(o));
+    assert.deepEqual(o.params[0].worst?.index, [654_321]);
+    assert.ok(o.params[0].hints.some((h) => h.includes('wrong only at x[654321]')), show(o));
+    console.log(`      1e6 elementwise, one wrong element: ${ms.toFixed(0)} ms in-process, ${o.calls.forward} forward calls`);
+  });
+
+  it('banded op (valid 1-D convolution, 5 taps): a few colour classes instead of one column per element', () => {
+    const o = check(conv(2000, null));
+    assert.equal(o.verdict, 'pass', show(o));
+    assert.equal(o.params[0].method, 'grouped');
+    assert.equal(o.params[0].checkedElements, 2000);
+    assert.ok(o.calls.forward < 60, `forward calls ${o.calls.forward} (a full check needs 4000)`);
+  });
+
+  it('banded op with a sign error at one element: mismatch at that element', () => {
+    const o = check(conv(2000, 1234));
+    assert.equal(o.verdict, 'mismatch', show(o));
+    assert.deepEqual(o.params[0].worst?.index, [1234]);
+  });
+
+  it('y = W x: each column of W is one colour class', () => {
+    const rows = 40;
+    const cols = 30;
+    const built = functionOp({
+      forward: (W: Float64Array, x: Float64Array) => {
+        const y = new Float64Array(rows);
+        for (let r = 0; r < rows; r++) for (let c = 0; c < cols; c++) y[r] += W[r * cols + c] * x[c];
+        return y;
+      },
+      backward: (W: Float64Array, x: Float64Array, dy: Float64Array) => {
+        const dW = new Float64Array(rows * cols);
+        const dx = new Float64Array(cols);
+        for (let r = 0; r < rows; r++) for (let c = 0; c < cols; c++) {
+          dW[r * cols + c] = dy[r] * x[c];
+          dx[c] += W[r * cols + c] * dy[r];
+        }
+        return [dW, dx];
+      },
+      params: [['W', spec('f64', [rows, cols])], ['x', spec('f64', [cols])]],
+    });
+    const o = check(built);
+    assert.equal(o.verdict, 'pass', show(o));
+    assert.equal(o.params[0].method, 'grouped');
+    // 2 baseline, 8 probes and 30 pairs for W; x (30 elements, dense) gets full columns: 8 probes and 60.
+    assert.ok(o.calls.forward <= 2 + 8 + 60 + 8 + 60 + 26 * 2, `forward calls ${o.calls.forward}`);
+  });
+
+  it('a wrong structure guess costs calls, never a false alarm: a hidden coupling the probes missed', () => {
+    // y_j = x_j² except y_500, which also depends on x_7: the band model is wrong for two elements.
+    const n = 1000;
+    const built = functionOp({
+      forward: (x: Float64Array) => {
+        const y = x.map((v) => v * v);
+        y[500] += 3 * x[7];
+        return y;
+      },
+      backward: (x: Float64Array, dy: Float64Array) => {
+        const g = x.map((v, i) => 2 * v * dy[i]);
+        g[7] += 3 * dy[500];
+        return g;
+      },
+      params: [['x', spec('f64', [n])]],
+    });
+    const o = check(built);
+    assert.equal(o.verdict, 'pass', show(o));
+    assert.equal(o.params[0].checkedElements, n);
+  });
+});
