@@ -1,16 +1,20 @@
 // Benchmark of the sandbox's own costs (prints figures; not a test): cold start to the first
-// result, warm per-op overhead of a trivial op, and bundle time cold and cached.
+// result, warm per-op overhead of a trivial op, bundle time cold and cached, and a numeric op's
+// check in this process against the same check in a runner.
 // Run: npx esbuild bench/sandbox.ts --bundle --platform=node --packages=external \
 //        --outfile=dist/bench/sandbox.js && node dist/bench/sandbox.js   (after npm run build)
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { bindingsOf, Checker, listOps } from '../server/src/core/checker';
+import { runCheck } from '../server/src/engine/check';
 import { DEFAULT_SETTINGS } from '../server/src/engine/settings';
+import * as denseTanhModule from '../test/fixtures/sandbox/denseTanh';
 import { Bundler } from '../server/src/sandbox/bundle';
 import { RunnerPool } from '../server/src/sandbox/pool';
 
 const FIXTURES = join(process.cwd(), 'test', 'fixtures', 'sandbox');
 const WARM_RUNS = 200;
+const NUMERIC_RUNS = 7;
 
 function median(xs: number[]): number {
   const s = [...xs].sort((a, b) => a - b);
@@ -82,11 +86,40 @@ async function bundleTimes(): Promise<void> {
   console.log(`bundle (relative import + package): first in process ${ms(firstInProcess)}; changed text median ${ms(median(rebuilds))}; cache hit (re-validating inputs) median ${ms(median(hits))}  [builds ${bundler.stats.builds}, hits ${bundler.stats.cacheHits}]`);
 }
 
+/** The same check in this process (plain functions) and in a warm runner (vm context, bundle). */
+async function numericOverhead(): Promise<void> {
+  const file = join(FIXTURES, 'denseTanh.ts');
+  const op = listOps(file).ops[0];
+  if (!op) throw new Error('denseTanh fixture has no op');
+  const inProcess: number[] = [];
+  let calls = '';
+  for (let i = 0; i < NUMERIC_RUNS; i++) {
+    const t = performance.now();
+    const outcome = runCheck({ ...denseTanhModule }, { op, settings: DEFAULT_SETTINGS }, () => performance.now());
+    inProcess.push(performance.now() - t);
+    calls = `${outcome.verdict}, ${outcome.calls.forward} forward / ${outcome.calls.backward} backward calls, method ${outcome.params.map((p) => p.method).join('+')}`;
+  }
+  const bundle = await new Bundler().bundle({ file, text: readFileSync(file, 'utf8'), bindings: bindingsOf(op) });
+  if (!bundle.ok) throw new Error(bundle.message);
+  const pool = new RunnerPool({ size: 1 });
+  const sandboxed: number[] = [];
+  for (let i = 0; i < NUMERIC_RUNS + 1; i++) {
+    const r = await pool.run({ bundleKey: bundle.key, bundleCode: bundle.code, op, settings: DEFAULT_SETTINGS });
+    if (!('outcome' in r)) throw new Error(r.error);
+    if (i > 0) sandboxed.push(r.elapsedMs);
+  }
+  await pool.dispose();
+  const a = median(inProcess);
+  const b = median(sandboxed);
+  console.log(`64×64 dense+tanh check (${calls}): in this process median ${ms(a)}; in a warm runner median ${ms(b)} (×${(b / a).toFixed(2)})`);
+}
+
 async function main(): Promise<void> {
   console.log(`node ${process.version}, ${DEFAULT_SETTINGS.timeLimitMs} ms limit, ${DEFAULT_SETTINGS.memoryLimitMb} MiB memory limit`);
   await bundleTimes();
   await coldStart();
   await warmOverhead();
+  await numericOverhead();
 }
 
 void main();
