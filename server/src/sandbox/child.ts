@@ -59,8 +59,11 @@ function compileBundle(job: JobMessage): vm.Script | undefined {
   return script;
 }
 
+/** Node's vm timeout error; read without getters (see hostErrorText). */
 function isTimeout(e: unknown): boolean {
-  return typeof e === 'object' && e !== null && (e as { code?: unknown }).code === 'ERR_SCRIPT_EXECUTION_TIMEOUT';
+  if (typeof e !== 'object' || e === null) return false;
+  const code = Object.getOwnPropertyDescriptor(e, 'code');
+  return code !== undefined && 'value' in code && code.value === 'ERR_SCRIPT_EXECUTION_TIMEOUT';
 }
 
 /** Reads the op's console text as a primitive string, whatever the context did. */
@@ -83,8 +86,14 @@ function readPhase(context: vm.Context): string {
   }
 }
 
+/**
+ * Text of an error that reached the host. It may come from the context, so only a primitive own
+ * `message` is read: calling its toString or a getter would run user code here, untimed.
+ */
 function hostErrorText(e: unknown): string {
-  return e instanceof Error ? e.message : String(e);
+  if (typeof e !== 'object' || e === null) return typeof e === 'string' ? e : typeof e;
+  const message = Object.getOwnPropertyDescriptor(e, 'message');
+  return message && 'value' in message && typeof message.value === 'string' ? message.value : 'unknown error';
 }
 
 function runJob(job: JobMessage): void {
