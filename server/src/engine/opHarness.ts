@@ -3,7 +3,7 @@
 // every failure of user code into a message naming the part of the op at fault.
 
 import { F64, describeThrown, describeValue, formatIndex, formatNumber, reflectApply, reflectConstruct } from './builtins';
-import { fail } from './failure';
+import { CheckStop, fail } from './failure';
 import { readGradients } from './gradients';
 import { InputGuard } from './inputGuard';
 import { buildValue, describeOutputIndex, detectLayout, firstNonFinite, flattenInto, nonFiniteName, type OutputLayout } from './outputLayout';
@@ -155,11 +155,21 @@ export class OpHarness {
   forwardInto(dest: Float64Array | null, requireFinite: boolean): Float64Array {
     const raw = this.forwardRaw();
     if (this.layout === null) {
-      this.layout = detectLayout(raw);
+      try {
+        this.layout = detectLayout(raw);
+      } catch (e) {
+        if (e instanceof CheckStop) throw e;
+        fail(`reading the forward output threw ${describeThrown(e)}`);
+      }
       if (this.layout.size === 0) fail('forward output is empty');
     }
     const out = dest ?? new F64(this.layout.size);
-    flattenInto(raw, this.layout, out);
+    try {
+      flattenInto(raw, this.layout, out);
+    } catch (e) {
+      if (e instanceof CheckStop) throw e;
+      fail(`reading the forward output threw ${describeThrown(e)}`);
+    }
     if (requireFinite) {
       const j = firstNonFinite(out);
       if (j >= 0) fail(`forward output has ${nonFiniteName(out[j])} at ${describeOutputIndex(this.layout, j)} ${this.whereText()}`);
@@ -209,7 +219,12 @@ export class OpHarness {
     } catch (e) {
       fail(`backward threw: ${describeThrown(e)}`);
     }
-    readGradients(result, slots, dests);
+    try {
+      readGradients(result, slots, dests);
+    } catch (e) {
+      if (e instanceof CheckStop) throw e;
+      fail(`reading what the backward returned threw ${describeThrown(e)}`);
+    }
     for (let p = 0; p < slots.length; p++) {
       const j = firstNonFinite(dests[p]);
       if (j >= 0) {
