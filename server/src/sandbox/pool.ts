@@ -422,11 +422,16 @@ export class RunnerPool {
     if (wasStarting && !runner.retiring) {
       this.startFailures++;
       const why = telling(runner.stderrTail) ?? (signal ? `signal ${signal}` : `exit code ${code}`);
-      if (runner.command.permissionFlag && this.usePermission) {
-        // Some runtimes (an editor's embedded Node) may refuse the flag: run without it and say so.
+      const hasPermission = runner.command.permissionFlag !== undefined && this.usePermission;
+      const hasAddressLimit = runner.command.addressSpaceLimitMb !== undefined && this.useAddressLimit;
+      // Give up the optional limits one at a time, the one the error names first. A runtime
+      // that refuses the flag says "bad option"; one that reserves a large virtual-memory cage
+      // (an editor's Electron) dies opaquely under the address-space limit.
+      const blamesPermission = /permission|bad option/i.test(runner.stderrTail);
+      if (hasPermission && (blamesPermission || !hasAddressLimit)) {
         this.usePermission = false;
-        this.log(`runner refused ${runner.command.permissionFlag} (${why}); running without the permission model`);
-      } else if (runner.command.addressSpaceLimitMb && this.useAddressLimit) {
+        this.log(`runner did not start with ${runner.command.permissionFlag} (${why}); running without the permission model`);
+      } else if (hasAddressLimit) {
         this.useAddressLimit = false;
         this.log(`runner did not start under an address-space limit (${why}); relying on the memory poll`);
       } else if (this.startFailures >= MAX_START_FAILURES) {
