@@ -54,6 +54,24 @@ describe('bundle: imports', function () {
     assert.equal(y[0], 15);
   });
 
+  it('bundles a file that does not exist on disk yet (a new, unsaved buffer)', async () => {
+    const bundler = new Bundler();
+    const file = fixture('withdeps', 'not-saved-yet.ts');
+    const text = "import { PANEL_SCALE } from './lib/scale';\nexport const scaled = (v: number) => PANEL_SCALE * v;\n";
+    const r = await bundler.bundle({ file, text, bindings: ['scaled'] });
+    assert.ok(r.ok, r.ok ? '' : r.message);
+    assert.equal((exposedBy(r.code).scaled as (v: number) => number)(2), 3);
+  });
+
+  it('gives a package that imports a Node built-in an empty module in its place', async () => {
+    const bundler = new Bundler();
+    const file = fixture('withdeps', 'ops.ts');
+    const text = "import { describeReading } from 'fixture-node-aware';\nexport const label = describeReading;\n";
+    const r = await bundler.bundle({ file, text, bindings: ['label'] });
+    assert.ok(r.ok, r.ok ? '' : r.message);
+    assert.equal((exposedBy(r.code).label as (v: number) => string)(4), '4 kW');
+  });
+
   it('a missing import is an error naming the import and its line', async () => {
     const bundler = new Bundler();
     const file = fixture('withdeps', 'ops.ts');

@@ -51,6 +51,10 @@ describe('sandbox: the context user code runs in', function () {
     assert.deepEqual(line(resultOf(first, 'atDefaultSeed'), 'absent'), Array(6).fill('undefined'));
   });
 
+  it('self is the global object, as packages written for browsers and workers expect', () => {
+    assert.deepEqual(line(resultOf(first, 'atDefaultSeed'), 'self'), ['true']);
+  });
+
   it('an op that waits on Atomics is an error, not a hang', () => {
     const r = resultOf(first, 'blocksOnAtomics');
     assert.equal(r.verdict, 'error', describeResults(first));

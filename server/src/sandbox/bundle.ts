@@ -11,6 +11,9 @@ import type * as esbuildTypes from 'esbuild';
 /** Bundles kept in memory; a workspace rarely has more files with ops open at once. */
 const MAX_CACHED_BUNDLES = 128;
 
+/** esbuild namespace of the empty stand-ins for Node built-ins imported by packages. */
+const EMPTY_NAMESPACE = 'gradient-probe-empty';
+
 /** A binding name we may splice into code: a plain identifier, nothing else. */
 const IDENTIFIER = /^[A-Za-z_$][A-Za-z0-9_$]*$/;
 
@@ -160,6 +163,17 @@ export class Bundler {
     const entryPlugin: esbuildTypes.Plugin = {
       name: 'gradient-probe-entry',
       setup(build) {
+        // The entry need not exist on disk (a new, unsaved editor buffer).
+        build.onResolve({ filter: /.*/ }, (args) =>
+          args.kind === 'entry-point' && resolve(workDir, args.path) === file ? { path: file, namespace: 'file' } : undefined,
+        );
+        // A package that imports a Node built-in (usually on a code path for Node only) gets
+        // an empty module, as bundlers for the browser do; the user's own files get a clear
+        // error instead, since their code would fail at run time.
+        build.onResolve({ filter: /^[a-z_:][a-z0-9_/:.-]*$/ }, (args) =>
+          isBuiltinModule(args.path) && /[\\/]node_modules[\\/]/.test(args.importer) ? { path: args.path, namespace: EMPTY_NAMESPACE } : undefined,
+        );
+        build.onLoad({ filter: /.*/, namespace: EMPTY_NAMESPACE }, () => ({ contents: 'module.exports = {};', loader: 'js' }));
         // The entry's text comes from the caller (an unsaved buffer), also when another
         // module imports it back (an import cycle).
         build.onLoad({ filter: /.*/, namespace: 'file' }, (args) =>

@@ -49,7 +49,7 @@ function compileBundle(job: JobMessage): vm.Script | undefined {
     return cached;
   }
   if (job.bundleCode === undefined) return undefined;
-  const script = new vm.Script(wrapWithBuiltins(job.bundleCode), { filename: 'user-bundle.js' });
+  const script = new vm.Script(wrapWithBuiltins(job.bundleCode), { filename: 'user-bundle.js', importModuleDynamically: refuseDynamicImport });
   bundleScripts.set(job.bundleKey, script);
   while (bundleScripts.size > MAX_CACHED_BUNDLES) {
     const oldest = bundleScripts.keys().next().value;
@@ -85,6 +85,20 @@ function readPhase(context: vm.Context): string {
     return '';
   }
 }
+
+/**
+ * Answers every `import()` in user code. Without it Node rejects the import with an error made
+ * in the host's realm, whose `.constructor.constructor` is the host's Function, so code that
+ * catches it reaches `process` (found by the hostile fixtures). A thrown string is a primitive:
+ * it belongs to no realm. Needs `--experimental-vm-modules` on Node 20 (runnerCommand.ts).
+ */
+function refuseDynamicImport(specifier: unknown): never {
+  importAttempt = typeof specifier === 'string' ? specifier.slice(0, 200) : '?';
+  throw 'import() is not available to code checked in the sandbox';
+}
+
+/** The module the running job's code tried to import(), if any: the op then ends as an error. */
+let importAttempt: string | undefined;
 
 /**
  * Text of an error that reached the host. It may come from the context, so only a primitive own
@@ -132,6 +146,7 @@ function runJob(job: JobMessage): void {
     sandboxGlobal.__gradientProbeEngine = engineScript.runInContext(context);
     sandboxGlobal.__gradientProbeModule = bundleScript.runInContext(context);
     sandboxGlobal.__gradientProbeRequest = job.requestJson;
+    importAttempt = undefined;
     tagged = driveScript.runInContext(context, { timeout: job.timeLimitMs });
   } catch (e) {
     const output = readOutput(context);
@@ -147,6 +162,11 @@ function runJob(job: JobMessage): void {
     return;
   }
   const output = readOutput(context);
+  if (importAttempt !== undefined) {
+    const error = `the op called import(${JSON.stringify(importAttempt)}), which code checked in the sandbox cannot use; the import was refused`;
+    send({ type: 'result', id: job.id, ok: false, error, timedOut: false, duringLoad: false, output, elapsedMs: elapsed() });
+    return;
+  }
   if (typeof tagged !== 'string' || tagged.length === 0) {
     send({ type: 'result', id: job.id, ok: false, error: 'internal: the check returned no result', timedOut: false, duringLoad: false, output, elapsedMs: elapsed() });
     return;
@@ -175,6 +195,9 @@ function onMessage(raw: unknown): void {
 
 if (typeof process.send === 'function') {
   process.on('message', onMessage);
+  // A promise user code leaves rejected (a refused import(), an async throw) settles after its
+  // job ended; by default Node would exit and the next op would be blamed for the crash.
+  process.on('unhandledRejection', () => undefined);
   // The parent going away (crash, kill) must not leave this process behind.
   process.on('disconnect', () => process.exit(0));
   send(helloMessage());

@@ -50,6 +50,9 @@ export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, output
     try { delete g[name]; } catch (e) { /* non-configurable: leave it */ }
   }
 
+  // Packages written for browsers and workers look for the global object under 'self'.
+  Object.defineProperty(g, 'self', { value: g, writable: true, configurable: true });
+
   // Seeded Math.random: mulberry32, a 32-bit generator (public domain, T. Ettinger), so two
   // runs of the same op with the same seed see the same numbers.
   let state = (seed >>> 0) ^ 0x9e3779b9;

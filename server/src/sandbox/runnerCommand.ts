@@ -70,6 +70,9 @@ export function runnerCommand(opts: RunnerCommandOptions): RunnerCommand {
     // addons are denied by the flag alone.
     nodeArgs.push(permissionFlag, `--allow-fs-read=${opts.childScript}`);
   }
+  // Lets the runner answer user code's import() itself (child.ts refuseDynamicImport); without
+  // it Node 20 rejects with a host-realm error that leads back to the host's process.
+  if (process.allowedNodeEnvironmentFlags.has('--experimental-vm-modules')) nodeArgs.push('--experimental-vm-modules');
   // The heap limit makes a runaway op die with a clear V8 "heap out of memory" instead of
   // swapping the machine; off-heap buffers are caught by the address-space limit and the
   // parent's memory poll.
