@@ -114,8 +114,14 @@ async function copyRegressionTest(ctx: ProbeContext, uriArg: unknown, forwardArg
     void vscode.window.showInformationMessage(`Gradient Probe: no regression test to copy: ${answer.reason ?? 'no result'}.`);
     return undefined;
   }
-  await vscode.env.clipboard.writeText(answer.snippet);
-  void vscode.window.showInformationMessage(`Gradient Probe: a mocha test reproducing the mismatch of ${target.forward} is on the clipboard.`);
+  try {
+    await vscode.env.clipboard.writeText(answer.snippet);
+    void vscode.window.showInformationMessage(`Gradient Probe: a mocha test reproducing the mismatch of ${target.forward} is on the clipboard.`);
+  } catch {
+    // A browser-hosted editor may refuse clipboard access: show the test instead.
+    const doc = await vscode.workspace.openTextDocument({ language: 'typescript', content: answer.snippet });
+    await vscode.window.showTextDocument(doc, { preview: true });
+  }
   return answer.snippet;
 }
 

@@ -10,6 +10,7 @@ import {
   type TrustChangedParams, type WorkspaceProgressParams,
 } from '../../server/src/lsp/protocol';
 import { registerCommands } from './commands';
+import { RecordingOutputChannel } from './outputChannel';
 import { ReportPanels } from './reportPanel';
 import { ProbeStatusBar } from './statusBar';
 import { ProbeTests } from './testing';
@@ -22,10 +23,14 @@ export interface ProbeApi {
   status(): StatusParams | undefined;
   /** The latest op states of a file, by URI string. */
   ops(uri: string): FileOps | undefined;
+  /** The outcome of a Testing view item's latest run (id: `URI#forward`). */
+  testOutcome(id: string): string | undefined;
+  /** The last lines written to the extension's output channel (client and server logs). */
+  logTail(): string[];
 }
 
 export class ProbeContext implements vscode.Disposable {
-  readonly output: vscode.OutputChannel;
+  readonly output: RecordingOutputChannel;
   readonly statusBar: ProbeStatusBar;
   readonly tests: ProbeTests;
   readonly reports: ReportPanels;
@@ -39,7 +44,7 @@ export class ProbeContext implements vscode.Disposable {
   private workspaceProgress: ((p: WorkspaceProgressParams) => void) | undefined;
 
   constructor(readonly extension: vscode.ExtensionContext) {
-    this.output = vscode.window.createOutputChannel('Gradient Probe');
+    this.output = new RecordingOutputChannel(vscode.window.createOutputChannel('Gradient Probe'));
     this.statusBar = new ProbeStatusBar();
     this.tests = new ProbeTests(this);
     this.reports = new ReportPanels(this);
@@ -56,6 +61,8 @@ export class ProbeContext implements vscode.Disposable {
     ready: () => this.starting ?? Promise.resolve(),
     status: () => this.lastStatus,
     ops: (uri) => this.opsByUri.get(uri),
+    testOutcome: (id) => this.tests.outcomes.get(id),
+    logTail: () => this.output.tail(),
   };
 
   /** The running client, or undefined (commands then say the server is not running). */

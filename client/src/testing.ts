@@ -8,6 +8,8 @@ import type { ProbeContext } from './context';
 
 export class ProbeTests implements vscode.Disposable {
   readonly controller = vscode.tests.createTestController('gradientProbe', 'Gradient Probe');
+  /** The outcome of each item's latest run (by test item id), for the in-editor tests. */
+  readonly outcomes = new Map<string, 'passed' | 'failed' | 'errored' | 'skipped'>();
   private readonly disposables: vscode.Disposable[] = [this.controller];
 
   constructor(private readonly ctx: ProbeContext) {
@@ -71,7 +73,10 @@ export class ProbeTests implements vscode.Disposable {
         const excluded = new Set(request.exclude?.map((i) => i.id) ?? []);
         const wanted = items.filter((i) => !excluded.has(i.id));
         if (!client) {
-          for (const item of wanted) run.errored(item, new vscode.TestMessage('The Gradient Probe language server is not running.'));
+          for (const item of wanted) {
+            run.errored(item, new vscode.TestMessage('The Gradient Probe language server is not running.'));
+            this.outcomes.set(item.id, 'errored');
+          }
           continue;
         }
         for (const item of wanted) run.started(item);
@@ -82,10 +87,11 @@ export class ProbeTests implements vscode.Disposable {
           const result = byName.get(item.label);
           if (!result) {
             run.skipped(item);
+            this.outcomes.set(item.id, 'skipped');
             if (answer.reason) run.appendOutput(`${item.label}: ${answer.reason}\r\n`);
             continue;
           }
-          report(run, item, result);
+          this.outcomes.set(item.id, report(run, item, result));
         }
       }
     } catch (err) {
@@ -100,18 +106,18 @@ export class ProbeTests implements vscode.Disposable {
   }
 }
 
-function report(run: vscode.TestRun, item: vscode.TestItem, result: OpResult): void {
+function report(run: vscode.TestRun, item: vscode.TestItem, result: OpResult): 'passed' | 'failed' | 'errored' | 'skipped' {
   const duration = result.elapsedMs;
   if (result.output) run.appendOutput(result.output.replace(/\r?\n/g, '\r\n'), undefined, item);
   if (result.verdict === 'pass') {
     run.passed(item, duration);
-    return;
+    return 'passed';
   }
   if (result.verdict === 'inconclusive') {
     // Neither right nor wrong: the numeric estimate could not be trusted at the sample.
     run.appendOutput(`${item.label}: inconclusive: ${result.message}\r\n`, undefined, item);
     run.skipped(item);
-    return;
+    return 'skipped';
   }
   const message = new vscode.TestMessage(`${result.verdict}: ${result.message}`);
   const worst = result.params.find((p) => p.verdict === result.verdict && p.worst) ?? result.params.find((p) => p.worst);
@@ -120,8 +126,12 @@ function report(run: vscode.TestRun, item: vscode.TestItem, result: OpResult): v
     message.actualOutput = `backward ${worst.worst.analytic} at ${worst.name}[${worst.worst.index.join(', ')}]`;
   }
   if (item.uri && item.range) message.location = new vscode.Location(item.uri, item.range);
-  if (result.verdict === 'error') run.errored(item, message, duration);
-  else run.failed(item, message, duration);
+  if (result.verdict === 'error') {
+    run.errored(item, message, duration);
+    return 'errored';
+  }
+  run.failed(item, message, duration);
+  return 'failed';
 }
 
 function* gather(collection: vscode.TestItemCollection): Generator<vscode.TestItem> {

@@ -77,13 +77,16 @@ export function startServer(connection: Connection): void {
   });
 
   connection.onInitialized(() => {
-    void guard('initialized', undefined, async () => {
-      await connection.client.register(DidChangeConfigurationNotification.type, { section: 'gradientProbe' });
+    // Each step alone: a client without dynamic registration must still get the rest.
+    void guard('configuration registration', undefined, () => connection.client.register(DidChangeConfigurationNotification.type, { section: 'gradientProbe' }));
+    void guard('workspace folders', undefined, () => {
       connection.workspace.onDidChangeWorkspaceFolders((e) => {
         const removed = new Set(e.removed.map((f) => fileURLToPath(f.uri)));
         folders = [...folders.filter((f) => !removed.has(f)), ...e.added.map((f) => fileURLToPath(f.uri))];
       });
     });
+    // The client's status bar shows counts from the start (zero, or why nothing runs).
+    void guard('first status', undefined, () => need().pushNow());
   });
 
   documents.onDidOpen((e) => void guard('open', undefined, () => events?.opened(e)));

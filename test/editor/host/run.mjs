@@ -1,0 +1,20 @@
+// Entry of `npm run test:editor` (after `node esbuild.mjs`): bundles the TypeScript runner and
+// the in-editor suites with esbuild, then runs the runner and exits with the suites' code.
+import * as esbuild from 'esbuild';
+import { createRequire } from 'node:module';
+import { dirname, join, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+
+const root = resolve(dirname(fileURLToPath(import.meta.url)), '..', '..', '..');
+const common = { bundle: true, platform: 'node', target: 'node20', format: 'cjs', sourcemap: true, logLevel: 'warning' };
+await esbuild.build({ ...common, entryPoints: { runner: join(root, 'test/editor/host/runner.ts') }, outdir: join(root, 'dist/editor-host'), packages: 'external' });
+// Loaded by the extension host: `vscode` comes from the host, mocha from the repository's node_modules.
+await esbuild.build({
+  ...common,
+  entryPoints: { trusted: join(root, 'test/editor/suite/trustedSuite.ts'), untrusted: join(root, 'test/editor/suite/untrustedSuite.ts') },
+  outdir: join(root, 'dist/editor-suite'),
+  external: ['vscode', 'mocha'],
+});
+const require = createRequire(import.meta.url);
+const { main } = require(join(root, 'dist/editor-host/runner.js'));
+process.exit(await main(root));
