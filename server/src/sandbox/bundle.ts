@@ -11,6 +11,12 @@ import type * as esbuildTypes from 'esbuild';
 /** Bundles kept in memory; a workspace rarely has more files with ops open at once. */
 const MAX_CACHED_BUNDLES = 128;
 
+/**
+ * Characters of bundled code kept in the cache at most (~64 MiB of UTF-16): a file that imports
+ * a large package makes a bundle of several MB, and the language server lives for hours.
+ */
+const MAX_CACHED_CHARS = 32 * 1024 * 1024;
+
 /** esbuild namespace of the empty stand-ins for Node built-ins imported by packages. */
 const EMPTY_NAMESPACE = 'gradient-probe-empty';
 
@@ -98,6 +104,7 @@ function describeFailure(entry: string, workDir: string, errors: esbuildTypes.Me
 export class Bundler {
   readonly stats: BundleStats = { builds: 0, cacheHits: 0, failures: 0 };
   private readonly cache = new Map<string, CacheEntry>();
+  private cachedChars = 0;
 
   /** Bundles a file for the sandbox; never rejects. */
   async bundle(request: BundleRequest): Promise<BundleResult> {
@@ -113,7 +120,7 @@ export class Bundler {
       this.stats.cacheHits++;
       return { ok: true, code: cached.code, key: cached.key, cached: true, buildMs: 0 };
     }
-    this.cache.delete(requestKey);
+    this.forget(requestKey);
     const started = performance.now();
     const result = await this.build(file, request.text, bindings);
     if (!result.ok) {
@@ -122,10 +129,12 @@ export class Bundler {
     }
     this.stats.builds++;
     this.cache.set(requestKey, result.entry);
-    while (this.cache.size > MAX_CACHED_BUNDLES) {
+    this.cachedChars += result.entry.code.length;
+    // Oldest first; the newest entry always stays, however large.
+    while (this.cache.size > 1 && (this.cache.size > MAX_CACHED_BUNDLES || this.cachedChars > MAX_CACHED_CHARS)) {
       const oldest = this.cache.keys().next().value;
       if (oldest === undefined) break;
-      this.cache.delete(oldest);
+      this.forget(oldest);
     }
     return { ok: true, code: result.entry.code, key: result.entry.key, cached: false, buildMs: performance.now() - started };
   }
@@ -133,6 +142,14 @@ export class Bundler {
   /** Forgets every cached bundle. */
   clear(): void {
     this.cache.clear();
+    this.cachedChars = 0;
+  }
+
+  private forget(key: string): void {
+    const entry = this.cache.get(key);
+    if (!entry) return;
+    this.cache.delete(key);
+    this.cachedChars -= entry.code.length;
   }
 
   /** An input is unchanged when its size and mtime match, or else its content hash does. */
