@@ -88,6 +88,19 @@ describe('pool: runners', function () {
     }
   });
 
+  it('replaces an idle runner when a job asks for another memory limit', async () => {
+    pool = new RunnerPool({ size: 1 });
+    const first = await pool.run({ bundleKey: fx.key, bundleCode: fx.code, op: fx.cube, settings: settingsWith({ memoryLimitMb: 512 }) });
+    assert.equal(verdictOf(first), 'pass');
+    const second = await pool.run({ bundleKey: fx.key, bundleCode: fx.code, op: fx.cube, settings: settingsWith({ memoryLimitMb: 384 }) });
+    assert.equal(verdictOf(second), 'pass');
+    assert.equal(pool.stats.spawned, 2);
+    const iso = pool.isolation();
+    assert.equal(iso?.memoryLimitMb, 384);
+    const argv = readFileSync(`/proc/${iso?.pid}/cmdline`, 'utf8').split('\0');
+    assert.ok(argv.includes('--max-old-space-size=384'), argv.join(' '));
+  });
+
   it('runs jobs on two runners at once', async () => {
     pool = new RunnerPool({ size: 2 });
     const jobs = Array.from({ length: 4 }, () => pool.run({ bundleKey: fx.key, bundleCode: fx.code, op: fx.cube, settings }));
