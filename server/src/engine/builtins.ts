@@ -74,6 +74,9 @@ export function formatIndex(index: ArrayLike<number>): string {
   return s + ']';
 }
 
+/** Characters of a thrown non-Error value quoted in a message: enough to recognise it. */
+const THROWN_VALUE_CHARS = 200;
+
 /** A short description of a thrown value that never throws itself. */
 export function describeThrown(e: unknown): string {
   try {
@@ -82,7 +85,18 @@ export function describeThrown(e: unknown): string {
       const name = (e as { name?: unknown }).name;
       if (typeof msg === 'string') return typeof name === 'string' && name !== 'Error' ? `${name}: ${msg}` : msg;
     }
-    return toStringCall(e);
+    // A thrown value that is not an Error says so, with the value as JSON where it has one
+    // ("[object Object]" tells the user nothing about `throw { code: 7 }`).
+    const kind = e === null ? 'null' : isArray(e) ? 'array' : typeof e;
+    let text: string | undefined;
+    try {
+      text = typeof e === 'object' || typeof e === 'string' ? stringifyJson(e) : undefined;
+    } catch {
+      text = undefined;
+    }
+    if (typeof text !== 'string') text = toStringCall(e);
+    if (text.length > THROWN_VALUE_CHARS) text = `${text.slice(0, THROWN_VALUE_CHARS)}…`;
+    return `${text} (a thrown ${kind}, not an Error)`;
   } catch {
     return 'an exception that could not be described';
   }
@@ -102,6 +116,8 @@ export function describeValue(v: unknown): string {
       return `a ${name} of ${(v as unknown as ArrayLike<number>).length}`;
     }
     if (typeof v === 'function') return 'a function';
+    // An async function's result: say so, since "an object" hides the usual cause.
+    if (typeof (v as { then?: unknown }).then === 'function') return 'a Promise (checks need the value itself, not a promise of it)';
     return 'an object';
   } catch {
     return 'a value that could not be inspected';
