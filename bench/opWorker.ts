@@ -1,0 +1,112 @@
+// One op at one size, in its own process: Gradient Probe's check through the Checker (the
+// runner the CLI and the server use), the evaluation floor of the method it picked, and the
+// hand-written loop, side by side. Prints one JSON line (OpMeasurement) on stdout.
+// Usage: node dist/bench/opWorker.js KIND ELEMENTS REPS HAND_BUDGET_MS
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { bindingsOf, Checker, listOps } from '../server/src/core/checker';
+import { DEFAULT_SETTINGS } from '../server/src/engine/settings';
+import type { OpResult } from '../server/src/engine/types';
+import { Bundler } from '../server/src/sandbox/bundle';
+import { directOp } from './directOp';
+import { loadInContext } from './evalContext';
+import { median, timeFloor, type CallBudget } from './floor';
+import { runHandLoop } from './handLoop';
+import { benchOp, type BenchOp, type OpKind } from './opSources';
+import type { OpMeasurement } from './results';
+
+/** Seed of the benchmark's inputs (any fixed value; the check uses the default settings' seed). */
+const INPUT_SEED = 20240917;
+
+/**
+ * Calls the method the check picked needs at least, per interface of each method: one baseline
+ * forward; per parameter, 2 forwards per element (full), per colour class of the cheapest exact
+ * grouping (grouped), or per dot-product probe and subset element (dot-product); one backward
+ * per upstream probe (and per dot-product probe). A method op re-runs its forward before each
+ * backward after the first, because its backward reads what the forward cached.
+ */
+export function floorBudget(op: BenchOp, result: OpResult): CallBudget {
+  const s = DEFAULT_SETTINGS;
+  let forwards = 1;
+  let backwards = Math.max(1, s.upstreamProbes);
+  let dot = false;
+  for (const p of op.params) {
+    const r = result.params.find((q) => q.name === p.name);
+    const method = r?.method ?? 'full';
+    if (method === 'full') forwards += 2 * p.elements;
+    else if (method === 'grouped') forwards += 2 * p.optimalColours;
+    else {
+      dot = true;
+      forwards += 2 * (s.dotProductProbes + Math.min(p.elements, s.subsetElements));
+    }
+  }
+  if (dot) backwards += s.dotProductProbes;
+  if (op.isMethod) forwards += backwards - 1;
+  return { forwards, backwards };
+}
+
+async function main(): Promise<void> {
+  const [kind, elementsText, repsText, budgetText] = process.argv.slice(2);
+  const op = benchOp(kind as OpKind, Number(elementsText));
+  const reps = Number(repsText);
+  const handBudgetMs = Number(budgetText);
+  const dir = mkdtempSync(join(tmpdir(), 'gradient-probe-bench-'));
+  const file = join(dir, op.fileName);
+  writeFileSync(file, op.text);
+  const checker = new Checker({ settings: DEFAULT_SETTINGS, workers: 1 });
+  try {
+    // Check: one cold run (runner start, first bundle), then `reps` warm runs.
+    let t = performance.now();
+    const first = (await checker.checkFile(file))[0];
+    const coldMs = performance.now() - t;
+    if (!first) throw new Error(`no op found in ${file}`);
+    const wallMs: number[] = [];
+    const runnerMs: number[] = [];
+    let last = first;
+    for (let r = 0; r < reps; r++) {
+      t = performance.now();
+      const res = (await checker.checkFile(file))[0];
+      wallMs.push(performance.now() - t);
+      if (res) {
+        runnerMs.push(res.elapsedMs);
+        last = res;
+      }
+    }
+
+    // Floor and hand-written loop on the same bundle, in a context like the runner's.
+    const listing = listOps(file);
+    const bundle = await new Bundler().bundle({ file, text: op.text, bindings: listing.ops.flatMap(bindingsOf) });
+    if (!bundle.ok) throw new Error(bundle.message);
+    const d = directOp(op, loadInContext(bundle.code, DEFAULT_SETTINGS.seed), INPUT_SEED);
+    const budget = floorBudget(op, last);
+    const floorReps = Math.max(3, Math.min(reps, 9));
+    const floor = timeFloor(d, budget, floorReps);
+    const hand = runHandLoop(d, handBudgetMs, 64);
+
+    const m: OpMeasurement = {
+      kind: op.kind,
+      forward: op.forward,
+      shape: op.shape,
+      elements: op.elements,
+      outputs: op.outputs,
+      verdict: last.verdict,
+      message: last.message,
+      methods: last.params.map((p) => `${p.name}:${p.method}`),
+      coverage: last.params.reduce((a, p) => a + p.checkedElements, 0) / op.elements,
+      calls: last.calls,
+      check: { coldMs, wallMs, medianMs: median(wallMs), runnerMedianMs: median(runnerMs) },
+      floor: { calls: budget, medianMs: floor.medianMs, reps: floorReps },
+      hand,
+    };
+    process.stdout.write(`${JSON.stringify(m)}\n`);
+  } finally {
+    await checker.dispose();
+    rmSync(dir, { recursive: true, force: true });
+  }
+}
+
+main().catch((e: unknown) => {
+  process.stderr.write(`${e instanceof Error ? e.stack ?? e.message : String(e)}\n`);
+  process.exitCode = 1;
+});

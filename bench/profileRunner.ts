@@ -1,0 +1,90 @@
+// Profiles where a warm runner spends a check: starts the real runner script (dist/sandbox-child.js)
+// under `node --cpu-prof`, sends it the same messages the RunnerPool sends for one benchmark op,
+// and prints the functions with the most self time from the profile it writes.
+// Usage: node dist/bench/profileRunner.js KIND ELEMENTS JOBS
+import { fork } from 'node:child_process';
+import { mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { bindingsOf, listOps } from '../server/src/core/checker';
+import { DEFAULT_SETTINGS } from '../server/src/engine/settings';
+import { Bundler } from '../server/src/sandbox/bundle';
+import { CHILD_SCRIPT_NAME, ENGINE_SCRIPT_NAME, findBuiltAsset } from '../server/src/sandbox/assets';
+import type { ChildMessage, JobMessage } from '../server/src/sandbox/protocol';
+import { benchOp, type OpKind } from './opSources';
+
+interface ProfileNode {
+  id: number;
+  callFrame: { functionName: string; url: string; lineNumber: number };
+  children?: number[];
+}
+interface CpuProfile {
+  nodes: ProfileNode[];
+  samples: number[];
+  timeDeltas: number[];
+}
+
+/** Self time per function (name, script, line), largest first, in ms. */
+export function selfTimes(profile: CpuProfile): { name: string; ms: number; share: number }[] {
+  const byId = new Map<number, ProfileNode>();
+  for (const n of profile.nodes) byId.set(n.id, n);
+  const totals = new Map<string, number>();
+  let all = 0;
+  for (let i = 0; i < profile.samples.length; i++) {
+    const node = byId.get(profile.samples[i]);
+    const dt = (profile.timeDeltas[i] ?? 0) / 1000;
+    all += dt;
+    if (!node) continue;
+    const f = node.callFrame;
+    const key = `${f.functionName || '(anonymous)'} ${f.url.split('/').pop() ?? ''}:${f.lineNumber + 1}`;
+    totals.set(key, (totals.get(key) ?? 0) + dt);
+  }
+  return [...totals.entries()].map(([name, ms]) => ({ name, ms, share: ms / all })).sort((a, b) => b.ms - a.ms);
+}
+
+async function main(): Promise<void> {
+  const [kind, elementsText, jobsText] = process.argv.slice(2);
+  const op = benchOp(kind as OpKind, Number(elementsText));
+  const jobs = Number(jobsText ?? 10);
+  const dir = mkdtempSync(join(tmpdir(), 'gradient-probe-profile-'));
+  const file = join(dir, op.fileName);
+  writeFileSync(file, op.text);
+  const childScript = findBuiltAsset(CHILD_SCRIPT_NAME);
+  const engineScript = findBuiltAsset(ENGINE_SCRIPT_NAME);
+  if (!childScript || !engineScript) throw new Error('run the build first (dist/sandbox-child.js, dist/engine-in-sandbox.js)');
+  const listing = listOps(file);
+  const target = listing.ops[0];
+  if (!target) throw new Error('no op found');
+  const bundle = await new Bundler().bundle({ file, text: op.text, bindings: listing.ops.flatMap(bindingsOf) });
+  if (!bundle.ok) throw new Error(bundle.message);
+  const profDir = join(dir, 'prof');
+  const child = fork(childScript, [], { execArgv: ['--cpu-prof', `--cpu-prof-dir=${profDir}`], stdio: ['ignore', 'ignore', 'inherit', 'ipc'] });
+  const next = (): Promise<ChildMessage> => new Promise((resolve) => child.once('message', (m) => resolve(m as ChildMessage)));
+  await next(); // hello
+  child.send({ type: 'init', engineCode: readFileSync(engineScript, 'utf8') });
+  const times: number[] = [];
+  for (let id = 1; id <= jobs; id++) {
+    const job: JobMessage = {
+      type: 'job', id, bundleKey: bundle.key, bundleCode: id === 1 ? bundle.code : undefined,
+      requestJson: JSON.stringify({ op: target, settings: DEFAULT_SETTINGS }), seed: DEFAULT_SETTINGS.seed,
+      timeLimitMs: DEFAULT_SETTINGS.timeLimitMs, outputLimitChars: 65536,
+    };
+    child.send(job);
+    const reply = await next();
+    if (reply.type === 'result') times.push(reply.elapsedMs);
+  }
+  const exited = new Promise((resolve) => child.once('exit', resolve));
+  child.disconnect();
+  await exited;
+  const profFile = readdirSync(profDir).find((f) => f.endsWith('.cpuprofile'));
+  if (!profFile) throw new Error('no profile written');
+  const profile = JSON.parse(readFileSync(join(profDir, profFile), 'utf8')) as CpuProfile;
+  console.log(`${op.kind} ${op.shape}: ${jobs} jobs in one runner, elapsed inside the runner (ms): ${times.map((t) => t.toFixed(1)).join(' ')}`);
+  for (const row of selfTimes(profile).slice(0, 25)) console.log(`${row.ms.toFixed(1).padStart(9)} ms ${(100 * row.share).toFixed(1).padStart(5)} %  ${row.name}`);
+  rmSync(dir, { recursive: true, force: true });
+}
+
+main().catch((e: unknown) => {
+  process.stderr.write(`${e instanceof Error ? e.stack ?? e.message : String(e)}\n`);
+  process.exitCode = 1;
+});
