@@ -1,11 +1,12 @@
 // The Checker: the one orchestration shared by the CLI, the language server and benchmarks.
 // discovery → bundle once per file → one sandbox job per op (in parallel across runners) → OpResult.
 import { readFileSync } from 'node:fs';
-import { resolve } from 'node:path';
+import { dirname, relative, resolve } from 'node:path';
 import { discoverOps, type DiscoveryResult } from '../discovery/index';
 import type { CheckSettings } from '../engine/settings';
-import type { OpDescriptor, OpResult } from '../engine/types';
+import type { OpDescriptor, OpResult, Problem } from '../engine/types';
 import { Bundler, type BundleStats } from '../sandbox/bundle';
+import type { SourcePlace } from '../sandbox/sourceMap';
 import { RunnerPool, type IsolationReport, type PoolStats, type RunnerPoolOptions } from '../sandbox/pool';
 import { errorResult, resultFromOutcome, summarizeProblems } from './opResult';
 
@@ -175,6 +176,8 @@ export class Checker {
     const stop = new AbortController();
     const fileLimitMs = settings.timeLimitMs * FILE_TIME_LIMIT_FACTOR;
     let stopReason = 'cancelled';
+    // Where the module threw while loading, when that is a line of this file.
+    let loadProblems: Problem[] | undefined;
     const onCallerAbort = (): void => stop.abort();
     opts.signal?.addEventListener('abort', onCallerAbort, { once: true });
     if (opts.signal?.aborted) stop.abort();
@@ -188,11 +191,18 @@ export class Checker {
         runnable.map(async (i) => {
           const op = ops[i];
           const run = await this.pool.run({ bundleKey: bundle.key, bundleCode: bundle.code, op, settings, signal: stop.signal });
-          if ('error' in run && run.cause === 'load' && !stop.signal.aborted) {
-            // The module itself fails before any op code runs: the other ops of this file
-            // would meet the same failure (or the same hang), so they are not run.
-            stopReason = run.error;
-            stop.abort();
+          if ('error' in run && run.cause === 'load') {
+            const place = loadErrorPlace(abs, run.bundleFrames ?? [], bundle.originalPlace);
+            if (place) {
+              run.error += place.file === abs ? ` (line ${place.line})` : ` (at ${relative(dirname(abs), place.file)}:${place.line}:${place.column})`;
+              if (place.file === abs) loadProblems = [{ line: place.line, column: place.column, message: run.error }];
+            }
+            if (!stop.signal.aborted) {
+              // The module itself fails before any op code runs: the other ops of this file
+              // would meet the same failure (or the same hang), so they are not run.
+              stopReason = run.error;
+              stop.abort();
+            }
           }
           results[i] = emit(
             'outcome' in run
@@ -200,6 +210,7 @@ export class Checker {
               : errorResult(abs, op, settings, run.cause === 'cancelled' ? stopReason : run.error, {
                   elapsedMs: run.elapsedMs,
                   output: run.output,
+                  problems: run.cause === 'load' || run.cause === 'cancelled' ? loadProblems : undefined,
                 }),
           );
         }),
@@ -215,4 +226,20 @@ export class Checker {
   async dispose(): Promise<void> {
     await this.pool.dispose();
   }
+}
+
+/** The first bundle frame that maps into the checked file, else the first that maps anywhere. */
+function loadErrorPlace(
+  file: string,
+  frames: Array<{ line: number; column: number }>,
+  originalPlace: (line: number, column: number) => SourcePlace | undefined,
+): SourcePlace | undefined {
+  let first: SourcePlace | undefined;
+  for (const frame of frames) {
+    const place = originalPlace(frame.line, frame.column);
+    if (!place) continue;
+    if (place.file === file) return place;
+    first ??= place;
+  }
+  return first;
 }

@@ -4,9 +4,10 @@
 import { createHash } from 'node:crypto';
 import { readFileSync, statSync } from 'node:fs';
 import { builtinModules } from 'node:module';
-import { dirname, extname, isAbsolute, relative, resolve } from 'node:path';
+import { dirname, extname, isAbsolute, join, relative, resolve } from 'node:path';
 import * as esbuild from 'esbuild';
 import type * as esbuildTypes from 'esbuild';
+import { originalPlace, type SourcePlace } from './sourceMap';
 
 /** Bundles kept in memory; a workspace rarely has more files with ops open at once. */
 const MAX_CACHED_BUNDLES = 128;
@@ -33,7 +34,15 @@ export interface BundleRequest {
 }
 
 export type BundleResult =
-  | { ok: true; code: string; key: string; cached: boolean; buildMs: number }
+  | {
+      ok: true;
+      code: string;
+      key: string;
+      cached: boolean;
+      buildMs: number;
+      /** Maps a 1-based line and 0-based column of `code` to its source file, line and column. */
+      originalPlace: (line: number, column: number) => SourcePlace | undefined;
+    }
   | { ok: false; message: string; location?: { file: string; line: number; column: number } };
 
 export interface BundleStats {
@@ -54,6 +63,9 @@ interface InputRecord {
 interface CacheEntry {
   code: string;
   key: string;
+  /** The bundle's source map (JSON, without sources' contents) and the folder its paths are relative to. */
+  sourceMap: string;
+  mapDir: string;
   inputs: InputRecord[];
 }
 
@@ -72,6 +84,11 @@ export function exposeCode(bindings: string[]): string {
   const names = [...new Set(bindings)].filter((n) => IDENTIFIER.test(n)).sort();
   const fields = names.map((n) => `  ${JSON.stringify(n)}: typeof ${n} !== 'undefined' ? ${n} : undefined`);
   return `\n;globalThis.__gradientProbeExposed = {\n${fields.join(',\n')}\n};\n`;
+}
+
+/** Looks places up in an entry's source map (parsed on each call: only failures ask). */
+function placeFinder(entry: CacheEntry): (line: number, column: number) => SourcePlace | undefined {
+  return (line, column) => (entry.sourceMap ? originalPlace(entry.sourceMap, entry.mapDir, line, column) : undefined);
 }
 
 function isBuiltinModule(name: string): boolean {
@@ -118,7 +135,7 @@ export class Bundler {
       this.cache.delete(requestKey);
       this.cache.set(requestKey, cached);
       this.stats.cacheHits++;
-      return { ok: true, code: cached.code, key: cached.key, cached: true, buildMs: 0 };
+      return { ok: true, code: cached.code, key: cached.key, cached: true, buildMs: 0, originalPlace: placeFinder(cached) };
     }
     this.forget(requestKey);
     const started = performance.now();
@@ -136,7 +153,7 @@ export class Bundler {
       if (oldest === undefined) break;
       this.forget(oldest);
     }
-    return { ok: true, code: result.entry.code, key: result.entry.key, cached: false, buildMs: performance.now() - started };
+    return { ok: true, code: result.entry.code, key: result.entry.key, cached: false, buildMs: performance.now() - started, originalPlace: placeFinder(result.entry) };
   }
 
   /** Forgets every cached bundle. */
@@ -203,6 +220,10 @@ export class Bundler {
       out = await esbuild.build({
         entryPoints: [file],
         absWorkingDir: workDir,
+        // Named only so the source map has a place; nothing is written (write: false).
+        outfile: join(workDir, 'gradient-probe-bundle.js'),
+        sourcemap: 'external',
+        sourcesContent: false,
         bundle: true,
         write: false,
         metafile: true,
@@ -219,7 +240,8 @@ export class Bundler {
       if (Array.isArray(errors) && errors.length > 0) return describeFailure(file, workDir, errors) as BundleResult & { ok: false };
       return { ok: false, message: `the module could not be bundled: ${(e as Error).message}` };
     }
-    const output = out.outputFiles[0];
+    const output = out.outputFiles.find((f) => f.path.endsWith('.js'));
+    const map = out.outputFiles.find((f) => f.path.endsWith('.map'));
     if (!output) return { ok: false, message: 'the bundler produced no output' };
     const code = output.text;
     const inputs: InputRecord[] = [];
@@ -233,6 +255,6 @@ export class Bundler {
         // Not a file on disk (a virtual namespace): nothing to re-validate.
       }
     }
-    return { ok: true, entry: { code, key: sha256(code), inputs } };
+    return { ok: true, entry: { code, key: sha256(code), inputs, sourceMap: map?.text ?? '', mapDir: dirname(map?.path ?? join(workDir, 'x')) } };
   }
 }

@@ -19,6 +19,9 @@ export const CONTEXT_BUILTINS = [
   'parseInt', 'console',
 ] as const;
 
+/** Lines wrapWithBuiltins puts in front of the code (for mapping stack positions back). */
+export const WRAPPER_LINES = 1;
+
 /** Wraps engine or bundle code in a function that receives CONTEXT_BUILTINS as parameters. */
 export function wrapWithBuiltins(code: string): string {
   // The newline before `})` keeps a trailing line comment (source map URL) from eating it.
@@ -34,7 +37,7 @@ export const FIXED_DATE_MS = 1622505600000;
 /**
  * Evaluates to a function `(seed, fixedNow, outputLimit) => void`. After it ran, the context has
  * `__gradientProbeDrive()` (loads engine and module, runs the check, returns a tagged string:
- * 'R' + outcome JSON, 'L' + load error, 'E' + engine failure) and `__gradientProbeOutput()`
+ * 'R' + outcome JSON, 'L' + bundle frames + '|' + load error, 'E' + engine failure) and `__gradientProbeOutput()`
  * (the console text), both non-writable. The host puts the wrapped engine, the wrapped module
  * and the request JSON in `__gradientProbeEngine`, `__gradientProbeModule`,
  * `__gradientProbeRequest` before calling the driver; the driver removes them first.
@@ -159,6 +162,25 @@ export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, output
   };
   const take = (name) => { const v = g[name]; delete g[name]; return v; };
 
+  // Where in the bundle an error was thrown: up to ten "line:column" frames of the bundle's
+  // script (1-based, as V8 prints them), for the host to map back to the user's source.
+  const exec = RegExp.prototype.exec;
+  const BUNDLE_FRAMES = /user-bundle\.js:(\d+):(\d+)/g;
+  const framesOf = (e) => {
+    const frames = [];
+    try {
+      if (e === null || typeof e !== 'object') return '';
+      const stack = e.stack;
+      if (typeof stack !== 'string') return '';
+      BUNDLE_FRAMES.lastIndex = 0;
+      let m;
+      while (frames.length < 10 && (m = apply(exec, BUNDLE_FRAMES, [stack])) !== null) frames.push(m[1] + ':' + m[2]);
+    } catch (inner) {
+      return '';
+    }
+    return frames.join(',');
+  };
+
   // Which part of the job is running, so a timeout can say whether the module's own top-level
   // code hung (then every op of the file would hang the same way) or the check did.
   let phase = 'engine';
@@ -179,7 +201,7 @@ export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, output
     try {
       apply(mod, g, builtins);
     } catch (e) {
-      return 'L' + describe(e);
+      return 'L' + framesOf(e) + '|' + describe(e);
     }
     phase = 'check';
     let result;

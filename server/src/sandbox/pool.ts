@@ -55,7 +55,14 @@ export interface RunJob {
 
 export type RunResult =
   | { outcome: CheckOutcome; output: string; elapsedMs: number }
-  | { error: string; output?: string; elapsedMs: number; cause: RunFailureCause };
+  | {
+      error: string;
+      output?: string;
+      elapsedMs: number;
+      cause: RunFailureCause;
+      /** For an error thrown while the module loaded: positions in the bundle's code, innermost first. */
+      bundleFrames?: Array<{ line: number; column: number }>;
+    };
 
 /** Why a job failed without an outcome. */
 /** 'load': the module's top-level code threw or hung, so every op of its file would fail the same way. */
@@ -378,6 +385,7 @@ export class RunnerPool {
     } else {
       const cause: RunFailureCause = message.duringLoad ? 'load' : message.timedOut ? 'timeout' : 'runner';
       result = { error: message.error, output: message.output, elapsedMs: message.elapsedMs, cause };
+      if (message.bundleFrames && message.bundleFrames.length > 0) result.bundleFrames = message.bundleFrames;
       if (message.timedOut) this.stats.timeouts++;
     }
     this.finishJob(runner, result);

@@ -49,6 +49,8 @@ export type ResultMessage =
       timedOut: boolean;
       /** True when the module's own top-level code threw or hung: every op of its file would fail the same way. */
       duringLoad: boolean;
+      /** For an error thrown at load: where, in the bundle's code (1-based line, 0-based column), innermost first. */
+      bundleFrames?: Array<{ line: number; column: number }>;
       output: string;
       elapsedMs: number;
     };
