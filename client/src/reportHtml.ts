@@ -29,7 +29,7 @@ export function reportPage(input: ReportPageInput): string {
 <html lang="en">
 <head>
 <meta charset="utf-8">
-<meta http-equiv="Content-Security-Policy" content="${esc(csp)}">
+<meta http-equiv="Content-Security-Policy" content="${csp.replace(/"/g, '&quot;')}">
 <meta name="viewport" content="width=device-width, initial-scale=1">
 <title>${esc(result.forward ?? 'op')} — gradient report</title>
 <style nonce="${esc(nonce)}">${STYLE}</style>
@@ -121,8 +121,9 @@ export function errorMapSvg(errors: number[], rows: number, cols: number, name: 
   const cell = Math.max(2, Math.min(16, Math.floor(MAP_SIDE / Math.max(rows, cols))));
   const logs = errors.map((e) => (e > 0 && Number.isFinite(e) ? Math.log10(e) : Number.NEGATIVE_INFINITY));
   const finite = logs.filter(Number.isFinite);
-  const lo = finite.length ? Math.min(...finite) : 0;
   const hi = finite.length ? Math.max(...finite) : 0;
+  // At least one decade of shading: errors that differ only in roundoff must look the same.
+  const lo = finite.length ? Math.min(Math.min(...finite), hi - 1) : 0;
   const rects: string[] = [];
   for (let r = 0; r < rows; r++) {
     for (let c = 0; c < cols; c++) {
@@ -134,7 +135,7 @@ export function errorMapSvg(errors: number[], rows: number, cols: number, name: 
     }
   }
   return `<figure class="map"><svg role="img" aria-label="relative error per element of ${esc(name)}" width="${cols * cell}" height="${rows * cell}" viewBox="0 0 ${cols * cell} ${rows * cell}"><rect class="mapframe" x="0" y="0" width="${cols * cell}" height="${rows * cell}"/>${rects.join('')}</svg>
-<figcaption>relative error per element (${rows}×${cols}), ${finite.length ? `${sci(10 ** lo)} … ${sci(10 ** hi)}` : 'all zero'}; darker is worse</figcaption></figure>`;
+<figcaption>relative error per element (${rows}×${cols}), ${finite.length ? `${sci(10 ** Math.min(...finite))} … ${sci(10 ** hi)}` : 'all zero'}; darker is worse</figcaption></figure>`;
 }
 
 function decadeRange(values: number[]): { lo: number; hi: number } {

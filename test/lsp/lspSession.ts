@@ -32,7 +32,7 @@ export function repoRoot(): string {
 export const lsp = require('vscode-languageserver-protocol/node') as typeof ProtocolNode;
 const {
   CodeLensRefreshRequest, ConfigurationRequest, createProtocolConnection, DidChangeTextDocumentNotification,
-  DidOpenTextDocumentNotification, ExitNotification, InitializedNotification, InitializeRequest, LogMessageNotification,
+  DidOpenTextDocumentNotification, DidSaveTextDocumentNotification, ExitNotification, InitializedNotification, InitializeRequest, LogMessageNotification,
   PublishDiagnosticsNotification, RegistrationRequest, ShowMessageNotification, ShutdownRequest,
 } = lsp;
 // eslint-disable-next-line @typescript-eslint/no-require-imports
@@ -53,6 +53,8 @@ export class LspSession {
   readonly connection: ProtocolConnection;
   readonly diagnostics = new Map<string, Diagnostic[]>();
   readonly opStates = new Map<string, FileOps>();
+  /** Every op state pushed, in order: `uri#forward state`. */
+  readonly stateHistory: string[] = [];
   readonly logs: string[] = [];
   readonly messages: string[] = [];
   lastStatus: StatusParams | undefined;
@@ -71,6 +73,7 @@ export class LspSession {
     });
     this.connection.onNotification(Methods.opStates, (p: FileOps) => {
       this.opStates.set(p.uri, p);
+      for (const op of p.ops) this.stateHistory.push(`${p.uri}#${op.forward} ${op.state}`);
       this.poke();
     });
     this.connection.onNotification(Methods.status, (p: StatusParams) => {
@@ -117,14 +120,24 @@ export class LspSession {
     return uri;
   }
 
-  /** Appends text at the end of the document (an edit that changes no op). */
-  async append(uri: string, lineCount: number, text: string): Promise<void> {
+  /** Inserts text at a position (an incremental change, as editors send them). */
+  async insert(uri: string, at: { line: number; character: number }, text: string): Promise<void> {
     const version = (this.versions.get(uri) ?? 1) + 1;
     this.versions.set(uri, version);
     await this.connection.sendNotification(DidChangeTextDocumentNotification.type, {
       textDocument: { uri, version },
-      contentChanges: [{ range: { start: { line: lineCount, character: 0 }, end: { line: lineCount, character: 0 } }, text }],
+      contentChanges: [{ range: { start: at, end: at }, text }],
     });
+  }
+
+  async save(uri: string): Promise<void> {
+    await this.connection.sendNotification(DidSaveTextDocumentNotification.type, { textDocument: { uri } });
+  }
+
+  /** States pushed for one op since history index `from`. */
+  statesSince(from: number, uri: string, forward: string): string[] {
+    const prefix = `${uri}#${forward} `;
+    return this.stateHistory.slice(from).filter((h) => h.startsWith(prefix)).map((h) => h.slice(prefix.length));
   }
 
   /** Resolves when `test` holds after some pushed notification (or already holds). */

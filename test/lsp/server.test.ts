@@ -93,6 +93,32 @@ describe('language server over LSP (trusted workspace)', function () {
     assert.ok(report.result!.params[0]!.maxRelError < USER_SETTINGS.tolerance.f64);
   });
 
+  it('reuses the result when a save changes nothing, and re-checks when forced', async () => {
+    const uri = s.uri('pass.ts');
+    await s.waitFor('softplus to pass', () => s.opState(uri, 'softplus') === 'pass');
+    const before = s.lastStatus!.opsRun;
+    const mark = s.stateHistory.length;
+    await s.save(uri);
+    // A run would push "checking" within milliseconds; give it ample time to show up.
+    await new Promise((r) => setTimeout(r, 1500));
+    assert.deepEqual(s.statesSince(mark, uri, 'softplus').filter((x) => x === 'checking'), []);
+    assert.equal(s.lastStatus!.opsRun, before);
+    // The lens's command (re-check) forces a run of that one op.
+    await s.connection.sendRequest('workspace/executeCommand', { command: 'gradientProbe.server.recheck', arguments: [uri, 'softplus'] });
+    await s.waitFor('the forced run to be counted', () => s.lastStatus!.opsRun === before + 1);
+    await s.waitFor('softplus to pass again', () => s.opState(uri, 'softplus') === 'pass');
+  });
+
+  it('runs nothing under a broken project file and says where it is wrong', async () => {
+    const uri = await s.open('broken/cube.ts');
+    const diags = await s.waitFor('the configuration diagnostic', () => s.diagnostics.get(uri)?.length ? s.diagnostics.get(uri) : undefined);
+    assert.equal(diags.length, 1);
+    assert.equal(diags[0]!.code, 'project-config');
+    assert.match(String(diags[0]!.message), /"tolerance\.f64" must be a positive number below 1, got "tight"/);
+    assert.match(diags[0]!.relatedInformation?.[0]?.location.uri ?? '', /broken\/gradient-probe\.json$/);
+    await s.waitFor('cube to be reported as not run', () => s.opState(uri, 'cube') === 'not-run');
+  });
+
   it('puts an annotation mistake on its tag and runs nothing for that op', async () => {
     const uri = await s.open('annotation.ts');
     const text = s.text('annotation.ts');
@@ -114,7 +140,7 @@ describe('language server over LSP (trusted workspace)', function () {
     assert.match(hover, /checking…/);
     assert.equal(s.opState(uri, 'stuck'), 'checking', 'the hover was answered before the check ended');
     // An edit (open-and-save mode: no new run) stops the run of the old text.
-    await s.append(uri, text.split('\n').length - 1, '// edited\n');
+    await s.insert(uri, { line: text.split('\n').length - 1, character: 0 }, '// edited\n');
     await s.waitFor('the stale run to stop', () => s.opState(uri, 'stuck') === 'unchecked');
     // Had it not been cancelled, a "timed out" error would arrive after the time limit.
     await new Promise((r) => setTimeout(r, USER_SETTINGS.timeLimitMs + 1500));
@@ -144,20 +170,47 @@ describe('language server over LSP (trusted workspace)', function () {
   it('lists and checks the whole workspace with progress and a summary', async () => {
     const listed = await s.connection.sendRequest<ListWorkspaceOpsResult>(Methods.listWorkspaceOps, {});
     const names = listed.flatMap((f) => f.ops.map((o) => o.forward)).sort();
-    assert.deepEqual(names, ['growth', 'growth', 'half', 'softplus', 'stuck']);
+    assert.deepEqual(names, ['Gain.apply', 'cube', 'growth', 'growth', 'half', 'softplus', 'stuck']);
     const progress: WorkspaceProgressParams[] = [];
     const sub = s.connection.onNotification(Methods.workspaceProgress, (p: WorkspaceProgressParams) => progress.push(p));
     const summary = await s.connection.sendRequest<CheckWorkspaceResult>(Methods.checkWorkspace, {});
     sub.dispose();
-    assert.equal(summary.files, 5);
+    assert.equal(summary.files, 7);
     assert.equal(summary.cancelled, false);
-    // pass.ts and loose/growth.ts pass; mismatch.ts mismatches; annotation.ts and hang.ts (timed out) are errors.
-    assert.deepEqual({ pass: summary.pass, mismatch: summary.mismatch, error: summary.error }, { pass: 2, mismatch: 1, error: 2 });
-    assert.equal(progress.at(-1)?.done, 5);
-    assert.equal(progress.at(-1)?.total, 5);
+    // pass.ts and loose/growth.ts pass; mismatch.ts and gain.ts mismatch; annotation.ts and
+    // hang.ts (timed out) are errors; broken/cube.ts does not run (its project file is broken).
+    assert.deepEqual({ pass: summary.pass, mismatch: summary.mismatch, error: summary.error }, { pass: 2, mismatch: 2, error: 2 });
+    assert.equal(progress.at(-1)?.done, 7);
+    assert.equal(progress.at(-1)?.total, 7);
     const hang = s.uri('hang.ts');
     await s.waitFor('the timeout diagnostic of hang.ts', () => s.diagnostics.get(hang)?.find((d) => d.code === 'check-failed'));
     assert.match(String(s.diagnostics.get(hang)!.find((d) => d.code === 'check-failed')!.message), /time/);
+  });
+});
+
+describe('language server over LSP (checking while typing)', function () {
+  this.timeout(60_000);
+  let s: LspSession;
+
+  before(async () => {
+    s = new LspSession({ trusted: true, settings: { ...USER_SETTINGS, checkWhen: 'while-typing', typingPauseMs: 300 } });
+    await s.initialize();
+  });
+  after(async () => {
+    await s.close();
+  });
+
+  it('checks the unsaved text once typing pauses', async () => {
+    const uri = await s.open('mismatch.ts');
+    await s.waitFor('growth to mismatch', () => s.opState(uri, 'growth') === 'mismatch');
+    const text = s.text('mismatch.ts');
+    const before = s.lastStatus!.opsRun;
+    // Fix the bug in the buffer only (no save): the typing pause starts a check of this text.
+    const line = text.split('\n').findIndex((l) => l.includes('dy[i]! * Math.exp(2 * v)'));
+    const character = text.split('\n')[line]!.indexOf('Math.exp');
+    await s.insert(uri, { line, character }, '2 * ');
+    await s.waitFor('the fixed buffer to pass', () => s.opState(uri, 'growth') === 'pass');
+    await s.waitFor('the run to be counted', () => s.lastStatus!.opsRun === before + 1);
   });
 });
 
@@ -187,8 +240,9 @@ describe('language server over LSP (untrusted workspace)', function () {
     const summary = await s.connection.sendRequest<CheckWorkspaceResult>(Methods.checkWorkspace, {});
     assert.equal(summary.pass + summary.mismatch + summary.inconclusive, 0);
     assert.match(summary.reason ?? '', /not trusted/);
-    // Nothing was executed: the server never started a runner process.
+    // Nothing was executed: the server never started a check or a runner process.
     assert.deepEqual(s.serverChildren(), []);
+    assert.equal(s.lastStatus?.opsRun, 0);
     assert.equal(s.opState(uri, 'softplus'), 'not-run');
 
     await s.connection.sendNotification(Methods.trustChanged, { workspaceTrusted: true });

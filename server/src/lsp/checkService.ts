@@ -38,6 +38,7 @@ export class CheckService {
   private readonly running = new Map<string, Map<string, number>>();
   private readonly controllers = new Map<string, Set<AbortController>>();
   private trusted: boolean;
+  private started = 0;
 
   constructor(
     options: { trusted: boolean; workers?: number },
@@ -50,6 +51,11 @@ export class CheckService {
   }
 
   private readonly workers: number | undefined;
+
+  /** Op checks started so far (a reused result starts none). */
+  get opsRun(): number {
+    return this.started;
+  }
 
   get isTrusted(): boolean {
     return this.trusted;
@@ -104,6 +110,7 @@ export class CheckService {
     const reusable = !request.force && wanted.length > 0 && wanted.every((f) => stored?.get(f)?.key === key);
     if (reusable) return wanted.map((f) => stored!.get(f)!.result);
 
+    this.started += wanted.length;
     const controller = new AbortController();
     const onOuterAbort = (): void => controller.abort();
     request.signal?.addEventListener('abort', onOuterAbort);

@@ -56,6 +56,8 @@ export type OpStatesParams = FileOps;
 export interface StatusParams extends ReportSummary {
   checking: number;
   trusted: boolean;
+  /** Op checks started since the server started (reused results not counted). */
+  opsRun: number;
 }
 
 /** client → server request: every annotated op of the workspace (no code runs). */

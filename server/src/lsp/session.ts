@@ -186,7 +186,7 @@ export class Session {
         const facts = await this.facts(fsPath);
         if (facts) all.push(opSummaries(facts));
       }
-      await this.connection.sendNotification(Methods.status, statusOf(all, this.checks.isTrusted));
+      await this.connection.sendNotification(Methods.status, statusOf(all, this.checks.isTrusted, this.checks.opsRun));
       if (this.options.codeLensRefresh) await this.connection.sendRequest(CodeLensRefreshRequest.type);
     } catch (err) {
       this.log(`could not refresh: ${err instanceof Error ? err.message : String(err)}`);

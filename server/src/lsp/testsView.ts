@@ -20,8 +20,8 @@ export function opSummaries(facts: DocumentFacts): FileOps {
 }
 
 /** Counts over files for the status bar. */
-export function statusOf(files: FileOps[], trusted: boolean): StatusParams {
-  const status: StatusParams = { pass: 0, mismatch: 0, inconclusive: 0, error: 0, checking: 0, trusted };
+export function statusOf(files: FileOps[], trusted: boolean, opsRun: number): StatusParams {
+  const status: StatusParams = { pass: 0, mismatch: 0, inconclusive: 0, error: 0, checking: 0, trusted, opsRun };
   for (const file of files) {
     for (const op of file.ops) {
       if (op.state === 'checking') status.checking++;
