@@ -241,18 +241,29 @@ function runAttempt(
     if (c.result.verdict === 'mismatch') c.result.hints = paramHints(c.evidence, slots);
     evidence[evidence.length] = c.evidence;
   }
-  const opHints = anyMismatch ? swapHints(evidence.filter((e) => checks[slots.indexOf(e.slot)].result.verdict === 'mismatch')) : [];
+  // Plain loops, not Array.prototype methods: the op's module may have replaced those.
+  const mismatched: ParamEvidence[] = [];
+  for (let s = 0; s < checks.length; s++) {
+    const e = checks[s].evidence;
+    if (e !== null && checks[s].result.verdict === 'mismatch') mismatched[mismatched.length] = e;
+  }
+  const opHints = anyMismatch ? swapHints(mismatched) : [];
   for (let s = 0; s < checks.length; s++) addReportData(at, s, checks[s]);
 
   const verdict: Verdict = anyMismatch ? 'mismatch' : anyInconclusive ? 'inconclusive' : 'pass';
-  const messages: string[] = [];
-  for (let s = 0; s < checks.length; s++) if (checks[s].note) messages[messages.length] = checks[s].note;
+  let message = '';
+  const params: ParamResult[] = [];
+  for (let s = 0; s < checks.length; s++) {
+    const note = checks[s].note;
+    if (note) message += (message ? '; ' : '') + note;
+    params[s] = checks[s].result;
+  }
   const outcome: CheckOutcome = {
     verdict,
     seed,
-    message: messages.join('; '),
+    message,
     hints: opHints,
-    params: checks.map((c) => c.result),
+    params,
     calls: { forward: h.calls.forward, backward: h.calls.backward },
   };
   if (inputs !== undefined) outcome.inputs = inputs;
@@ -375,7 +386,7 @@ function summarise(
     maxAbsError: maxAbs,
     maxRelError: maxRel,
     worst,
-    shape: slot.shape.slice(),
+    shape: copyList(slot.shape),
     dtype: slot.dtype,
     method,
     elements: slot.size,
@@ -413,4 +424,11 @@ function addReportData(at: Attempt, s: number, c: ParamCheck): void {
   const k = ev.cmp.worstProbe[pos];
   const line = elementLine(at.h, slot, i);
   r.stepScan = stepScan(line, at.ws[k], at.analytic[s][k][i], max(1, abs(slot.get(i))));
+}
+
+/** A copy of a list without Array.prototype.slice (user code may have replaced it). */
+function copyList(list: readonly number[]): number[] {
+  const out: number[] = [];
+  for (let i = 0; i < list.length; i++) out[i] = list[i];
+  return out;
 }
