@@ -3,7 +3,7 @@
 // backward called with upstream gradient u (Griewank & Walther, Evaluating Derivatives,
 // 2nd ed., SIAM 2008: the identity ⟨ȳ, ẏ⟩ = ⟨x̄, ẋ⟩ between tangent and adjoint modes).
 
-import { F64, abs, formatNumber, max } from './builtins';
+import { F64, abs, formatNumber, max, min } from './builtins';
 import { fail } from './failure';
 import { excessOf } from './judge';
 import { findKink } from './kinkTest';
@@ -97,11 +97,14 @@ function refineProbe(
   const ws = [w];
   const floors = new F64(1);
   floors[0] = tol * result.scale;
-  if (findKink(line, y0, ws, uOut, tol, floors) !== null) {
+  const discrepancy = new F64(1);
+  discrepancy[0] = abs(result.analytic - result.numeric);
+  const scan = findKink(line, y0, ws, uOut, tol, floors, discrepancy);
+  if (scan.kink !== null) {
     result.state = 'kink';
     return;
   }
-  const r = ridders((step) => centralOnLine(line, ws, step, plus, minus), line.refineStep, 1);
+  const r = ridders((step) => centralOnLine(line, ws, step, plus, minus), min(line.refineStep, scan.smoothBelow), 1);
   result.numeric = r.value[0];
   result.bound = RIDDERS_ERROR_FACTOR * r.error[0];
   if (excessOf(result.analytic, result.numeric, result.bound, tol, result.scale) > 0 && r.error[0] < Infinity) result.state = 'mismatch';

@@ -8,7 +8,7 @@
 // — marks a non-differentiable point within the step (the one-sided quotient argument of
 // Nocedal & Wright, 2nd ed., §8.1, applied at two scales; the ladder design is ours).
 
-import { abs, max, sqrt } from './builtins';
+import { abs, max, min, sqrt } from './builtins';
 import { projectDifference, projectMagnitude, type Line } from './lines';
 import { ROUNDOFF_ULPS } from './precision';
 
@@ -27,6 +27,19 @@ export interface KinkFinding {
   jump: number;
 }
 
+export interface KinkScan {
+  /**
+   * A non-differentiable point within the smallest ladder step (so within reach of the central
+   * difference) whose slope gap is large enough to explain the discrepancy; null otherwise.
+   */
+  kink: KinkFinding | null;
+  /**
+   * Largest step below every kink signature the ladder saw: refinement starting there does not
+   * cross a kink farther away (or a region the one-sided quotients could not tell from one).
+   */
+  smoothBelow: number;
+}
+
 /** Steps from the refinement step down to the central step, each 1/8 of the previous. */
 export function kinkLadder(line: Line): number[] {
   const steps: number[] = [];
@@ -41,9 +54,12 @@ export function kinkLadder(line: Line): number[] {
 /**
  * Looks for a kink along a line. y0 is the output at the sample point; ws the upstream
  * vectors; u the output's unit roundoff; tol the relative tolerance; floors per upstream
- * vector the absolute level below which gradient values count as zero.
+ * vector the absolute level below which gradient values count as zero; discrepancy per
+ * upstream vector the gap |analytic − numeric| that a kink would have to explain: a slope gap
+ * J moves a central difference by at most |J| from either one-sided slope, so a kink smaller
+ * than half the discrepancy cannot be its cause.
  */
-export function findKink(line: Line, y0: Float64Array, ws: Float64Array[], u: number, tol: number, floors: Float64Array): KinkFinding | null {
+export function findKink(line: Line, y0: Float64Array, ws: Float64Array[], u: number, tol: number, floors: Float64Array, discrepancy: Float64Array): KinkScan {
   const K = ws.length;
   const steps = kinkLadder(line);
   const plus = new Float64Array(y0.length);
@@ -54,12 +70,15 @@ export function findKink(line: Line, y0: Float64Array, ws: Float64Array[], u: nu
   const mm = new Float64Array(K);
   let prevGap: Float64Array | null = null;
   let prevStep = 0;
+  let lastFlagged = -1;
+  let finding: KinkFinding | null = null;
   for (let q = 0; q < steps.length; q++) {
     const s = steps[q];
     const sp = line.evalAt(s, plus);
     const sm = line.evalAt(-s, minus);
     if (sp !== sp || sm !== sm || sp === 0 || sm === 0) {
       prevGap = null; // not finite here (domain edge): start over at the smaller steps
+      lastFlagged = q;
       continue;
     }
     projectDifference(ws, plus, y0, pd);
@@ -67,6 +86,7 @@ export function findKink(line: Line, y0: Float64Array, ws: Float64Array[], u: nu
     projectMagnitude(ws, plus, y0, pm);
     projectMagnitude(ws, y0, minus, mm);
     const gap = new Float64Array(K);
+    let flagged: KinkFinding | null = null;
     for (let k = 0; k < K; k++) {
       const dPlus = pd[k] / sp;
       const dMinus = md[k] / -sm;
@@ -75,11 +95,17 @@ export function findKink(line: Line, y0: Float64Array, ws: Float64Array[], u: nu
       const noise = (ROUNDOFF_ULPS * u * (pm[k] + mm[k])) / s;
       const ratio = s / prevStep;
       const significant = abs(gap[k]) > KINK_NOISE_FACTOR * noise && abs(gap[k]) > tol * max(abs(dPlus), abs(dMinus), floors[k]);
-      // Smooth: the gap shrinks by `ratio`; a kink keeps it (ratio 1). Split the difference geometrically.
-      if (significant && abs(gap[k]) > sqrt(ratio) * abs(prevGap[k])) return { step: s, jump: gap[k] };
+      // Smooth: the gap shrinks by \`ratio\`; a kink keeps it (ratio 1). Split the difference geometrically.
+      if (significant && abs(gap[k]) > sqrt(ratio) * abs(prevGap[k])) {
+        if (flagged === null) flagged = { step: s, jump: gap[k] };
+        if (q === steps.length - 1 && abs(gap[k]) >= 0.5 * discrepancy[k] && finding === null) finding = { step: s, jump: gap[k] };
+      }
     }
+    if (flagged !== null) lastFlagged = q;
     prevGap = gap;
     prevStep = s;
   }
-  return null;
+  // Below the last flagged pair's smaller step the kink (if any) lies between that step and the next.
+  const smoothBelow = lastFlagged < 0 ? steps[0] : steps[min(lastFlagged + 1, steps.length - 1)];
+  return { kink: finding, smoothBelow };
 }

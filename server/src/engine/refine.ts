@@ -2,7 +2,7 @@
 // mismatch), then Ridders' extrapolation with its error estimate. An element is a mismatch only
 // when the gap exceeds tolerance plus a multiple of Ridders' own error estimate.
 
-import { F64, abs, formatNumber, max, sortIndicesBy } from './builtins';
+import { F64, abs, formatNumber, max, min, sortIndicesBy } from './builtins';
 import { excessOf, relativeError, type Comparison, type ElementEstimates } from './judge';
 import { estimateColumns } from './fullCheck';
 import { findKink } from './kinkTest';
@@ -97,13 +97,16 @@ export function refineSuspicious(
     }
     refined++;
     const line = elementLine(h, slot, i);
-    const kink = findKink(line, y0, ws, u, tol, cmp.floors);
-    if (kink !== null) {
+    const discrepancy = new F64(K);
+    for (let k = 0; k < K; k++) discrepancy[k] = abs(analytic[k][i] - est.numeric[k][p]);
+    const scan = findKink(line, y0, ws, u, tol, cmp.floors, discrepancy);
+    if (scan.kink !== null) {
       cmp.state[p] = 'kink';
-      if (summary.kink === null) summary.kink = { slot, index: i, value: slot.get(i), jump: kink.jump };
+      if (summary.kink === null) summary.kink = { slot, index: i, value: slot.get(i), jump: scan.kink.jump };
       continue;
     }
-    const r = ridders((step) => centralOnLine(line, ws, step, plus, minus), line.refineStep, K);
+    // Start Ridders below any kink signature the ladder saw, so its steps do not cross one.
+    const r = ridders((step) => centralOnLine(line, ws, step, plus, minus), min(line.refineStep, scan.smoothBelow), K);
     let state: 'ok' | 'mismatch' | 'uncertain' = 'ok';
     let bestExcess = -Infinity;
     let bestK = 0;
