@@ -101,6 +101,13 @@ describe('pool: runners', function () {
     assert.ok(argv.includes('--max-old-space-size=384'), argv.join(' '));
   });
 
+  it('accepts limits that are not whole numbers', async () => {
+    pool = new RunnerPool({ size: 1 });
+    const r = await pool.run({ bundleKey: fx.key, bundleCode: fx.code, op: fx.cube, settings: settingsWith({ timeLimitMs: 5000.5, memoryLimitMb: 1500.3 }) });
+    assert.equal(verdictOf(r), 'pass');
+    assert.equal(pool.stats.spawned, 1, 'the runner started on the first try');
+  });
+
   it('runs jobs on two runners at once', async () => {
     pool = new RunnerPool({ size: 2 });
     const jobs = Array.from({ length: 4 }, () => pool.run({ bundleKey: fx.key, bundleCode: fx.code, op: fx.cube, settings }));

@@ -576,7 +576,8 @@ export class RunnerPool {
       bundleCode: known ? undefined : job.bundleCode,
       requestJson: JSON.stringify({ op: job.op, settings: job.settings }),
       seed: job.op.seed ?? job.settings.seed,
-      timeLimitMs: job.settings.timeLimitMs,
+      // vm accepts only a positive integer timeout.
+      timeLimitMs: Math.max(1, Math.floor(job.settings.timeLimitMs)),
       outputLimitChars: OUTPUT_LIMIT_CHARS,
     };
     runner.proc.send(message);

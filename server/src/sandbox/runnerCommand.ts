@@ -59,7 +59,7 @@ export interface RunnerCommand {
 
 /** The address-space limit for a given memory limit, in MiB. */
 export function addressSpaceLimitMb(memoryLimitMb: number): number {
-  return Math.max(MIN_ADDRESS_SPACE_MB, memoryLimitMb + RUNTIME_ADDRESS_SPACE_MB);
+  return Math.max(MIN_ADDRESS_SPACE_MB, Math.ceil(memoryLimitMb) + RUNTIME_ADDRESS_SPACE_MB);
 }
 
 export function runnerCommand(opts: RunnerCommandOptions): RunnerCommand {
