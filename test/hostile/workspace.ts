@@ -1,0 +1,97 @@
+// Shared by the hostile suites: where the repository and the hostile workspace are, a fresh
+// copy of that workspace with its escape marker folder filled in, the CLI spawned as a user
+// would run it, and line lookups in the fixture sources.
+import { spawn } from 'node:child_process';
+import { cpSync, existsSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { dirname, join } from 'node:path';
+
+/** The repository root: the folder above this file that holds bin/gradient-probe.js. */
+export function repoRoot(): string {
+  let dir = __dirname;
+  while (!existsSync(join(dir, 'bin', 'gradient-probe.js'))) {
+    const up = dirname(dir);
+    if (up === dir) throw new Error('bin/gradient-probe.js not found above the test');
+    dir = up;
+  }
+  return dir;
+}
+
+export const ROOT = repoRoot();
+export const BIN = join(ROOT, 'bin', 'gradient-probe.js');
+export const HOSTILE_FIXTURES = join(ROOT, 'test', 'fixtures', 'hostile');
+
+/** The placeholder in escape.ts that the copy replaces with its marker folder. */
+const MARKER_PLACEHOLDER = '__MARKER_DIR__';
+
+/** A private copy of test/fixtures/hostile: escape attempts aim at its own empty marker folder. */
+export interface HostileCopy {
+  /** Root of the copied workspace. */
+  dir: string;
+  /** Where an escaped op would write; must stay empty. */
+  markerDir: string;
+  /** Absolute path of a file of the copy. */
+  file(rel: string): string;
+  text(rel: string): string;
+  /** Files escape attempts wrote (none, if the sandbox holds). */
+  markers(): string[];
+  remove(): void;
+}
+
+export function copyHostileWorkspace(): HostileCopy {
+  const base = mkdtempSync(join(tmpdir(), 'gp-hostile-'));
+  const dir = join(base, 'workspace');
+  const markerDir = join(base, 'markers');
+  cpSync(HOSTILE_FIXTURES, dir, { recursive: true });
+  const escape = readFileSync(join(HOSTILE_FIXTURES, 'escape.ts'), 'utf8');
+  if (!escape.includes(MARKER_PLACEHOLDER)) throw new Error(`escape.ts lost its ${MARKER_PLACEHOLDER} placeholder`);
+  writeFileSync(join(dir, 'escape.ts'), escape.split(MARKER_PLACEHOLDER).join(markerDir));
+  // The folder exists, so a write into it would succeed if an op reached a file system.
+  mkdirSync(markerDir);
+  return {
+    dir,
+    markerDir,
+    file: (rel) => join(dir, rel),
+    text: (rel) => readFileSync(join(dir, rel), 'utf8'),
+    markers: () => readdirSync(markerDir),
+    remove: () => rmSync(base, { recursive: true, force: true }),
+  };
+}
+
+export interface CliRun {
+  code: number | null;
+  stdout: string;
+  stderr: string;
+}
+
+/** No CLI run of the suite should take this long; past it the process is killed and the test fails. */
+const SPAWN_LIMIT_MS = 120_000;
+
+/** Runs `node bin/gradient-probe.js ARGS` in `cwd`, with the caller's environment. */
+export function runCli(args: string[], cwd: string): Promise<CliRun> {
+  return new Promise((resolve, reject) => {
+    const env: Record<string, string | undefined> = { ...process.env };
+    delete env['FORCE_COLOR'];
+    const child = spawn(process.execPath, [BIN, ...args], { cwd, env, stdio: ['ignore', 'pipe', 'pipe'] });
+    let stdout = '';
+    let stderr = '';
+    child.stdout.setEncoding('utf8').on('data', (d: string) => (stdout += d));
+    child.stderr.setEncoding('utf8').on('data', (d: string) => (stderr += d));
+    const timer = setTimeout(() => {
+      child.kill('SIGKILL');
+      reject(new Error(`gradient-probe ${args.join(' ')} did not finish within ${SPAWN_LIMIT_MS} ms\nstderr: ${stderr}`));
+    }, SPAWN_LIMIT_MS);
+    child.on('error', reject);
+    child.on('close', (code) => {
+      clearTimeout(timer);
+      resolve({ code, stdout, stderr });
+    });
+  });
+}
+
+/** 1-based line of the first line of `text` that contains `needle`; throws when there is none. */
+export function lineOf(text: string, needle: string): number {
+  const i = text.split('\n').findIndex((l) => l.includes(needle));
+  if (i < 0) throw new Error(`"${needle}" not found`);
+  return i + 1;
+}
