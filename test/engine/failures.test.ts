@@ -78,7 +78,7 @@ describe('engine: failures become verdicts with messages', () => {
   it('backward returns gradients whose shapes fit the other parameter: says they look swapped', () => {
     const o = check(functionOp({
       forward: (W: Float64Array, b: Float64Array) => W.map((v, i) => v + b[i % 2]),
-      backward: (W: Float64Array, b: Float64Array, dy: Float64Array) => [new Float64Array(2), new Float64Array(6)],
+      backward: () => [new Float64Array(2), new Float64Array(6)],
       params: [['W', spec('f64', [3, 2])], ['b', spec('f64', [2])]],
     }));
     expectVerdict(o, 'error', /gradients of 'W' and 'b' look swapped/);

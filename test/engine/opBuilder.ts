@@ -5,7 +5,6 @@ import { runCheck } from '../../server/src/engine/check';
 import { DEFAULT_SETTINGS, type CheckSettings } from '../../server/src/engine/settings';
 import type { BackwardArg, CheckOutcome, OpDescriptor, ParamDescriptor, SampleDtype, SampleSpec } from '../../server/src/engine/types';
 
-// eslint-disable-next-line @typescript-eslint/no-explicit-any
 type Fn = (...args: any[]) => any;
 
 /** `@sample NAME DTYPE[shape] in [lo, hi] avoid ... fixed` as a spec. */
