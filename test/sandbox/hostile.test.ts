@@ -110,7 +110,7 @@ describe('sandbox: allocation bombs', function () {
   this.timeout(120_000);
   // A small heap makes each bomb hit a limit within seconds; the time limit is far above that,
   // so the memory limits (not the clock) must stop them.
-  const settings = settingsWith({ memoryLimitMb: 256, timeLimitMs: 60_000 });
+  const settings = settingsWith({ memoryLimitMb: 128, timeLimitMs: 60_000 });
   let checker: Checker;
   before(() => {
     checker = new Checker({ settings, workers: 1 });
