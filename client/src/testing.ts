@@ -71,7 +71,7 @@ export class ProbeTests implements vscode.Disposable {
         if (token.isCancellationRequested) break;
         const items = ops ?? [...gather(fileItem.children)];
         const excluded = new Set(request.exclude?.map((i) => i.id) ?? []);
-        const wanted = items.filter((i) => !excluded.has(i.id));
+        const wanted = [...new Map(items.filter((i) => !excluded.has(i.id)).map((i) => [i.id, i] as const)).values()];
         if (!client) {
           for (const item of wanted) {
             run.errored(item, new vscode.TestMessage('The Gradient Probe language server is not running.'));

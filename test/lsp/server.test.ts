@@ -107,6 +107,11 @@ describe('language server over LSP (trusted workspace)', function () {
     await s.connection.sendRequest('workspace/executeCommand', { command: 'gradientProbe.server.recheck', arguments: [uri, 'softplus'] });
     await s.waitFor('the forced run to be counted', () => s.lastStatus!.opsRun === before + 1);
     await s.waitFor('softplus to pass again', () => s.opState(uri, 'softplus') === 'pass');
+    // An op named twice (a Testing view request for a file and its op) runs once and ends.
+    const twice = await s.connection.sendRequest<{ results: unknown[] }>(Methods.checkOps, { uri, forwards: ['softplus', 'softplus'], force: true });
+    assert.equal(twice.results.length, 1);
+    await s.waitFor('the run to be counted once', () => s.lastStatus!.opsRun === before + 2);
+    await s.waitFor('nothing left checking', () => s.lastStatus!.checking === 0 && s.opState(uri, 'softplus') === 'pass');
   });
 
   it('runs nothing under a broken project file and says where it is wrong', async () => {

@@ -3,6 +3,7 @@
 // result when neither the text nor the settings changed since it was computed.
 
 import { createHash } from 'node:crypto';
+import { basename } from 'node:path';
 import { Checker } from '../core/checker';
 import { DEFAULT_SETTINGS, type CheckSettings } from '../engine/settings';
 import type { OpResult } from '../engine/types';
@@ -105,12 +106,15 @@ export class CheckService {
   async check(request: CheckRequest): Promise<OpResult[]> {
     if (!this.trusted) throw new CheckRefused('the workspace is not trusted, so no code from it runs');
     const key = `${hashText(request.text)}|${settingsKey(request.settings)}`;
-    const wanted = request.forwards ?? request.knownForwards;
+    // Unique names: a client may name an op twice (a file and its op both selected).
+    const wanted = [...new Set(request.forwards ?? request.knownForwards)];
     const stored = this.results.get(request.uri);
     const reusable = !request.force && wanted.length > 0 && wanted.every((f) => stored?.get(f)?.key === key);
     if (reusable) return wanted.map((f) => stored!.get(f)!.result);
 
     this.started += wanted.length;
+    const label = `${basename(request.fsPath)} [${wanted.join(', ')}]${request.force ? ' (forced)' : ''}`;
+    this.log(`check ${label}: started`);
     const controller = new AbortController();
     const onOuterAbort = (): void => controller.abort();
     request.signal?.addEventListener('abort', onOuterAbort);
@@ -136,7 +140,7 @@ export class CheckService {
       const checker = this.getChecker();
       // The Checker's filter is a substring of the forward name: it narrows a one-op run,
       // and `accept` drops the other ops it lets through.
-      const filter = request.forwards && request.forwards.length === 1 ? request.forwards[0]! : undefined;
+      const filter = request.forwards && wanted.length === 1 ? wanted[0]! : undefined;
       const results = await checker.checkFile(request.fsPath, {
         text: request.text,
         signal: controller.signal,
@@ -154,6 +158,7 @@ export class CheckService {
         throw err;
       }
     } finally {
+      this.log(`check ${label}: ${controller.signal.aborted ? 'cancelled' : 'done'} (${finished.size} of ${wanted.length} results)`);
       request.signal?.removeEventListener('abort', onOuterAbort);
       controllers.delete(controller);
       if (controllers.size === 0) this.controllers.delete(request.uri);

@@ -9,7 +9,7 @@ import { cpSync, existsSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, 
 import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
-import { SCREENSHOT_MARKER, screenshotFlag } from '../suite/screenshotSignal';
+import { screenshotFlag, screenshotRequest } from '../suite/screenshotSignal';
 
 /** Last release of code-server that runs on Node 20 (VS Code 1.100.3; later ones need Node 22+). */
 const CODE_SERVER_VERSION = '4.100.3';
@@ -31,7 +31,6 @@ interface SuiteRun {
   name: string;
   /** Folder trust on: the host opens the workspace untrusted. */
   trustPrompt: boolean;
-  screenshot?: string;
 }
 
 export async function main(root: string): Promise<number> {
@@ -52,15 +51,15 @@ export async function main(root: string): Promise<number> {
   const shots = join(root, 'test', 'editor', 'screenshots');
   mkdirSync(shots, { recursive: true });
   const runs: SuiteRun[] = [
-    { name: 'trusted', trustPrompt: false, screenshot: join(shots, 'editor-demo.png') },
-    { name: 'untrusted', trustPrompt: true, screenshot: join(shots, 'editor-untrusted.png') },
+    { name: 'trusted', trustPrompt: false },
+    { name: 'untrusted', trustPrompt: true },
   ];
   let worst = 0;
   for (const run of runs) {
     // A fresh copy per run: the suites edit and save files, and trust is remembered per folder.
     const workspace = join(scratch, `workspace-${run.name}`);
     cpSync(demoWorkspace(root), workspace, { recursive: true });
-    const code = await runSuite({ root, codeServer, env, dirs, extensionDir, workspace, run });
+    const code = await runSuite({ root, codeServer, env, dirs, extensionDir, workspace, run, shots });
     log(`suite ${run.name}: exit code ${code}`);
     worst = Math.max(worst, code);
   }
@@ -77,7 +76,7 @@ function demoWorkspace(root: string): string {
 
 async function runSuite(o: {
   root: string; codeServer: string; env: NodeJS.ProcessEnv; dirs: { userData: string; extensions: string };
-  extensionDir: string; workspace: string; run: SuiteRun;
+  extensionDir: string; workspace: string; run: SuiteRun; shots: string;
 }): Promise<number> {
   const port = await freePort();
   const args = [
@@ -116,12 +115,13 @@ async function runSuite(o: {
         resolveExit(code);
       });
     });
-    let shot: Promise<void> | undefined;
+    const shots: Promise<void>[] = [];
     await page.exposeFunction('codeAutomationLog', (_type: string, args: unknown[]) => {
       const line = (Array.isArray(args) ? args : [args]).map((a) => (typeof a === 'string' ? a : JSON.stringify(a))).join(' ');
       process.stdout.write(`  [${o.run.name}] ${line}\n`);
-      // The suite asks for the picture while its extension host still shows everything.
-      if (line.includes(SCREENSHOT_MARKER) && o.run.screenshot && !shot) shot = takeScreenshot(page, o.run.screenshot, screenshotFlag(o.workspace));
+      // The suite asks for a picture while its extension host still shows everything.
+      const name = screenshotRequest(line);
+      if (name) shots.push(takeScreenshot(page, join(o.shots, `${name}.png`), screenshotFlag(o.workspace, name)));
     });
     const remote = (p: string): string => `vscode-remote://127.0.0.1:${port}${p}`;
     const payload = [
@@ -137,7 +137,7 @@ async function runSuite(o: {
       new Promise<number>((r) => setTimeout(() => r(124), WATCHDOG_MS)),
     ]);
     if (exitCode === undefined) log(`suite ${o.run.name}: no exit code after ${WATCHDOG_MS} ms; stopped by the watchdog`);
-    await shot;
+    await Promise.all(shots);
     return code;
   } catch (err) {
     log(`suite ${o.run.name} could not run: ${err instanceof Error ? err.stack ?? err.message : String(err)}`);

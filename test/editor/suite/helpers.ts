@@ -105,13 +105,13 @@ export function runMocha(define: () => void): Promise<void> {
 }
 
 /**
- * Asks the runner for a screenshot while this extension host still lives (when it exits, the
- * editor drops its diagnostics and status bar item) and waits until it was taken.
+ * Asks the runner for a screenshot named `name` while this extension host still lives (when it
+ * exits, the editor drops its diagnostics and status bar item) and waits until it was taken.
  */
-export async function requestScreenshot(): Promise<void> {
+export async function requestScreenshot(name: string): Promise<void> {
   await vscode.commands.executeCommand('notifications.clearAll');
-  await new Promise((r) => setTimeout(r, 1500)); // let squiggles, lenses and the panel paint
-  console.log(SCREENSHOT_MARKER);
-  const flag = screenshotFlag(workspaceRoot().fsPath);
-  await waitFor('the runner to take the screenshot', () => existsSync(flag), 30_000).catch(() => console.log('no screenshot was taken'));
+  await new Promise((r) => setTimeout(r, 1500)); // let squiggles, lenses, panels and webviews paint
+  console.log(`${SCREENSHOT_MARKER} ${name}`);
+  const flag = screenshotFlag(workspaceRoot().fsPath, name);
+  await waitFor(`the runner to take screenshot ${name}`, () => existsSync(flag), 30_000).catch(() => console.log(`screenshot ${name} was not taken`));
 }

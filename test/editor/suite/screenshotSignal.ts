@@ -3,10 +3,17 @@
 
 import { basename, dirname, join } from 'node:path';
 
-/** Printed by a suite when the editor shows what the runner should photograph. */
+/** Printed by a suite, followed by a name, when the editor shows what the runner should photograph. */
 export const SCREENSHOT_MARKER = 'gradient-probe:screenshot-now';
 
-/** The flag file: beside the workspace folder, so the workspace itself does not change. */
-export function screenshotFlag(workspace: string): string {
-  return join(dirname(workspace), `${basename(workspace)}.screenshot-taken`);
+/** The flag file of one named screenshot: beside the workspace folder, which stays unchanged. */
+export function screenshotFlag(workspace: string, name: string): string {
+  return join(dirname(workspace), `${basename(workspace)}.${name}.screenshot-taken`);
+}
+
+/** The screenshot name in a log line, if the line asks for one. */
+export function screenshotRequest(line: string): string | undefined {
+  const at = line.indexOf(SCREENSHOT_MARKER);
+  if (at < 0) return undefined;
+  return /^[\w-]+/.exec(line.slice(at + SCREENSHOT_MARKER.length).trim())?.[0];
 }

@@ -129,6 +129,12 @@ export function run(): Promise<void> {
         assert.ok(snippet, 'a snippet came back');
         assert.match(snippet, new RegExp(`^it\\('${op.forward.replace('.', '\\.')}: backward agrees with a central difference`, 'm'));
         assert.equal(await vscode.commands.executeCommand('gradientProbe.openReport', buggy.toString(), op.forward), true);
+        await requestScreenshot('report');
+      });
+
+      it('leaves no op marked as checking once the work is done', async () => {
+        const api = await probeApi();
+        await waitFor('every check to finish', () => api.status()?.checking === 0, 30_000);
       });
 
       after(async () => {
@@ -145,7 +151,7 @@ export function run(): Promise<void> {
           editor.revealRange(new vscode.Range(line, 0, line, 0), vscode.TextEditorRevealType.AtTop);
         }
         await vscode.commands.executeCommand('workbench.actions.view.problems');
-        await requestScreenshot();
+        await requestScreenshot('problems');
       });
     });
   });

@@ -40,7 +40,7 @@ export function run(): Promise<void> {
         assert.ok(server, 'the server runs');
         assert.deepEqual(childrenOf(server), []);
         await vscode.commands.executeCommand('workbench.actions.view.problems');
-        await requestScreenshot();
+        await requestScreenshot('untrusted');
       });
     });
   });
