@@ -124,7 +124,11 @@ describe('engine: interface forms', () => {
   });
 
   it('a constructor that throws is an error naming it', () => {
-    class Broken { constructor() { throw new Error('no weights file'); } }
+    class Broken {
+      constructor() { throw new Error('no weights file'); }
+      run(x: Float64Array) { return x; }
+      back(dy: Float64Array) { return dy; }
+    }
     const o = check(methodOp({ cls: Broken, forwardName: 'run', backwardName: 'back', params: [['x', spec('f64', [4])]] }));
     assert.equal(o.verdict, 'error', show(o));
     assert.match(o.message, /new Layer\(\) threw no weights file/);

@@ -9,7 +9,7 @@ import { dotProductProbes, type DotProbeResult } from './dotProductCheck';
 import { estimateColumns } from './fullCheck';
 import { estimateGrouped } from './groupedCheck';
 import { paramHints, swapHints, type ParamEvidence } from './hints';
-import { compareElements, floorsFor, type Comparison, type ElementEstimates } from './judge';
+import { ElementState, compareElements, floorsFor, type Comparison, type ElementEstimates } from './judge';
 import { elementLine } from './lines';
 import { elementName, unravelSlot, OpHarness } from './opHarness';
 import { describeOutputIndex, layoutPrecision } from './outputLayout';
@@ -298,7 +298,7 @@ function checkParam(at: Attempt, s: number, subsetRandom: () => number): ParamCh
     est = estimateColumns(at.h, slot, subset, at.ws, at.uOut, at.outOfTime);
     complete = subset.length === n;
   } else {
-    const all: number[] = [];
+    const all = new Int32Array(n);
     for (let i = 0; i < n; i++) all[i] = i;
     est = estimateColumns(at.h, slot, all, at.ws, at.uOut, at.outOfTime);
   }
@@ -330,7 +330,7 @@ function summarise(
     for (let k = 0; k < analytic.length; k++) maxAbs = max(maxAbs, abs(analytic[k][i] - est.numeric[k][p]));
     // The worst element is a confirmed mismatch when there is one, then the largest relative error.
     const state = cmp.state[p];
-    const priority = state === 'mismatch' ? 2 : state === 'suspicious' || state === 'uncertain' ? 1 : 0;
+    const priority = state === ElementState.mismatch ? 2 : state === ElementState.suspicious || state === ElementState.uncertain ? 1 : 0;
     if (priority > worstPriority || (priority === worstPriority && cmp.rel[p] > maxRel)) {
       worstPos = p;
       worstPriority = max(worstPriority, priority);

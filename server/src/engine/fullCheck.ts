@@ -21,7 +21,7 @@ import { ROUNDOFF_ULPS, centralStep } from './precision';
 export function estimateColumns(
   h: OpHarness,
   slot: ParamSlot,
-  indices: number[],
+  indices: ArrayLike<number>,
   ws: Float64Array[],
   uOut: number,
   outOfTime: () => boolean,

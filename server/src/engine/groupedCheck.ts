@@ -27,7 +27,7 @@ export function estimateGrouped(
   const n = slot.size;
   const m = st.m;
   const K = ws.length;
-  const indices: number[] = new Array<number>(n);
+  const indices = new Int32Array(n);
   for (let i = 0; i < n; i++) indices[i] = i;
   const numeric: Float64Array[] = [];
   const bound: Float64Array[] = [];
@@ -72,6 +72,27 @@ export function estimateGrouped(
       if (typed !== null) for (let i = g; i < n; i += st.colours) typed[i] = x0[i];
       else for (let i = g; i < n; i += st.colours) slot.set(i, x0[i]);
       pert.slot = null;
+    }
+    if (st.colours === 1 && st.lo === 0 && st.hi === 0 && n === m) {
+      // Diagonal Jacobian (elementwise op): output i belongs to element i; no band bookkeeping.
+      for (let k = 0; k < K; k++) {
+        const w = ws[k];
+        const num = numeric[k];
+        const bnd = bound[k];
+        for (let i = 0; i < n; i++) {
+          const p = plus[i];
+          const q = minus[i];
+          if (p !== q) {
+            const wa = w[i] < 0 ? -w[i] : w[i];
+            num[i] = (w[i] * (p - q)) / denom[i];
+            bnd[i] = (ROUNDOFF_ULPS * uOut * wa * ((p < 0 ? -p : p) + (q < 0 ? -q : q))) / denom[i];
+          } else {
+            num[i] = 0;
+            bnd[i] = 0;
+          }
+        }
+      }
+      continue;
     }
     // Every moved output must lie in the band of exactly one element of the group.
     let movedTotal = 0;

@@ -4,7 +4,7 @@
 // with a clearly non-zero value agrees with it within HINT_TOLERANCE_FACTOR × the tolerance.
 
 import { abs, formatIndex, formatNumber, max, round } from './builtins';
-import type { Comparison, ElementEstimates } from './judge';
+import { ElementState, type Comparison, type ElementEstimates } from './judge';
 import { unravelSlot } from './opHarness';
 import type { ParamSlot } from './paramSlot';
 
@@ -28,7 +28,7 @@ export interface ParamEvidence {
 
 function isBad(ev: ParamEvidence, p: number): boolean {
   const s = ev.cmp.state[p];
-  return s === 'mismatch' || s === 'suspicious';
+  return s === ElementState.mismatch || s === ElementState.suspicious;
 }
 
 /** Whether a value is clearly non-zero for probe k at position p. */

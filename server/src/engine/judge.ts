@@ -28,15 +28,16 @@ export function relativeError(a: number, n: number, bound: number, tol: number, 
 /** Numeric estimates of a set of elements of one parameter, for every upstream probe. */
 export interface ElementEstimates {
   /** Element indices, in the order of the arrays below. */
-  indices: number[];
+  indices: ArrayLike<number>;
   /** numeric[k][pos]: estimate of (Jᵀ dy_k)[indices[pos]]. */
   numeric: Float64Array[];
   /** bound[k][pos]: the estimate's error bound (absolute). */
   bound: Float64Array[];
 }
 
-/** Where an element stands after comparison (and refinement). */
-export type ElementState = 'ok' | 'suspicious' | 'mismatch' | 'uncertain' | 'kink';
+/** Where an element stands after comparison (and refinement); a byte per element. */
+export const ElementState = { ok: 0, suspicious: 1, mismatch: 2, uncertain: 3, kink: 4 } as const;
+export type ElementState = (typeof ElementState)[keyof typeof ElementState];
 
 /** Figures of one parameter's comparison. */
 export interface Comparison {
@@ -46,7 +47,7 @@ export interface Comparison {
   worstProbe: Int32Array;
   /** Per position: relative error of the worst probe. */
   rel: Float64Array;
-  state: ElementState[];
+  state: Uint8Array;
   /** Per probe: the zero level (relative floor × largest value). */
   floors: Float64Array;
 }
@@ -65,19 +66,27 @@ export function floorsFor(analytic: Float64Array[], est: ElementEstimates, floor
   return floors;
 }
 
-/** Compares every estimated element against the analytic values. */
+/** Compares every estimated element against the analytic values (excessOf and relativeError, inlined: this runs per element of million-element parameters). */
 export function compareElements(analytic: Float64Array[], est: ElementEstimates, tol: number, floors: Float64Array): Comparison {
   const count = est.indices.length;
   const excess = new Float64Array(count);
   const worstProbe = new Int32Array(count);
   const rel = new Float64Array(count);
-  const state: ElementState[] = new Array<ElementState>(count);
+  const state = new Uint8Array(count);
+  const K = analytic.length;
   for (let p = 0; p < count; p++) {
     const i = est.indices[p];
     let best = -Infinity;
     let bestK = 0;
-    for (let k = 0; k < analytic.length; k++) {
-      const e = excessOf(analytic[k][i], est.numeric[k][p], est.bound[k][p], tol, floors[k]);
+    for (let k = 0; k < K; k++) {
+      const a = analytic[k][i];
+      const n = est.numeric[k][p];
+      const aa = a < 0 ? -a : a;
+      const an = n < 0 ? -n : n;
+      let scale = aa > an ? aa : an;
+      if (floors[k] > scale) scale = floors[k];
+      const d = a - n;
+      const e = (d < 0 ? -d : d) - tol * scale - est.bound[k][p];
       if (e > best) {
         best = e;
         bestK = k;
@@ -86,7 +95,7 @@ export function compareElements(analytic: Float64Array[], est: ElementEstimates,
     excess[p] = best;
     worstProbe[p] = bestK;
     rel[p] = relativeError(analytic[bestK][i], est.numeric[bestK][p], est.bound[bestK][p], tol, floors[bestK]);
-    state[p] = best > 0 ? 'suspicious' : 'ok';
+    state[p] = best > 0 ? ElementState.suspicious : ElementState.ok;
   }
   return { excess, worstProbe, rel, state, floors };
 }

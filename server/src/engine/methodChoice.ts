@@ -3,7 +3,7 @@
 // Reid 1974) when they need clearly fewer forward calls than one column per element; otherwise
 // full columns, or the dot-product test for parameters above the large-parameter limit.
 
-import { F64, ceil, floor, max, min } from './builtins';
+import { F64, abs, ceil, floor, max, min } from './builtins';
 import type { OpHarness } from './opHarness';
 import type { ParamSlot } from './paramSlot';
 import { centralStep } from './precision';
@@ -64,6 +64,51 @@ export function colourCount(n: number, m: number, width: number, maxColours: num
     if (ok) return c;
   }
   return 0;
+}
+
+/**
+ * One forward call with STRUCTURE_SPACED_PROBES + 2 evenly spaced elements moved together:
+ * each moved output is credited to the probe with the nearest anchor. The band is accepted only
+ * when it is narrower than a quarter of the distance between probe anchors, so the clusters of
+ * moved outputs cannot have been confused; otherwise null (and the elements are probed singly).
+ */
+export function probeBandJointly(h: OpHarness, slot: ParamSlot, y0: Float64Array): { lo: number; hi: number } | null {
+  const n = slot.size;
+  const m = y0.length;
+  const count = STRUCTURE_SPACED_PROBES + 2;
+  const probes: number[] = [];
+  for (let q = 0; q < count; q++) probes[q] = floor((q * (n - 1)) / (count - 1));
+  const anchors: number[] = [];
+  for (let q = 0; q < count; q++) anchors[q] = anchorOf(probes[q], n, m);
+  let spacing = Infinity;
+  for (let q = 1; q < count; q++) spacing = min(spacing, anchors[q] - anchors[q - 1]);
+  if (!(spacing >= 8)) return null;
+  const saved: number[] = [];
+  const out = new F64(m);
+  const pert = h.perturbation;
+  pert.slot = slot;
+  pert.several = true;
+  try {
+    for (let q = 0; q < count; q++) {
+      saved[q] = slot.get(probes[q]);
+      slot.set(probes[q], saved[q] + centralStep(slot.precision, saved[q]));
+    }
+    h.forwardInto(out, true);
+  } finally {
+    for (let q = 0; q < count; q++) slot.set(probes[q], saved[q]);
+    pert.slot = null;
+  }
+  let lo = Infinity;
+  let hi = -Infinity;
+  let q = 0;
+  for (let j = 0; j < m; j++) {
+    if (out[j] === y0[j]) continue;
+    while (q + 1 < count && abs(anchors[q + 1] - j) < abs(anchors[q] - j)) q++;
+    lo = min(lo, j - anchors[q]);
+    hi = max(hi, j - anchors[q]);
+  }
+  if (!(lo <= hi)) return null;
+  return hi - lo + 1 <= spacing / 4 ? { lo, hi } : null;
 }
 
 /**
@@ -129,7 +174,7 @@ export function chooseMethod(
   const m = y0.length;
   const fallback: CheckMethod = n > settings.largeParamElements ? 'dot-product' : 'full';
   if (n < STRUCTURE_MIN_ELEMENTS) return { method: 'full', structure: null };
-  const band = probeBand(h, slot, y0, random) ?? { lo: 0, hi: 0 };
+  const band = probeBandJointly(h, slot, y0) ?? probeBand(h, slot, y0, random) ?? { lo: 0, hi: 0 };
   const width = band.hi - band.lo + 1;
   const colours = colourCount(n, m, width, floor(n * GROUPED_MAX_SHARE));
   if (colours === 0) return { method: fallback, structure: null };

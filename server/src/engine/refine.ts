@@ -3,7 +3,7 @@
 // when the gap exceeds tolerance plus a multiple of Ridders' own error estimate.
 
 import { F64, abs, formatNumber, max, min, sortIndicesBy } from './builtins';
-import { excessOf, relativeError, type Comparison, type ElementEstimates } from './judge';
+import { ElementState, excessOf, relativeError, type Comparison, type ElementEstimates } from './judge';
 import { estimateColumns } from './fullCheck';
 import { findKink } from './kinkTest';
 import { centralOnLine, elementLine } from './lines';
@@ -58,7 +58,7 @@ export function refineSuspicious(
 ): RefineSummary {
   const summary: RefineSummary = { confirmed: 0, uncertain: 0, unrefined: 0, kink: null, uncertainNote: '' };
   const suspicious: number[] = [];
-  for (let p = 0; p < cmp.state.length; p++) if (cmp.state[p] === 'suspicious') suspicious[suspicious.length] = p;
+  for (let p = 0; p < cmp.state.length; p++) if (cmp.state[p] === ElementState.suspicious) suspicious[suspicious.length] = p;
   if (suspicious.length === 0) return summary;
   const order = sortIndicesBy(suspicious, (p) => cmp.rel[p], true);
   const K = ws.length;
@@ -91,7 +91,7 @@ export function refineSuspicious(
       cmp.worstProbe[p] = worstK;
       cmp.rel[p] = relativeError(analytic[worstK][i], est.numeric[worstK][p], est.bound[worstK][p], tol, cmp.floors[worstK]);
       if (worst <= 0) {
-        cmp.state[p] = 'ok';
+        cmp.state[p] = ElementState.ok;
         continue;
       }
     }
@@ -101,13 +101,13 @@ export function refineSuspicious(
     for (let k = 0; k < K; k++) discrepancy[k] = abs(analytic[k][i] - est.numeric[k][p]);
     const scan = findKink(line, y0, ws, u, tol, cmp.floors, discrepancy);
     if (scan.kink !== null) {
-      cmp.state[p] = 'kink';
+      cmp.state[p] = ElementState.kink;
       if (summary.kink === null) summary.kink = { slot, index: i, value: slot.get(i), jump: scan.kink.jump };
       continue;
     }
     // Start Ridders below any kink signature the ladder saw, so its steps do not cross one.
     const r = ridders((step) => centralOnLine(line, ws, step, plus, minus), min(line.refineStep, scan.smoothBelow), K);
-    let state: 'ok' | 'mismatch' | 'uncertain' = 'ok';
+    let state: ElementState = ElementState.ok;
     let bestExcess = -Infinity;
     let bestK = 0;
     for (let k = 0; k < K; k++) {
@@ -116,8 +116,8 @@ export function refineSuspicious(
       const e = r.error[k];
       const scale = max(abs(a), abs(n), cmp.floors[k]);
       const gapExcess = excessOf(a, n, RIDDERS_ERROR_FACTOR * e, tol, cmp.floors[k]);
-      if (gapExcess > 0 && e < Infinity) state = 'mismatch';
-      else if (state === 'ok' && !(e <= tol * scale)) state = 'uncertain';
+      if (gapExcess > 0 && e < Infinity) state = ElementState.mismatch;
+      else if (state === ElementState.ok && !(e <= tol * scale)) state = ElementState.uncertain;
       if (gapExcess > bestExcess) {
         bestExcess = gapExcess;
         bestK = k;
@@ -129,8 +129,8 @@ export function refineSuspicious(
     cmp.excess[p] = bestExcess;
     cmp.worstProbe[p] = bestK;
     cmp.rel[p] = relativeError(analytic[bestK][i], est.numeric[bestK][p], est.bound[bestK][p], tol, cmp.floors[bestK]);
-    if (state === 'mismatch') summary.confirmed++;
-    if (state === 'uncertain') {
+    if (state === ElementState.mismatch) summary.confirmed++;
+    if (state === ElementState.uncertain) {
       summary.uncertain++;
       if (summary.uncertainNote === '') {
         const k = bestK;

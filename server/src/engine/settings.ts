@@ -41,6 +41,14 @@ export interface CheckSettings {
   memoryLimitMb: number;
   /** Largest output or input, in elements, that an op may produce. */
   maxElements: number;
+  /**
+   * Where ops run. 'process' (the default, also when absent): a warm Node runner process with a
+   * hardened vm context, at full speed. 'interpreter': the isolated mode, a JavaScript
+   * interpreter compiled to WebAssembly (QuickJS) that reaches no Node API, with its own time and
+   * memory limits (memory capped at 512 MiB), 35–50× slower on numeric loops
+   * (shared/design/sandbox.md): for small ops, and the only way ops of an untrusted workspace run.
+   */
+  isolation?: 'process' | 'interpreter';
 }
 
 export const DEFAULT_SETTINGS: CheckSettings = {

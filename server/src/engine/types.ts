@@ -185,6 +185,11 @@ export interface OpResult extends CheckOutcome {
   problems?: Problem[];
   /** Text the op printed with `console`. */
   output?: string;
+  /**
+   * 'interpreter' when the op ran in the isolated mode (a WebAssembly JavaScript interpreter,
+   * slower, for small ops); absent when it ran in the normal runner process.
+   */
+  isolation?: 'interpreter';
 }
 
 export interface ReportSummary {
