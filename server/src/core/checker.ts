@@ -7,6 +7,7 @@ import type { CheckSettings } from '../engine/settings';
 import type { OpDescriptor, OpResult, Problem } from '../engine/types';
 import { Bundler, type BundleStats } from '../sandbox/bundle';
 import type { SourcePlace } from '../sandbox/sourceMap';
+import { IsolatedRunner } from '../sandbox/isolated';
 import { RunnerPool, type IsolationReport, type PoolStats, type RunnerPoolOptions } from '../sandbox/pool';
 import { errorResult, resultFromOutcome, summarizeProblems } from './opResult';
 
@@ -83,10 +84,13 @@ export class Checker {
   private readonly settings: CheckSettings;
   private readonly bundler = new Bundler();
   private readonly pool: RunnerPool;
+  private isolated: IsolatedRunner | undefined;
+  private readonly runnerLog: ((line: string) => void) | undefined;
 
   constructor(opts: CheckerOptions) {
     this.settings = opts.settings;
     this.pool = new RunnerPool({ ...opts.runner, size: opts.workers });
+    this.runnerLog = opts.runner?.log;
   }
 
   /** Counters of runner reuse and bundle caching (for tests and benchmarks). */
@@ -190,7 +194,10 @@ export class Checker {
       await Promise.all(
         runnable.map(async (i) => {
           const op = ops[i];
-          const run = await this.pool.run({ bundleKey: bundle.key, bundleCode: bundle.code, op, settings, signal: stop.signal });
+          // Isolated mode: the op runs in the WebAssembly interpreter instead of a runner process.
+          const interpreted = settings.isolation === 'interpreter';
+          const runner = interpreted ? this.interpreter() : this.pool;
+          const run = await runner.run({ bundleKey: bundle.key, bundleCode: bundle.code, op, settings, signal: stop.signal });
           if ('error' in run && run.cause === 'load') {
             const place = loadErrorPlace(abs, run.bundleFrames ?? [], bundle.originalPlace);
             if (place) {
@@ -204,15 +211,16 @@ export class Checker {
               stop.abort();
             }
           }
-          results[i] = emit(
+          const result =
             'outcome' in run
               ? resultFromOutcome(abs, op, run.outcome, run.elapsedMs, run.output)
               : errorResult(abs, op, settings, run.cause === 'cancelled' ? stopReason : run.error, {
                   elapsedMs: run.elapsedMs,
                   output: run.output,
                   problems: run.cause === 'load' || run.cause === 'cancelled' ? loadProblems : undefined,
-                }),
-          );
+                });
+          if (interpreted) result.isolation = 'interpreter';
+          results[i] = emit(result);
         }),
       );
     } finally {
@@ -222,9 +230,15 @@ export class Checker {
     return results as OpResult[];
   }
 
-  /** Kills the runner processes; the Checker cannot run checks afterwards. */
+  /** Kills the runner processes (and the interpreter's worker); the Checker cannot run checks afterwards. */
   async dispose(): Promise<void> {
-    await this.pool.dispose();
+    await Promise.all([this.pool.dispose(), this.isolated?.dispose()]);
+  }
+
+  /** The isolated mode's runner, started on first use. */
+  private interpreter(): IsolatedRunner {
+    this.isolated ??= new IsolatedRunner({ log: this.runnerLog });
+    return this.isolated;
   }
 }
 
