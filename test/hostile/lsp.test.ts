@@ -1,0 +1,147 @@
+// The hostile workspace through the real language server (dist/server.js over stdio, spoken to
+// with the LSP client library as test/lsp does): the server stays up through every case, gives
+// every op the verdict and message the CLI gives, answers hovers and code lenses while a check
+// hangs, replaces a runner that died, and runs no user code while the workspace is untrusted.
+import assert from 'node:assert/strict';
+import { readdirSync } from 'node:fs';
+import { pathToFileURL } from 'node:url';
+import type { CodeLens, Hover, MarkupContent } from 'vscode-languageserver-protocol/lib/node/main';
+import { Methods, type CheckOpsResult, type CheckWorkspaceResult, type OpReportResult } from '../../server/src/lsp/protocol';
+import { LspSession, lsp } from '../lsp/lspSession';
+import { expectedLine, HOSTILE_CASES } from './cases';
+import { copyHostileWorkspace, type HostileCopy } from './workspace';
+
+const { CodeLensRequest, DidOpenTextDocumentNotification, HoverRequest } = lsp;
+
+/** States that end a check (the others: checking, unchecked, not-run). */
+const FINAL = new Set(['pass', 'mismatch', 'inconclusive', 'error']);
+
+/** Every .ts file of the copied workspace that the workspace walk includes (not capped/, isolated/). */
+function workspaceFiles(ws: HostileCopy): string[] {
+  return readdirSync(ws.dir).filter((f) => f.endsWith('.ts')).sort();
+}
+
+async function openFile(s: LspSession, ws: HostileCopy, rel: string): Promise<string> {
+  const uri = pathToFileURL(ws.file(rel)).toString();
+  await s.connection.sendNotification(DidOpenTextDocumentNotification.type, {
+    textDocument: { uri, languageId: 'typescript', version: 1, text: ws.text(rel) },
+  });
+  return uri;
+}
+
+/** 0-based position of the forward's name of a case. */
+function namePosition(ws: HostileCopy, rel: string, forward: string): { line: number; character: number } {
+  const text = ws.text(rel);
+  const line = expectedLine({ what: '', file: rel, forward, verdict: 'pass', message: /^/ }, text) - 1;
+  const name = forward.includes('.') ? forward.split('.')[1]! : forward;
+  return { line, character: text.split('\n')[line]!.indexOf(name) };
+}
+
+function hoverText(hover: Hover | null): string {
+  assert.ok(hover, 'no hover');
+  return (hover.contents as MarkupContent).value;
+}
+
+describe('hostile workspace through the language server (trusted)', function () {
+  this.timeout(180_000);
+  let ws: HostileCopy;
+  let s: LspSession;
+
+  before(async () => {
+    ws = copyHostileWorkspace();
+    s = new LspSession({ trusted: true, workspace: ws.dir, settings: {} });
+    await s.initialize();
+  });
+  after(async () => {
+    await s.close();
+    ws.remove();
+  });
+
+  it('answers a hover and code lenses while a check hangs', async () => {
+    const uri = await openFile(s, ws, 'runaway.ts');
+    await s.waitFor('openSluiceForever to be checking', () => s.opState(uri, 'openSluiceForever') === 'checking');
+    const position = namePosition(ws, 'runaway.ts', 'openSluiceForever');
+    const hover = hoverText(await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position }));
+    const lenses = (await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } })) as CodeLens[];
+    // Both answers came back while the op was still running (its limit is 3,000 ms).
+    assert.equal(s.opState(uri, 'openSluiceForever'), 'checking', 'answered before the hang ended');
+    assert.match(hover, /openSluiceForever/);
+    assert.match(hover, /checking/);
+    assert.ok(lenses.length >= 4, `a lens per op: ${lenses.map((l) => l.command?.title).join(' | ')}`);
+    await s.waitFor('the hang to time out', () => s.opState(uri, 'openSluiceForever') === 'error');
+  });
+
+  it('stays alive through every case and gives each op the verdict and message the CLI gives', async () => {
+    const uris = new Map<string, string>();
+    for (const rel of workspaceFiles(ws)) uris.set(rel, await openFile(s, ws, rel));
+    for (const c of HOSTILE_CASES) {
+      const uri = uris.get(c.file)!;
+      await s.waitFor(`${c.file} ${c.forward} to finish`, () => FINAL.has(s.opState(uri, c.forward) ?? ''), 90_000);
+    }
+    const wrong: string[] = [];
+    for (const c of HOSTILE_CASES) {
+      const uri = uris.get(c.file)!;
+      const report = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri, forward: c.forward });
+      const r = report.result;
+      if (!r) wrong.push(`${c.file} ${c.forward}: no result (${report.reason})`);
+      else if (r.verdict !== c.verdict || !c.message.test(r.message)) wrong.push(`${c.file} ${c.forward}: ${r.verdict} — ${r.message}`);
+    }
+    assert.deepEqual(wrong, []);
+    assert.equal(s.child.exitCode, null, 'the server is running');
+    assert.deepEqual(ws.markers(), [], 'no escape attempt wrote a file');
+    // A hover still works at the end, on an op that passed.
+    const uri = uris.get('cycleLegalA.ts')!;
+    const hover = hoverText(await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: namePosition(ws, 'cycleLegalA.ts', 'shaftPower') }));
+    assert.match(hover, /\*\*pass\*\*/);
+    assert.doesNotMatch(s.logs.join(''), /unexpected (error|rejection)/, 'no handler failed');
+  });
+
+  it('replaces a runner that died, and the next check passes; the runner count stays bounded', async () => {
+    const bombUri = pathToFileURL(ws.file('allocation.ts')).toString();
+    const bomb = await s.connection.sendRequest<CheckOpsResult>(Methods.checkOps, { uri: bombUri, forwards: ['recordRipples'], force: true });
+    assert.equal(bomb.results[0]?.verdict, 'error', JSON.stringify(bomb));
+    assert.match(bomb.results[0]!.message, /memory/);
+    const after = await s.connection.sendRequest<CheckOpsResult>(Methods.checkOps, { uri: pathToFileURL(ws.file('runaway.ts')).toString(), forwards: ['liftGate'], force: true });
+    assert.equal(after.results[0]?.verdict, 'pass', JSON.stringify(after));
+    // The pool holds at most two runners (min(2, cores)); dead ones are gone, not piling up.
+    assert.ok(s.serverChildren().length <= 2, `runner processes: ${s.serverChildren().length}`);
+  });
+});
+
+describe('hostile workspace through the language server (untrusted)', function () {
+  this.timeout(120_000);
+  let ws: HostileCopy;
+  let s: LspSession;
+
+  before(async () => {
+    ws = copyHostileWorkspace();
+    s = new LspSession({ trusted: false, workspace: ws.dir, settings: {} });
+    await s.initialize();
+  });
+  after(async () => {
+    await s.close();
+    ws.remove();
+  });
+
+  it('runs no user code: no runner starts, forced and workspace checks are refused, nothing is written', async () => {
+    const files = workspaceFiles(ws);
+    for (const rel of files) {
+      const uri = await openFile(s, ws, rel);
+      const refused = await s.connection.sendRequest<CheckOpsResult>(Methods.checkOps, { uri, force: true });
+      assert.equal(refused.results.length, 0, `${rel} ran`);
+      assert.match(refused.reason ?? '', /not trusted/);
+    }
+    const summary = await s.connection.sendRequest<CheckWorkspaceResult>(Methods.checkWorkspace, {});
+    assert.equal(summary.pass + summary.mismatch + summary.inconclusive, 0);
+    assert.match(summary.reason ?? '', /not trusted/);
+    // Give any wrongly started run time to show itself: a loading loop would need 3 s to time out.
+    await new Promise((r) => setTimeout(r, 500));
+    assert.deepEqual(s.serverChildren(), [], 'no runner process was ever started');
+    assert.deepEqual(ws.markers(), []);
+    const escape = pathToFileURL(ws.file('escape.ts')).toString();
+    await s.waitFor('escape.ts ops to be not-run', () => s.opState(escape, 'viaRequire') === 'not-run');
+    // Annotation mistakes are still shown: they need no code to run.
+    const annotations = pathToFileURL(ws.file('annotations.ts')).toString();
+    await s.waitFor('annotation errors', () => s.opState(annotations, 'misspeltTag') === 'error');
+  });
+});
