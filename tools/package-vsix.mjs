@@ -1,6 +1,7 @@
 // Builds the installable .vsix (`npm run package`, after `node esbuild.mjs`): stages the
 // client, a self-contained server bundle (TypeScript inside; esbuild shipped beside it, as its
-// binary cannot be bundled), the sandbox's runner and engine, then runs `vsce package`.
+// binary cannot be bundled), the sandbox's runner and engine, the isolated interpreter's worker
+// with QuickJS, then runs `vsce package`.
 import * as esbuild from 'esbuild';
 import { execFileSync } from 'node:child_process';
 import { copyFileSync, cpSync, existsSync, mkdirSync, readFileSync, rmSync, statSync } from 'node:fs';
@@ -19,7 +20,7 @@ mkdirSync(join(stage, 'dist'), { recursive: true });
 for (const file of ['package.json', 'README.md', 'LICENSE', '.vscodeignore']) {
   if (existsSync(join(root, file))) copyFileSync(join(root, file), join(stage, file));
 }
-for (const file of ['client.js', 'sandbox-child.js', 'engine-in-sandbox.js']) {
+for (const file of ['client.js', 'sandbox-child.js', 'engine-in-sandbox.js', 'isolated-worker.js']) {
   const from = join(root, 'dist', file);
   if (!existsSync(from)) throw new Error(`dist/${file} is missing: run node esbuild.mjs first`);
   copyFileSync(from, join(stage, 'dist', file));
@@ -40,8 +41,15 @@ for (const f of ['package.json', 'LICENSE.md', 'lib/main.js']) {
   copyFileSync(join(root, 'node_modules/esbuild', f), join(modules, 'esbuild', f));
 }
 cpSync(join(root, 'node_modules', platformPackage), join(modules, platformPackage), { recursive: true, dereference: true });
+// The isolated interpreter's worker (dist/isolated-worker.js) loads QuickJS and its WebAssembly
+// builds from node_modules at run time.
+for (const name of ['quickjs-emscripten', 'quickjs-emscripten-core', '@jitl/quickjs-ffi-types', '@jitl/quickjs-wasmfile-release-sync',
+  '@jitl/quickjs-wasmfile-release-asyncify', '@jitl/quickjs-wasmfile-debug-sync', '@jitl/quickjs-wasmfile-debug-asyncify']) {
+  cpSync(join(root, 'node_modules', name), join(modules, name), { recursive: true, dereference: true });
+}
 
-const args = ['package', '--no-dependencies', '--allow-missing-repository', '--out', out];
+// The project has no public repository URL yet, so README links stay as written (relative).
+const args = ['package', '--no-dependencies', '--allow-missing-repository', '--no-rewrite-relative-links', '--out', out];
 if (!existsSync(join(root, 'LICENSE'))) args.push('--skip-license');
 execFileSync(process.execPath, [join(root, 'node_modules/@vscode/vsce/vsce'), ...args], { cwd: stage, stdio: 'inherit' });
 console.log(`${out} (${(statSync(out).size / 1e6).toFixed(1)} MB)`);

@@ -145,6 +145,6 @@ export class ProbeContext implements vscode.Disposable {
     this.client = client;
     this.statusBar.showStarting();
     await client.start();
-    this.statusBar.update(this.lastStatus ?? { pass: 0, mismatch: 0, inconclusive: 0, error: 0, checking: 0, trusted: vscode.workspace.isTrusted, opsRun: 0 });
+    this.statusBar.update(this.lastStatus ?? { pass: 0, mismatch: 0, inconclusive: 0, error: 0, checking: 0, trusted: vscode.workspace.isTrusted, opsRun: 0, isolated: false });
   }
 }

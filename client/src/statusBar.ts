@@ -28,7 +28,7 @@ export class ProbeStatusBar implements vscode.Disposable {
 
   update(status: StatusParams): void {
     this.item.command = 'workbench.actions.view.problems';
-    if (!status.trusted) {
+    if (!status.trusted && !status.isolated) {
       this.item.text = '$(shield) gradients: not run';
       this.item.tooltip = 'Gradient Probe runs the code it checks, so it does nothing in an untrusted workspace. Trust this folder to check its gradients.';
       this.item.command = 'workbench.trust.manage';
@@ -39,9 +39,9 @@ export class ProbeStatusBar implements vscode.Disposable {
     if (status.inconclusive > 0) parts.push(`$(question) ${status.inconclusive}`);
     if (status.error > 0) parts.push(`$(warning) ${status.error}`);
     if (status.checking > 0) parts.push(`$(sync~spin) ${status.checking}`);
-    this.item.text = `gradients ${parts.join(' ')}`;
+    this.item.text = `gradients${status.isolated ? ' (isolated)' : ''} ${parts.join(' ')}`;
     this.item.tooltip = [
-      'Gradient Probe',
+      status.isolated ? 'Gradient Probe — untrusted workspace: checks run in the isolated interpreter (slower, small ops only)' : 'Gradient Probe',
       `${status.pass} pass · ${status.mismatch} mismatch · ${status.inconclusive} inconclusive · ${status.error} could not be checked`,
       status.checking > 0 ? `${status.checking} being checked now` : '',
     ].filter(Boolean).join('\n');

@@ -8,13 +8,14 @@ import { join } from 'node:path';
 import { COMMAND_TITLES } from '../../client/src/commandIds';
 import { DEFAULT_SETTINGS } from '../../server/src/engine/settings';
 import { projectConfigSchema } from '../../server/src/project/configSchema';
-import { CHECK_WHEN_VALUES, EDITOR_CHECK_KEYS, EDITOR_ONLY_DEFAULTS, readEditorSettings, TYPING_PAUSE_RANGE } from '../../server/src/lsp/settings';
+import { CHECK_WHEN_VALUES, EDITOR_CHECK_KEYS, EDITOR_ONLY_DEFAULTS, EDITOR_ONLY_KEYS, readEditorSettings, TYPING_PAUSE_RANGE } from '../../server/src/lsp/settings';
 import { repoRoot } from '../lsp/lspSession';
 
 type Schema = Record<string, unknown>;
 const root = repoRoot();
 const manifest = JSON.parse(readFileSync(join(root, 'package.json'), 'utf8')) as {
-  main: string; activationEvents: string[]; capabilities: { untrustedWorkspaces: { supported: unknown; description?: string } };
+  main: string; activationEvents: string[];
+  capabilities: { untrustedWorkspaces: { supported: unknown; description?: string; restrictedConfigurations?: string[] } };
   contributes: { commands: { command: string; title: string }[]; configuration: { properties: Record<string, Schema> } };
   scripts: Record<string, string>;
 };
@@ -30,7 +31,7 @@ function projectSchemaOf(dotted: string): Schema {
 
 describe('extension manifest', () => {
   it('declares exactly the editor settings the reader knows, under one prefix', () => {
-    const expected = ['checkWhen', 'typingPauseMs', ...EDITOR_CHECK_KEYS].map((k) => `gradientProbe.${k}`).sort();
+    const expected = [...EDITOR_ONLY_KEYS, ...EDITOR_CHECK_KEYS].map((k) => `gradientProbe.${k}`).sort();
     assert.deepEqual(Object.keys(properties).sort(), expected);
     for (const [key, schema] of Object.entries(properties)) {
       assert.ok(typeof schema.markdownDescription === 'string' && schema.markdownDescription.length > 20, `${key} is documented`);
@@ -63,6 +64,11 @@ describe('extension manifest', () => {
     assert.equal(pause.default, EDITOR_ONLY_DEFAULTS.typingPauseMs);
     assert.equal(pause.minimum, TYPING_PAUSE_RANGE.minimum);
     assert.equal(pause.maximum, TYPING_PAUSE_RANGE.maximum);
+    // The untrusted-workspace opt-in is the user's alone: a workspace must not be able to set it.
+    const isolated = properties['gradientProbe.isolatedWhenUntrusted']!;
+    assert.equal(isolated.default, EDITOR_ONLY_DEFAULTS.isolatedWhenUntrusted);
+    assert.equal(isolated.default, false);
+    assert.equal(isolated.scope, 'application');
   });
 
   it('reads the manifest defaults back as the engine defaults, with no complaint', () => {
@@ -98,6 +104,7 @@ describe('extension manifest', () => {
   it('declares limited support for untrusted workspaces, activation and the scripts', () => {
     assert.equal(manifest.capabilities.untrustedWorkspaces.supported, 'limited');
     assert.match(manifest.capabilities.untrustedWorkspaces.description ?? '', /runs/);
+    assert.deepEqual(manifest.capabilities.untrustedWorkspaces.restrictedConfigurations, ['gradientProbe.isolatedWhenUntrusted']);
     assert.ok(manifest.activationEvents.includes('onLanguage:typescript'));
     assert.equal(manifest.main, './dist/client.js');
     assert.match(manifest.scripts.package!, /package-vsix/);
@@ -108,7 +115,7 @@ describe('extension manifest', () => {
     const lines = readFileSync(join(root, '.vscodeignore'), 'utf8').split('\n').map((l) => l.trim()).filter((l) => l && !l.startsWith('#'));
     assert.equal(lines[0], '**', 'ignore everything first');
     const included = lines.filter((l) => l.startsWith('!')).map((l) => l.slice(1));
-    for (const needed of ['package.json', 'README.md', 'dist/client.js', 'dist/server.js', 'dist/sandbox-child.js', 'dist/engine-in-sandbox.js']) {
+    for (const needed of ['package.json', 'README.md', 'dist/client.js', 'dist/server.js', 'dist/sandbox-child.js', 'dist/engine-in-sandbox.js', 'dist/isolated-worker.js']) {
       assert.ok(included.includes(needed), `.vscodeignore re-includes ${needed}`);
     }
     assert.ok(!included.some((l) => l.startsWith('server/') || l.startsWith('client/') || l.startsWith('test/')), 'no sources or tests');

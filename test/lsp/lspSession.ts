@@ -186,6 +186,17 @@ export class LspSession {
     return out;
   }
 
+  /** The server's children that are sandbox runners (not esbuild's service, which only bundles). */
+  runnerChildren(): number[] {
+    return this.serverChildren().filter((pid) => {
+      try {
+        return readFileSync(`/proc/${pid}/cmdline`, 'utf8').includes('sandbox-child');
+      } catch {
+        return false;
+      }
+    });
+  }
+
   async close(): Promise<void> {
     try {
       await Promise.race([this.connection.sendRequest(ShutdownRequest.type), new Promise((r) => setTimeout(r, 5000))]);

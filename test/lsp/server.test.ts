@@ -252,6 +252,34 @@ describe('language server over LSP (untrusted workspace)', function () {
 
     await s.connection.sendNotification(Methods.trustChanged, { workspaceTrusted: true });
     await s.waitFor('softplus to pass once trusted', () => s.opState(uri, 'softplus') === 'pass');
-    assert.ok(s.serverChildren().length > 0, 'runner processes start once the workspace is trusted');
+    assert.ok(s.runnerChildren().length > 0, 'runner processes start once the workspace is trusted');
+  });
+});
+
+describe('language server over LSP (untrusted, isolated interpreter opted in)', function () {
+  this.timeout(60_000);
+  let s: LspSession;
+
+  before(async () => {
+    s = new LspSession({ trusted: false, settings: { ...USER_SETTINGS, isolatedWhenUntrusted: true } });
+    await s.initialize();
+  });
+  after(async () => {
+    await s.close();
+  });
+
+  it('checks in the interpreter, labels it, and starts no runner process', async () => {
+    const uri = await s.open('mismatch.ts');
+    await s.waitFor('growth to mismatch in the interpreter', () => s.opState(uri, 'growth') === 'mismatch');
+    const lenses = await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } }) as CodeLens[];
+    assert.match(lenses[0]!.command!.title, /^✗ gradient mismatch · x 5\.0e-1 rel · .* · isolated interpreter$/);
+    const diag = await s.waitFor('the mismatch diagnostic', () => s.diagnostics.get(uri)?.find((d) => d.code === 'gradient-mismatch'));
+    assert.match(String(diag.message), /\[isolated interpreter\]$/);
+    // The same figures as the runner process: the engine is the same, only the host differs.
+    const report = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri, forward: 'growth' });
+    assert.ok(Math.abs(report.result!.params[0]!.maxRelError - 0.5) < 1e-6);
+    // esbuild's service may run (it bundles, running no user code); no sandbox runner may.
+    assert.deepEqual(s.runnerChildren(), [], 'no runner process: the interpreter runs in a worker thread');
+    await s.waitFor('the status to say isolated', () => s.lastStatus?.isolated === true && s.lastStatus.trusted === false);
   });
 });

@@ -104,7 +104,8 @@ export class CheckService {
    * order; a cancelled run resolves with what finished before it stopped.
    */
   async check(request: CheckRequest): Promise<OpResult[]> {
-    if (!this.trusted) throw new CheckRefused('the workspace is not trusted, so no code from it runs');
+    // Untrusted: only the isolated interpreter may run code (the session decides when).
+    if (!this.trusted && request.settings.isolation !== 'interpreter') throw new CheckRefused('the workspace is not trusted, so no code from it runs');
     const key = `${hashText(request.text)}|${settingsKey(request.settings)}`;
     // Unique names: a client may name an op twice (a file and its op both selected).
     const wanted = [...new Set(request.forwards ?? request.knownForwards)];

@@ -22,7 +22,7 @@ export function codeLensesFor(facts: DocumentFacts): CodeLens[] {
       lenses.push({ range, command: { title: 'Gradient Probe: not checked — the project configuration file has an error', command: '' } });
       continue;
     }
-    if (!facts.trusted) {
+    if (!facts.trusted && !facts.isolated) {
       lenses.push({ range, command: { title: 'Gradient Probe: not checked in an untrusted workspace', command: '' } });
       continue;
     }
@@ -36,7 +36,8 @@ export function codeLensesFor(facts: DocumentFacts): CodeLens[] {
       continue;
     }
     const p = worstParam(result);
-    const time = millis(result.elapsedMs);
+    // Checks in the isolated interpreter say so: they are slower and limited to small ops.
+    const time = `${millis(result.elapsedMs)}${result.isolation === 'interpreter' ? ' · isolated interpreter' : ''}`;
     switch (result.verdict) {
       case 'pass':
         lenses.push(recheck(`✓ gradient ok${p ? ` · worst ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
@@ -48,7 +49,7 @@ export function codeLensesFor(facts: DocumentFacts): CodeLens[] {
         lenses.push(recheck(`? inconclusive · ${oneLine(result.message, 60)} · ${time}`));
         break;
       case 'error':
-        lenses.push(recheck(`! could not check · ${oneLine(result.message, 60)}`));
+        lenses.push(recheck(`! could not check · ${oneLine(result.message, 60)}${result.isolation === 'interpreter' ? ' · isolated interpreter' : ''}`));
         break;
     }
     lenses.push({ range, command: { title: 'report', command: ClientCommands.openReport, arguments: args } });

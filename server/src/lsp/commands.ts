@@ -40,7 +40,7 @@ export async function opReport(session: Session, params: OpReportParams): Promis
   if (result) return { result };
   if (op.problems.length > 0) return { result: null, reason: `${op.forward} has annotation errors; fix them first` };
   if (facts.configError) return { result: null, reason: facts.configError.message };
-  if (!facts.trusted) return { result: null, reason: 'the workspace is not trusted, so no code from it runs' };
+  if (!facts.trusted && !facts.isolated) return { result: null, reason: 'the workspace is not trusted, so no code from it runs' };
   return { result: null, reason: `${op.forward} has not been checked yet` };
 }
 

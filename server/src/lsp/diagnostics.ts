@@ -49,7 +49,7 @@ export function diagnosticsFor(facts: DocumentFacts): Diagnostic[] {
       });
       continue;
     }
-    if (!facts.trusted) {
+    if (!facts.trusted && !facts.isolated) {
       out.push({
         range, severity: DiagnosticSeverity.Information, source: DIAGNOSTIC_SOURCE, code: DiagnosticCodes.untrusted,
         message: `${op.forward} not checked: this workspace is not trusted, and checking runs its code. Trust the folder to check it.`,
@@ -89,7 +89,7 @@ function resultDiagnostic(op: OpDescriptor, result: OpResult, facts: DocumentFac
     severity,
     source: DIAGNOSTIC_SOURCE,
     code,
-    message: `${op.forward}: ${verdictSentence(result)}`,
+    message: `${op.forward}: ${verdictSentence(result)}${result.isolation === 'interpreter' ? ' [isolated interpreter]' : ''}`,
     ...(related.length > 0 ? { relatedInformation: related } : {}),
   };
 }

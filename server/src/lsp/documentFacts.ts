@@ -16,6 +16,8 @@ export interface DocumentSnapshot {
 export interface DocumentFacts {
   snapshot: DocumentSnapshot;
   trusted: boolean;
+  /** Untrusted, but the user opted in to checks in the isolated interpreter. */
+  isolated: boolean;
   /** A broken project file: nothing runs. */
   configError?: { message: string; file?: string };
   latest(forward: string): OpResult | undefined;

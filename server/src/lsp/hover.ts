@@ -30,12 +30,12 @@ export function opMarkdown(op: OpDescriptor, facts: DocumentFacts, onlyParam?: s
     return [head, '', 'Annotation errors (nothing runs until they are fixed):', '', ...op.problems.map((p) => `- line ${p.line}: ${escape(p.message)}`)].join('\n');
   }
   if (facts.configError) return [head, '', `Not checked: ${escape(facts.configError.message)}`].join('\n');
-  if (!facts.trusted) return [head, '', 'Not checked: this workspace is not trusted, and checking runs its code.'].join('\n');
+  if (!facts.trusted && !facts.isolated) return [head, '', 'Not checked: this workspace is not trusted, and checking runs its code.'].join('\n');
   const result = facts.latest(op.forward);
   const running = facts.isRunning(op.forward);
   if (!result) return [head, '', running ? 'checking…' : 'Not checked yet: save the file or click the lens.'].join('\n');
   const lines = [
-    `${head} — **${result.verdict}** · seed ${result.seed} · ${millis(result.elapsedMs)}${running ? ' · re-checking…' : ''}`,
+    `${head} — **${result.verdict}** · seed ${result.seed} · ${millis(result.elapsedMs)}${result.isolation === 'interpreter' ? ' · isolated interpreter' : ''}${running ? ' · re-checking…' : ''}`,
     '',
   ];
   if (result.message && result.verdict !== 'pass') lines.push(escape(result.message), '');

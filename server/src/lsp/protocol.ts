@@ -58,6 +58,8 @@ export interface StatusParams extends ReportSummary {
   trusted: boolean;
   /** Op checks started since the server started (reused results not counted). */
   opsRun: number;
+  /** Untrusted, and checks run in the isolated interpreter at the user's request. */
+  isolated: boolean;
 }
 
 /** client → server request: every annotated op of the workspace (no code runs). */

@@ -100,6 +100,7 @@ export class Session {
     return {
       snapshot,
       trusted: this.checks.isTrusted,
+      isolated: !this.checks.isTrusted && settings.isolatedWhenUntrusted,
       ...(settings.configError ? { configError: settings.configError } : {}),
       latest: (forward) => this.checks.latest(fsPath, forward),
       isRunning: (forward) => this.checks.isRunning(fsPath, forward),
@@ -113,7 +114,8 @@ export class Session {
   async check(fsPath: string, opts: { forwards?: string[]; force?: boolean; signal?: AbortSignal } = {}): Promise<OpResult[]> {
     const settings = await this.effectiveSettings(fsPath);
     if (settings.configError) throw new CheckRefused(settings.configError.message);
-    if (!this.checks.isTrusted) throw new CheckRefused('the workspace is not trusted, so no code from it runs');
+    const isolated = !this.checks.isTrusted && settings.isolatedWhenUntrusted;
+    if (!this.checks.isTrusted && !isolated) throw new CheckRefused('the workspace is not trusted, so no code from it runs');
     const snapshot = this.snapshot(fsPath);
     if (!snapshot) throw new CheckRefused(`${fsPath} cannot be read`);
     const runnable = snapshot.ops.filter((op) => op.problems.length === 0).map((op) => op.forward);
@@ -122,7 +124,8 @@ export class Session {
       uri: fsPath,
       fsPath,
       text: snapshot.text,
-      settings: settings.settings,
+      // Untrusted with the user's opt-in: the isolated interpreter, never the runner processes.
+      settings: isolated ? { ...settings.settings, isolation: 'interpreter' } : settings.settings,
       knownForwards: runnable,
       ...(opts.forwards ? { forwards: opts.forwards.filter((f) => runnable.includes(f)) } : {}),
       ...(opts.force !== undefined ? { force: opts.force } : {}),
@@ -182,11 +185,13 @@ export class Session {
     if (this.disposed) return;
     try {
       const all: FileOps[] = [];
+      let isolated = false;
       for (const fsPath of this.knownFiles()) {
         const facts = await this.facts(fsPath);
         if (facts) all.push(opSummaries(facts));
+        isolated ||= facts?.isolated === true;
       }
-      await this.connection.sendNotification(Methods.status, statusOf(all, this.checks.isTrusted, this.checks.opsRun));
+      await this.connection.sendNotification(Methods.status, statusOf(all, this.checks.isTrusted, this.checks.opsRun, isolated));
       if (this.options.codeLensRefresh) await this.connection.sendRequest(CodeLensRefreshRequest.type);
     } catch (err) {
       this.log(`could not refresh: ${err instanceof Error ? err.message : String(err)}`);

@@ -17,6 +17,11 @@ export interface EditorOnlySettings {
   checkWhen: CheckWhen;
   /** Pause after the last keystroke before a `while-typing` check starts, in milliseconds. */
   typingPauseMs: number;
+  /**
+   * In an untrusted workspace, check ops in the isolated interpreter (WebAssembly, no Node API,
+   * slower) instead of running nothing. A user-level opt-in: the workspace cannot set it.
+   */
+  isolatedWhenUntrusted: boolean;
 }
 
 export const EDITOR_ONLY_DEFAULTS: EditorOnlySettings = {
@@ -24,7 +29,11 @@ export const EDITOR_ONLY_DEFAULTS: EditorOnlySettings = {
   // Long enough that a check does not start between two words at ordinary typing speed
   // (common practice for "after typing stops" features, not from a handbook).
   typingPauseMs: 800,
+  isolatedWhenUntrusted: false,
 };
+
+/** The editor-only keys, as they appear under `gradientProbe.`. */
+export const EDITOR_ONLY_KEYS = ['checkWhen', 'typingPauseMs', 'isolatedWhenUntrusted'] as const;
 
 /** Bounds of `typingPauseMs`: below 100 ms a check would start mid-word; 60 s is plenty. */
 export const TYPING_PAUSE_RANGE = { minimum: 100, maximum: 60_000 } as const;
@@ -78,6 +87,11 @@ export function readEditorSettings(raw: unknown): EditorSettings {
       problems.push(`gradientProbe.typingPauseMs must be an integer from ${TYPING_PAUSE_RANGE.minimum} to ${TYPING_PAUSE_RANGE.maximum}; using ${typingPauseMs}`);
     }
   }
+  let isolatedWhenUntrusted = EDITOR_ONLY_DEFAULTS.isolatedWhenUntrusted;
+  if (section.isolatedWhenUntrusted !== undefined) {
+    if (typeof section.isolatedWhenUntrusted === 'boolean') isolatedWhenUntrusted = section.isolatedWhenUntrusted;
+    else problems.push(`gradientProbe.isolatedWhenUntrusted must be true or false; using ${isolatedWhenUntrusted}`);
+  }
   // Each check key is validated alone by the project's own reader, so one bad value drops
   // only itself and the message names it.
   const values: ConfigValues = { settings: {} };
@@ -94,7 +108,7 @@ export function readEditorSettings(raw: unknown): EditorSettings {
       problems.push(`user setting gradientProbe.${key} ignored: ${detail}`);
     }
   }
-  return { checkWhen, typingPauseMs, values, problems };
+  return { checkWhen, typingPauseMs, isolatedWhenUntrusted, values, problems };
 }
 
 /**
@@ -105,6 +119,7 @@ export function resolveEffectiveSettings(editor: EditorSettings, dir: string): E
   const base: EffectiveSettings = {
     checkWhen: editor.checkWhen,
     typingPauseMs: editor.typingPauseMs,
+    isolatedWhenUntrusted: editor.isolatedWhenUntrusted,
     settings: { ...DEFAULT_SETTINGS, ...editor.values.settings },
     include: editor.values.include ?? [...DEFAULT_FILE_GLOBS.include],
     exclude: editor.values.exclude ?? [...DEFAULT_FILE_GLOBS.exclude],

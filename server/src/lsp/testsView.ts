@@ -10,7 +10,7 @@ export function opSummaries(facts: DocumentFacts): FileOps {
     const range = opNameRange(op, facts.snapshot.lines);
     if (op.problems.length > 0) return { forward: op.forward, range, state: 'error', message: `annotation error: ${oneLine(op.problems[0]!.message)}` };
     if (facts.configError) return { forward: op.forward, range, state: 'not-run', message: `not checked: ${oneLine(facts.configError.message)}` };
-    if (!facts.trusted) return { forward: op.forward, range, state: 'not-run', message: 'not checked: the workspace is not trusted' };
+    if (!facts.trusted && !facts.isolated) return { forward: op.forward, range, state: 'not-run', message: 'not checked: the workspace is not trusted' };
     if (facts.isRunning(op.forward)) return { forward: op.forward, range, state: 'checking', message: 'checking…' };
     const result = facts.latest(op.forward);
     if (!result) return { forward: op.forward, range, state: 'unchecked', message: 'not checked yet' };
@@ -20,8 +20,8 @@ export function opSummaries(facts: DocumentFacts): FileOps {
 }
 
 /** Counts over files for the status bar. */
-export function statusOf(files: FileOps[], trusted: boolean, opsRun: number): StatusParams {
-  const status: StatusParams = { pass: 0, mismatch: 0, inconclusive: 0, error: 0, checking: 0, trusted, opsRun };
+export function statusOf(files: FileOps[], trusted: boolean, opsRun: number, isolated: boolean): StatusParams {
+  const status: StatusParams = { pass: 0, mismatch: 0, inconclusive: 0, error: 0, checking: 0, trusted, opsRun, isolated };
   for (const file of files) {
     for (const op of file.ops) {
       if (op.state === 'checking') status.checking++;
