@@ -92,4 +92,12 @@ describe('engine: badly scaled correct ops pass (and a hand-written loop false-a
       assert.equal(o.verdict, 'mismatch', show(o));
     });
   }
+
+  it('an op whose outputs are too large to show the change at all (1e30 + x) is inconclusive, neither pass nor mismatch', () => {
+    // Float64 spacing at 1e30 is about 1.4e14 (IEEE 754-2019 binary64): no step that keeps x in
+    // [-1, 1] moves the output, so the gradient 1 can be neither confirmed nor refuted.
+    const o = check(functionOp({ forward: (x: number) => 1e30 + x, backward: () => 1, params: [['x', spec('num', [], [-1, 1])]], backwardArgs: ['x'] }));
+    assert.equal(o.verdict, 'inconclusive', show(o));
+    assert.match(o.message, /outputs are too large to show a change/);
+  });
 });

@@ -105,8 +105,12 @@ function refineProbe(
     return;
   }
   const r = ridders((step) => centralOnLine(line, ws, step, plus, minus), min(line.refineStep, scan.smoothBelow), 1);
+  // As for elements (refine.ts): outputs whose change stays below their rounding hide it.
+  let magnitude = 0;
+  for (let j = 0; j < y0.length; j++) magnitude += abs(w[j]) * abs(y0[j]);
+  const error = max(r.error[0], (ROUNDOFF_ULPS * uOut * magnitude) / r.initialStep);
   result.numeric = r.value[0];
-  result.bound = RIDDERS_ERROR_FACTOR * r.error[0];
-  if (excessOf(result.analytic, result.numeric, result.bound, tol, result.scale) > 0 && r.error[0] < Infinity) result.state = 'mismatch';
-  else if (!(r.error[0] <= tol * max(result.scale, abs(result.numeric)))) result.state = 'uncertain';
+  result.bound = RIDDERS_ERROR_FACTOR * error;
+  if (excessOf(result.analytic, result.numeric, result.bound, tol, result.scale) > 0 && error < Infinity) result.state = 'mismatch';
+  else if (!(error <= tol * max(result.scale, abs(result.numeric)))) result.state = 'uncertain';
 }

@@ -9,6 +9,7 @@ import { findKink } from './kinkTest';
 import { centralOnLine, elementLine } from './lines';
 import { elementName, type OpHarness } from './opHarness';
 import type { ParamSlot } from './paramSlot';
+import { ROUNDOFF_ULPS } from './precision';
 import { ridders } from './ridders';
 
 /**
@@ -65,6 +66,13 @@ export function refineSuspicious(
   const m = y0.length;
   const plus = new F64(m);
   const minus = new F64(m);
+  // Σ_j |w_j|·|y0_j| per probe: the output magnitude behind the resolution of a difference.
+  const magnitude = new F64(K);
+  for (let k = 0; k < K; k++) {
+    let s = 0;
+    for (let j = 0; j < m; j++) s += abs(ws[k][j]) * abs(y0[j]);
+    magnitude[k] = s;
+  }
   let refined = 0;
   for (let q = 0; q < order.length; q++) {
     if (summary.confirmed > 0 || refined >= MAX_REFINED_ELEMENTS || outOfTime()) {
@@ -110,10 +118,16 @@ export function refineSuspicious(
     let state: ElementState = ElementState.ok;
     let bestExcess = -Infinity;
     let bestK = 0;
+    const effective = new F64(K);
     for (let k = 0; k < K; k++) {
       const a = analytic[k][i];
       const n = r.value[k];
-      const e = r.error[k];
+      // Ridders' estimate sees only the differences that moved; an output whose change stays
+      // below its own rounding even at the first step hides it. Resolution: the roundoff of a
+      // central difference over every output at the initial step.
+      const resolution = (ROUNDOFF_ULPS * u * magnitude[k]) / r.initialStep;
+      const e = max(r.error[k], resolution);
+      effective[k] = e;
       const scale = max(abs(a), abs(n), cmp.floors[k]);
       const gapExcess = excessOf(a, n, RIDDERS_ERROR_FACTOR * e, tol, cmp.floors[k]);
       if (gapExcess > 0 && e < Infinity) state = ElementState.mismatch;
@@ -134,7 +148,8 @@ export function refineSuspicious(
       summary.uncertain++;
       if (summary.uncertainNote === '') {
         const k = bestK;
-        summary.uncertainNote = `the finite-difference estimate at ${elementName(slot, i)} = ${formatNumber(slot.get(i))} is unreliable (Ridders' error estimate ${formatNumber(r.error[k], 3)} against a value of ${formatNumber(r.value[k], 6)})`;
+        const why = effective[k] > r.error[k] ? 'the outputs are too large to show a change of this size' : "Ridders' extrapolation does not settle";
+        summary.uncertainNote = `the finite-difference estimate at ${elementName(slot, i)} = ${formatNumber(slot.get(i))} is unreliable: ${why} (error ${formatNumber(effective[k], 3)} against a value of ${formatNumber(r.value[k], 6)}; backward gives ${formatNumber(analytic[k][i], 6)})`;
       }
     }
   }
