@@ -14,7 +14,11 @@ await esbuild.build({ ...common, entryPoints: { [runner]: join(root, `test/edito
 // Loaded by the extension host: `vscode` comes from the host, mocha from the repository's node_modules.
 await esbuild.build({
   ...common,
-  entryPoints: { trusted: join(root, 'test/editor/suite/trustedSuite.ts'), untrusted: join(root, 'test/editor/suite/untrustedSuite.ts') },
+  entryPoints: {
+    trusted: join(root, 'test/editor/suite/trustedSuite.ts'),
+    untrusted: join(root, 'test/editor/suite/untrustedSuite.ts'),
+    isolated: join(root, 'test/editor/suite/isolatedSuite.ts'),
+  },
   outdir: join(root, 'dist/editor-suite'),
   external: ['vscode', 'mocha'],
 });

@@ -31,6 +31,8 @@ interface SuiteRun {
   name: string;
   /** Folder trust on: the host opens the workspace untrusted. */
   trustPrompt: boolean;
+  /** User settings for this run on top of HOST_SETTINGS. */
+  settings?: Record<string, unknown>;
 }
 
 export async function main(root: string): Promise<number> {
@@ -41,10 +43,6 @@ export async function main(root: string): Promise<number> {
   const dirs = { userData: join(scratch, 'user-data'), extensions: join(scratch, 'extensions') };
   log(`installing ${vsix}`);
   execFileSync(codeServer, ['--user-data-dir', dirs.userData, '--extensions-dir', dirs.extensions, '--install-extension', vsix], { env, stdio: 'inherit' });
-  // Editor settings that keep the runs deterministic: no auto-save behind the suite's back,
-  // no start page over the editor in the screenshot.
-  mkdirSync(join(dirs.userData, 'User'), { recursive: true });
-  writeFileSync(join(dirs.userData, 'User', 'settings.json'), `${JSON.stringify(HOST_SETTINGS, null, 2)}\n`);
   const extensionDir = readdirSync(dirs.extensions).map((d) => join(dirs.extensions, d)).find((d) => existsSync(join(d, 'package.json')) && d.includes('gradient-probe'));
   if (!extensionDir) throw new Error(`the .vsix did not install into ${dirs.extensions}`);
 
@@ -53,12 +51,17 @@ export async function main(root: string): Promise<number> {
   const runs: SuiteRun[] = [
     { name: 'trusted', trustPrompt: false },
     { name: 'untrusted', trustPrompt: true },
+    { name: 'isolated', trustPrompt: true, settings: { 'gradientProbe.isolatedWhenUntrusted': true } },
   ];
   let worst = 0;
   for (const run of runs) {
     // A fresh copy per run: the suites edit and save files, and trust is remembered per folder.
     const workspace = join(scratch, `workspace-${run.name}`);
     cpSync(demoWorkspace(root), workspace, { recursive: true });
+    // Editor settings that keep the runs deterministic (no auto-save behind the suite's back,
+    // no start page over the editor in the screenshot), plus the run's own.
+    mkdirSync(join(dirs.userData, 'User'), { recursive: true });
+    writeFileSync(join(dirs.userData, 'User', 'settings.json'), `${JSON.stringify({ ...HOST_SETTINGS, ...run.settings }, null, 2)}\n`);
     const code = await runSuite({ root, codeServer, env, dirs, extensionDir, workspace, run, shots });
     log(`suite ${run.name}: exit code ${code}`);
     worst = Math.max(worst, code);
