@@ -30,6 +30,8 @@ export const reflectApply = Reflect.apply;
 export const reflectConstruct = Reflect.construct;
 export const toStringCall = String;
 const numberToPrecision = Number.prototype.toPrecision;
+const stringSlice = String.prototype.slice;
+const stringIndexOf = String.prototype.indexOf;
 const jsonStringify = JSON.stringify;
 const jsonParse = JSON.parse;
 
@@ -39,6 +41,35 @@ export function stringifyJson(value: unknown): string {
 
 export function parseJson(text: string): unknown {
   return reflectApply(jsonParse, JSON, [text]);
+}
+
+/** `s.slice(a, b)` with the captured original. */
+export function sliceText(s: string, a: number, b?: number): string {
+  return reflectApply(stringSlice, s, b === undefined ? [a] : [a, b]) as string;
+}
+
+/** `s.indexOf(sub)` with the captured original. */
+export function findText(s: string, sub: string): number {
+  return reflectApply(stringIndexOf, s, [sub]) as number;
+}
+
+/** Whether a list holds a value (no Array.prototype methods: user code may replace them). */
+export function contains<T>(list: ArrayLike<T>, v: T): boolean {
+  for (let i = 0; i < list.length; i++) if (list[i] === v) return true;
+  return false;
+}
+
+/** Position of a value in a list, or -1. */
+export function positionOf<T>(list: ArrayLike<T>, v: T): number {
+  for (let i = 0; i < list.length; i++) if (list[i] === v) return i;
+  return -1;
+}
+
+/** `'a', 'b', 'c'` for messages. */
+export function quotedList(list: ArrayLike<string>): string {
+  let out = '';
+  for (let i = 0; i < list.length; i++) out += (i > 0 ? ', ' : '') + `'${list[i]}'`;
+  return out;
 }
 
 /** `Object.prototype.hasOwnProperty.call(o, k)` with the captured original. */
@@ -54,15 +85,15 @@ export function formatNumber(v: number, digits = 6): string {
   if (isInteger(v) && abs(v) < 1e15) return toStringCall(v);
   const text = reflectApply(numberToPrecision, v, [digits]) as string;
   // Drop trailing zeros of the mantissa: 0.500000 → 0.5, 1.20000e-7 → 1.2e-7.
-  const e = text.indexOf('e');
-  const mant = e < 0 ? text : text.slice(0, e);
-  const exp = e < 0 ? '' : text.slice(e);
+  const e = findText(text, 'e');
+  const mant = e < 0 ? text : sliceText(text, 0, e);
+  const exp = e < 0 ? '' : sliceText(text, e);
   let m = mant;
-  if (m.indexOf('.') >= 0) {
+  if (findText(m, '.') >= 0) {
     let end = m.length;
     while (end > 0 && m[end - 1] === '0') end--;
     if (m[end - 1] === '.') end--;
-    m = m.slice(0, end);
+    m = sliceText(m, 0, end);
   }
   return m + exp;
 }
@@ -95,7 +126,7 @@ export function describeThrown(e: unknown): string {
       text = undefined;
     }
     if (typeof text !== 'string') text = toStringCall(e);
-    if (text.length > THROWN_VALUE_CHARS) text = `${text.slice(0, THROWN_VALUE_CHARS)}…`;
+    if (text.length > THROWN_VALUE_CHARS) text = `${sliceText(text, 0, THROWN_VALUE_CHARS)}…`;
     return `${text} (a thrown ${kind}, not an Error)`;
   } catch {
     return 'an exception that could not be described';

@@ -2,7 +2,7 @@
 // accepting the shapes the interface allows and naming the parameter and the shapes when the
 // result does not fit.
 
-import { describeValue, formatIndex, getPrototypeOf, isArray, isView, objectKeys, objectPrototype, ownKey } from './builtins';
+import { describeValue, formatIndex, getPrototypeOf, isArray, isView, objectKeys, objectPrototype, ownKey, quotedList } from './builtins';
 import { fail } from './failure';
 import type { ParamSlot } from './paramSlot';
 
@@ -121,7 +121,13 @@ export function readGradients(result: unknown, slots: ParamSlot[], dests: Float6
     }
     fail(`backward: ${message}`);
   }
-  const names = slots.map((s) => `'${s.name}'`).join(', ');
+  const nameList: string[] = [];
+  const keyList: string[] = [];
+  for (let i = 0; i < n; i++) {
+    nameList[i] = slots[i].name;
+    keyList[i] = slots[i].key;
+  }
+  const names = quotedList(nameList);
   let entries: unknown[];
   if (isArray(result)) {
     if (result.length !== n) {
@@ -134,7 +140,7 @@ export function readGradients(result: unknown, slots: ParamSlot[], dests: Float6
     const obj = result as Record<string, unknown>;
     for (let i = 0; i < n; i++) {
       if (!ownKey(obj, slots[i].key)) {
-        fail(`backward result has no gradient '${slots[i].key}' (it has ${objectKeys(obj).map((k) => `'${k}'`).join(', ') || 'no keys'}; expected ${slots.map((s) => `'${s.key}'`).join(', ')})`);
+        fail(`backward result has no gradient '${slots[i].key}' (it has ${quotedList(objectKeys(obj)) || 'no keys'}; expected ${quotedList(keyList)})`);
       }
       entries[i] = obj[slots[i].key];
     }

@@ -64,7 +64,8 @@ function diff(s: Snap, v: unknown, path: number[]): string | null {
     case 'array': {
       if (!isArray(v) || v.length !== s.items.length) return `${path.length ? `at ${formatIndex(path)} ` : ''}its length changed`;
       for (let i = 0; i < s.items.length; i++) {
-        const inner = path.slice();
+        const inner: number[] = [];
+        for (let q = 0; q < path.length; q++) inner[q] = path[q];
         inner[inner.length] = i;
         const d = diff(s.items[i], v[i], inner);
         if (d !== null) return d;

@@ -3,7 +3,7 @@
 // Reid 1974) when they need clearly fewer forward calls than one column per element; otherwise
 // full columns, or the dot-product test for parameters above the large-parameter limit.
 
-import { F64, abs, ceil, floor, max, min } from './builtins';
+import { F64, abs, ceil, contains, floor, max, min } from './builtins';
 import type { OpHarness } from './opHarness';
 import type { ParamSlot } from './paramSlot';
 import { centralStep } from './precision';
@@ -118,14 +118,13 @@ export function probeBandJointly(h: OpHarness, slot: ParamSlot, y0: Float64Array
 export function probeBand(h: OpHarness, slot: ParamSlot, y0: Float64Array, random: RandomSource): { lo: number; hi: number } | null {
   const n = slot.size;
   const m = y0.length;
-  const chosen = new Set<number>([0, n - 1]);
-  for (let q = 1; q <= STRUCTURE_SPACED_PROBES; q++) chosen.add(floor((q * n) / (STRUCTURE_SPACED_PROBES + 1)));
+  const probes: number[] = [0, n - 1];
+  const add = (i: number): void => {
+    if (!contains(probes, i)) probes[probes.length] = i;
+  };
+  for (let q = 1; q <= STRUCTURE_SPACED_PROBES; q++) add(floor((q * n) / (STRUCTURE_SPACED_PROBES + 1)));
   const picks = distinctIndices(random, n - 2, STRUCTURE_RANDOM_PROBES);
-  for (let q = 0; q < picks.length; q++) chosen.add(picks[q] + 1);
-  const probes: number[] = [];
-  chosen.forEach((i) => {
-    probes[probes.length] = i;
-  });
+  for (let q = 0; q < picks.length; q++) add(picks[q] + 1);
   const out = new F64(m);
   let lo = Infinity;
   let hi = -Infinity;

@@ -2,7 +2,7 @@
 // one instance, `this.FIELD` values, the backward's argument list), counts the calls, and turns
 // every failure of user code into a message naming the part of the op at fault.
 
-import { F64, describeThrown, describeValue, formatIndex, formatNumber, reflectApply, reflectConstruct } from './builtins';
+import { F64, describeThrown, describeValue, formatIndex, formatNumber, positionOf, reflectApply, reflectConstruct, sliceText } from './builtins';
 import { CheckStop, fail } from './failure';
 import { readGradients } from './gradients';
 import { InputGuard } from './inputGuard';
@@ -51,7 +51,9 @@ export class OpHarness {
     exposed: Record<string, unknown>,
   ) {
     const t = op.target;
-    this.takesUpstream = op.backwardArgs.some((a) => a.kind === 'upstream');
+    let upstream = false;
+    for (let i = 0; i < op.backwardArgs.length; i++) if (op.backwardArgs[i].kind === 'upstream') upstream = true;
+    this.takesUpstream = upstream;
     if (t.kind === 'method') {
       const className = t.className ?? '';
       const cls = lookup(exposed, className);
@@ -188,10 +190,10 @@ export class OpHarness {
       else if (a.kind === 'output') list[i] = buildValue(layout, y);
       else {
         const name = a.name;
-        const pos = s.argNames.indexOf(name);
+        const pos = positionOf(s.argNames, name);
         if (pos >= 0) list[i] = s.args[pos];
         else {
-          const field = name.startsWith('this.') ? name.slice(5) : name;
+          const field = sliceText(name, 0, 5) === 'this.' ? sliceText(name, 5) : name;
           let found = false;
           for (let k = 0; k < s.fields.length; k++) {
             if (s.fields[k].field === field) {

@@ -71,32 +71,20 @@ export function uniformInt(random: RandomSource, lo: number, hi: number): number
   return a + floor(random() * (b - a + 1));
 }
 
-/** `count` distinct integers from 0..n-1 (Floyd's algorithm; in ascending order). */
+/** `count` distinct integers from 0..n-1 (Floyd's algorithm), in ascending order. */
 export function distinctIndices(random: RandomSource, n: number, count: number): number[] {
   if (count >= n) {
     const all: number[] = [];
     for (let i = 0; i < n; i++) all[i] = i;
     return all;
   }
-  const chosen = new Set<number>();
+  // Floyd's algorithm with a byte per candidate (no Set: user code may replace it).
+  const taken = new Uint8Array(n);
   for (let j = n - count; j < n; j++) {
     const t = floor(random() * (j + 1));
-    if (chosen.has(t)) chosen.add(j);
-    else chosen.add(t);
+    taken[taken[t] === 1 ? j : t] = 1;
   }
   const out: number[] = [];
-  chosen.forEach((v) => {
-    out[out.length] = v;
-  });
-  // Ascending without Array.prototype.sort: insertion sort on a small list.
-  for (let i = 1; i < out.length; i++) {
-    const v = out[i];
-    let k = i - 1;
-    while (k >= 0 && out[k] > v) {
-      out[k + 1] = out[k];
-      k--;
-    }
-    out[k + 1] = v;
-  }
+  for (let i = 0; i < n; i++) if (taken[i] === 1) out[out.length] = i;
   return out;
 }

@@ -35,7 +35,8 @@ export interface RiddersResult {
  */
 export function ridders(central: (h: number) => Float64Array | null, h0: number, count: number): RiddersResult {
   const value = new F64(count);
-  const error = new F64(count).fill(Infinity);
+  const error = new F64(count);
+  for (let p = 0; p < count; p++) error[p] = Infinity;
   let start = h0;
   for (let attempt = 0; attempt <= DOMAIN_RETRIES; attempt++, start /= 10) {
     const first = central(start);

@@ -2,7 +2,7 @@
 // seeded generator, keeps `avoid` points at a margin, and wraps every differentiated parameter
 // in a ParamSlot.
 
-import { F32, F64, I32, abs, describeThrown, describeValue, formatNumber, isArray, isFiniteNumber, isInteger, max, min, parseJson, reflectApply, stringifyJson } from './builtins';
+import { F32, F64, I32, abs, contains, describeThrown, sliceText, describeValue, formatNumber, isArray, isFiniteNumber, isInteger, max, min, parseJson, reflectApply, stringifyJson } from './builtins';
 import { fail } from './failure';
 import { nestedShape } from './outputLayout';
 import { ParamSlot, nestedLeaves, precisionOf } from './paramSlot';
@@ -108,7 +108,7 @@ function slotFor(
   range: [number, number] | null,
   avoid: number[],
 ): ParamSlot | null {
-  const key = param.isField ? param.name.slice(5) : param.name;
+  const key = param.isField ? sliceText(param.name, 5) : param.name;
   if (typeof value === 'number') {
     return new ParamSlot(param.name, key, dtype, precisionOf(dtype, value), [], 1, host, hostKey, null, range, avoid);
   }
@@ -155,7 +155,7 @@ export function drawSample(
     if (p.isField) fieldParams[fieldParams.length] = p;
     else positional[positional.length] = p;
   }
-  const fixed = new Set<string>(op.fixed);
+  const fixed = op.fixed ?? [];
   const args: unknown[] = [];
   const argNames: string[] = [];
   const slots: ParamSlot[] = [];
@@ -177,7 +177,7 @@ export function drawSample(
       const p = positional[i];
       args[i] = list[i];
       argNames[i] = p.name;
-      if (fixed.has(p.name)) continue;
+      if (contains(fixed, p.name)) continue;
       const v = list[i];
       const dtype: SampleDtype = v instanceof F32 ? 'f32' : v instanceof F64 ? 'f64' : 'num';
       if (typeof v === 'number' && !isFiniteNumber(v)) fail(`@samples ${op.target.samplesFactory}: argument '${p.name}' is ${formatNumber(v)}`);
@@ -191,7 +191,7 @@ export function drawSample(
       if (p.sample === undefined) fail(`parameter '${p.name}' has no @sample`);
       args[i] = drawValue(p.name, p.sample, rng, maxElements);
       const spec = p.sample;
-      if (spec.kind === 'random' && !spec.fixed && !fixed.has(p.name) && isDifferentiableDtype(spec.dtype)) {
+      if (spec.kind === 'random' && !spec.fixed && !contains(fixed, p.name) && isDifferentiableDtype(spec.dtype)) {
         const slot = slotFor(p, args[i], spec.dtype, args as unknown as Record<number, unknown>, i, spec.range, spec.avoid);
         if (slot !== null) slots[slots.length] = slot;
       }
@@ -201,14 +201,14 @@ export function drawSample(
   const fields: { field: string; value: unknown }[] = [];
   for (let i = 0; i < fieldParams.length; i++) {
     const p = fieldParams[i];
-    const field = p.name.slice(5);
+    const field = sliceText(p.name, 5);
     if (instance === null) fail(`@sample ${p.name}: 'this.' fields need a method op`);
     if (p.sample === undefined) fail(`field '${p.name}' has no @sample`);
     const value = drawValue(p.name, p.sample, rng, maxElements);
     instance[field] = value;
     fields[fields.length] = { field, value };
     const spec = p.sample;
-    if (spec.kind === 'random' && !spec.fixed && !fixed.has(p.name) && isDifferentiableDtype(spec.dtype)) {
+    if (spec.kind === 'random' && !spec.fixed && !contains(fixed, p.name) && isDifferentiableDtype(spec.dtype)) {
       const slot = slotFor(p, value, spec.dtype, instance, field, spec.range, spec.avoid);
       if (slot !== null) slots[slots.length] = slot;
     }
