@@ -109,6 +109,39 @@ describe('engine: interface forms', () => {
     assert.ok(o.inputs && 'weight' in o.inputs.fields, 'fields are in the recorded inputs');
   });
 
+  it('method op whose backward reads inputs cached by the forward, with enough elements to be probed for structure', () => {
+    // The structure probes run the forward at moved points; the backward must still see the cache of the sample point.
+    class Smoother {
+      alpha = 0.5;
+      private inputs = new Float64Array(0);
+      private states = new Float64Array(0);
+      forward(x: Float64Array): Float64Array {
+        this.inputs = Float64Array.from(x);
+        this.states = new Float64Array(x.length);
+        let s = 0;
+        for (let t = 0; t < x.length; t++) this.states[t] = s = this.alpha * s + (1 - this.alpha) * x[t];
+        return Float64Array.from(this.states);
+      }
+      backward(dy: Float64Array): { x: Float64Array; alpha: number } {
+        const dx = new Float64Array(dy.length);
+        let dAlpha = 0;
+        let carried = 0;
+        for (let t = dy.length - 1; t >= 0; t--) {
+          const ds = dy[t] + carried;
+          dx[t] = ds * (1 - this.alpha);
+          dAlpha += ds * ((t > 0 ? this.states[t - 1] : 0) - this.inputs[t]);
+          carried = ds * this.alpha;
+        }
+        return { x: dx, alpha: dAlpha };
+      }
+    }
+    const o = check(methodOp({
+      cls: Smoother, forwardName: 'forward', backwardName: 'backward',
+      params: [['x', spec('f64', [24], [10, 30])], ['this.alpha', spec('num', [], [0.2, 0.8])]],
+    }));
+    assert.equal(o.verdict, 'pass', show(o));
+  });
+
   it('method op with @construct and a $dy-only backward returning a list', () => {
     class Scaler {
       constructor(readonly k: number) {}

@@ -194,11 +194,10 @@ function runAttempt(
     dotUs[p] = u;
   }
   const scratch = new F64(m);
-  let backwardCalls = 0;
   const callBackward = (w: Float64Array, into: Float64Array[]): void => {
-    // A method's backward may read state its forward cached: run the forward at the sample point first.
-    if (h.backwardNeedsFreshForward && backwardCalls > 0) h.forwardInto(scratch, true);
-    backwardCalls++;
+    // A method's backward may read state its forward cached, and the structure probes have run
+    // the forward at moved points since: run it at the sample point first, every time.
+    if (h.backwardNeedsFreshForward) h.forwardInto(scratch, true);
     h.backwardInto(h.takesUpstream ? w : null, y0, slots, into);
     const changed = guard.firstChange(h.inputValues());
     if (changed !== null) fail(`backward changed its input ${changed}`);

@@ -14,7 +14,7 @@ import { ROUNDOFF_ULPS } from './precision';
 import { UNIT_ROUNDOFF_F64 } from './settings';
 import { type RandomSource } from './random';
 import { RIDDERS_ERROR_FACTOR } from './refine';
-import { ridders } from './ridders';
+import { RIDDERS_MIN_INITIAL_CENTRAL_STEPS, riddersAdaptive } from './ridders';
 
 export interface DotProbeResult {
   /** ⟨u, J v⟩ per unit step, from the central difference (or Ridders when refined). */
@@ -104,11 +104,17 @@ function refineProbe(
     result.state = 'kink';
     return;
   }
-  const r = ridders((step) => centralOnLine(line, ws, step, plus, minus), min(line.refineStep, scan.smoothBelow), 1);
+  const r = riddersAdaptive(
+    (step) => centralOnLine(line, ws, step, plus, minus),
+    min(line.refineStep, scan.smoothBelow),
+    RIDDERS_MIN_INITIAL_CENTRAL_STEPS * line.centralStep,
+    1,
+    (n, e) => e <= tol * max(result.scale, abs(n)),
+  );
   // As for elements (refine.ts): outputs whose change stays below their rounding hide it.
   let magnitude = 0;
   for (let j = 0; j < y0.length; j++) magnitude += abs(w[j]) * abs(y0[j]);
-  const error = max(r.error[0], (ROUNDOFF_ULPS * uOut * magnitude) / r.initialStep);
+  const error = max(r.error[0], (ROUNDOFF_ULPS * uOut * magnitude) / r.initialStep[0]);
   result.numeric = r.value[0];
   result.bound = RIDDERS_ERROR_FACTOR * error;
   if (excessOf(result.analytic, result.numeric, result.bound, tol, result.scale) > 0 && error < Infinity) result.state = 'mismatch';

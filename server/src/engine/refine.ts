@@ -10,7 +10,7 @@ import { centralOnLine, elementLine } from './lines';
 import { elementName, type OpHarness } from './opHarness';
 import type { ParamSlot } from './paramSlot';
 import { ROUNDOFF_ULPS } from './precision';
-import { ridders } from './ridders';
+import { RIDDERS_MIN_INITIAL_CENTRAL_STEPS, riddersAdaptive } from './ridders';
 
 /**
  * Multiple of Ridders' error estimate allowed on top of the tolerance, dimensionless. The
@@ -114,7 +114,13 @@ export function refineSuspicious(
       continue;
     }
     // Start Ridders below any kink signature the ladder saw, so its steps do not cross one.
-    const r = ridders((step) => centralOnLine(line, ws, step, plus, minus), min(line.refineStep, scan.smoothBelow), K);
+    const r = riddersAdaptive(
+      (step) => centralOnLine(line, ws, step, plus, minus),
+      min(line.refineStep, scan.smoothBelow),
+      RIDDERS_MIN_INITIAL_CENTRAL_STEPS * line.centralStep,
+      K,
+      (n, e, k) => e <= tol * max(abs(analytic[k][i]), abs(n), cmp.floors[k]),
+    );
     let state: ElementState = ElementState.ok;
     let bestExcess = -Infinity;
     let bestK = 0;
@@ -125,7 +131,7 @@ export function refineSuspicious(
       // Ridders' estimate sees only the differences that moved; an output whose change stays
       // below its own rounding even at the first step hides it. Resolution: the roundoff of a
       // central difference over every output at the initial step.
-      const resolution = (ROUNDOFF_ULPS * u * magnitude[k]) / r.initialStep;
+      const resolution = (ROUNDOFF_ULPS * u * magnitude[k]) / r.initialStep[k];
       const e = max(r.error[k], resolution);
       effective[k] = e;
       const scale = max(abs(a), abs(n), cmp.floors[k]);

@@ -89,3 +89,52 @@ export function ridders(central: (h: number) => Float64Array | null, h0: number,
   }
   return { value, error, initialStep: start };
 }
+
+/**
+ * Ratio between the initial steps tried when Ridders' extrapolation does not settle: the
+ * function may change on a scale much smaller than max(1, |x|) (exp(1000·x), say), and
+ * Numerical Recipes §5.7 asks for an initial step over which the function changes
+ * substantially but not wildly. Our choice: 1/8 per retry.
+ */
+export const RIDDERS_RETRY_RATIO = 1 / 8;
+/** Smallest initial step tried, unit: central steps (below it the tableau is roundoff). */
+export const RIDDERS_MIN_INITIAL_CENTRAL_STEPS = 10;
+
+export interface AdaptiveRiddersResult {
+  value: Float64Array;
+  error: Float64Array;
+  /** Initial step of the run that gave each projection's value. */
+  initialStep: Float64Array;
+}
+
+/**
+ * Ridders from h0; while some projection has not `settled`, again from a smaller initial step
+ * (× RIDDERS_RETRY_RATIO, down to minStep), keeping per projection the value with the smallest
+ * error estimate.
+ */
+export function riddersAdaptive(
+  central: (h: number) => Float64Array | null,
+  h0: number,
+  minStep: number,
+  count: number,
+  settled: (value: number, error: number, p: number) => boolean,
+): AdaptiveRiddersResult {
+  const value = new F64(count);
+  const error = new F64(count);
+  const initialStep = new F64(count);
+  for (let p = 0; p < count; p++) error[p] = Infinity;
+  for (let h = h0; ; h *= RIDDERS_RETRY_RATIO) {
+    const r = ridders(central, h, count);
+    let all = true;
+    for (let p = 0; p < count; p++) {
+      if (r.error[p] < error[p]) {
+        value[p] = r.value[p];
+        error[p] = r.error[p];
+        initialStep[p] = r.initialStep;
+      }
+      if (!settled(value[p], error[p], p)) all = false;
+    }
+    if (all || h * RIDDERS_RETRY_RATIO < minStep) break;
+  }
+  return { value, error, initialStep };
+}
