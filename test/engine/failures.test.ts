@@ -61,6 +61,16 @@ describe('engine: failures become verdicts with messages', () => {
     expectVerdict(o, 'error', /^forward output has -?Infinity at index \[1, 1\]/);
   });
 
+  it('forward output with NaN at a perturbed point names the output index and the moved element', () => {
+    const o = check(functionOp({
+      forward: (x: Float64Array) => x.map((v) => Math.sqrt(v)),
+      backward: (x: Float64Array, dy: Float64Array) => x.map((v, i) => dy[i] / (2 * Math.sqrt(v))),
+      params: [['x', undefined]],
+      samples: () => [Float64Array.from([0.5, 1e-7, 0.3])],
+    }));
+    expectVerdict(o, 'error', /^forward output has NaN at index \[1\] with x\[1\] = -[\d.e-]+$/);
+  });
+
   it('backward returns the wrong number of gradients', () => {
     const o = check(functionOp({
       forward: (a: Float64Array, b: Float64Array) => a.map((v, i) => v * b[i]),

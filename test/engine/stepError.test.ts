@@ -66,4 +66,19 @@ describe('engine: central-difference error against step (Nocedal & Wright §8.1)
       if (scan.steps[k] <= 1e-3 && scan.steps[k] >= 1e-8) assert.ok(Math.abs(scan.absErrors[k] / gap - 1) < 1e-3, `step ${scan.steps[k]}: ${scan.absErrors[k]}`);
     }
   });
+
+  it('settings.stepScans: "mismatch" skips the scan of a passing op and keeps it for a mismatch; "none" skips both', () => {
+    const op = (factor: number) => functionOp({
+      forward: (x: number) => Math.exp(x),
+      backward: (x: number) => factor * Math.exp(x),
+      params: [['x', spec('num', [], [0.5, 0.5])]],
+      backwardArgs: ['x'],
+    });
+    const pass = check(op(1), { stepScans: 'mismatch' });
+    assert.equal(pass.params[0].stepScan, undefined);
+    const all = check(op(1));
+    assert.equal(pass.calls.forward + 26, all.calls.forward, 'the scan costs 26 forward calls');
+    assert.ok(check(op(1.01), { stepScans: 'mismatch' }).params[0].stepScan);
+    assert.equal(check(op(1.01), { stepScans: 'none' }).params[0].stepScan, undefined);
+  });
 });

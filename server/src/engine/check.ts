@@ -418,6 +418,8 @@ function addReportData(at: Attempt, s: number, c: ParamCheck): void {
     for (let p = 0; p < ev.est.indices.length; p++) map[ev.est.indices[p]] = ev.cmp.rel[p];
     r.errorMap = map;
   }
+  const scans = at.settings.stepScans ?? 'all';
+  if (scans === 'none' || (scans === 'mismatch' && r.verdict !== 'mismatch')) return;
   if (26 * at.forwardMs > STEP_SCAN_BUDGET_MS || at.outOfTime()) return;
   const i = ev.est.indices[pos];
   const k = ev.cmp.worstProbe[pos];

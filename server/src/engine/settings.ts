@@ -49,6 +49,14 @@ export interface CheckSettings {
    * (shared/design/sandbox.md): for small ops, and the only way ops of an untrusted workspace run.
    */
   isolation?: 'process' | 'interpreter';
+  /**
+   * Optional (added by the engine): which parameters get the error-against-step scan shown in
+   * the editor's report, 26 extra forward calls each. 'all' (the default when absent; skipped
+   * when those calls would take more than 150 ms), 'mismatch' (only parameters that disagree) or
+   * 'none'. Verdicts never depend on it; benchmarks that measure a check against its evaluation
+   * floor use 'mismatch'.
+   */
+  stepScans?: 'all' | 'mismatch' | 'none';
 }
 
 export const DEFAULT_SETTINGS: CheckSettings = {
