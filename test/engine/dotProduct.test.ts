@@ -3,6 +3,7 @@
 // engine's dot-product path must pass Aᵀ and reject A in its place.
 
 import assert from 'node:assert/strict';
+import fc from 'fast-check';
 import { createRandom } from '../../server/src/engine/random';
 import { check, functionOp, show, spec } from './opBuilder';
 
@@ -73,5 +74,43 @@ describe('engine: dot-product test on random linear maps (Griewank & Walther)', 
     assert.equal(o.verdict, 'mismatch', show(o));
     assert.equal(o.params[0].method, 'full');
     assert.equal(o.params[0].checkedElements, 6);
+  });
+
+  it('property (fast-check): for random shapes, maps and seeds, Aᵀ passes and one entry of Aᵀ off by 1e-3 is a mismatch at that entry', () => {
+    fc.assert(
+      fc.property(
+        fc.integer({ min: 1, max: 30 }), // outputs
+        fc.integer({ min: 1, max: 30 }), // inputs
+        fc.integer({ min: 1, max: 1e6 }), // matrix seed
+        fc.integer({ min: 0, max: 2 ** 31 - 1 }), // check seed
+        fc.nat(), // which input gets the wrong gradient (mod n)
+        (m, n, matrixSeed, seed, pick) => {
+          const A = randomMatrix(m, n, matrixSeed);
+          const wrong = pick % n;
+          const op = (bug: boolean) => functionOp({
+            forward: (x: Float64Array) => {
+              const y = new Float64Array(m);
+              for (let i = 0; i < m; i++) for (let j = 0; j < n; j++) y[i] += A[i * n + j] * x[j];
+              return y;
+            },
+            backward: (_x: Float64Array, dy: Float64Array) => {
+              const g = new Float64Array(n);
+              for (let j = 0; j < n; j++) for (let i = 0; i < m; i++) g[j] += A[i * n + j] * dy[i];
+              if (bug) g[wrong] *= 1 + 1e-3;
+              return g;
+            },
+            params: [['x', spec('f64', [n], [-3, 3])]],
+            seed,
+          });
+          const ok = check(op(false));
+          assert.equal(ok.verdict, 'pass', show(ok));
+          const bad = check(op(true));
+          // A column of A that is zero would hide the bug; random entries are never all zero.
+          assert.equal(bad.verdict, 'mismatch', show(bad));
+          assert.deepEqual(bad.params[0].worst?.index, [wrong]);
+        },
+      ),
+      { numRuns: 40, seed: 424242 },
+    );
   });
 });
