@@ -7,10 +7,12 @@
 /**
  * Built-ins handed to the engine and the user bundle as function parameters. Global lookups in a
  * vm context go through an interceptor and cost 2–12× on numeric loops (measured, see
- * shared/design/sandbox.md); parameters are plain local variables.
+ * shared/design/sandbox.md); parameters are plain local variables. `Infinity`, `NaN` and
+ * `undefined` are global lookups too: one `-Infinity` in the engine's per-element comparison
+ * made it 4–5× slower in a context than in the host (bench/PERFORMANCE.md).
  */
 export const CONTEXT_BUILTINS = [
-  'globalThis', 'Math', 'Object', 'Array', 'Number', 'String', 'Boolean', 'Symbol', 'BigInt',
+  'globalThis', 'Infinity', 'NaN', 'undefined', 'Math', 'Object', 'Array', 'Number', 'String', 'Boolean', 'Symbol', 'BigInt',
   'Function', 'JSON', 'Reflect', 'Proxy', 'Promise', 'Map', 'Set', 'WeakMap', 'WeakSet', 'Date',
   'RegExp', 'Error', 'TypeError', 'RangeError', 'SyntaxError', 'ReferenceError', 'EvalError',
   'URIError', 'AggregateError', 'ArrayBuffer', 'DataView', 'Float64Array', 'Float32Array',
