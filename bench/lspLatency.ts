@@ -1,5 +1,5 @@
-// Editor latency over the real LSP connection: spawns `node bin/gradient-probe.js lsp --stdio`,
-// speaks LSP to it with vscode-languageserver-protocol, and times didOpen (fresh server) and
+// Editor latency over the real LSP connection: spawns `node dist/bench/cli.js lsp --stdio` (the
+// CLI that bin/gradient-probe.js runs, built privately by bench/run.mjs), speaks LSP to it with vscode-languageserver-protocol, and times didOpen (fresh server) and
 // edit + didSave to the publishDiagnostics that carries the finished check, for each demo file.
 import { spawn } from 'node:child_process';
 import { cpSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
@@ -131,7 +131,7 @@ async function measureFile(root: string, cliPath: string, file: string, saves: n
 export async function measureLatency(repo: string, saves: number): Promise<LatencyMeasurement[]> {
   const root = mkdtempSync(join(tmpdir(), 'gradient-probe-lsp-'));
   cpSync(join(repo, 'examples'), root, { recursive: true });
-  const cliPath = join(repo, 'bin', 'gradient-probe.js');
+  const cliPath = join(__dirname, 'cli.js');
   const out: LatencyMeasurement[] = [];
   try {
     for (const file of readdirSync(join(root, 'src')).sort()) {

@@ -32,8 +32,9 @@ export function floorBudget(op: BenchOp, result: OpResult): CallBudget {
   let backwards = Math.max(1, s.upstreamProbes);
   let dot = false;
   for (const p of op.params) {
+    // A check stopped before it reported the parameter: the floor of the cheapest exact scheme.
     const r = result.params.find((q) => q.name === p.name);
-    const method = r?.method ?? 'full';
+    const method = r?.method ?? 'grouped';
     if (method === 'full') forwards += 2 * p.elements;
     else if (method === 'grouped') forwards += 2 * p.optimalColours;
     else {
@@ -82,7 +83,7 @@ async function main(): Promise<void> {
     const budget = floorBudget(op, last);
     const floorReps = Math.max(3, Math.min(reps, 9));
     const floor = timeFloor(d, budget, floorReps);
-    const hand = runHandLoop(d, handBudgetMs, 64);
+    const hand = runHandLoop(d, handBudgetMs, 16);
 
     const m: OpMeasurement = {
       kind: op.kind,
@@ -96,7 +97,7 @@ async function main(): Promise<void> {
       coverage: last.params.reduce((a, p) => a + p.checkedElements, 0) / op.elements,
       calls: last.calls,
       check: { coldMs, wallMs, medianMs: median(wallMs), runnerMedianMs: median(runnerMs) },
-      floor: { calls: budget, medianMs: floor.medianMs, reps: floorReps },
+      floor: { calls: budget, medianMs: floor.medianMs, reps: floorReps, forwardMs: floor.forwardMs, backwardMs: floor.backwardMs, fromPerCall: floor.fromPerCall },
       hand,
     };
     process.stdout.write(`${JSON.stringify(m)}\n`);

@@ -1,6 +1,7 @@
 // Formats a BenchReport as the text `npm run bench` prints: machine, the op table (check,
 // floor, hand-written loop, ratios and growth), seeded-bug trials, latency, throughput, memory
 // and the goals with met / not met. Also used to paste the table into bench/PERFORMANCE.md.
+import { FLOOR_FULL_RUN_MS } from './floor';
 import { floorRatio, handSpeedup } from './goals';
 import type { BenchReport, OpMeasurement } from './results';
 
@@ -35,7 +36,7 @@ export function opTable(r: BenchReport): string {
       m.verdict,
       `${m.calls.forward}/${m.calls.backward}`,
       `${m.floor.calls.forwards}/${m.floor.calls.backwards}`,
-      ms(m.floor.medianMs),
+      `${ms(m.floor.medianMs)}${m.floor.fromPerCall ? '†' : ''}`,
       ms(m.check.medianMs),
       ms(m.check.runnerMedianMs),
       ratio(floorRatio(m)),
@@ -74,12 +75,14 @@ export function formatReport(r: BenchReport): string {
   const mc = r.machine;
   out.push(`Gradient Probe benchmark, ${r.startedAt}`);
   out.push(`machine: ${mc.cpu}, ${mc.cores} cores (nproc), ${mc.memory} memory (free -h), ${mc.platform}, node ${mc.node}; load average before ${mc.loadBefore.map((x) => x.toFixed(2)).join(' ')}, after ${mc.loadAfter.map((x) => x.toFixed(2)).join(' ')}`);
+  out.push(`source: commit ${r.source.commit}${r.source.modified.length ? ` plus uncommitted changes in ${r.source.modified.join(', ')}` : ''}`);
   out.push(`settings: defaults (server/src/engine/settings.ts): ${JSON.stringify(r.settings)}`);
   if (r.ops.length) {
     const reps = [...new Set(r.ops.map((m) => m.check.wallMs.length))].join('/');
     out.push('');
     out.push(`Ops (each size in its own process; check = Checker.checkFile wall time, median of ${reps} warm runs after one cold run;`);
     out.push('floor = the forward/backward calls the picked method needs, timed directly on the same bundle in a vm context set up like the runner\'s, median;');
+    out.push(`† = floor above ${FLOOR_FULL_RUN_MS / 1000} s: call count × median time of one call instead of a timed run of every call;`);
     out.push('hand loop = per-element central difference, fixed step 1e-6, over a scalar projection; * = extrapolated from the elements reached in the time budget;');
     out.push('growth = exponent of check time against elements from the previous size)');
     out.push(opTable(r));
@@ -91,7 +94,7 @@ export function formatReport(r: BenchReport): string {
   }
   if (r.latency.length) {
     out.push('');
-    out.push('Editor latency over LSP (node bin/gradient-probe.js lsp --stdio; edit + didSave → publishDiagnostics of the finished check)');
+    out.push('Editor latency over LSP (node dist/bench/cli.js lsp --stdio, the CLI of bin/gradient-probe.js; edit + didSave → publishDiagnostics of the finished check)');
     out.push(table(
       ['file', 'ops', 'spawn → initialized', 'cold didOpen → diagnostics', 'first save', 'warm saves median', 'warm p90'],
       r.latency.map((l) => [l.file, String(l.ops), ms(l.coldStartMs), ms(l.coldOpenMs), ms(l.firstSaveMs), ms(l.warmMedianMs), ms(l.warmP90Ms)]),

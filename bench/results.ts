@@ -28,7 +28,7 @@ export interface OpMeasurement {
     /** Median time inside the runner (fresh context, engine, module, check), in ms. */
     runnerMedianMs: number;
   };
-  floor: { calls: CallBudget; medianMs: number; reps: number };
+  floor: { calls: CallBudget; medianMs: number; reps: number; forwardMs: number; backwardMs: number; fromPerCall: boolean };
   hand: HandLoopResult;
 }
 
@@ -99,6 +99,8 @@ export interface BenchReport {
   startedAt: string;
   machine: { cpu: string; cores: number; memory: string; node: string; platform: string; loadBefore: number[]; loadAfter: number[] };
   settings: Record<string, unknown>;
+  /** The source measured: HEAD and the files under server/ that differed from it (others' work in progress). */
+  source: { commit: string; modified: string[] };
   ops: OpMeasurement[];
   detection: DetectionMeasurement[];
   latency: LatencyMeasurement[];

@@ -55,7 +55,7 @@ function runCli(cliPath: string, dir: string, workers: number): Promise<number> 
   });
 }
 
-export async function measureThroughput(repo: string, dir: string, runs: number): Promise<ThroughputMeasurement> {
+export async function measureThroughput(dir: string, runs: number): Promise<ThroughputMeasurement> {
   const files = generateWorkspace(dir);
   const checker: ThroughputMeasurement['checker'] = [];
   for (const workers of [1, 2]) {
@@ -74,7 +74,7 @@ export async function measureThroughput(repo: string, dir: string, runs: number)
       await c.dispose();
     }
   }
-  const cliPath = join(repo, 'bin', 'gradient-probe.js');
+  const cliPath = join(__dirname, 'cli.js');
   const cli: ThroughputMeasurement['cli'] = [];
   for (const workers of [1, 2]) {
     const times: number[] = [];
@@ -108,12 +108,12 @@ function childrenRssMb(pid: number): number {
 }
 
 /** 1,000 forced checks of one file over the LSP connection; RSS after every 100. */
-export async function measureServerMemory(repo: string, dir: string, checks: number): Promise<MemoryMeasurement> {
+export async function measureServerMemory(dir: string, checks: number): Promise<MemoryMeasurement> {
   const op = benchOp('elementwise', 1000);
   const file = join(dir, 'memory_op.ts');
   writeFileSync(file, op.text);
   const uri = pathToFileURL(file).toString();
-  const server = new ServerUnderTest(dir, join(repo, 'bin', 'gradient-probe.js'));
+  const server = new ServerUnderTest(dir, join(__dirname, 'cli.js'));
   const points: number[] = [];
   const serverRss: number[] = [];
   const runnerRss: number[] = [];
