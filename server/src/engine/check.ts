@@ -45,6 +45,8 @@ interface ParamCheck {
   evidence: ParamEvidence | null;
   kink: KinkReport | null;
   note: string;
+  /** Position (in the estimates) of the worst element, -1 when none was compared. */
+  worstPos: number;
 }
 
 interface Attempt {
@@ -220,7 +222,7 @@ function runAttempt(
     h, op, settings, slots, y0, ws, analytic, dotUs, dotGrads, uOut, tol, precision, outOfTime, seed, attempt, structures, methods, forwardMs,
   };
   const checks: ParamCheck[] = [];
-  for (let s = 0; s < slots.length; s++) checks[s] = checkParam(at, s, stream(STREAM.subset + 0 * s));
+  for (let s = 0; s < slots.length; s++) checks[s] = checkParam(at, s);
 
   let anyMismatch = false;
   let anyInconclusive = false;
@@ -270,7 +272,7 @@ function runAttempt(
 }
 
 /** Numeric estimates, comparison and refinement of one parameter. */
-function checkParam(at: Attempt, s: number, subsetRandom: () => number): ParamCheck {
+function checkParam(at: Attempt, s: number): ParamCheck {
   const slot = at.slots[s];
   const analytic = at.analytic[s];
   const n = slot.size;
@@ -291,7 +293,9 @@ function checkParam(at: Attempt, s: number, subsetRandom: () => number): ParamCh
   if (est !== null) {
     // grouped estimates are in place
   } else if (method === 'dot-product') {
-    const dirRandom = substream(at.seed, at.attempt * STREAM_STRIDE + STREAM.directions + 0 * s);
+    // Each parameter draws its directions and its subset from streams of its own.
+    const dirRandom = substream(at.seed, at.attempt * STREAM_STRIDE + STREAM.directions, s);
+    const subsetRandom = substream(at.seed, at.attempt * STREAM_STRIDE + STREAM.subset, s);
     dot = dotProductProbes(at.h, slot, at.dotUs, at.dotGrads[s], at.y0, at.uOut, at.tol, dirRandom);
     const subset = distinctIndices(subsetRandom, n, min(n, at.settings.subsetElements));
     est = estimateColumns(at.h, slot, subset, at.ws, at.uOut, at.outOfTime);
@@ -393,11 +397,8 @@ function summarise(
     hints: [],
   };
   const evidence: ParamEvidence = { slot, analytic, est, cmp, tol: at.tol, complete: complete && est.indices.length === slot.size };
-  (result as ParamResultWithPos).__worstPos = worstPos;
-  return { result, evidence, kink, note };
+  return { result, evidence, kink, note, worstPos };
 }
-
-type ParamResultWithPos = ParamResult & { __worstPos?: number };
 
 function maxRelOf(dot: DotProbeResult[]): number {
   let m = 0;
@@ -407,9 +408,8 @@ function maxRelOf(dot: DotProbeResult[]): number {
 
 /** Step scan at the worst element and the error map of a 2-D parameter. */
 function addReportData(at: Attempt, s: number, c: ParamCheck): void {
-  const r = c.result as ParamResultWithPos;
-  const pos = r.__worstPos ?? -1;
-  delete r.__worstPos;
+  const r = c.result;
+  const pos = c.worstPos;
   const ev = c.evidence;
   if (ev === null || pos < 0) return;
   const slot = at.slots[s];

@@ -49,9 +49,11 @@ export function createRandom(seed: number): RandomSource {
  * the separate purposes of one check (inputs, upstream vectors, subsets) use different streams,
  * so adding a draw in one never shifts the numbers of another.
  */
-export function substream(seed: number, stream: number): RandomSource {
+export function substream(seed: number, stream: number, part = 0): RandomSource {
   const base = seedToState(seed);
-  return createRandom(mix32(base ^ mix32((stream >>> 0) + GOLDEN_GAMMA_32)));
+  const s = mix32(base ^ mix32((stream >>> 0) + GOLDEN_GAMMA_32));
+  // `part` separates the streams of one purpose for different parameters.
+  return createRandom(part === 0 ? s : mix32(s ^ mix32((part >>> 0) * GOLDEN_GAMMA_32 + 1)));
 }
 
 /** Stream numbers of one check attempt; attempt a uses STREAM_STRIDE·a + purpose. */
