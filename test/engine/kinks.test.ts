@@ -14,6 +14,10 @@ describe('engine: kinks are never mismatches', () => {
     const o = check(functionOp({ forward: relu, backward: reluBackward, params: [['x', spec('f64', [8], [0, 0])]] }));
     assert.equal(o.verdict, 'inconclusive', show(o));
     assert.match(o.message, /non-differentiable point near x\[\d\] = 0/);
+    // The last draw's figures stay in the outcome for the report.
+    assert.equal(o.params.length, 1);
+    assert.equal(o.params[0].verdict, 'inconclusive');
+    assert.ok(o.inputs, 'the sample that met the kink is recorded');
   });
 
   it('relu from a @samples factory with exact zeros among other values is never a mismatch', () => {

@@ -93,10 +93,14 @@ export function runCheck(exposed: Record<string, unknown>, request: CheckRequest
     const h = new OpHarness(op, exposed);
     calls = h.calls;
     const kinks: KinkReport[] = [];
+    let lastParams: ParamResult[] = [];
+    let lastInputs: CheckOutcome['inputs'];
     for (let attempt = 0; attempt <= settings.kinkResamples; attempt++) {
       const result = runAttempt(h, op, settings, seed, attempt, outOfTime, clock);
       if ('kink' in result) {
         kinks[kinks.length] = result.kink;
+        lastParams = result.params;
+        lastInputs = result.inputs;
         continue;
       }
       if (attempt > 0) {
@@ -107,12 +111,16 @@ export function runCheck(exposed: Record<string, unknown>, request: CheckRequest
       return finiteOnly(result);
     }
     const last = kinks[kinks.length - 1];
-    return finiteOnly(emptyOutcome(
+    const outcome = emptyOutcome(
       'inconclusive',
       seed,
       `non-differentiable point near ${elementName(last.slot, last.index)} = ${formatNumber(last.value)} (slopes on either side differ by ${formatNumber(abs(last.jump), 3)}); ${settings.kinkResamples} redraw${settings.kinkResamples === 1 ? '' : 's'} met a kink too — add \`avoid\` points to the @sample`,
       calls,
-    ));
+    );
+    // The figures of the last draw, so the report can still show what was compared.
+    outcome.params = lastParams;
+    if (lastInputs !== undefined) outcome.inputs = lastInputs;
+    return finiteOnly(outcome);
   } catch (e) {
     if (e instanceof CheckStop) return finiteOnly(emptyOutcome(e.verdict, seed, e.message, calls));
     return finiteOnly(emptyOutcome('error', seed, `internal error in the check engine: ${describeThrown(e)}`, calls));
@@ -127,7 +135,7 @@ function runAttempt(
   attempt: number,
   outOfTime: () => boolean,
   clock: () => number,
-): CheckOutcome | { kink: KinkReport } {
+): CheckOutcome | { kink: KinkReport; params: ParamResult[]; inputs: CheckOutcome['inputs'] } {
   const stream = (purpose: number) => substream(seed, attempt * STREAM_STRIDE + purpose);
   const sample = h.prepare(stream(STREAM.inputs), settings.maxElements);
   const inputs = captureInputs(sample);
@@ -232,7 +240,14 @@ function runAttempt(
     if (checks[s].result.verdict === 'inconclusive') anyInconclusive = true;
     if (checks[s].kink !== null && kink === null) kink = checks[s].kink;
   }
-  if (!anyMismatch && kink !== null) return { kink };
+  if (!anyMismatch && kink !== null) {
+    const params: ParamResult[] = [];
+    for (let s = 0; s < checks.length; s++) {
+      params[s] = checks[s].result;
+      if (checks[s].kink !== null) params[s].verdict = 'inconclusive';
+    }
+    return { kink, params, inputs };
+  }
 
   // Hints, step scans and error maps for the report.
   const evidence: ParamEvidence[] = [];
