@@ -32,6 +32,8 @@ export class Session {
   /** The client's spelling of each file's URI (fsPath → uri), so we answer in its terms. */
   private readonly uris = new Map<string, string>();
   private readonly dirty = new Set<string>();
+  /** What was last pushed per file, for the status counts. */
+  private readonly summaries = new Map<string, { ops: FileOps; isolated: boolean }>();
   private pushTimer: NodeJS.Timeout | undefined;
   private disposed = false;
 
@@ -152,6 +154,7 @@ export class Session {
   forget(fsPath: string): void {
     this.checks.forget(fsPath);
     this.snapshots.delete(fsPath);
+    this.summaries.delete(fsPath);
     void this.connection.sendDiagnostics({ uri: this.uriOf(fsPath), diagnostics: [] });
   }
 
@@ -175,22 +178,23 @@ export class Session {
     for (const fsPath of files) {
       try {
         const facts = await this.facts(fsPath);
-        if (!facts || this.disposed) continue;
+        if (!facts || this.disposed) {
+          this.summaries.delete(fsPath);
+          continue;
+        }
+        const summary = opSummaries(facts);
+        this.summaries.set(fsPath, { ops: summary, isolated: facts.isolated });
         await this.connection.sendDiagnostics({ uri: facts.snapshot.uri, diagnostics: diagnosticsFor(facts) });
-        await this.connection.sendNotification(Methods.opStates, opSummaries(facts));
+        await this.connection.sendNotification(Methods.opStates, summary);
       } catch (err) {
         this.log(`could not update ${fsPath}: ${err instanceof Error ? err.message : String(err)}`);
       }
     }
     if (this.disposed) return;
     try {
-      const all: FileOps[] = [];
-      let isolated = false;
-      for (const fsPath of this.knownFiles()) {
-        const facts = await this.facts(fsPath);
-        if (facts) all.push(opSummaries(facts));
-        isolated ||= facts?.isolated === true;
-      }
+      // Counts from each file's last pushed summary: a push costs the changed files only.
+      const all: FileOps[] = [...this.summaries.values()].map((s) => s.ops);
+      const isolated = [...this.summaries.values()].some((s) => s.isolated);
       await this.connection.sendNotification(Methods.status, statusOf(all, this.checks.isTrusted, this.checks.opsRun, isolated));
       if (this.options.codeLensRefresh) await this.connection.sendRequest(CodeLensRefreshRequest.type);
     } catch (err) {
