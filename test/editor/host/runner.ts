@@ -155,6 +155,8 @@ async function runSuite(o: {
 /** Photographs the workbench and reports what the user would see in it, then lets the suite go on. */
 async function takeScreenshot(page: import('playwright-core').Page, path: string, flag: string): Promise<void> {
   try {
+    // A freshly opened editor asks for its lenses after it paints; give them a moment to appear.
+    await page.locator('.codelens-decoration').first().waitFor({ timeout: 10_000 }).catch(() => undefined);
     await page.screenshot({ path });
     log(`screenshot: ${path}`);
     const texts = async (selector: string): Promise<string> =>
