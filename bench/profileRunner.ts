@@ -1,7 +1,8 @@
 // Profiles where a warm runner spends a check: starts the real runner script (dist/sandbox-child.js)
 // under `node --cpu-prof`, sends it the same messages the RunnerPool sends for one benchmark op,
 // and prints the functions with the most self time from the profile it writes.
-// Usage: node dist/bench/profileRunner.js KIND ELEMENTS JOBS
+// Usage: node dist/bench/profileRunner.js KIND ELEMENTS JOBS [--no-profile] [-- EXTRA_NODE_FLAGS...]
+// (--no-profile times the jobs without the profiler; extra flags try V8 options on the runner).
 import { fork } from 'node:child_process';
 import { mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -11,6 +12,7 @@ import { DEFAULT_SETTINGS } from '../server/src/engine/settings';
 import { Bundler } from '../server/src/sandbox/bundle';
 import { CHILD_SCRIPT_NAME, ENGINE_SCRIPT_NAME, findBuiltAsset } from '../server/src/sandbox/assets';
 import type { ChildMessage, JobMessage } from '../server/src/sandbox/protocol';
+import { median } from './floor';
 import { benchOp, type OpKind } from './opSources';
 
 interface ProfileNode {
@@ -58,7 +60,11 @@ async function main(): Promise<void> {
   const bundle = await new Bundler().bundle({ file, text: op.text, bindings: listing.ops.flatMap(bindingsOf) });
   if (!bundle.ok) throw new Error(bundle.message);
   const profDir = join(dir, 'prof');
-  const child = fork(childScript, [], { execArgv: ['--cpu-prof', `--cpu-prof-dir=${profDir}`], stdio: ['ignore', 'ignore', 'inherit', 'ipc'] });
+  const profiling = !process.argv.includes('--no-profile');
+  const dash = process.argv.indexOf('--');
+  const extraFlags = dash >= 0 ? process.argv.slice(dash + 1) : [];
+  const execArgv = [...(profiling ? ['--cpu-prof', `--cpu-prof-dir=${profDir}`] : []), ...extraFlags];
+  const child = fork(childScript, [], { execArgv, stdio: ['ignore', 'ignore', 'inherit', 'ipc'] });
   const next = (): Promise<ChildMessage> => new Promise((resolve) => child.once('message', (m) => resolve(m as ChildMessage)));
   await next(); // hello
   child.send({ type: 'init', engineCode: readFileSync(engineScript, 'utf8') });
@@ -76,6 +82,12 @@ async function main(): Promise<void> {
   const exited = new Promise((resolve) => child.once('exit', resolve));
   child.disconnect();
   await exited;
+  const warm = times.slice(1);
+  console.log(`${op.kind} ${op.shape}${extraFlags.length ? ` with ${extraFlags.join(' ')}` : ''}: median of jobs 2–${jobs} inside the runner ${median(warm).toFixed(1)} ms${profiling ? ' (profiled)' : ''}`);
+  if (!profiling) {
+    rmSync(dir, { recursive: true, force: true });
+    return;
+  }
   const profFile = readdirSync(profDir).find((f) => f.endsWith('.cpuprofile'));
   if (!profFile) throw new Error('no profile written');
   const profile = JSON.parse(readFileSync(join(profDir, profFile), 'utf8')) as CpuProfile;

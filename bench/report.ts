@@ -32,7 +32,7 @@ export function opTable(r: BenchReport): string {
       m.kind,
       m.shape,
       n(m.elements),
-      `${m.methods.map((x) => x.split(':')[1]).join('+')}${m.coverage < 1 ? ` (${(100 * m.coverage).toFixed(2)} %)` : ''}`,
+      m.methods.length === 0 ? '—' : `${m.methods.map((x) => x.split(':')[1]).join('+')}${m.coverage < 1 ? ` (${(100 * m.coverage).toFixed(2)} %)` : ''}`,
       m.verdict,
       `${m.calls.forward}/${m.calls.backward}`,
       `${m.floor.calls.forwards}/${m.floor.calls.backwards}`,
