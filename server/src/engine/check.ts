@@ -305,12 +305,31 @@ function checkParam(at: Attempt, s: number): ParamCheck {
     }
     if (est === null) method = n > at.settings.largeParamElements ? 'dot-product' : 'full';
   }
+  // Each parameter draws its directions and its subset from streams of its own.
+  const dirRandom = substream(at.seed, at.attempt * STREAM_STRIDE + STREAM.directions, s);
+  const subsetRandom = substream(at.seed, at.attempt * STREAM_STRIDE + STREAM.subset, s);
+  let structureNote = '';
   if (est !== null) {
-    // grouped estimates are in place
+    // Grouped estimates rest on the structure guess: a coupling the probes did not see would be
+    // credited to the wrong element, or lost, and a backward that misses the same coupling would
+    // agree with them. One dot-product probe along a random direction (2 forward calls, reusing
+    // the first upstream probe's backward) looks at the whole parameter. It cannot tell a missed
+    // coupling from a kink met along the direction (a subgradient is not linear in the
+    // direction), so its failure is never a verdict by itself: a parameter small enough is
+    // checked again column by column, a larger one is inconclusive.
+    const safety = dotProductProbes(at.h, slot, [at.ws[0]], [analytic[0]], at.y0, at.uOut, at.tol, dirRandom);
+    if (safety[0].state === 'mismatch' || safety[0].state === 'uncertain') {
+      if (n <= at.settings.largeParamElements) {
+        est = null;
+        method = 'full';
+      } else {
+        structureNote = `'${slot.name}': the grouped estimates disagree with a check along a random direction (relative error ${formatNumber(safety[0].relError, 3)}): a coupling between elements that the structure probes did not see, or kinks`;
+      }
+    }
+  }
+  if (est !== null) {
+    // grouped estimates stand
   } else if (method === 'dot-product') {
-    // Each parameter draws its directions and its subset from streams of its own.
-    const dirRandom = substream(at.seed, at.attempt * STREAM_STRIDE + STREAM.directions, s);
-    const subsetRandom = substream(at.seed, at.attempt * STREAM_STRIDE + STREAM.subset, s);
     dot = dotProductProbes(at.h, slot, at.dotUs, at.dotGrads[s], at.y0, at.uOut, at.tol, dirRandom);
     const subset = distinctIndices(subsetRandom, n, min(n, at.settings.subsetElements));
     est = estimateColumns(at.h, slot, subset, at.ws, at.uOut, at.outOfTime);
@@ -324,7 +343,12 @@ function checkParam(at: Attempt, s: number): ParamCheck {
   const floors = floorsFor(analytic, est, relativeFloorFactor(floorPrecision));
   const cmp = compareElements(analytic, est, at.tol, floors);
   const refine = refineSuspicious(at.h, slot, analytic, est, cmp, at.ws, at.y0, at.uOut, at.tol, at.outOfTime, method === 'grouped');
-  return summarise(at, s, method, est, cmp, refine, dot, complete);
+  const result = summarise(at, s, method, est, cmp, refine, dot, complete);
+  if (structureNote !== '' && result.result.verdict === 'pass') {
+    result.result.verdict = 'inconclusive';
+    result.note = structureNote;
+  }
+  return result;
 }
 
 function summarise(
