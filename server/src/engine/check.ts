@@ -15,7 +15,7 @@ import { elementName, unravelSlot, OpHarness } from './opHarness';
 import { describeOutputIndex, layoutPrecision } from './outputLayout';
 import type { ParamSlot } from './paramSlot';
 import { relativeFloorFactor, unitRoundoff, type Precision } from './precision';
-import { STREAM, STREAM_STRIDE, distinctIndices, substream } from './random';
+import { STREAM, STREAM_STRIDE, distinctIndices, fillSigned, substream } from './random';
 import { refineSuspicious, type KinkReport, type RefineSummary } from './refine';
 import { ERROR_MAP_MAX_ELEMENTS, captureInputs, finiteOnly, stepScan } from './reportData';
 import { DEFAULT_SETTINGS, type CheckSettings } from './settings';
@@ -175,7 +175,8 @@ function runAttempt(
   const ws: Float64Array[] = [];
   for (let k = 0; k < K; k++) {
     const w = new F64(m);
-    for (let j = 0; j < m; j++) w[j] = h.takesUpstream ? 2 * upstreamRandom() - 1 : 1;
+    if (h.takesUpstream) fillSigned(upstreamRandom, w);
+    else for (let j = 0; j < m; j++) w[j] = 1;
     ws[k] = w;
   }
 
@@ -200,7 +201,8 @@ function runAttempt(
   const P = needsDot ? max(1, settings.dotProductProbes) : 0;
   for (let p = 0; p < P; p++) {
     const u = new F64(m);
-    for (let j = 0; j < m; j++) u[j] = h.takesUpstream ? 2 * upstreamRandom() - 1 : 1;
+    if (h.takesUpstream) fillSigned(upstreamRandom, u);
+    else for (let j = 0; j < m; j++) u[j] = 1;
     dotUs[p] = u;
   }
   const scratch = new F64(m);

@@ -12,7 +12,7 @@ import type { OpHarness } from './opHarness';
 import type { ParamSlot } from './paramSlot';
 import { ROUNDOFF_ULPS } from './precision';
 import { UNIT_ROUNDOFF_F64 } from './settings';
-import { type RandomSource } from './random';
+import { fillSigned, type RandomSource } from './random';
 import { RIDDERS_ERROR_FACTOR } from './refine';
 import { RIDDERS_MIN_INITIAL_CENTRAL_STEPS, riddersAdaptive } from './ridders';
 
@@ -49,8 +49,7 @@ export function dotProductProbes(
   const minus = new F64(m);
   const results: DotProbeResult[] = [];
   for (let p = 0; p < us.length; p++) {
-    const v = new F64(n);
-    for (let i = 0; i < n; i++) v[i] = 2 * random() - 1;
+    const v = fillSigned(random, new F64(n));
     const line = directionLine(h, slot, v);
     const g = grads[p];
     let analytic = 0;

@@ -94,7 +94,20 @@ export function compareElements(analytic: Float64Array[], est: ElementEstimates,
     }
     excess[p] = best;
     worstProbe[p] = bestK;
-    rel[p] = relativeError(analytic[bestK][i], est.numeric[bestK][p], est.bound[bestK][p], tol, floors[bestK]);
+    // relativeError, inlined.
+    const a = analytic[bestK][i];
+    const n = est.numeric[bestK][p];
+    const d = a < n ? n - a : a - n;
+    if (d === 0) rel[p] = 0;
+    else {
+      let denom = a < 0 ? -a : a;
+      if (n > denom) denom = n;
+      else if (-n > denom) denom = -n;
+      if (floors[bestK] > denom) denom = floors[bestK];
+      const bt = tol > 0 ? est.bound[bestK][p] / tol : 0;
+      if (bt > denom) denom = bt;
+      rel[p] = denom > 0 ? d / denom : 1;
+    }
     state[p] = best > 0 ? ElementState.suspicious : ElementState.ok;
   }
   return { excess, worstProbe, rel, state, floors };

@@ -81,10 +81,12 @@ export function directionLine(h: OpHarness, slot: ParamSlot, d: Float64Array): L
   const x0 = slot.snapshot();
   const scaled = new F64(n);
   let maxStep = Infinity;
+  const barriers = slot.avoid.length > 0 || (slot.range !== null && slot.range[0] < slot.range[1]);
   for (let i = 0; i < n; i++) {
-    scaled[i] = d[i] * max(1, abs(x0[i]));
-    if (scaled[i] !== 0) {
-      const b = distanceToBarrier(slot, x0[i]);
+    const x = x0[i];
+    scaled[i] = d[i] * (x > 1 ? x : x < -1 ? -x : 1);
+    if (barriers && scaled[i] !== 0) {
+      const b = distanceToBarrier(slot, x);
       if (b < Infinity) maxStep = min(maxStep, (b * 0.9) / abs(scaled[i]));
     }
   }
@@ -101,11 +103,14 @@ export function directionLine(h: OpHarness, slot: ParamSlot, d: Float64Array): L
       const p = h.perturbation;
       p.slot = slot;
       p.several = true;
-      for (let i = 0; i < n; i++) slot.set(i, x0[i] + t * scaled[i]);
+      const typed = slot.typed;
+      if (typed !== null) for (let i = 0; i < n; i++) typed[i] = x0[i] + t * scaled[i];
+      else for (let i = 0; i < n; i++) slot.set(i, x0[i] + t * scaled[i]);
       try {
         h.forwardInto(out, false);
       } finally {
-        for (let i = 0; i < n; i++) slot.set(i, x0[i]);
+        if (typed !== null) for (let i = 0; i < n; i++) typed[i] = x0[i];
+        else for (let i = 0; i < n; i++) slot.set(i, x0[i]);
         p.slot = null;
       }
       return isFiniteVector(out) ? t : NaN;

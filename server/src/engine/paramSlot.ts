@@ -70,7 +70,9 @@ export class ParamSlot {
   /** A copy of all elements. */
   snapshot(): Float64Array {
     const out = new F64(this.size);
-    for (let i = 0; i < this.size; i++) out[i] = this.get(i);
+    const typed = this.typed;
+    if (typed !== null) for (let i = 0; i < this.size; i++) out[i] = typed[i];
+    else for (let i = 0; i < this.size; i++) out[i] = this.get(i);
     return out;
   }
 

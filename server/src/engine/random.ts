@@ -45,6 +45,20 @@ export function createRandom(seed: number): RandomSource {
 }
 
 /**
+ * Fills `out` with uniform numbers in [-1, 1) from 32-bit draws (one mix per number, half the
+ * cost of createRandom): for upstream vectors and probe directions, where only the spread
+ * matters, not 53-bit resolution. The state comes from `random`, so the stream stays seeded.
+ */
+export function fillSigned(random: RandomSource, out: Float64Array): Float64Array {
+  let state = (random() * 4294967296) | 0;
+  for (let i = 0; i < out.length; i++) {
+    state = (state + GOLDEN_GAMMA_32) | 0;
+    out[i] = mix32(state) / 2147483648 - 1;
+  }
+  return out;
+}
+
+/**
  * An independent stream derived from a seed and a stream number: the redraws after a kink and
  * the separate purposes of one check (inputs, upstream vectors, subsets) use different streams,
  * so adding a draw in one never shifts the numbers of another.
