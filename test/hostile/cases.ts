@@ -64,6 +64,7 @@ export const HOSTILE_CASES: readonly HostileCase[] = [
   { what: 'legal import cycle', file: 'cycleLegalA.ts', forward: 'shaftPower', verdict: 'pass', message: /^$/ },
   { what: 'huge output', file: 'outputs.ts', forward: 'pondSurface', verdict: 'error', message: /^forward output has 5000000 elements, more than the limit of 4000000$/ },
   { what: 'NaN at one index', file: 'outputs.ts', forward: 'paddleFlow', verdict: 'error', message: /^forward output has NaN at index \[2\] at the sample point$/ },
+  { what: "doc comment ending in 'word-*/' (a TypeScript parser trap)", file: 'parserTrap.ts', forward: 'gateHead', verdict: 'pass', message: /^$/ },
   { what: 'op that prints with console', file: 'chatty.ts', forward: 'grind', verdict: 'pass', message: /^$/ },
   { what: 'non-deterministic forward', file: 'nondeterministic.ts', forward: 'stoneWear', verdict: 'inconclusive', message: /^forward is not deterministic: two calls at the same input differ at index \[0\]/ },
   annotation('misspeltTag', '@sampel x num', /^annotation problem: unknown tag @sampel; did you mean @sample\?/),

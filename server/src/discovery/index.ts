@@ -29,8 +29,21 @@ export function discoverOps(fileName: string, text: string): DiscoveryResult {
   }
 }
 
+/**
+ * A word character followed by hyphens right before a comment's closing `*\/`. TypeScript
+ * 6.0.3's JSDoc scanner loops forever on it (its hyphenated-identifier loop re-reads a stale
+ * character once it reaches the comment's end: `/** a-*\/` hangs createSourceFile; found by the
+ * hostile suite's fuzzing).
+ */
+const JSDOC_SCANNER_HANG = /([\p{ID_Continue}$\u200c\u200d])(-+)(?=\*\/)/gu;
+
+/** The text the parser gets: the hang trigger's hyphens become spaces, so every offset stays the same. */
+export function parserSafeText(text: string): string {
+  return text.includes('-*/') ? text.replace(JSDOC_SCANNER_HANG, (_m, word: string, hyphens: string) => word + ' '.repeat(hyphens.length)) : text;
+}
+
 function discover(fileName: string, text: string): DiscoveryResult {
-  const sf = ts.createSourceFile(fileName, text, ts.ScriptTarget.Latest, true);
+  const sf = ts.createSourceFile(fileName, parserSafeText(text), ts.ScriptTarget.Latest, true);
   const mapper = new PositionMapper(sf);
   const fileProblems = syntaxProblems(sf, mapper);
   // Without a tag character there is nothing to find; skip the walk (a common case on save).
