@@ -95,3 +95,14 @@ export function lineOf(text: string, needle: string): number {
   if (i < 0) throw new Error(`"${needle}" not found`);
   return i + 1;
 }
+
+/** Of the given process ids, those that are runner processes (the pool's or the interpreter's). */
+export function runnerProcesses(pids: number[]): number[] {
+  return pids.filter((pid) => {
+    try {
+      return /sandbox-child\.js|isolated-worker\.js/.test(readFileSync(`/proc/${pid}/cmdline`, 'utf8'));
+    } catch {
+      return false; // it ended while we looked
+    }
+  });
+}
