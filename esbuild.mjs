@@ -38,14 +38,9 @@ const builds = [
   { ...node, entryPoints: testFiles('test'), outdir: 'dist/test', outbase: 'test', packages: 'external' },
 ];
 
-const existing = builds.filter((b) => {
-  const eps = Array.isArray(b.entryPoints) ? b.entryPoints : Object.values(b.entryPoints);
-  return eps.length > 0 && eps.every((p) => { try { return statSync(p).isFile(); } catch { return false; } });
-});
-
 if (watch) {
-  for (const b of existing) await (await esbuild.context(b)).watch();
+  for (const b of builds) await (await esbuild.context(b)).watch();
   console.log('watching…');
 } else {
-  await Promise.all(existing.map((b) => esbuild.build(b)));
+  await Promise.all(builds.map((b) => esbuild.build(b)));
 }
