@@ -11,7 +11,7 @@ import { LspSession, lsp } from '../lsp/lspSession';
 import { expectedLine, HOSTILE_CASES } from './cases';
 import { copyHostileWorkspace, runnerProcesses, type HostileCopy } from './workspace';
 
-const { CodeLensRequest, DidOpenTextDocumentNotification, HoverRequest } = lsp;
+const { CodeLensRequest, DidChangeTextDocumentNotification, DidOpenTextDocumentNotification, HoverRequest } = lsp;
 
 /** States that end a check (the others: checking, unchecked, not-run). */
 const FINAL = new Set(['pass', 'mismatch', 'inconclusive', 'error']);
@@ -144,5 +144,43 @@ describe('hostile workspace through the language server (untrusted)', function (
     // Annotation mistakes are still shown: they need no code to run.
     const annotations = pathToFileURL(ws.file('annotations.ts')).toString();
     await s.waitFor('annotation errors', () => s.opState(annotations, 'misspeltTag') === 'error');
+  });
+});
+
+describe('a runner crash through the language server', function () {
+  this.timeout(180_000);
+  let ws: HostileCopy;
+  let s: LspSession;
+
+  before(async () => {
+    ws = copyHostileWorkspace();
+    // Checking while typing: every pause re-runs the file, so the crash would repeat per keystroke.
+    s = new LspSession({ trusted: true, workspace: ws.dir, settings: { checkWhen: 'while-typing', typingPauseMs: 100 } });
+    await s.initialize();
+  });
+  after(async () => {
+    await s.close();
+    ws.remove();
+  });
+
+  it('is reported once, not once per keystroke, while each run still ends in the error', async () => {
+    const uri = await openFile(s, ws, 'allocation.ts');
+    const lines = ws.text('allocation.ts').split('\n').length;
+    const crashMessages = (): string[] => s.messages.filter((m) => /crashed its runner process/.test(m));
+    const ran = (): number => s.lastStatus?.opsRun ?? 0;
+    await s.waitFor('the first crash', () => s.opState(uri, 'recordRipples') === 'error');
+    for (let edit = 1; edit <= 3; edit++) {
+      const before = ran();
+      await s.connection.sendNotification(DidChangeTextDocumentNotification.type, {
+        textDocument: { uri, version: 1 + edit },
+        contentChanges: [{ range: { start: { line: lines - 1 + edit, character: 0 }, end: { line: lines - 1 + edit, character: 0 } }, text: `// keystroke ${edit}\n` }],
+      });
+      await s.waitFor(`the re-check after keystroke ${edit}`, () => ran() > before && s.opState(uri, 'recordRipples') === 'error', 90_000);
+      const report = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri, forward: 'recordRipples' });
+      assert.match(report.result?.message ?? '', /runner process died|of memory, over the limit/, 'the op crashed its runner again');
+    }
+    assert.equal(crashMessages().length, 1, crashMessages().join('\n'));
+    assert.match(crashMessages()[0]!, /recordRipples/);
+    assert.equal(s.opState(uri, 'pondLevel'), 'pass', 'the other op of the file still runs');
   });
 });

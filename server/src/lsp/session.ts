@@ -5,10 +5,11 @@
 import { readFileSync } from 'node:fs';
 import { dirname } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
-import { CodeLensRefreshRequest, type Connection } from 'vscode-languageserver';
+import { CodeLensRefreshRequest, MessageType, ShowMessageNotification, type Connection } from 'vscode-languageserver';
 import type { TextDocument } from 'vscode-languageserver-textdocument';
 import type { OpResult } from '../engine/types';
 import { CheckRefused, CheckService } from './checkService';
+import { CrashNotice } from './crashNotice';
 import { diagnosticsFor } from './diagnostics';
 import { snapshotOf, type DocumentFacts, type DocumentSnapshot } from './documentFacts';
 import { Methods, type FileOps } from './protocol';
@@ -36,6 +37,11 @@ export class Session {
   private readonly summaries = new Map<string, { ops: FileOps; isolated: boolean }>();
   private pushTimer: NodeJS.Timeout | undefined;
   private disposed = false;
+  /** One message per op whose runner died, not one per re-check of the same broken op. */
+  private readonly crashes = new CrashNotice((message) => {
+    this.log(message);
+    if (!this.disposed) void this.connection.sendNotification(ShowMessageNotification.type, { type: MessageType.Warning, message });
+  });
 
   constructor(
     private readonly connection: Connection,
@@ -122,7 +128,7 @@ export class Session {
     if (!snapshot) throw new CheckRefused(`${fsPath} cannot be read`);
     const runnable = snapshot.ops.filter((op) => op.problems.length === 0).map((op) => op.forward);
     this.changed(fsPath);
-    return this.checks.check({
+    const results = await this.checks.check({
       uri: fsPath,
       fsPath,
       text: snapshot.text,
@@ -133,6 +139,8 @@ export class Session {
       ...(opts.force !== undefined ? { force: opts.force } : {}),
       ...(opts.signal ? { signal: opts.signal } : {}),
     });
+    this.crashes.observe(fsPath, results);
+    return results;
   }
 
   /** Schedules a push of everything the client shows about a file. */
