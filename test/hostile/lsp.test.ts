@@ -3,7 +3,7 @@
 // every op the verdict and message the CLI gives, answers hovers and code lenses while a check
 // hangs, replaces a runner that died, and runs no user code while the workspace is untrusted.
 import assert from 'node:assert/strict';
-import { readdirSync } from 'node:fs';
+import { readdirSync, readFileSync } from 'node:fs';
 import { pathToFileURL } from 'node:url';
 import type { CodeLens, Hover, MarkupContent } from 'vscode-languageserver-protocol/lib/node/main';
 import { Methods, type CheckOpsResult, type CheckWorkspaceResult, type OpReportResult } from '../../server/src/lsp/protocol';
@@ -182,5 +182,48 @@ describe('a runner crash through the language server', function () {
     assert.equal(crashMessages().length, 1, crashMessages().join('\n'));
     assert.match(crashMessages()[0]!, /recordRipples/);
     assert.equal(s.opState(uri, 'pondLevel'), 'pass', 'the other op of the file still runs');
+  });
+});
+
+describe('untrusted workspace with the isolated interpreter opted in', function () {
+  this.timeout(180_000);
+  let ws: HostileCopy;
+  let s: LspSession;
+
+  before(async () => {
+    ws = copyHostileWorkspace();
+    s = new LspSession({ trusted: false, workspace: ws.dir, settings: { isolatedWhenUntrusted: true } });
+    await s.initialize();
+  });
+  after(async () => {
+    await s.close();
+    ws.remove();
+  });
+
+  it('runs hostile ops only in the interpreter, where escapes fail, loops and bombs stop, and nothing is written', async () => {
+    const files = ['escape.ts', 'runaway.ts', 'allocation.ts'];
+    const uris = new Map<string, string>();
+    for (const rel of files) uris.set(rel, await openFile(s, ws, rel));
+    const cases = HOSTILE_CASES.filter((c) => files.includes(c.file));
+    for (const c of cases) {
+      await s.waitFor(`${c.forward} to finish`, () => FINAL.has(s.opState(uris.get(c.file)!, c.forward) ?? ''), 120_000);
+    }
+    const results = new Map<string, { verdict: string; message: string; isolation?: string }>();
+    for (const c of cases) {
+      const report = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri: uris.get(c.file)!, forward: c.forward });
+      assert.ok(report.result, `${c.forward}: ${report.reason}`);
+      results.set(c.forward, report.result);
+      assert.equal(report.result.isolation, 'interpreter', `${c.forward} ran in the interpreter`);
+    }
+    const show = (f: string): string => `${f}: ${results.get(f)?.verdict} — ${results.get(f)?.message}`;
+    for (const c of cases.filter((x) => x.file === 'escape.ts')) assert.equal(results.get(c.forward)!.verdict, 'error', show(c.forward));
+    assert.match(results.get('openSluiceForever')!.message, /^timed out after 3000 ms/, show('openSluiceForever'));
+    assert.match(results.get('recordRipples')!.message, /memory/, show('recordRipples'));
+    assert.equal(results.get('liftGate')!.verdict, 'pass', show('liftGate'));
+    assert.equal(results.get('pondLevel')!.verdict, 'pass', show('pondLevel'));
+    assert.deepEqual(ws.markers(), []);
+    // No runner process of the normal pool: user code ran in the interpreter's process only.
+    const runners = runnerProcesses(s.serverChildren());
+    for (const pid of runners) assert.doesNotMatch(readFileSync(`/proc/${pid}/cmdline`, 'utf8'), /sandbox-child/);
   });
 });
