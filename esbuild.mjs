@@ -28,7 +28,7 @@ const builds = [
   { ...node, entryPoints: { client: 'client/src/extension.ts' }, outdir: 'dist', external: ['vscode'] },
   // The runner process: Node built-ins only.
   { ...node, entryPoints: { 'sandbox-child': 'server/src/sandbox/child.ts' }, outdir: 'dist' },
-  // The isolated mode's worker thread: QuickJS (WebAssembly) loaded from node_modules at run time.
+  // The isolated mode's interpreter process: QuickJS (WebAssembly) loaded from node_modules at run time.
   { ...node, entryPoints: { 'isolated-worker': 'server/src/sandbox/isolatedWorker.ts' }, outdir: 'dist', packages: 'external' },
   // Evaluated inside the sandbox's vm context: no Node, no packages; defines one global.
   {
