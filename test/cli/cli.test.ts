@@ -194,6 +194,17 @@ describe('gradient-probe command (spawned)', function () {
     assert.match(run.stdout, /2 ops in 1 file: 2 pass, 0 mismatch, 0 inconclusive, 0 error/);
   });
 
+  it('--isolated runs the ops in the interpreter, labels them, and reaches the same verdicts', async () => {
+    const inRunner = await runCli(['check', `${FIXTURES}/basic/passing.ts`, `${FIXTURES}/basic/mismatch.ts`, '--json']);
+    const isolated = await runCli(['check', `${FIXTURES}/basic/passing.ts`, `${FIXTURES}/basic/mismatch.ts`, '--json', '--isolated']);
+    const a = JSON.parse(inRunner.stdout) as Report;
+    const b = JSON.parse(isolated.stdout) as Report;
+    assert.equal(isolated.code, inRunner.code);
+    assert.deepEqual(b.pairs.map((p) => [p.forward, p.verdict]), a.pairs.map((p) => [p.forward, p.verdict]));
+    assert.ok(b.pairs.length > 0 && b.pairs.every((p) => p.isolation === 'interpreter'), isolated.stdout);
+    assert.ok(a.pairs.every((p) => p.isolation === undefined));
+  });
+
   it('checks only the ops the filter names', async () => {
     const fuel = await runCli(['check', `${FIXTURES}/basic`, '--json', '--filter', 'fuel']);
     assert.equal(fuel.code, 1);

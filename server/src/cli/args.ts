@@ -20,6 +20,8 @@ export interface CheckOptions {
   /** Settings given as flags; they win over the configuration file. */
   overrides: Partial<CheckSettings>;
   failOnInconclusive: boolean;
+  /** Run ops in the isolated interpreter instead of the runner process (settings.isolation). */
+  isolated?: boolean;
   onlyProblems: boolean;
   color: ColorMode;
 }
@@ -62,6 +64,7 @@ export const CHECK_FLAGS: readonly FlagSpec[] = [
   { name: '--memory-limit', value: 'MB', description: 'memory limit of each runner process, in MiB', apply: setting('memoryLimitMb', '--memory-limit') },
   { name: '--workers', value: 'N', description: 'runner processes working in parallel (default: chosen from the cores)', apply: (o, v) => { o.workers = parseWorkers(v); } },
   { name: '--config', value: 'FILE', description: 'read this configuration file instead of searching for gradient-probe.json', apply: (o, v) => { o.config = v; } },
+  { name: '--isolated', description: 'run ops in the isolated interpreter (WebAssembly, no Node API; 35-50x slower, for small ops)', apply: (o) => { o.isolated = true; } },
   { name: '--fail-on-inconclusive', description: 'exit 1 when an op is inconclusive, too', apply: (o) => { o.failOnInconclusive = true; } },
   { name: '--only-problems', description: 'list only ops that did not pass (the summary still counts all)', apply: (o) => { o.onlyProblems = true; } },
   { name: '--color', value: 'WHEN', description: 'colour the table: auto (a terminal without NO_COLOR), always or never', apply: (o, v) => { o.color = parseColorMode(v); } },

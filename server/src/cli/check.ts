@@ -50,7 +50,8 @@ export async function runCheckCommand(options: CheckOptions, io: CliIo, toolVers
 
   let results: OpResult[];
   try {
-    results = await checkAll(files, config.settings, options, io);
+    const settings: CheckSettings = options.isolated ? { ...config.settings, isolation: 'interpreter' } : config.settings;
+    results = await checkAll(files, settings, options, io);
   } catch (err) {
     io.stderr.write(`gradient-probe: the checker failed: ${errorText(err)}\n`);
     return EXIT_FAILED;
