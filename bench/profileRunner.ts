@@ -1,8 +1,9 @@
 // Profiles where a warm runner spends a check: starts the real runner script (dist/sandbox-child.js)
 // under `node --cpu-prof`, sends it the same messages the RunnerPool sends for one benchmark op,
 // and prints the functions with the most self time from the profile it writes.
-// Usage: node dist/bench/profileRunner.js KIND ELEMENTS JOBS [--no-profile] [-- EXTRA_NODE_FLAGS...]
-// (--no-profile times the jobs without the profiler; extra flags try V8 options on the runner).
+// Usage: node dist/bench/profileRunner.js KIND ELEMENTS JOBS [--no-profile] [--bug=COUNT] [-- EXTRA_NODE_FLAGS...]
+// (--no-profile times the jobs without the profiler; --bug seeds COUNT wrong elements (1e-4) in the
+// backward; extra flags try V8 options on the runner).
 import { fork } from 'node:child_process';
 import { mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -46,7 +47,8 @@ export function selfTimes(profile: CpuProfile): { name: string; ms: number; shar
 
 async function main(): Promise<void> {
   const [kind, elementsText, jobsText] = process.argv.slice(2);
-  const op = benchOp(kind as OpKind, Number(elementsText));
+  const bugArg = process.argv.find((a) => a.startsWith('--bug='));
+  const op = benchOp(kind as OpKind, Number(elementsText), bugArg ? { count: Number(bugArg.slice(6)), relative: 1e-4 } : undefined);
   const jobs = Number(jobsText ?? 10);
   const dir = mkdtempSync(join(tmpdir(), 'gradient-probe-profile-'));
   const file = join(dir, op.fileName);
@@ -77,7 +79,13 @@ async function main(): Promise<void> {
     };
     child.send(job);
     const reply = await next();
-    if (reply.type === 'result') times.push(reply.elapsedMs);
+    if (reply.type === 'result') {
+      times.push(reply.elapsedMs);
+      if (id === 1 && reply.ok) {
+        const o = JSON.parse(reply.outcomeJson) as { verdict: string; calls: { forward: number; backward: number } };
+        console.log(`verdict ${o.verdict}, ${o.calls.forward} forward and ${o.calls.backward} backward calls`);
+      }
+    }
   }
   const exited = new Promise((resolve) => child.once('exit', resolve));
   child.disconnect();

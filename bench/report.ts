@@ -106,10 +106,10 @@ export function formatReport(r: BenchReport): string {
     out.push('');
     out.push(`Workspace: ${t.ops} ops in ${t.files} files (generated)`);
     out.push(table(
-      ['how', 'workers', 'runs (ms)', 'median ms'],
+      ['how', 'workers', 'runs (ms)', 'median ms', 'machine idle'],
       [
-        ...t.checker.map((c) => ['Checker, warm runners, all files in flight', String(c.workers), c.runsMs.map(ms).join(' '), ms(c.medianMs)]),
-        ...t.cli.map((c) => ['CLI end to end (check DIR --workers N --json)', String(c.workers), c.runsMs.map(ms).join(' '), ms(c.medianMs)]),
+        ...t.checker.map((c) => ['Checker, warm runners, all files in flight', String(c.workers), c.runsMs.map(ms).join(' '), ms(c.medianMs), `${(100 * c.idleShare).toFixed(0)} %`]),
+        ...t.cli.map((c) => ['CLI end to end (check DIR --workers N --json)', String(c.workers), c.runsMs.map(ms).join(' '), ms(c.medianMs), '']),
       ],
       1,
     ));

@@ -72,7 +72,14 @@ export interface ThroughputMeasurement {
   files: number;
   ops: number;
   /** Checker in this process, all files in flight, warm runners: median ms per workspace check. */
-  checker: { workers: number; runsMs: number[]; medianMs: number; verdicts: Record<string, number> }[];
+  checker: {
+    workers: number;
+    runsMs: number[];
+    medianMs: number;
+    verdicts: Record<string, number>;
+    /** Median share of the machine's CPU time left idle during a run (/proc/stat): near 0 means the cores were full. */
+    idleShare: number;
+  }[];
   /** `gradient-probe check DIR --workers N` end to end (process start included), median ms. */
   cli: { workers: number; runsMs: number[]; medianMs: number }[];
   speedup: number;

@@ -39,6 +39,21 @@ export function generateWorkspace(dir: string): string[] {
   return files;
 }
 
+/** Jiffies of all CPUs from /proc/stat: [idle (idle + iowait), total]. */
+function cpuJiffies(): [number, number] {
+  try {
+    const fields = readFileSync('/proc/stat', 'utf8').split('\n')[0].trim().split(/\s+/).slice(1).map(Number);
+    return [fields[3] + fields[4], fields.reduce((a, b) => a + b, 0)];
+  } catch {
+    return [NaN, NaN];
+  }
+}
+
+/** Share of the machine's CPU time left idle between two cpuJiffies() readings. */
+function idleShare(before: [number, number], after: [number, number]): number {
+  return (after[0] - before[0]) / (after[1] - before[1]);
+}
+
 async function checkAll(checker: Checker, files: string[]): Promise<Record<string, number>> {
   const verdicts: Record<string, number> = {};
   const results = await Promise.all(files.map((f) => checker.checkFile(f)));
@@ -64,12 +79,15 @@ export async function measureThroughput(dir: string, runs: number): Promise<Thro
       c.warm();
       const verdicts = await checkAll(c, files); // bundles every file once, starts the runners
       const times: number[] = [];
+      const idle: number[] = [];
       for (let r = 0; r < runs; r++) {
+        const j = cpuJiffies();
         const t = performance.now();
         await checkAll(c, files);
         times.push(performance.now() - t);
+        idle.push(idleShare(j, cpuJiffies()));
       }
-      checker.push({ workers, runsMs: times, medianMs: median(times), verdicts });
+      checker.push({ workers, runsMs: times, medianMs: median(times), verdicts, idleShare: median(idle) });
     } finally {
       await c.dispose();
     }
