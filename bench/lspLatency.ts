@@ -32,8 +32,9 @@ export class ServerUnderTest {
   private readonly lastDiagnostics = new Map<string, number>();
   private waiters: Array<{ uri: string; resolve: (at: number) => void }> = [];
 
-  constructor(root: string, cliPath: string) {
-    this.proc = spawn(process.execPath, [cliPath, 'lsp', '--stdio'], { cwd: root, stdio: ['pipe', 'pipe', 'ignore'] });
+  /** `nodeArgs`: extra Node options for the server process (e.g. a heap-snapshot signal when diagnosing). */
+  constructor(root: string, cliPath: string, nodeArgs: string[] = []) {
+    this.proc = spawn(process.execPath, [...nodeArgs, cliPath, 'lsp', '--stdio'], { cwd: root, stdio: ['pipe', 'pipe', 'ignore'] });
     this.pid = this.proc.pid ?? -1;
     this.connection = createProtocolConnection(new StreamMessageReader(this.proc.stdout!), new StreamMessageWriter(this.proc.stdin!));
     const c = this.connection;

@@ -2,9 +2,11 @@
 // size in its own process (check, evaluation floor, hand-written loop), seeded-bug trials at the
 // big sizes, editor latency over LSP, workspace throughput and server memory; prints the table
 // and every goal's figure with met / not met, and writes the same figures to
-// bench/results/latest.json. Flags: --quick (fewer sizes and trials), --skip=ops,detection,latency,workspace,memory.
+// bench/results/latest.json. Flags: --quick (fewer sizes and trials), --skip=ops,detection,latency,workspace,memory,
+// --print=FILE (print the table of a saved run, measuring nothing), --settings=JSON (fields laid over the
+// defaults for every check, e.g. '{"stepScans":"mismatch"}'; such a run is never the figure of record).
 import { execFile, execFileSync } from 'node:child_process';
-import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { availableParallelism, cpus, loadavg, platform, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { DEFAULT_SETTINGS } from '../server/src/engine/settings';
@@ -99,11 +101,17 @@ function source(): BenchReport['source'] {
 }
 
 async function main(): Promise<void> {
+  const saved = process.argv.find((a) => a.startsWith('--print='))?.slice(8);
+  if (saved) {
+    process.stdout.write(formatReport(JSON.parse(readFileSync(saved, 'utf8')) as BenchReport));
+    return;
+  }
   const quick = process.argv.includes('--quick');
   const skip = new Set((process.argv.find((a) => a.startsWith('--skip='))?.slice(7) ?? '').split(',').filter(Boolean));
   const p = plan(quick);
+  const overrides = process.argv.find((a) => a.startsWith('--settings='))?.slice(11);
   const report: BenchReport = {
-    version: 1, startedAt: new Date().toISOString(), machine: machine(), settings: { ...DEFAULT_SETTINGS }, source: source(), ops: [], detection: [], latency: [],
+    version: 1, startedAt: new Date().toISOString(), machine: machine(), settings: { ...DEFAULT_SETTINGS, ...(overrides ? (JSON.parse(overrides) as object) : {}) }, source: source(), ops: [], detection: [], latency: [],
     throughput: null, memory: null, goals: [],
   };
   const log = (line: string): void => void process.stderr.write(`${line}\n`);
@@ -113,12 +121,13 @@ async function main(): Promise<void> {
     for (const kind of OP_KINDS) {
       for (const size of p.sizes) {
         log(`  op ${kind} ${size}…`);
-        const line = await runWorker('opWorker.js', [kind, String(size), String(p.reps(size)), String(p.handBudgetMs)]);
+        const line = await runWorker('opWorker.js', [kind, String(size), String(p.reps(size)), String(p.handBudgetMs), ...(overrides ? [overrides] : [])]);
         report.ops.push(JSON.parse(line) as OpMeasurement);
       }
     }
   }
   if (!skip.has('detection')) {
+    if (overrides) log('  (seeded-bug trials, latency, workspace and memory always use the default settings)');
     for (const [kind, size, count, trials] of p.detection) {
       log(`  seeded bugs ${kind} ${size} ×${count}, ${trials} trials…`);
       const line = await runWorker('detectWorker.js', [kind, String(size), String(count), String(BUG_RELATIVE), String(trials), String(FIRST_TRIAL_SEED)]);
@@ -148,7 +157,7 @@ async function main(): Promise<void> {
   process.stdout.write(formatReport(report));
   mkdirSync(OUT_DIR, { recursive: true });
   // Only a full run is the figure of record; a quick or partial run goes beside it.
-  const name = quick || skip.size > 0 ? 'partial.json' : 'latest.json';
+  const name = quick || skip.size > 0 || overrides ? 'partial.json' : 'latest.json';
   writeFileSync(join(OUT_DIR, name), `${JSON.stringify(report, null, 1)}\n`);
   log(`figures written to bench/results/${name}`);
 }

@@ -1,12 +1,13 @@
 // One op at one size, in its own process: Gradient Probe's check through the Checker (the
 // runner the CLI and the server use), the evaluation floor of the method it picked, and the
 // hand-written loop, side by side. Prints one JSON line (OpMeasurement) on stdout.
-// Usage: node dist/bench/opWorker.js KIND ELEMENTS REPS HAND_BUDGET_MS
+// Usage: node dist/bench/opWorker.js KIND ELEMENTS REPS HAND_BUDGET_MS [SETTINGS_JSON]
+// (SETTINGS_JSON: fields laid over DEFAULT_SETTINGS, e.g. '{"stepScans":"mismatch"}').
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { bindingsOf, Checker, listOps } from '../server/src/core/checker';
-import { DEFAULT_SETTINGS } from '../server/src/engine/settings';
+import { DEFAULT_SETTINGS, type CheckSettings } from '../server/src/engine/settings';
 import type { OpResult } from '../server/src/engine/types';
 import { Bundler } from '../server/src/sandbox/bundle';
 import { directOp } from './directOp';
@@ -26,8 +27,7 @@ const INPUT_SEED = 20240917;
  * per upstream probe (and per dot-product probe). A method op re-runs its forward before each
  * backward after the first, because its backward reads what the forward cached.
  */
-export function floorBudget(op: BenchOp, result: OpResult): CallBudget {
-  const s = DEFAULT_SETTINGS;
+export function floorBudget(op: BenchOp, result: OpResult, s: CheckSettings): CallBudget {
   let forwards = 1;
   let backwards = Math.max(1, s.upstreamProbes);
   let dot = false;
@@ -48,14 +48,15 @@ export function floorBudget(op: BenchOp, result: OpResult): CallBudget {
 }
 
 async function main(): Promise<void> {
-  const [kind, elementsText, repsText, budgetText] = process.argv.slice(2);
+  const [kind, elementsText, repsText, budgetText, overrides] = process.argv.slice(2);
+  const settings: CheckSettings = { ...DEFAULT_SETTINGS, ...(overrides ? (JSON.parse(overrides) as Partial<CheckSettings>) : {}) };
   const op = benchOp(kind as OpKind, Number(elementsText));
   const reps = Number(repsText);
   const handBudgetMs = Number(budgetText);
   const dir = mkdtempSync(join(tmpdir(), 'gradient-probe-bench-'));
   const file = join(dir, op.fileName);
   writeFileSync(file, op.text);
-  const checker = new Checker({ settings: DEFAULT_SETTINGS, workers: 1 });
+  const checker = new Checker({ settings, workers: 1 });
   try {
     // Check: one cold run (runner start, first bundle), then `reps` warm runs.
     let t = performance.now();
@@ -80,7 +81,7 @@ async function main(): Promise<void> {
     const bundle = await new Bundler().bundle({ file, text: op.text, bindings: listing.ops.flatMap(bindingsOf) });
     if (!bundle.ok) throw new Error(bundle.message);
     const d = directOp(op, loadInContext(bundle.code, DEFAULT_SETTINGS.seed), INPUT_SEED);
-    const budget = floorBudget(op, last);
+    const budget = floorBudget(op, last, settings);
     const floorReps = Math.max(3, Math.min(reps, 9));
     const floor = timeFloor(d, budget, floorReps);
     const hand = runHandLoop(d, handBudgetMs, 16);

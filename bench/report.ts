@@ -76,7 +76,7 @@ export function formatReport(r: BenchReport): string {
   out.push(`Gradient Probe benchmark, ${r.startedAt}`);
   out.push(`machine: ${mc.cpu}, ${mc.cores} cores (nproc), ${mc.memory} memory (free -h), ${mc.platform}, node ${mc.node}; load average before ${mc.loadBefore.map((x) => x.toFixed(2)).join(' ')}, after ${mc.loadAfter.map((x) => x.toFixed(2)).join(' ')}`);
   out.push(`source: commit ${r.source.commit}${r.source.modified.length ? ` plus uncommitted changes in ${r.source.modified.join(', ')}` : ''}`);
-  out.push(`settings: defaults (server/src/engine/settings.ts): ${JSON.stringify(r.settings)}`);
+  out.push(`settings of the op checks: ${JSON.stringify(r.settings)} (server/src/engine/settings.ts defaults unless a --settings run says otherwise)`);
   if (r.ops.length) {
     const reps = [...new Set(r.ops.map((m) => m.check.wallMs.length))].join('/');
     out.push('');
@@ -108,7 +108,7 @@ export function formatReport(r: BenchReport): string {
     out.push(table(
       ['how', 'workers', 'runs (ms)', 'median ms', 'machine idle'],
       [
-        ...t.checker.map((c) => ['Checker, warm runners, all files in flight', String(c.workers), c.runsMs.map(ms).join(' '), ms(c.medianMs), `${(100 * c.idleShare).toFixed(0)} %`]),
+        ...t.checker.map((c) => ['Checker, warm runners, all files in flight', String(c.workers), c.runsMs.map(ms).join(' '), ms(c.medianMs), c.idleShare === undefined ? '' : `${(100 * c.idleShare).toFixed(0)} %`]),
         ...t.cli.map((c) => ['CLI end to end (check DIR --workers N --json)', String(c.workers), c.runsMs.map(ms).join(' '), ms(c.medianMs), '']),
       ],
       1,

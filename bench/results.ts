@@ -78,7 +78,7 @@ export interface ThroughputMeasurement {
     medianMs: number;
     verdicts: Record<string, number>;
     /** Median share of the machine's CPU time left idle during a run (/proc/stat): near 0 means the cores were full. */
-    idleShare: number;
+    idleShare?: number;
   }[];
   /** `gradient-probe check DIR --workers N` end to end (process start included), median ms. */
   cli: { workers: number; runsMs: number[]; medianMs: number }[];
