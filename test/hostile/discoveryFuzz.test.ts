@@ -82,7 +82,8 @@ const edits = fc.array(fc.tuple(fc.nat(), fc.nat({ max: 12 }), fragment), { minL
 
 function applyEdits(text: string, list: Array<[number, number, string]>, region?: [number, number]): string {
   let s = text;
-  let [lo, hi] = region ?? [0, text.length];
+  const lo = region?.[0] ?? 0;
+  let hi = region?.[1] ?? text.length;
   for (const [pos, del, ins] of list) {
     const span = Math.max(1, hi - lo + 1);
     const i = Math.min(s.length, lo + (pos % span));
