@@ -4,6 +4,7 @@
 // under test. Installs what is missing, packages, runs each suite, screenshots the editor, and
 // exits with the suites' code. The steps follow ../shared/recipes/editor-host.md.
 
+import { format } from 'node:util';
 import { execFileSync, spawn, type ChildProcess } from 'node:child_process';
 import { cpSync, existsSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { createServer } from 'node:net';
@@ -120,7 +121,8 @@ async function runSuite(o: {
     });
     const shots: Promise<void>[] = [];
     await page.exposeFunction('codeAutomationLog', (_type: string, args: unknown[]) => {
-      const line = (Array.isArray(args) ? args : [args]).map((a) => (typeof a === 'string' ? a : JSON.stringify(a))).join(' ');
+      // Mocha in the host logs printf-style ('%d passing (%s)', n, t): format like console does.
+      const line = format(...(Array.isArray(args) ? args : [args]));
       process.stdout.write(`  [${o.run.name}] ${line}\n`);
       // The suite asks for a picture while its extension host still shows everything.
       const name = screenshotRequest(line);
