@@ -24,6 +24,8 @@ interface Plan {
   sizes: number[];
   /** Warm check runs per op and size (the median is reported). */
   reps: (size: number) => number;
+  /** Untimed check runs between the cold run and the timed ones. */
+  warmup: (size: number) => number;
   /** Time the hand-written loop may run before its total is extrapolated, in ms. */
   handBudgetMs: number;
   /** Seeded-bug trials: [kind, elements, bug count, trials]. */
@@ -53,7 +55,8 @@ function plan(quick: boolean): Plan {
   }
   return {
     sizes: quick ? [10, 1000, 100_000, 1_000_000] : [10, 100, 1000, 10_000, 100_000, 1_000_000],
-    reps: (n) => (n >= 1_000_000 ? (quick ? 2 : 3) : n >= 100_000 ? (quick ? 3 : 5) : quick ? 5 : 9),
+    reps: (n) => (n >= 1_000_000 ? (quick ? 2 : 3) : n >= 100_000 ? (quick ? 3 : 5) : quick ? 9 : 15),
+    warmup: (n) => (n >= 100_000 ? 1 : n >= 10_000 ? 10 : 30),
     handBudgetMs: quick ? 500 : 1500,
     detection,
     saves: quick ? 5 : 15,
@@ -103,7 +106,9 @@ function source(): BenchReport['source'] {
 async function main(): Promise<void> {
   const saved = process.argv.find((a) => a.startsWith('--print='))?.slice(8);
   if (saved) {
-    process.stdout.write(formatReport(JSON.parse(readFileSync(saved, 'utf8')) as BenchReport));
+    const report = JSON.parse(readFileSync(saved, 'utf8')) as BenchReport;
+    report.goals = evaluateGoals(report); // judged by the current rules
+    process.stdout.write(formatReport(report));
     return;
   }
   const quick = process.argv.includes('--quick');
@@ -121,7 +126,7 @@ async function main(): Promise<void> {
     for (const kind of OP_KINDS) {
       for (const size of p.sizes) {
         log(`  op ${kind} ${size}…`);
-        const line = await runWorker('opWorker.js', [kind, String(size), String(p.reps(size)), String(p.handBudgetMs), ...(overrides ? [overrides] : [])]);
+        const line = await runWorker('opWorker.js', [kind, String(size), String(p.reps(size)), String(p.handBudgetMs), overrides ?? '{}', String(p.warmup(size))]);
         report.ops.push(JSON.parse(line) as OpMeasurement);
       }
     }

@@ -1,7 +1,7 @@
 // One op at one size, in its own process: Gradient Probe's check through the Checker (the
 // runner the CLI and the server use), the evaluation floor of the method it picked, and the
 // hand-written loop, side by side. Prints one JSON line (OpMeasurement) on stdout.
-// Usage: node dist/bench/opWorker.js KIND ELEMENTS REPS HAND_BUDGET_MS [SETTINGS_JSON]
+// Usage: node dist/bench/opWorker.js KIND ELEMENTS REPS HAND_BUDGET_MS [SETTINGS_JSON] [WARMUP]
 // (SETTINGS_JSON: fields laid over DEFAULT_SETTINGS, e.g. '{"stepScans":"mismatch"}').
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -48,7 +48,9 @@ export function floorBudget(op: BenchOp, result: OpResult, s: CheckSettings): Ca
 }
 
 async function main(): Promise<void> {
-  const [kind, elementsText, repsText, budgetText, overrides] = process.argv.slice(2);
+  const [kind, elementsText, repsText, budgetText, overridesText, warmupText] = process.argv.slice(2);
+  const overrides = overridesText && overridesText !== '{}' ? overridesText : undefined;
+  const warmup = Number(warmupText ?? 0);
   const settings: CheckSettings = { ...DEFAULT_SETTINGS, ...(overrides ? (JSON.parse(overrides) as Partial<CheckSettings>) : {}) };
   const op = benchOp(kind as OpKind, Number(elementsText));
   const reps = Number(repsText);
@@ -58,11 +60,13 @@ async function main(): Promise<void> {
   writeFileSync(file, op.text);
   const checker = new Checker({ settings, workers: 1 });
   try {
-    // Check: one cold run (runner start, first bundle), then `reps` warm runs.
+    // Check: one cold run (runner start, first bundle), `warmup` untimed runs (the runner's host
+    // code and the engine's shared bytecode warm up over the first dozens of jobs), then `reps`.
     let t = performance.now();
     const first = (await checker.checkFile(file))[0];
     const coldMs = performance.now() - t;
     if (!first) throw new Error(`no op found in ${file}`);
+    for (let w = 0; w < warmup; w++) await checker.checkFile(file);
     const wallMs: number[] = [];
     const runnerMs: number[] = [];
     let last = first;
@@ -97,7 +101,7 @@ async function main(): Promise<void> {
       methods: last.params.map((p) => `${p.name}:${p.method}`),
       coverage: last.params.reduce((a, p) => a + p.checkedElements, 0) / op.elements,
       calls: last.calls,
-      check: { coldMs, wallMs, medianMs: median(wallMs), runnerMedianMs: median(runnerMs) },
+      check: { coldMs, warmupRuns: warmup, wallMs, medianMs: median(wallMs), runnerMedianMs: median(runnerMs) },
       floor: { calls: budget, medianMs: floor.medianMs, reps: floorReps, forwardMs: floor.forwardMs, backwardMs: floor.backwardMs, fromPerCall: floor.fromPerCall },
       hand,
     };

@@ -80,7 +80,8 @@ export function formatReport(r: BenchReport): string {
   if (r.ops.length) {
     const reps = [...new Set(r.ops.map((m) => m.check.wallMs.length))].join('/');
     out.push('');
-    out.push(`Ops (each size in its own process; check = Checker.checkFile wall time, median of ${reps} warm runs after one cold run;`);
+    const warm = [...new Set(r.ops.map((m) => m.check.warmupRuns ?? 0))].join('/');
+    out.push(`Ops (each size in its own process; check = Checker.checkFile wall time, median of ${reps} runs after one cold run and ${warm} untimed warm-up runs;`);
     out.push('floor = the forward/backward calls the picked method needs, timed directly on the same bundle in a vm context set up like the runner\'s, median;');
     out.push(`† = floor above ${FLOOR_FULL_RUN_MS / 1000} s: call count × median time of one call instead of a timed run of every call;`);
     out.push('hand loop = per-element central difference, fixed step 1e-6, over a scalar projection; * = extrapolated from the elements reached in the time budget;');

@@ -22,6 +22,8 @@ export interface OpMeasurement {
   check: {
     /** First check in the process: runner start and first bundle included, in ms. */
     coldMs: number;
+    /** Untimed runs between the cold run and the timed ones. */
+    warmupRuns?: number;
     /** Warm checks, wall time of Checker.checkFile, in ms. */
     wallMs: number[];
     medianMs: number;
