@@ -4,7 +4,7 @@
 'use strict';
 import * as vm from 'node:vm';
 import type { ChildMessage, HelloMessage, JobMessage, ParentMessage } from './protocol';
-import { CONTEXT_SETUP_SOURCE, FIXED_DATE_MS, WRAPPER_LINES, wrapWithBuiltins } from './contextSetup';
+import { CONTEXT_SETUP_SOURCE, FIXED_DATE_MS, bundleFramesFrom, wrapWithBuiltins } from './contextSetup';
 
 /** Compiled bundles kept per process; the parent resends a bundle this child evicted. */
 const MAX_CACHED_BUNDLES = 32;
@@ -76,20 +76,6 @@ function readOutput(context: vm.Context): string {
   }
 }
 
-/**
- * "line:column,..." frames of the wrapped bundle script, as positions in the bundle's own code:
- * the wrapper adds one line in front (wrapWithBuiltins), and source maps count columns from 0.
- */
-function bundleFramesFrom(text: string): Array<{ line: number; column: number }> {
-  const frames: Array<{ line: number; column: number }> = [];
-  for (const part of text.split(',')) {
-    const m = /^(\d+):(\d+)$/.exec(part);
-    if (!m) continue;
-    const line = Number(m[1]) - WRAPPER_LINES;
-    if (line >= 1) frames.push({ line, column: Math.max(0, Number(m[2]) - 1) });
-  }
-  return frames;
-}
 
 /** The driver's phase when a job stopped, as a primitive string ('' when unreadable). */
 function readPhase(context: vm.Context): string {

@@ -217,3 +217,18 @@ export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, output
   };
   Object.defineProperty(g, '__gradientProbeDrive', { value: drive, writable: false, configurable: false });
 })`;
+
+/**
+ * "line:column,..." frames of the wrapped bundle script, as positions in the bundle's own code:
+ * the wrapper adds one line in front (wrapWithBuiltins), and source maps count columns from 0.
+ */
+export function bundleFramesFrom(text: string): Array<{ line: number; column: number }> {
+  const frames: Array<{ line: number; column: number }> = [];
+  for (const part of text.split(',')) {
+    const m = /^(\d+):(\d+)$/.exec(part);
+    if (!m) continue;
+    const line = Number(m[1]) - WRAPPER_LINES;
+    if (line >= 1) frames.push({ line, column: Math.max(0, Number(m[2]) - 1) });
+  }
+  return frames;
+}

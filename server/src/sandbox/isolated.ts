@@ -5,12 +5,12 @@
 // so the Checker can use either. Slower (QuickJS interprets): for small ops.
 import { spawn, type ChildProcess } from 'node:child_process';
 import { readFileSync } from 'node:fs';
-import type { CheckOutcome, Verdict } from '../engine/types';
 import { ENGINE_SCRIPT_NAME, findBuiltAsset } from './assets';
 import { ISOLATED_HEAP_FACTOR, ISOLATED_MEMORY_CAP_MB } from './isolatedEval';
 import type { IsolatedReply, IsolatedRequest } from './isolatedWorker';
 import { RESIDENT_HEADROOM_MB, watchMemory } from './memoryWatch';
 import { KILL_GRACE_MS, OUTPUT_LIMIT_CHARS, type RunJob, type RunResult } from './pool';
+import { runResultFromReply } from './runReply';
 import { runnerEnvironment } from './runnerCommand';
 
 /** Name of the built interpreter script next to the other built assets. */
@@ -38,18 +38,6 @@ interface Pending {
   resolve: (r: RunResult) => void;
 }
 
-const VERDICTS: ReadonlySet<Verdict> = new Set(['pass', 'mismatch', 'inconclusive', 'error']);
-
-function parseOutcome(json: string): CheckOutcome | undefined {
-  try {
-    const value = JSON.parse(json) as Partial<CheckOutcome> | null;
-    if (!value || typeof value !== 'object' || typeof value.verdict !== 'string' || !VERDICTS.has(value.verdict)) return undefined;
-    if (!Array.isArray(value.params) || typeof value.message !== 'string') return undefined;
-    return value as CheckOutcome;
-  } catch {
-    return undefined;
-  }
-}
 
 export interface IsolatedRunnerOptions {
   /** Paths of the built interpreter script and engine (default: found next to dist/). */
@@ -207,16 +195,7 @@ export class IsolatedRunner {
   private onReply(proc: ChildProcess, reply: IsolatedReply): void {
     const pending = this.current;
     if (proc !== this.proc || !pending || reply.id !== pending.id) return;
-    let result: RunResult;
-    if (reply.ok) {
-      const outcome = parseOutcome(reply.outcomeJson);
-      result = outcome
-        ? { outcome, output: reply.output, elapsedMs: reply.elapsedMs }
-        : { error: 'the check returned malformed data', output: reply.output, elapsedMs: reply.elapsedMs, cause: 'runner' };
-    } else {
-      result = { error: reply.error, output: reply.output, elapsedMs: reply.elapsedMs, cause: reply.duringLoad ? 'load' : reply.timedOut ? 'timeout' : 'runner' };
-      if (reply.bundleFrames && reply.bundleFrames.length > 0) result.bundleFrames = reply.bundleFrames;
-    }
+    const result = runResultFromReply(reply);
     if (reply.poisoned) void this.stopProcess();
     this.finish(result);
     this.next();

@@ -2,7 +2,7 @@
 // JavaScript interpreter with no Node API at all, its own memory limit and an interrupt handler
 // for time. The same context setup and driver as the process runner, so verdicts agree.
 import type { QuickJSContext, QuickJSRuntime, QuickJSWASMModule } from 'quickjs-emscripten';
-import { CONTEXT_SETUP_SOURCE, FIXED_DATE_MS, WRAPPER_LINES, wrapWithBuiltins } from './contextSetup';
+import { CONTEXT_SETUP_SOURCE, FIXED_DATE_MS, bundleFramesFrom, wrapWithBuiltins } from './contextSetup';
 
 /**
  * Highest memory limit the interpreter gets, in MiB. QuickJS here is a 32-bit WebAssembly
@@ -76,17 +76,6 @@ function guestErrorText(dumped: unknown): string {
   }
 }
 
-/** "line:column,..." frames of the wrapped bundle, as positions in the bundle's own code (1-based lines, 0-based columns). */
-function bundleFramesFrom(text: string): Array<{ line: number; column: number }> {
-  const frames: Array<{ line: number; column: number }> = [];
-  for (const part of text.split(',')) {
-    const m = /^(\d+):(\d+)$/.exec(part);
-    if (!m) continue;
-    const line = Number(m[1]) - WRAPPER_LINES;
-    if (line >= 1) frames.push({ line, column: Math.max(0, Number(m[2]) - 1) });
-  }
-  return frames;
-}
 
 /** Evaluates code in the context; returns the result as host data, throws GuestError on an exception. */
 function evaluate(ctx: QuickJSContext, code: string, filename: string): unknown {

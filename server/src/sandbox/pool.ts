@@ -5,10 +5,11 @@ import { spawn, type ChildProcess } from 'node:child_process';
 import { readFileSync } from 'node:fs';
 import { availableParallelism, cpus } from 'node:os';
 import type { CheckSettings } from '../engine/settings';
-import type { CheckOutcome, OpDescriptor, Verdict } from '../engine/types';
+import type { CheckOutcome, OpDescriptor } from '../engine/types';
 import { CHILD_SCRIPT_NAME, ENGINE_SCRIPT_NAME, findBuiltAsset } from './assets';
 import { RESIDENT_HEADROOM_MB, watchMemory } from './memoryWatch';
 import type { ChildMessage, HelloMessage, JobMessage, ResultMessage } from './protocol';
+import { runResultFromReply } from './runReply';
 import { runnerCommand, type RunnerCommand } from './runnerCommand';
 
 /**
@@ -122,26 +123,12 @@ interface Runner {
   retiring?: string;
 }
 
-const VERDICTS: ReadonlySet<Verdict> = new Set(['pass', 'mismatch', 'inconclusive', 'error']);
 
 function defaultSize(): number {
   const cores = typeof availableParallelism === 'function' ? availableParallelism() : cpus().length;
   return Math.max(1, Math.min(2, cores));
 }
 
-/** Parses the engine's JSON, trusting nothing about its shape beyond what the caller reads. */
-function parseOutcome(json: string): CheckOutcome | undefined {
-  try {
-    const value: unknown = JSON.parse(json);
-    if (typeof value !== 'object' || value === null) return undefined;
-    const o = value as Partial<CheckOutcome>;
-    if (typeof o.verdict !== 'string' || !VERDICTS.has(o.verdict)) return undefined;
-    if (!Array.isArray(o.params) || typeof o.message !== 'string') return undefined;
-    return value as CheckOutcome;
-  } catch {
-    return undefined;
-  }
-}
 
 /** The most telling line of a runner's stderr: the first error line, else the last line that is not Node's version banner. */
 function telling(stderr: string): string | undefined {
@@ -376,18 +363,8 @@ export class RunnerPool {
   }
 
   private onResult(runner: Runner, message: ResultMessage): void {
-    let result: RunResult;
-    if (message.ok) {
-      const outcome = parseOutcome(message.outcomeJson);
-      result = outcome
-        ? { outcome, output: message.output, elapsedMs: message.elapsedMs }
-        : { error: 'the check returned malformed data', output: message.output, elapsedMs: message.elapsedMs, cause: 'runner' };
-    } else {
-      const cause: RunFailureCause = message.duringLoad ? 'load' : message.timedOut ? 'timeout' : 'runner';
-      result = { error: message.error, output: message.output, elapsedMs: message.elapsedMs, cause };
-      if (message.bundleFrames && message.bundleFrames.length > 0) result.bundleFrames = message.bundleFrames;
-      if (message.timedOut) this.stats.timeouts++;
-    }
+    const result = runResultFromReply(message);
+    if (!message.ok && message.timedOut) this.stats.timeouts++;
     this.finishJob(runner, result);
     if (message.ok === false && message.timedOut) {
       // A context stopped mid-run may leave the heap full of what the loop built; a new
