@@ -6,52 +6,14 @@ import assert from 'node:assert/strict';
 import { spawn } from 'node:child_process';
 import { existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
-import { dirname, join } from 'node:path';
+import { join } from 'node:path';
 import type { OpResult, Report } from '../../server/src/engine/types';
 import { reportViolations } from './helpers/reportShape';
 import { sarifViolations } from './helpers/sarifShape';
 import { findAll, parseXml } from './helpers/xml';
+import { BIN, ROOT, runCli, SPAWN_LIMIT_MS, type CliRun } from '../helpers/cli';
 
-/** The repository root: the folder above this file that holds bin/gradient-probe.js. */
-function repoRoot(): string {
-  let dir = __dirname;
-  while (!existsSync(join(dir, 'bin', 'gradient-probe.js'))) {
-    const up = dirname(dir);
-    if (up === dir) throw new Error('bin/gradient-probe.js not found above the test');
-    dir = up;
-  }
-  return dir;
-}
-
-const ROOT = repoRoot();
-const BIN = join(ROOT, 'bin', 'gradient-probe.js');
 const FIXTURES = 'test/fixtures/cli';
-/** No CLI run here should take long; past this the process is killed and the test fails. */
-const SPAWN_LIMIT_MS = 90_000;
-
-interface Run { code: number | null; stdout: string; stderr: string }
-
-function runCli(args: string[], options: { cwd?: string; env?: Record<string, string> } = {}): Promise<Run> {
-  return new Promise((resolve, reject) => {
-    const env: Record<string, string | undefined> = { ...process.env, ...options.env };
-    delete env['FORCE_COLOR'];
-    const child = spawn(process.execPath, [BIN, ...args], { cwd: options.cwd ?? ROOT, env, stdio: ['pipe', 'pipe', 'pipe'] });
-    let stdout = '';
-    let stderr = '';
-    child.stdout.setEncoding('utf8').on('data', (d: string) => (stdout += d));
-    child.stderr.setEncoding('utf8').on('data', (d: string) => (stderr += d));
-    const timer = setTimeout(() => {
-      child.kill('SIGKILL');
-      reject(new Error(`gradient-probe ${args.join(' ')} did not finish within ${SPAWN_LIMIT_MS} ms\nstderr: ${stderr}`));
-    }, SPAWN_LIMIT_MS);
-    child.on('error', reject);
-    child.on('close', (code) => {
-      clearTimeout(timer);
-      resolve({ code, stdout, stderr });
-    });
-    child.stdin.end();
-  });
-}
 
 function fixtureText(rel: string): string {
   return readFileSync(join(ROOT, FIXTURES, rel), 'utf8');
@@ -87,7 +49,7 @@ describe('gradient-probe command (spawned)', function () {
   });
 
   describe('check --json on a workspace with every kind of op', () => {
-    let run: Run;
+    let run: CliRun;
     let report: Report;
     before(async () => {
       run = await runCli(['check', `${FIXTURES}/basic`, '--json']);
@@ -155,7 +117,7 @@ describe('gradient-probe command (spawned)', function () {
   });
 
   describe('human output', () => {
-    let run: Run;
+    let run: CliRun;
     let json: Report;
     before(async () => {
       run = await runCli(['check', `${FIXTURES}/basic`]);

@@ -1,24 +1,13 @@
 // Shared by the hostile suites: where the repository and the hostile workspace are, a fresh
 // copy of that workspace with its escape marker folder filled in, the CLI spawned as a user
 // would run it, and line lookups in the fixture sources.
-import { spawn } from 'node:child_process';
-import { cpSync, existsSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { cpSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
-import { dirname, join } from 'node:path';
+import { join } from 'node:path';
+import { ROOT, runCli as runCliIn, type CliRun } from '../helpers/cli';
 
-/** The repository root: the folder above this file that holds bin/gradient-probe.js. */
-export function repoRoot(): string {
-  let dir = __dirname;
-  while (!existsSync(join(dir, 'bin', 'gradient-probe.js'))) {
-    const up = dirname(dir);
-    if (up === dir) throw new Error('bin/gradient-probe.js not found above the test');
-    dir = up;
-  }
-  return dir;
-}
+export { BIN, ROOT, type CliRun } from '../helpers/cli';
 
-export const ROOT = repoRoot();
-export const BIN = join(ROOT, 'bin', 'gradient-probe.js');
 export const HOSTILE_FIXTURES = join(ROOT, 'test', 'fixtures', 'hostile');
 
 /** The placeholder in escape.ts that the copy replaces with its marker folder. */
@@ -58,35 +47,9 @@ export function copyHostileWorkspace(): HostileCopy {
   };
 }
 
-export interface CliRun {
-  code: number | null;
-  stdout: string;
-  stderr: string;
-}
-
-/** No CLI run of the suite should take this long; past it the process is killed and the test fails. */
-const SPAWN_LIMIT_MS = 120_000;
-
 /** Runs `node bin/gradient-probe.js ARGS` in `cwd`, with the caller's environment. */
 export function runCli(args: string[], cwd: string): Promise<CliRun> {
-  return new Promise((resolve, reject) => {
-    const env: Record<string, string | undefined> = { ...process.env };
-    delete env['FORCE_COLOR'];
-    const child = spawn(process.execPath, [BIN, ...args], { cwd, env, stdio: ['ignore', 'pipe', 'pipe'] });
-    let stdout = '';
-    let stderr = '';
-    child.stdout.setEncoding('utf8').on('data', (d: string) => (stdout += d));
-    child.stderr.setEncoding('utf8').on('data', (d: string) => (stderr += d));
-    const timer = setTimeout(() => {
-      child.kill('SIGKILL');
-      reject(new Error(`gradient-probe ${args.join(' ')} did not finish within ${SPAWN_LIMIT_MS} ms\nstderr: ${stderr}`));
-    }, SPAWN_LIMIT_MS);
-    child.on('error', reject);
-    child.on('close', (code) => {
-      clearTimeout(timer);
-      resolve({ code, stdout, stderr });
-    });
-  });
+  return runCliIn(args, { cwd });
 }
 
 /** 1-based line of the first line of `text` that contains `needle`; throws when there is none. */
