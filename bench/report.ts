@@ -1,6 +1,6 @@
 // Formats a BenchReport as the text `npm run bench` prints: machine, the op table (check,
 // floor, hand-written loop, ratios and growth), seeded-bug trials, latency, throughput, memory
-// and the goals with met / not met. Also used to paste the table into the README's performance section.
+// and the goals with met / not met. Also used to paste the table into bench/PERFORMANCE.md.
 import { FLOOR_FULL_RUN_MS } from './floor';
 import { floorRatio, handSpeedup } from './goals';
 import type { BenchReport, OpMeasurement } from './results';

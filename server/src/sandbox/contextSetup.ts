@@ -9,7 +9,7 @@
  * vm context go through an interceptor and cost 2–12× on numeric loops (measured, see
  * shared/design/sandbox.md); parameters are plain local variables. `Infinity`, `NaN` and
  * `undefined` are global lookups too: one `-Infinity` in the engine's per-element comparison
- * made it 4–5× slower in a context than in the host (README, "Performance").
+ * made it 4–5× slower in a context than in the host (bench/PERFORMANCE.md).
  */
 export const CONTEXT_BUILTINS = [
   'globalThis', 'Infinity', 'NaN', 'undefined', 'Math', 'Object', 'Array', 'Number', 'String', 'Boolean', 'Symbol', 'BigInt',
