@@ -75,8 +75,18 @@ export interface OpTarget {
   constructFactory?: string;
 }
 
+/**
+ * Which derivative an op's check compares with the forward: a vector-Jacobian product
+ * (`@backward`), the full Jacobian (`@jacobian`), a Jacobian-vector product (`@tangent`) or the
+ * Hessian / Hessian-vector product (`@hessian`). One forward with several such tags gives one op
+ * (and one report entry) per tag. Absent means 'backward'.
+ */
+export type OpKind = 'backward' | 'jacobian' | 'tangent' | 'hessian';
+
 /** An annotated forward/backward pair found by discovery. */
 export interface OpDescriptor {
+  /** The derivative this op checks; absent means 'backward'. */
+  kind?: OpKind;
   /** Absolute path of the source file. */
   file: string;
   /** Position of the forward's name (1-based), and where it ends. */
@@ -176,6 +186,8 @@ export interface CheckOutcome {
 
 /** One op's entry in the report (the `--json` `pairs` entries). */
 export interface OpResult extends CheckOutcome {
+  /** The derivative checked (JSON field `kind`); absent means 'backward'. */
+  kind?: OpKind;
   /** Relative to the current folder (CLI) with `/` separators, or absolute (server). */
   file: string;
   line: number;

@@ -42,6 +42,12 @@ export type BundleResult =
       buildMs: number;
       /** Maps a 1-based line and 0-based column of `code` to its source file, line and column. */
       originalPlace: (line: number, column: number) => SourcePlace | undefined;
+      /**
+       * Absolute paths of the files on disk that went into the bundle besides the checked file
+       * itself (its imports, transitively, packages included), from esbuild's metafile: an edit
+       * to any of them can change the op's result.
+       */
+      inputs: string[];
     }
   | { ok: false; message: string; location?: { file: string; line: number; column: number } };
 
@@ -72,6 +78,13 @@ interface CacheEntry {
 const LOADERS: Record<string, esbuildTypes.Loader> = {
   '.ts': 'ts', '.mts': 'ts', '.cts': 'ts', '.tsx': 'tsx', '.js': 'js', '.mjs': 'js', '.cjs': 'js', '.jsx': 'jsx',
 };
+
+/** The paths of a cache entry's recorded inputs. */
+function inputPaths(entry: CacheEntry): string[] {
+  const paths: string[] = [];
+  for (const input of entry.inputs) paths.push(input.path);
+  return paths;
+}
 
 function sha256(...parts: string[]): string {
   const h = createHash('sha256');
@@ -135,7 +148,7 @@ export class Bundler {
       this.cache.delete(requestKey);
       this.cache.set(requestKey, cached);
       this.stats.cacheHits++;
-      return { ok: true, code: cached.code, key: cached.key, cached: true, buildMs: 0, originalPlace: placeFinder(cached) };
+      return { ok: true, code: cached.code, key: cached.key, cached: true, buildMs: 0, originalPlace: placeFinder(cached), inputs: inputPaths(cached) };
     }
     this.forget(requestKey);
     const started = performance.now();
@@ -153,7 +166,7 @@ export class Bundler {
       if (oldest === undefined) break;
       this.forget(oldest);
     }
-    return { ok: true, code: result.entry.code, key: result.entry.key, cached: false, buildMs: performance.now() - started, originalPlace: placeFinder(result.entry) };
+    return { ok: true, code: result.entry.code, key: result.entry.key, cached: false, buildMs: performance.now() - started, originalPlace: placeFinder(result.entry), inputs: inputPaths(result.entry) };
   }
 
   /** Forgets every cached bundle. */
