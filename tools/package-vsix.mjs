@@ -20,6 +20,8 @@ mkdirSync(join(stage, 'dist'), { recursive: true });
 for (const file of ['package.json', 'README.md', 'LICENSE', '.vscodeignore']) {
   if (existsSync(join(root, file))) copyFileSync(join(root, file), join(stage, file));
 }
+// The JSON schema of gradient-probe.json (contributes.jsonValidation points at it).
+cpSync(join(root, 'schemas'), join(stage, 'schemas'), { recursive: true });
 for (const file of ['client.js', 'sandbox-child.js', 'engine-in-sandbox.js', 'isolated-worker.js']) {
   const from = join(root, 'dist', file);
   if (!existsSync(from)) throw new Error(`dist/${file} is missing: run node esbuild.mjs first`);
