@@ -1,12 +1,14 @@
 // The one way a check stops early: a verdict (`error` or `inconclusive`) with a message naming
 // the part of the op at fault. runCheck catches it and turns it into the outcome.
 
-import type { Verdict } from './types';
+import type { TimeLimitStop, Verdict } from './types';
 
 export class CheckStop extends Error {
   constructor(
     readonly verdict: Extract<Verdict, 'error' | 'inconclusive'>,
     message: string,
+    /** Set when the time limit stopped the check: how far it got (the limit is added by runCheck). */
+    readonly timeLimit?: Omit<TimeLimitStop, 'timeLimitMs'>,
   ) {
     super(message);
   }
@@ -20,4 +22,9 @@ export function fail(message: string): never {
 /** Stops the check with verdict `inconclusive`. */
 export function giveUp(message: string): never {
   throw new CheckStop('inconclusive', message);
+}
+
+/** Stops the check with verdict `inconclusive` because its time limit ran out, saying how far it got. */
+export function stopAtTimeLimit(message: string, progress: Omit<TimeLimitStop, 'timeLimitMs'>): never {
+  throw new CheckStop('inconclusive', message, progress);
 }
