@@ -66,8 +66,19 @@ describe('report assembly', () => {
     assert.equal(exitCodeFor(report), 1);
     const mild = buildReport([RESULTS[0]!, RESULTS[2]!], CWD);
     assert.equal(exitCodeFor(mild), 0);
-    assert.equal(exitCodeFor(mild, true), 1);
+    assert.equal(exitCodeFor(mild, { failOnInconclusive: true }), 1);
     assert.equal(exitCodeFor(buildReport([], CWD)), 0);
+  });
+
+  it('exits 1 for an op the time limit stopped before every element was compared, unless allowed', () => {
+    const stopped = {
+      ...RESULTS[0]!,
+      stoppedAtTimeLimit: { param: 'x', stage: 'elements' as const, done: 640, total: 10_000, timeLimitMs: 500 },
+    };
+    const unfinished = buildReport([RESULTS[2]!, stopped], CWD);
+    assert.equal(exitCodeFor(unfinished), 1);
+    assert.equal(exitCodeFor(unfinished, { allowUnfinished: true }), 0);
+    assert.equal(exitCodeFor(unfinished, { allowUnfinished: true, failOnInconclusive: true }), 1);
   });
 
   it('names the parameter that explains the verdict', () => {

@@ -68,8 +68,10 @@ export class IsolatedRunner {
     return new Promise<RunResult>((resolve) => {
       if (this.disposed) return resolve({ error: 'the checker was closed before this op ran', elapsedMs: 0, cause: 'closed' });
       if (job.signal?.aborted) return resolve({ error: 'cancelled', elapsedMs: 0, cause: 'cancelled' });
-      const pending: Pending = { id: this.nextId++, job, resolve };
-      job.signal?.addEventListener('abort', () => this.cancel(pending), { once: true });
+      const onAbort = (): void => this.cancel(pending);
+      // The listener goes when the job ends, so a long-lived signal does not collect one per op.
+      const pending: Pending = { id: this.nextId++, job, resolve: (r) => { job.signal?.removeEventListener('abort', onAbort); resolve(r); } };
+      job.signal?.addEventListener('abort', onAbort, { once: true });
       this.queue.push(pending);
       this.next();
     });
