@@ -185,6 +185,17 @@ describe('SARIF output', () => {
     assert.match(mismatch!.message.text, /Hint: gradient is the transpose of the numeric one\./);
   });
 
+  it('reports an op the time limit stopped as an error of its own rule, not a warning', () => {
+    const stopped = { ...RESULTS[0]!, stoppedAtTimeLimit: { param: 'x', stage: 'elements' as const, done: 64, total: 900, timeLimitMs: 500 } };
+    const unfinished = JSON.parse(formatSarif(buildReport([stopped], CWD), { toolVersion: '9.8.7', rootDir: CWD }));
+    assert.deepEqual(sarifViolations(unfinished), []);
+    assert.deepEqual(unfinished.runs[0].results.map((r: { ruleId: string; level: string }) => [r.ruleId, r.level]), [['check-unfinished', 'error']]);
+    // JUnit follows the same policy as the exit code: a failure, or skipped with --allow-unfinished.
+    const junit = parseXml(formatJunit(buildReport([stopped], CWD)));
+    assert.equal(junit.attributes['failures'], '1');
+    assert.equal(parseXml(formatJunit(buildReport([stopped], CWD), { allowUnfinished: true })).attributes['skipped'], '1');
+  });
+
   it('the structure check itself catches a broken log', () => {
     const broken = JSON.parse(JSON.stringify(log));
     broken.version = '2.0.0';
