@@ -4,7 +4,7 @@
 // with QuickJS, then runs `vsce package`.
 import * as esbuild from 'esbuild';
 import { execFileSync } from 'node:child_process';
-import { copyFileSync, cpSync, existsSync, mkdirSync, readFileSync, rmSync, statSync } from 'node:fs';
+import { copyFileSync, cpSync, existsSync, mkdirSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 
@@ -17,9 +17,13 @@ const platformPackage = `@esbuild/${process.platform}-${process.arch}`;
 rmSync(stage, { recursive: true, force: true });
 mkdirSync(join(stage, 'dist'), { recursive: true });
 
-for (const file of ['package.json', 'README.md', 'LICENSE', '.vscodeignore']) {
+for (const file of ['README.md', 'LICENSE', '.vscodeignore']) {
   if (existsSync(join(root, file))) copyFileSync(join(root, file), join(stage, file));
 }
+// The manifest without `files` (the npm package's allow-list): vsce refuses it beside
+// .vscodeignore, which is the extension's own allow-list.
+const { files: _npmFiles, ...manifest } = pkg;
+writeFileSync(join(stage, 'package.json'), `${JSON.stringify(manifest, null, 2)}\n`);
 // The JSON schema of gradient-probe.json (contributes.jsonValidation points at it).
 cpSync(join(root, 'schemas'), join(stage, 'schemas'), { recursive: true });
 for (const file of ['client.js', 'sandbox-child.js', 'engine-in-sandbox.js', 'isolated-worker.js']) {
