@@ -8,6 +8,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { Report } from '../../server/src/engine/types';
 import { runCli, SPAWN_LIMIT_MS } from '../helpers/cli';
+import { reportViolations } from './helpers/reportShape';
 
 /** An op file whose forward scales by `factor` (imported from `from`, or a literal). */
 function opFile(name: string, factor: { from: string; symbol: string } | number): string {
@@ -58,6 +59,7 @@ describe('check --changed-since (spawned CLI, temporary git repository)', functi
     const run = await runCli(['check', 'src', '--changed-since', 'HEAD', '--json'], { cwd: repo });
     assert.equal(run.code, 0, run.stderr);
     const report = JSON.parse(run.stdout) as Report;
+    assert.deepEqual(reportViolations(report), []);
     assert.deepEqual(report.pairs.map((p) => p.forward).sort(), ['lowerDamper', 'upperDamper']);
     assert.deepEqual(report.run?.changedSince, { ref: 'HEAD', skipped: 1 });
     const human = await runCli(['check', 'src', '--changed-since', 'HEAD'], { cwd: repo });

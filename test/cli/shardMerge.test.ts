@@ -7,6 +7,7 @@ import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'nod
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { OpResult, Report } from '../../server/src/engine/types';
+import { reportViolations } from './helpers/reportShape';
 import { findAll, parseXml } from './helpers/xml';
 import { runCli, SPAWN_LIMIT_MS, type CliRun } from '../helpers/cli';
 
@@ -74,6 +75,7 @@ describe('check --shard and merge (spawned CLI, test corpus)', function () {
       for (const file of shardFiles.get(n)!) {
         const report = JSON.parse(readFileSync(file, 'utf8')) as Report;
         assert.equal(report.run?.shard?.count, n);
+        assert.deepEqual(reportViolations(report), [], file);
         for (const pair of report.pairs) seen.set(entryKey(pair), (seen.get(entryKey(pair)) ?? 0) + 1);
       }
       const expected = wholeReport.pairs.map(entryKey).sort();
@@ -86,6 +88,7 @@ describe('check --shard and merge (spawned CLI, test corpus)', function () {
       const merged = await runCli(['merge', ...shardFiles.get(n)!, '--json']);
       assert.equal(merged.code, whole.code, merged.stderr);
       const report = JSON.parse(merged.stdout) as Report;
+      assert.deepEqual(reportViolations(report), []);
       assert.deepEqual(verdicts(report), verdicts(wholeReport));
       assert.deepEqual(report.summary, wholeReport.summary);
       assert.deepEqual(report.run?.settings, wholeReport.run?.settings);

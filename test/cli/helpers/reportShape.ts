@@ -66,6 +66,24 @@ export function reportViolations(report: unknown): string[] {
     if (!isInt(summary[v], 0)) out.push(`summary.${v} must be a non-negative integer`);
     else if (summary[v] !== counted[v]) out.push(`summary.${v} is ${String(summary[v])} but ${counted[v]} pairs have that verdict`);
   }
+  if (report['run'] !== undefined) out.push(...runViolations(report['run']));
+  return out;
+}
+
+/** The additive `run` record (what `merge` compares): tool, settings, config, files, optional shard and changed-since. */
+function runViolations(run: unknown): string[] {
+  if (!isObj(run)) return ['run must be an object when present'];
+  const out: string[] = [];
+  if (typeof run['tool'] !== 'string' || run['tool'] === '') out.push('run.tool must be a non-empty string');
+  if (!isObj(run['settings']) || !isInt(run['settings']['seed'], 0)) out.push('run.settings must be an object with the seed');
+  if (!(typeof run['config'] === 'string' || run['config'] === null)) out.push('run.config must be a path or null');
+  if (!isInt(run['files'], 0)) out.push('run.files must be a non-negative integer');
+  const shard = run['shard'];
+  if (shard !== undefined && !(isObj(shard) && isInt(shard['count'], 1) && isInt(shard['index'], 1) && (shard['index'] as number) <= (shard['count'] as number))) {
+    out.push('run.shard must be { index, count } with 1 ≤ index ≤ count');
+  }
+  const since = run['changedSince'];
+  if (since !== undefined && !(isObj(since) && typeof since['ref'] === 'string' && isInt(since['skipped'], 0))) out.push('run.changedSince must be { ref, skipped }');
   return out;
 }
 
