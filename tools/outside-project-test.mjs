@@ -103,6 +103,8 @@ try {
     console.log(`      runtime dependencies: ${runtime.join(', ')}`);
     expect(!runtime.includes('vscode-languageclient'), 'vscode-languageclient is no runtime dependency (bundled into dist/client.js)');
     checkInstalled(user, 'tarball');
+    const version = run('npx', ['--no-install', 'gradient-probe', '--version'], user);
+    expect(version.stdout.trim() === installed.version, `gradient-probe --version prints ${installed.version}`, version.stdout + version.stderr);
   }
 
   if (alsoGit) {
