@@ -103,6 +103,23 @@ try {
     console.log(`      runtime dependencies: ${runtime.join(', ')}`);
     expect(!runtime.includes('vscode-languageclient'), 'vscode-languageclient is no runtime dependency (bundled into dist/client.js)');
     checkInstalled(user, 'tarball');
+    // The README's CI matrix: two shard jobs, then the join with a SARIF file.
+    const shardReports = [];
+    for (const k of [1, 2]) {
+      const shard = run('npx', ['--no-install', 'gradient-probe', 'check', 'src', '--shard', `${k}/2`, '--json'], user);
+      expect(shard.status === 0 || shard.status === 1, `shard ${k}/2 runs (exit ${shard.status})`, shard.stderr);
+      writeFileSync(join(user, `probe-${k}.json`), shard.stdout);
+      shardReports.push(`probe-${k}.json`);
+    }
+    const merged = run('npx', ['--no-install', 'gradient-probe', 'merge', ...shardReports, '--sarif', 'gradient-probe.sarif'], user);
+    expect(merged.status === 1 && /2 ops in 2 files: 1 pass, 1 mismatch/.test(merged.stdout), 'merge of the two shards: one report, exit 1', merged.stdout + merged.stderr);
+    let sarifResults = -1;
+    try {
+      sarifResults = JSON.parse(readFileSync(join(user, 'gradient-probe.sarif'), 'utf8')).runs[0].results.length;
+    } catch {
+      // reported below
+    }
+    expect(sarifResults === 1, 'merge --sarif writes the one mismatch as a finding', String(sarifResults));
     const version = run('npx', ['--no-install', 'gradient-probe', '--version'], user);
     expect(version.stdout.trim() === installed.version, `gradient-probe --version prints ${installed.version}`, version.stdout + version.stderr);
   }
