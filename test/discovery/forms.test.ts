@@ -1,7 +1,7 @@
 // Discovery of every forward form and backward resolution the interface allows
 // (interface.md §1, "Marking an op"), with exact positions of names and tags.
 import assert from 'node:assert/strict';
-import { findOpAt, OP_TAG_NAMES } from '../../server/src/discovery/index';
+import { OP_TAG_NAMES } from '../../server/src/discovery/index';
 import { at, discover, expectProblem, opNamed } from './helpers';
 
 // Fixture: a fictional greenhouse climate controller's ops (our own scenario).
@@ -134,17 +134,6 @@ describe('discovery: forward forms', () => {
       { tag: 'sample', param: 'this.gain', line: s1.line, column: s1.column, endLine: s1.line, endColumn: s1.column + '@sample this.gain num[2, 3]'.length },
       { tag: 'sample', param: 'x', line: s2.line, column: s2.column, endLine: s2.line, endColumn: s2.column + '@sample x num[3]'.length },
     ]);
-  });
-
-  it('findOpAt answers for the forward name and for a tag, and nothing elsewhere', () => {
-    const name = at(FORMS, 'heatLoss(t');
-    assert.equal(findOpAt(r, name.line, name.column + 2)?.op.forward, 'heatLoss');
-    const tag = at(FORMS, '@sample t f64[8]');
-    const hit = findOpAt(r, tag.line, tag.column + 10);
-    assert.equal(hit?.op.forward, 'heatLoss');
-    assert.equal(hit?.tag?.param, 't');
-    const body = at(FORMS, 'return t; }');
-    assert.equal(findOpAt(r, body.line, body.column), undefined);
   });
 
   it('exports our tag names', () => {

@@ -108,11 +108,6 @@ export class Checker {
     this.pool.warm(settings.memoryLimitMb);
   }
 
-  /** Discovers the ops of a file without running them. */
-  listOps(file: string, text?: string): OpListing {
-    return listOps(file, text);
-  }
-
   /** Checks every annotated op of one file; never rejects. Results are in source order. */
   async checkFile(file: string, opts: CheckFileOptions = {}): Promise<OpResult[]> {
     const settings = opts.settings ?? this.settings;
