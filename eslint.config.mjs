@@ -1,5 +1,54 @@
-// Lint rules: the type-aware ones catch promises nobody awaits (a check whose failure would vanish).
+// Lint rules: the type-aware ones catch promises nobody awaits (a check whose failure would vanish);
+// the engine's own rule keeps user code from steering the check (see "The engine rule" below).
 import tseslint from 'typescript-eslint';
+
+// ---- The engine rule -------------------------------------------------------------------------
+// server/src/engine runs in the same vm context as the user's module, after it loaded, so user
+// code may have replaced Array.prototype methods, the array iterator, or globals such as
+// Float64Array or JSON. The engine therefore uses only what builtins.ts captured when the engine
+// loaded, and indexed loops. Enforced by syntax:
+// - no `for ... of`, no array destructuring and no spread into arrays or calls (each runs the
+//   array iterator, Array.prototype[Symbol.iterator]);
+// - no call of an Array.prototype (or String.prototype) method by name. The rule cannot see
+//   types, so the names are those of Array.prototype and String.prototype methods; typed arrays
+//   share most of them (and their prototypes can be patched too), so they are banned for typed
+//   arrays as well. `set` is left out on purpose: ParamSlot.set is the engine's own method.
+// - no use of a global constructor, namespace or function (Math, JSON, Object, Float64Array,
+//   String(...), ...) outside builtins.ts, which captures them, and sandboxEntry.ts, which runs
+//   before any user code.
+// test/hostile/arrayPatches.test.ts patches these in an op's module and expects correct verdicts.
+const ARRAY_AND_STRING_METHODS = [
+  'at', 'concat', 'copyWithin', 'entries', 'every', 'fill', 'filter', 'find', 'findIndex', 'findLast',
+  'findLastIndex', 'flat', 'flatMap', 'forEach', 'includes', 'indexOf', 'join', 'keys', 'lastIndexOf',
+  'map', 'pop', 'push', 'reduce', 'reduceRight', 'reverse', 'shift', 'slice', 'some', 'sort', 'splice',
+  'subarray', 'toReversed', 'toSorted', 'toSpliced', 'unshift', 'values', 'with',
+  'endsWith', 'padEnd', 'padStart', 'repeat', 'replace', 'replaceAll', 'split', 'startsWith', 'toFixed',
+  'toPrecision', 'toString', 'trim',
+];
+const ENGINE_GLOBALS = [
+  'Array', 'ArrayBuffer', 'Boolean', 'DataView', 'Date', 'Error', 'Float32Array', 'Float64Array', 'Int8Array',
+  'Int16Array', 'Int32Array', 'JSON', 'Map', 'Math', 'Number', 'Object', 'Promise', 'Proxy', 'Reflect', 'RegExp',
+  'Set', 'String', 'Symbol', 'Uint8Array', 'Uint16Array', 'Uint32Array', 'WeakMap', 'WeakSet', 'globalThis',
+  'isFinite', 'isNaN', 'parseFloat', 'parseInt',
+];
+const ENGINE_SYNTAX = [
+  { selector: 'ForOfStatement', message: 'No for...of in the engine: it runs the array iterator, which user code may replace. Use an indexed loop.' },
+  { selector: 'ArrayPattern', message: 'No array destructuring in the engine: it runs the array iterator, which user code may replace. Read by index.' },
+  {
+    selector: 'ArrayExpression > SpreadElement, CallExpression > SpreadElement, NewExpression > SpreadElement',
+    message: 'No spread in the engine: it runs the array iterator, which user code may replace. Copy with an indexed loop.',
+  },
+  {
+    selector: `CallExpression > MemberExpression.callee[computed=false] > Identifier.property[name=/^(${ARRAY_AND_STRING_METHODS.join('|')})$/]`,
+    message: 'No Array.prototype/String.prototype methods in the engine: user code may replace them. Use an indexed loop or a helper from builtins.ts.',
+  },
+];
+const ENGINE_GLOBAL_SYNTAX = [
+  {
+    selector: `NewExpression > Identifier.callee[name=/^(${ENGINE_GLOBALS.join('|')})$/], CallExpression > Identifier.callee[name=/^(${ENGINE_GLOBALS.join('|')})$/], MemberExpression > Identifier.object[name=/^(${ENGINE_GLOBALS.join('|')})$/]`,
+    message: 'No globals in the engine outside builtins.ts: user code may replace them. Use the copy builtins.ts captured (F64, I32, U8, max, stringifyJson, ...).',
+  },
+];
 
 export default tseslint.config(
   { ignores: ['tmp/**', '**/*.mjs', 'dist/**', 'node_modules/**', 'test/corpus/**', 'test/fixtures/**', 'examples/**', '.editor-host/**', 'bench/results/**', '*.mjs', 'bin/**'] },
@@ -12,5 +61,14 @@ export default tseslint.config(
       '@typescript-eslint/no-explicit-any': 'off',
       '@typescript-eslint/no-unused-vars': ['error', { argsIgnorePattern: '^_', varsIgnorePattern: '^_' }],
     },
+  },
+  {
+    files: ['server/src/engine/**/*.ts'],
+    ignores: ['server/src/engine/builtins.ts', 'server/src/engine/sandboxEntry.ts'],
+    rules: { 'no-restricted-syntax': ['error', ...ENGINE_SYNTAX, ...ENGINE_GLOBAL_SYNTAX] },
+  },
+  {
+    files: ['server/src/engine/builtins.ts', 'server/src/engine/sandboxEntry.ts'],
+    rules: { 'no-restricted-syntax': ['error', ...ENGINE_SYNTAX] },
   },
 );
