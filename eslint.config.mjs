@@ -1,5 +1,6 @@
 // Lint rules: the type-aware ones catch promises nobody awaits (a check whose failure would vanish);
-// the engine's own rule keeps user code from steering the check (see "The engine rule" below).
+// the engine's own rule keeps user code from steering the check (see "The engine rule" below);
+// the layering map keeps each folder to the imports DEVELOPERS.md's table allows.
 import tseslint from 'typescript-eslint';
 
 // ---- The engine rule -------------------------------------------------------------------------
@@ -50,6 +51,61 @@ const ENGINE_GLOBAL_SYNTAX = [
   },
 ];
 
+// ---- Layering -------------------------------------------------------------------------------
+// DEVELOPERS.md's layering table, enforced: which server/src folders each folder may import.
+// Type-only imports count too. Change the table and this map together.
+const SERVER_FOLDERS = ['engine', 'discovery', 'sandbox', 'core', 'project', 'cli', 'lsp'];
+const MAY_IMPORT = {
+  engine: [],
+  discovery: ['engine'],
+  sandbox: ['engine'],
+  core: ['engine', 'discovery', 'sandbox'],
+  project: ['engine'],
+  cli: ['engine', 'core', 'project', 'lsp'],
+  lsp: ['engine', 'core', 'project', 'discovery'],
+};
+const EDITOR_LIBRARIES = { regex: '^vscode(-languageserver|-languageclient)?(/|-|$)', message: 'Only server/src/lsp (vscode-languageserver) and client/src (vscode, vscode-languageclient) speak to the editor.' };
+
+function layering(folder) {
+  const forbidden = SERVER_FOLDERS.filter((f) => f !== folder && !MAY_IMPORT[folder].includes(f));
+  const patterns = [];
+  if (forbidden.length > 0) {
+    patterns.push({
+      regex: `^\\.\\./(${forbidden.join('|')})(/|$)`,
+      message: `server/src/${folder} may import only ${MAY_IMPORT[folder].length ? MAY_IMPORT[folder].join(', ') : 'itself'} among the server folders (DEVELOPERS.md, layering table).`,
+    });
+  }
+  if (folder === 'engine') {
+    // Bundled and evaluated inside the sandbox: no package, no Node built-in, nothing but itself.
+    patterns.push({ regex: '^(?!\\./)', message: 'server/src/engine imports nothing outside itself: it runs inside the sandbox (DEVELOPERS.md, layering table).' });
+  }
+  if (folder === 'cli') {
+    // `gradient-probe lsp` starts the language server; nothing else of it belongs to the CLI.
+    patterns.push({ regex: '^\\.\\./lsp/(?!server$)', message: 'server/src/cli reaches the language server only through lsp/server (the `lsp` subcommand).' });
+  }
+  if (folder === 'lsp') {
+    patterns.push({ regex: '^vscode(-languageclient)?(/|$)', message: 'The language server speaks LSP (vscode-languageserver), not the editor API.' });
+  } else {
+    patterns.push(EDITOR_LIBRARIES);
+  }
+  return { files: [`server/src/${folder}/**/*.ts`], rules: { 'no-restricted-imports': ['error', { patterns }] } };
+}
+
+const CLIENT_LAYERING = {
+  files: ['client/src/**/*.ts'],
+  rules: {
+    'no-restricted-imports': ['error', {
+      patterns: [
+        {
+          regex: '^(\\.\\./)+server/src/(?!engine/types$|lsp/protocol$)',
+          message: 'client/src shares only the data shapes (server/src/engine/types) and the custom messages (server/src/lsp/protocol) with the server; everything else goes over LSP.',
+        },
+        { regex: '^vscode-languageserver', message: 'The client uses vscode-languageclient; the server side of LSP stays in server/src/lsp.' },
+      ],
+    }],
+  },
+};
+
 export default tseslint.config(
   { ignores: ['tmp/**', '**/*.mjs', 'dist/**', 'node_modules/**', 'test/corpus/**', 'test/fixtures/**', 'examples/**', '.editor-host/**', 'bench/results/**', '*.mjs', 'bin/**'] },
   ...tseslint.configs.recommended,
@@ -71,4 +127,6 @@ export default tseslint.config(
     files: ['server/src/engine/builtins.ts', 'server/src/engine/sandboxEntry.ts'],
     rules: { 'no-restricted-syntax': ['error', ...ENGINE_SYNTAX] },
   },
+  ...SERVER_FOLDERS.map(layering),
+  CLIENT_LAYERING,
 );
