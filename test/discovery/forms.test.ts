@@ -1,5 +1,5 @@
 // Discovery of every forward form and backward resolution the interface allows
-// (interface.md §1, "Marking an op"), with exact positions of names and tags.
+// (docs/annotations.md, "Where the tags go"), with exact positions of names and tags.
 import assert from 'node:assert/strict';
 import { OP_TAG_NAMES } from '../../server/src/discovery/index';
 import { at, discover, expectProblem, opNamed } from './helpers';
@@ -66,7 +66,7 @@ describe('discovery: forward forms', () => {
   const r = discover(FORMS);
 
   it('finds every annotated forward, in source order, and nothing else', () => {
-    // Spec: interface.md §1 — function declarations, const arrows, const function
+    // Spec: docs/annotations.md — function declarations, const arrows, const function
     // expressions and class methods, exported or not.
     assert.deepEqual(r.ops.map((o) => o.forward), ['heatLoss', 'humidity', 'vent', 'shade', 'Damper.step', 'Heater.power', 'Heater.warm']);
     assert.deepEqual(r.fileProblems, []);
@@ -113,7 +113,7 @@ describe('discovery: forward forms', () => {
   });
 
   it('builds the default backward argument lists', () => {
-    // interface.md §1: functions get every forward parameter then $dy; methods $dy alone.
+    // docs/annotations.md, "@backward": functions get every forward parameter then $dy; methods $dy alone.
     assert.deepEqual(opNamed(r, 'vent').backwardArgs, [{ kind: 'param', name: 'a' }, { kind: 'param', name: 'b' }, { kind: 'upstream' }]);
     assert.deepEqual(opNamed(r, 'Damper.step').backwardArgs, [{ kind: 'upstream' }]);
   });

@@ -1,4 +1,4 @@
-// Parses the body of a `@sample PARAM SPEC` tag (interface.md §1, "SPEC of @sample") into the
+// Parses the body of a `@sample PARAM SPEC` tag (docs/annotations.md, "@sample PARAM SPEC") into the
 // parameter it draws and a SampleSpec, or problems pointing inside the tag.
 import type { SampleDtype, SampleSpec } from '../engine/types';
 import { TagCursor, type Token } from './lexer';
@@ -11,7 +11,7 @@ const DTYPES: readonly SampleDtype[] = ['f64', 'f32', 'num', 'i32', 'int'];
 /** Element types that are single numbers when written without dimensions. */
 const SCALAR_DTYPES: readonly SampleDtype[] = ['num', 'int'];
 const INTEGER_DTYPES: readonly SampleDtype[] = ['i32', 'int'];
-/** Range used when a spec has no `in [lo, hi]` (interface.md §1). */
+/** Range used when a spec has no `in [lo, hi]` (docs/annotations.md). */
 export const DEFAULT_SAMPLE_RANGE: readonly [number, number] = [-1, 1];
 
 /** The parameter named by a `@sample` tag. */

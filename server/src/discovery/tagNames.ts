@@ -1,7 +1,7 @@
 // Our tag names, the ordinary JSDoc/TSDoc tags we leave alone, and the rule that decides when
 // an unknown tag is a misspelling of ours (flagged with "did you mean").
 
-/** Every tag Gradient Probe reads (interface.md §1). */
+/** Every tag Gradient Probe reads (docs/annotations.md). */
 export const OP_TAG_NAMES = ['backward', 'sample', 'samples', 'fixed', 'construct', 'tolerance', 'seed'] as const;
 export type OpTagName = (typeof OP_TAG_NAMES)[number];
 

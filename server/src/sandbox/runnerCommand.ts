@@ -13,7 +13,7 @@ const PRLIMIT_PATH = '/usr/bin/prlimit';
 /**
  * Address space a Node process needs before user code allocates anything, in MiB. Measured on
  * Node 20: a runner reserves ~0.73 GiB of virtual memory at start (VmSize), and the vm timeout
- * adds a watchdog thread; 1 GiB leaves room for those. (shared/design/sandbox.md: 512 MiB is too
+ * adds a watchdog thread; 1 GiB leaves room for those. (Measured during design: 512 MiB is too
  * small for Node to start, 2 GiB in total worked.)
  */
 export const RUNTIME_ADDRESS_SPACE_MB = 1024;

@@ -1,5 +1,6 @@
-// A schema check of the version-1 JSON report as the interface (§3, "--json report") defines
-// it: required fields, their types, and the summary agreeing with the pairs. Returns violations.
+// A check of the version-1 JSON report as docs/report-format.md defines it: required fields,
+// their types, and what a JSON Schema cannot state (the summary agreeing with the pairs,
+// relative paths). Returns violations.
 
 const VERDICTS = ['pass', 'mismatch', 'inconclusive', 'error'];
 
