@@ -54,15 +54,16 @@ const ENGINE_GLOBAL_SYNTAX = [
 // ---- Layering -------------------------------------------------------------------------------
 // DEVELOPERS.md's layering table, enforced: which server/src folders each folder may import.
 // Type-only imports count too. Change the table and this map together.
-const SERVER_FOLDERS = ['engine', 'discovery', 'sandbox', 'core', 'project', 'cli', 'lsp'];
+const SERVER_FOLDERS = ['engine', 'text', 'discovery', 'sandbox', 'core', 'project', 'cli', 'lsp'];
 const MAY_IMPORT = {
   engine: [],
-  discovery: ['engine'],
+  text: [],
+  discovery: ['engine', 'text'],
   sandbox: ['engine'],
   core: ['engine', 'discovery', 'sandbox'],
-  project: ['engine'],
-  cli: ['engine', 'core', 'project', 'lsp'],
-  lsp: ['engine', 'core', 'project', 'discovery'],
+  project: ['engine', 'text'],
+  cli: ['engine', 'core', 'project', 'lsp', 'text'],
+  lsp: ['engine', 'core', 'project', 'discovery', 'text'],
 };
 const EDITOR_LIBRARIES = { regex: '^vscode(-languageserver|-languageclient)?(/|-|$)', message: 'Only server/src/lsp (vscode-languageserver) and client/src (vscode, vscode-languageclient) speak to the editor.' };
 
@@ -75,9 +76,9 @@ function layering(folder) {
       message: `server/src/${folder} may import only ${MAY_IMPORT[folder].length ? MAY_IMPORT[folder].join(', ') : 'itself'} among the server folders (DEVELOPERS.md, layering table).`,
     });
   }
-  if (folder === 'engine') {
-    // Bundled and evaluated inside the sandbox: no package, no Node built-in, nothing but itself.
-    patterns.push({ regex: '^(?!\\./)', message: 'server/src/engine imports nothing outside itself: it runs inside the sandbox (DEVELOPERS.md, layering table).' });
+  if (folder === 'engine' || folder === 'text') {
+    // The engine is bundled and evaluated inside the sandbox; text is a leaf every folder may use.
+    patterns.push({ regex: '^(?!\\./)', message: `server/src/${folder} imports nothing outside itself (DEVELOPERS.md, layering table).` });
   }
   if (folder === 'cli') {
     // `gradient-probe lsp` starts the language server; nothing else of it belongs to the CLI.

@@ -4,7 +4,7 @@ import type { SampleDtype, SampleSpec } from '../engine/types';
 import { TagCursor, type Token } from './lexer';
 import type { Span, SpanProblem } from './positions';
 import type { RawTag } from './tagText';
-import { closestWord } from './tagNames';
+import { nearestName } from '../text/nearestName';
 import { findJsonSyntaxError } from './jsonError';
 
 const DTYPES: readonly SampleDtype[] = ['f64', 'f32', 'num', 'i32', 'int'];
@@ -70,7 +70,7 @@ function parseSpec(c: TagCursor, param: string, problems: SpanProblem[]): Sample
   }
   if (head.kind === 'punct' && head.text === '=') return parseLiteral(c, head, param, problems);
   if (head.kind !== 'word' || !DTYPES.includes(head.text as SampleDtype)) {
-    const near = head.kind === 'word' ? closestWord(head.text, DTYPES) : undefined;
+    const near = head.kind === 'word' ? nearestName(head.text, DTYPES) : undefined;
     const hint = near ? `; did you mean '${near}'?` : ' (f64, f32, num, i32 or int), or `= JSON`';
     problems.push(c.problemAt(head, `@sample ${param}: unknown element type '${head.text}'${hint}`));
     return undefined;
@@ -103,7 +103,7 @@ function parseSpec(c: TagCursor, param: string, problems: SpanProblem[]): Sample
       }
       continue;
     }
-    const near = word.kind === 'word' ? closestWord(word.text, ['in', 'avoid', 'fixed']) : undefined;
+    const near = word.kind === 'word' ? nearestName(word.text, ['in', 'avoid', 'fixed']) : undefined;
     const hint = near && near !== word.text ? `; did you mean '${near}'?` : ' (expected `in [lo, hi]`, `avoid v, ...` or `fixed`)';
     problems.push(c.problemAt(word, `@sample ${param}: unexpected '${word.text}'${hint}`));
     return undefined;
