@@ -1,7 +1,8 @@
 // The two kinds of runner (the process pool and the isolated interpreter) share one job queue and
 // one supervised process, so they keep the same promises: a job never rejects, even when the
 // engine cannot be read; a caller's abort listener is gone once the job settles (a long-lived
-// signal must not collect them); and the interpreter's counters reach the Checker's stats.
+// signal must not collect them); the parent's watchdog ends a job whose process never answers;
+// and the interpreter's counters reach the Checker's stats.
 import assert from 'node:assert/strict';
 import { getEventListeners } from 'node:events';
 import { readFileSync } from 'node:fs';
@@ -56,6 +57,26 @@ describe('sandbox supervision shared by both runners', function () {
         assert.ok('error' in r && r.cause === 'runner', JSON.stringify(r));
         assert.match(r.error, /the check engine could not be read: .*no-such-engine\.js/);
         assert.equal(runner.stats.spawned, 0);
+      } finally {
+        await runner.dispose();
+      }
+    });
+  }
+
+  for (const kind of ['pool', 'interpreter'] as const) {
+    it(`${kind}: the parent's watchdog ends a job the process never answers, and the next job gets a new process`, async () => {
+      const silent = fixture('silentRunner.js');
+      const runner = kind === 'pool' ? new RunnerPool({ size: 1, childScript: silent }) : new IsolatedRunner({ workerScript: silent });
+      const short = settingsWith({ timeLimitMs: 300 });
+      try {
+        for (let i = 1; i <= 2; i++) {
+          const r = await runner.run({ ...job, settings: short });
+          assert.ok('error' in r && r.cause === 'timeout', JSON.stringify(r));
+          assert.match(r.error, /^timed out after 300 ms \(the (runner|interpreter) did not stop by itself and was killed\)$/);
+          assert.equal(runner.stats.timeouts, i);
+          // The pool starts a replacement at once (it stays warm); the interpreter on the next job.
+          assert.equal(runner.stats.spawned, kind === 'pool' ? i + 1 : i);
+        }
       } finally {
         await runner.dispose();
       }
