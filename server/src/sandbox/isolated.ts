@@ -8,7 +8,7 @@ import { EngineCode, ISOLATED_WORKER_SCRIPT_NAME, locateScript } from './assets'
 import { ISOLATED_HEAP_FACTOR, ISOLATED_MEMORY_CAP_MB } from './isolatedEval';
 import type { IsolatedReply, IsolatedRequest } from './isolatedWorker';
 import { JobQueue, closedWhile, type QueuedJob } from './jobQueue';
-import { OUTPUT_LIMIT_CHARS, emptyStats, type RunJob, type RunResult, type RunnerStats } from './jobTypes';
+import { emptyStats, runnerJobFields, type RunJob, type RunResult, type RunnerStats } from './jobTypes';
 import { RESIDENT_HEADROOM_MB } from './memoryWatch';
 import { runResultFromReply } from './runReply';
 import { runnerEnvironment } from './runnerCommand';
@@ -133,11 +133,8 @@ export class IsolatedRunner {
       id: queued.id,
       engineCode,
       bundleCode: job.bundleCode,
-      requestJson: JSON.stringify({ op: job.op, settings: job.settings }),
-      seed: job.op.seed ?? job.settings.seed,
-      timeLimitMs: limitMs,
       memoryLimitMb: memoryMb,
-      outputLimitChars: OUTPUT_LIMIT_CHARS,
+      ...runnerJobFields(job),
     };
     proc.send(request);
   }

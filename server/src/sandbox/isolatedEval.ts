@@ -2,7 +2,7 @@
 // JavaScript interpreter with no Node API at all, its own memory limit and an interrupt handler
 // for time. The same context setup and driver as the process runner, so verdicts agree.
 import type { QuickJSContext, QuickJSRuntime, QuickJSWASMModule } from 'quickjs-emscripten';
-import type { RunnerReply } from './jobTypes';
+import type { RunnerJobFields, RunnerReply } from './jobTypes';
 import { CONTEXT_SETUP_SOURCE, FIXED_DATE_MS, bundleFramesFrom, wrapWithBuiltins } from './contextSetup';
 
 /**
@@ -32,16 +32,12 @@ export const ISOLATED_HEAP_FACTOR = 2;
 const READ_BACK_MS = 1000;
 
 /** One op's check for the interpreter: the same fields the process runner gets. */
-export interface IsolatedJob {
+export type IsolatedJob = RunnerJobFields & {
   engineCode: string;
   bundleCode: string;
-  /** JSON of the engine's CheckRequest ({ op, settings }). */
-  requestJson: string;
-  seed: number;
-  timeLimitMs: number;
+  /** The interpreter's memory limit, in MiB (already capped at ISOLATED_MEMORY_CAP_MB). */
   memoryLimitMb: number;
-  outputLimitChars: number;
-}
+};
 
 export type IsolatedAnswer = RunnerReply & {
   /** The interpreter may be in a bad state (out of memory, an abort): the worker should start afresh. */

@@ -16,6 +16,28 @@ export interface RunJob {
   signal?: AbortSignal;
 }
 
+/** What every runner process is told about a job, whichever kind it is (the wire form of a RunJob's check). */
+export interface RunnerJobFields {
+  /** JSON of the engine's CheckRequest ({ op, settings }). */
+  requestJson: string;
+  /** Seed of the context's Math.random (the op's seed). */
+  seed: number;
+  /** Time limit for loading the module and running the check, in whole milliseconds (vm accepts only a positive integer). */
+  timeLimitMs: number;
+  /** Most characters of console text kept for the op. */
+  outputLimitChars: number;
+}
+
+/** The fields every runner process gets for a job. */
+export function runnerJobFields(job: RunJob): RunnerJobFields {
+  return {
+    requestJson: JSON.stringify({ op: job.op, settings: job.settings }),
+    seed: job.op.seed ?? job.settings.seed,
+    timeLimitMs: Math.max(1, Math.floor(job.settings.timeLimitMs)),
+    outputLimitChars: OUTPUT_LIMIT_CHARS,
+  };
+}
+
 /** A place in the bundle's code: 1-based line, 0-based column. */
 export interface BundleFrame {
   line: number;

@@ -6,7 +6,7 @@
 import { availableParallelism, cpus } from 'node:os';
 import { CHILD_SCRIPT_NAME, EngineCode, locateScript } from './assets';
 import { JobQueue, closedWhile, type QueuedJob } from './jobQueue';
-import { OUTPUT_LIMIT_CHARS, emptyStats, type RunnerStats, type RunJob, type RunResult } from './jobTypes';
+import { emptyStats, runnerJobFields, type RunnerStats, type RunJob, type RunResult } from './jobTypes';
 import { RESIDENT_HEADROOM_MB } from './memoryWatch';
 import type { ChildMessage, HelloMessage, JobMessage, ResultMessage } from './protocol';
 import { runResultFromReply } from './runReply';
@@ -331,11 +331,7 @@ export class RunnerPool {
       id: queued.id,
       bundleKey: job.bundleKey,
       bundleCode: known ? undefined : job.bundleCode,
-      requestJson: JSON.stringify({ op: job.op, settings: job.settings }),
-      seed: job.op.seed ?? job.settings.seed,
-      // vm accepts only a positive integer timeout.
-      timeLimitMs: Math.max(1, Math.floor(job.settings.timeLimitMs)),
-      outputLimitChars: OUTPUT_LIMIT_CHARS,
+      ...runnerJobFields(job),
     };
     runner.process.send(message);
   }

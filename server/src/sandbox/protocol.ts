@@ -1,6 +1,6 @@
 // The messages between the runner pool (parent) and a runner process (dist/sandbox-child.js),
 // declared once so both sides agree. Every field is plain data: strings and numbers only.
-import type { RunnerReply } from './jobTypes';
+import type { RunnerJobFields, RunnerReply } from './jobTypes';
 
 /** Parent → child, once after start: the engine's source, evaluated in every fresh context. */
 export interface InitMessage {
@@ -9,22 +9,14 @@ export interface InitMessage {
 }
 
 /** Parent → child: one op's whole check. */
-export interface JobMessage {
+export type JobMessage = {
   type: 'job';
   id: number;
   /** Content hash of the bundle; the child keeps compiled bundles by this key. */
   bundleKey: string;
   /** The bundle's code, sent only when the parent believes the child lacks it. */
   bundleCode?: string;
-  /** JSON of the engine's CheckRequest ({ op, settings }). */
-  requestJson: string;
-  /** Seed of the context's Math.random (the op's seed). */
-  seed: number;
-  /** vm timeout for loading the module and running the check, in milliseconds. */
-  timeLimitMs: number;
-  /** Most characters of console text kept for the op. */
-  outputLimitChars: number;
-}
+} & RunnerJobFields;
 
 export type ParentMessage = InitMessage | JobMessage;
 
