@@ -111,8 +111,7 @@ export class RunnerPool {
     for (const runner of this.runners) {
       if (runner.current === job) {
         this.finishJob(runner, { error: 'cancelled', elapsedMs: Date.now() - job.startedAt, cause: 'cancelled' });
-        void this.kill(runner, 'cancelled');
-        this.replenish(runner.memoryLimitMb);
+        this.replace(runner, 'cancelled');
         return;
       }
     }
@@ -186,8 +185,7 @@ export class RunnerPool {
     if (timedOut) {
       // A context stopped mid-run may leave the heap full of what the loop built; a new
       // runner costs one cold start and guarantees the next op a clean process.
-      void this.kill(runner, 'timed out');
-      this.replenish(runner.memoryLimitMb);
+      this.replace(runner, 'timed out');
       return;
     }
     runner.state = 'idle';
@@ -310,6 +308,7 @@ export class RunnerPool {
     this.sendJob(runner, job);
   }
 
+  /** Kills a runner and starts another in its place, so the pool stays warm. */
   private replace(runner: Runner, reason: string): void {
     void this.kill(runner, reason);
     this.replenish(runner.memoryLimitMb);
