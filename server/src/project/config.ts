@@ -5,8 +5,8 @@ import { existsSync, readFileSync, statSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { DEFAULT_SETTINGS, type CheckSettings } from '../engine/settings';
 import { CONFIG_FIELDS, FILE_GLOB_KEYS, describeValue, fieldForSetting, type ConfigField } from './configFields';
+import { nearestName } from '../text/nearestName';
 import { blankJsoncExtras } from './jsonc';
-import { nearestName } from './nearestName';
 import { relativeInside } from './paths';
 
 /** The name of the project configuration file. */
