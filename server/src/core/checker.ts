@@ -69,7 +69,7 @@ export function bindingsOf(op: OpDescriptor): string[] {
   } else {
     names.push(t.forwardName);
   }
-  if (!t.backwardIsMethod) names.push(t.backwardName);
+  if (!t.backwardIsMethod && !t.libraryGradient) names.push(t.backwardName);
   if (t.samplesFactory) names.push(t.samplesFactory);
   if (t.constructFactory) names.push(t.constructFactory);
   return names;
@@ -166,7 +166,8 @@ export class Checker {
     // One bundle per file, exposing every runnable op's bindings (not only the filtered ones),
     // so the cache serves every filter.
     const bindings = listing.ops.filter((op) => op.problems.length === 0).flatMap(bindingsOf);
-    const bundle = await this.bundler.bundle({ file: abs, text: source, bindings });
+    const tensorLibrary = listing.ops.find((op) => op.problems.length === 0 && op.target.tensorLibrary)?.target.tensorLibrary;
+    const bundle = await this.bundler.bundle({ file: abs, text: source, bindings, ...(tensorLibrary ? { tensorLibrary } : {}) });
     if (!bundle.ok) {
       const location = bundle.location;
       const problems = location && location.file === abs ? [{ line: location.line, column: location.column, message: bundle.message }] : undefined;
