@@ -8,7 +8,7 @@ import { FIXED_DATE_MS } from '../../server/src/sandbox/contextSetup';
 import { TENSOR_PLATFORM_NAME } from '../../server/src/sandbox/tensorPlatform';
 import { describeResults, fixture, resultOf, settingsWith } from './helpers';
 
-describe('sandbox: TensorFlow.js runs in the runner context', function () {
+describe('sandbox: TensorFlow.js runs in the runner context and the isolated interpreter', function () {
   this.timeout(180_000);
   let checker: Checker;
   before(() => {
@@ -37,10 +37,33 @@ describe('sandbox: TensorFlow.js runs in the runner context', function () {
     });
   });
 
+  it('checks tf.customGrad ops and library-composed forwards through the library gradient', async () => {
+    const results = await checker.checkFile(fixture('tensor', 'customGrad.ts'));
+    const show = describeResults(results);
+    // tanh' = 1 − tanh² (handbook identity): the custom gradient is right.
+    assert.equal(resultOf(results, 'softVentLimit').verdict, 'pass', show);
+    assert.equal(resultOf(results, 'softVentLimit').gradientSource, 'library');
+    assert.equal(resultOf(results, 'softVentLimit').backward, 'library-gradient');
+    const doubled = resultOf(results, 'doubledVentLimit');
+    assert.equal(doubled.verdict, 'mismatch', show);
+    assert.match(doubled.message, /gradient of 'opening' disagrees at opening\[\d\]/);
+    assert.equal(resultOf(results, 'paneWarmth').verdict, 'pass', show);
+    assert.equal(resultOf(results, 'paneWarmthByHand').verdict, 'pass', show);
+    for (const r of results) assert.equal(r.params[0]?.dtype, 'f32', show);
+  });
+
   it('runs the same op in the isolated interpreter', async () => {
     const results = await checker.checkFile(fixture('tensor', 'platform.ts'), { settings: settingsWith({ timeLimitMs: 120_000, isolation: 'interpreter' }) });
     const r = resultOf(results, 'louvreDrag');
     assert.equal(r.isolation, 'interpreter');
     assert.equal(r.verdict, 'pass', describeResults(results));
+    const custom = await checker.checkFile(fixture('tensor', 'customGrad.ts'), {
+      settings: settingsWith({ timeLimitMs: 120_000, isolation: 'interpreter' }),
+      filter: 'VentLimit',
+    });
+    assert.deepEqual(custom.map((x) => [x.forward, x.verdict, x.isolation]), [
+      ['softVentLimit', 'pass', 'interpreter'],
+      ['doubledVentLimit', 'mismatch', 'interpreter'],
+    ], describeResults(custom));
   });
 });
