@@ -2,6 +2,7 @@
 // library, which parameter types are its tensors, which consts hold a `customGrad` result, and
 // the `@backward library-gradient` spelling (with its near misses).
 import ts from 'typescript';
+import { unwrapExpression } from './moduleBindings';
 import { editDistance } from './tagNames';
 
 /** Packages whose namespace has `tensor`, `tidy` and `grads` (the union package, its core, the Node bindings). */
@@ -79,7 +80,9 @@ export function customGradFunction(init: ts.Expression, lib: TensorLibraryImport
   const named =
     (ts.isIdentifier(callee) && lib.customGrads.has(callee.text)) ||
     (ts.isPropertyAccessExpression(callee) && ts.isIdentifier(callee.expression) && lib.namespaces.has(callee.expression.text) && callee.name.text === 'customGrad');
-  const fn = init.arguments[0];
+  const first = init.arguments[0];
+  // `customGrad(((x: Tensor, save: GradSaveFunc) => ...) as CustomGradientFunc<Tensor>)` too.
+  const fn = first && unwrapExpression(first);
   if (!named || !fn || !(ts.isArrowFunction(fn) || ts.isFunctionExpression(fn))) return undefined;
   return fn;
 }
