@@ -2,7 +2,7 @@
 import tseslint from 'typescript-eslint';
 
 export default tseslint.config(
-  { ignores: ['tmp/**', '**/*.mjs', 'dist/**', 'node_modules/**', 'test/corpus/**', 'test/fixtures/**', 'examples/**', '.editor-host/**', 'bench/results/**', '*.mjs', 'bin/**'] },
+  { ignores: ['tmp/**', '**/*.mjs', 'dist/**', 'node_modules/**', 'test/corpus/**', 'test/fixtures/**', 'test/outside/**', 'examples/**', '.editor-host/**', 'bench/results/**', '*.mjs', 'bin/**'] },
   ...tseslint.configs.recommended,
   {
     files: ['**/*.ts'],
