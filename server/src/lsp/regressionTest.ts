@@ -19,6 +19,10 @@ export type SnippetOutcome = { snippet: string } | { reason: string };
 export function regressionTestFor(op: OpDescriptor, result: OpResult, tolerance: number): SnippetOutcome {
   if (result.verdict !== 'mismatch') return { reason: `${op.forward} is not a mismatch (verdict ${result.verdict}); there is no failing case to copy` };
   if (!result.inputs) return { reason: `the sample of ${op.forward} was too large to record, so it cannot be written into a test` };
+  // The snippet calls the functions on plain arrays; tensor ops would need the library's tensors.
+  if (op.target.libraryGradient || op.params.some((p) => p.tensor)) {
+    return { reason: `${op.forward} works with TensorFlow.js tensors; a regression test snippet is written for array ops only (use the reported seed and sample)` };
+  }
   const param = result.params.filter((p) => p.verdict === 'mismatch').sort((a, b) => b.maxRelError - a.maxRelError)[0];
   if (!param || !param.worst) return { reason: `${op.forward}: no mismatching element was recorded` };
 
