@@ -1,5 +1,6 @@
 // The Checker: the one orchestration shared by the CLI, the language server and benchmarks.
 // discovery → bundle once per file → one sandbox job per op (in parallel across runners) → OpResult.
+import { setMaxListeners } from 'node:events';
 import { readFileSync } from 'node:fs';
 import { dirname, relative, resolve } from 'node:path';
 import { discoverOps, type DiscoveryResult } from '../discovery/index';
@@ -179,6 +180,8 @@ export class Checker {
 
     // The per-file cap and the caller's signal both stop what is still queued or running.
     const stop = new AbortController();
+    // Every queued op listens to it (one listener each): not a leak, whatever Node's default of 10 says.
+    setMaxListeners(runnable.length + 10, stop.signal);
     const fileLimitMs = settings.timeLimitMs * FILE_TIME_LIMIT_FACTOR;
     let stopReason = 'cancelled';
     // Where the module threw while loading, when that is a line of this file.
