@@ -111,7 +111,9 @@ export function plain(x: Float64Array): Float64Array { return x; }
     const op = opNamed(discover(text), 'plain');
     assert.deepEqual(op.problems, []);
     assert.equal(op.target.libraryGradient, undefined);
-    assert.equal(op.target.tensorLibrary, undefined);
+    // Every op of a module that imports the library calls through it (tensor outputs read back).
+    assert.equal(op.target.tensorLibrary, '@tensorflow/tfjs');
+    assert.deepEqual(op.params.map((p) => p.tensor), [undefined]);
   });
 
   it('says when library-gradient has no library to take the gradient from', () => {
@@ -124,6 +126,7 @@ export function lonely(x: Float64Array): Float64Array { return x; }
 `;
     const op = opNamed(discover(text), 'lonely');
     expectProblem(text, op, '@backward library-gradient', /imports no TensorFlow\.js package/);
+    assert.equal(op.target.tensorLibrary, undefined);
   });
 
   it('has the bundle import the library namespace the op needs, and only a TensorFlow.js package', () => {

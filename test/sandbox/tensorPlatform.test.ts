@@ -37,6 +37,16 @@ describe('sandbox: TensorFlow.js runs in the runner context and the isolated int
     });
   });
 
+  it('reads a tensor output back and disposes every tensor a call makes', async () => {
+    const results = await checker.checkFile(fixture('tensor', 'platform.ts'), { filter: 'louvreLift' });
+    const r = resultOf(results, 'louvreLift');
+    assert.equal(r.verdict, 'pass', describeResults(results));
+    const counts = (r.output ?? '').trim().split('\n').map(Number);
+    assert.ok(counts.length === r.calls.forward && counts.length > 5, `one count per forward call: ${r.output}`);
+    // The library holds the same number of tensors at the start of every call: none leaked.
+    assert.deepEqual([...new Set(counts)], [counts[0]], r.output);
+  });
+
   it('checks tf.customGrad ops and library-composed forwards through the library gradient', async () => {
     const results = await checker.checkFile(fixture('tensor', 'customGrad.ts'));
     const show = describeResults(results);

@@ -226,7 +226,10 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   if (samplesFactory) op.target.samplesFactory = samplesFactory;
   if (constructFactory) op.target.constructFactory = constructFactory;
   if (libraryGradient) op.target.libraryGradient = true;
-  if ((hasTensors || libraryGradient) && libraryOf(site).specifier) op.target.tensorLibrary = libraryOf(site).specifier;
+  // Any op of a module that imports the library: tensor outputs are read back, and every call
+  // runs in the library's scope, so the tensors it makes are disposed.
+  const specifier = libraryOf(site).specifier;
+  if (specifier) op.target.tensorLibrary = specifier;
   if (tolerance !== undefined) op.tolerance = tolerance;
   if (seed !== undefined) op.seed = seed;
   if (resolved?.span) op.backwardLocation = { file: ctx.fileName, ...ctx.mapper.at(resolved.span.start) };

@@ -71,9 +71,9 @@ export class TensorBridge {
     }
   }
 
-  /** The bridge of an op that passes tensors or asks for the library's gradient; null for other ops. */
+  /** The bridge of an op of a module that imports the library (tensors in or out, or its gradient); null for other ops. */
   static forOp(op: OpDescriptor, exposed: Record<string, unknown>): TensorBridge | null {
-    let tensors = op.target.libraryGradient === true;
+    let tensors = op.target.libraryGradient === true || op.target.tensorLibrary !== undefined;
     for (let i = 0; i < op.params.length; i++) if (op.params[i].tensor) tensors = true;
     if (!tensors) return null;
     const name = op.target.tensorLibrary ?? 'TensorFlow.js';
