@@ -183,6 +183,25 @@ describe('engine: tf.customGrad checked through the library gradient (oracle: tf
     assert.equal(tf.memory().numTensors, before);
   });
 
+  it('takes tensors from a @samples factory: read back, differentiated in their shape, and disposed', () => {
+    const make = (c: Case): { exposed: Record<string, unknown>; op: OpDescriptor } => {
+      const built = libraryOp(c.custom, [['x', spec('f32', [2, 3])]]);
+      delete built.op.params[0]!.sample;
+      built.exposed.opSamples = (random: () => number) => [tf.tensor(Array.from({ length: 6 }, () => 4 * random() - 2), [2, 3])];
+      built.op.target.samplesFactory = 'opSamples';
+      return built;
+    };
+    const before = tf.memory().numTensors;
+    const good = check(make(CORRECT[1]!));
+    assert.equal(good.verdict, 'pass', show(good));
+    assert.deepEqual(good.params[0]!.shape, [2, 3]);
+    assert.equal(good.params[0]!.dtype, 'f32');
+    const bad = check(make(BUGGY[0]!));
+    assert.equal(bad.verdict, 'mismatch', show(bad));
+    assert.equal(bad.params[0]!.worst!.index.length, 2, 'the worst element is named in the tensor\'s own shape');
+    assert.equal(tf.memory().numTensors, before, 'the factory\'s tensors were disposed');
+  });
+
   it('says clearly when a differentiated parameter is not a tensor', () => {
     const built = libraryOp((a: Tensor) => tf.mul(a, 2), [['a', spec('f32', [3])]]);
     built.op.params.push({ name: 'k', isField: false, sample: spec('num') });

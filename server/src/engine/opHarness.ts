@@ -113,6 +113,7 @@ export class OpHarness {
       this.instance = inst as Record<string, unknown>;
     }
     this.sample = drawSample(this.op, rng, this.instance, this.samplesFn as ((r: () => number) => unknown) | null, maxElements);
+    if (this.tensors !== null && this.samplesFn !== null) this.tensors.adoptFactoryTensors(this.sample, this.op.fixed ?? []);
     return this.sample;
   }
 

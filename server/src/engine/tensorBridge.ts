@@ -4,8 +4,10 @@
 // gradient as `dy`). Every call runs in the library's `tidy` scope, so each tensor made during
 // it (inputs, intermediates, outputs, gradients) is disposed when it returns.
 
-import { F32, F64, I32, describeThrown, describeValue, formatIndex, isArray, isView, objectKeys, positionOf, reflectApply } from './builtins';
+import { F32, F64, I32, contains, describeThrown, describeValue, formatIndex, isArray, isView, objectKeys, positionOf, reflectApply } from './builtins';
 import { CheckStop, fail } from './failure';
+import { ParamSlot } from './paramSlot';
+import type { Sample } from './sampling';
 import type { BackwardArg, OpDescriptor } from './types';
 import { TENSOR_LIBRARY_BINDING } from './types';
 
@@ -180,6 +182,53 @@ export class TensorBridge {
       }
       return this.readBack(reflectApply(fn, thisArg, call), false);
     });
+  }
+
+  /**
+   * A `@samples` factory may return tensors for tensor parameters: each is read back into a
+   * Float32Array (the engine moves elements in place), its shape kept for the calls, the tensor
+   * disposed, and the parameter differentiated unless it is `@fixed` or not float32.
+   */
+  adoptFactoryTensors(sample: Sample, fixed: string[]): void {
+    const added: (ParamSlot | null)[] = [];
+    let any = false;
+    for (let i = 0; i < sample.args.length; i++) {
+      added[i] = null;
+      const v = sample.args[i];
+      const entry = this.tensorParams[i];
+      if (!isTensor(v) || !entry) continue;
+      const name = sample.argNames[i];
+      const shape = copyList(v.shape);
+      const data = v.dataSync();
+      const copy = new F32(data.length);
+      for (let k = 0; k < data.length; k++) copy[k] = data[k];
+      const float = v.dtype === 'float32';
+      try {
+        const dispose = (v as { dispose?: unknown }).dispose;
+        if (typeof dispose === 'function') reflectApply(dispose, v, []);
+      } catch {
+        // a tensor that cannot be disposed stays; the check goes on
+      }
+      entry.shape = shape;
+      entry.dtype = float ? 'float32' : 'int32';
+      sample.args[i] = shape.length === 0 ? copy[0] : copy;
+      if (!float || contains(fixed, name)) continue;
+      const host = sample.args as unknown as Record<number, unknown>;
+      added[i] = shape.length === 0
+        ? new ParamSlot(name, name, 'f32', 'f32', [], 1, host, i, null, null, [])
+        : new ParamSlot(name, name, 'f32', 'f32', shape, copy.length, host, i, copy, null, []);
+      any = true;
+    }
+    if (!any) return;
+    // Slots in declaration order, as the backward's gradients come.
+    const slots: ParamSlot[] = [];
+    for (let i = 0; i < sample.argNames.length; i++) {
+      const adopted = added[i];
+      if (adopted) slots[slots.length] = adopted;
+      else for (let s = 0; s < sample.slots.length; s++) if (sample.slots[s].name === sample.argNames[i]) slots[slots.length] = sample.slots[s];
+    }
+    for (let s = 0; s < sample.slots.length; s++) if (!contains(sample.argNames, sample.slots[s].name)) slots[slots.length] = sample.slots[s];
+    sample.slots = slots;
   }
 
   /**
