@@ -3,7 +3,7 @@
 // the `@backward library-gradient` spelling (with its near misses).
 import ts from 'typescript';
 import { unwrapExpression } from './moduleBindings';
-import { editDistance } from './tagNames';
+import { editDistance } from '../text/nearestName';
 
 /** Packages whose namespace has `tensor`, `tidy` and `grads` (the union package, its core, the Node bindings). */
 const TENSOR_LIBRARY_MODULE = /^@tensorflow\/tfjs(?:-core|-node|-node-gpu)?$/;
