@@ -202,6 +202,16 @@ describe('engine: tf.customGrad checked through the library gradient (oracle: tf
     assert.equal(tf.memory().numTensors, before, 'the factory\'s tensors were disposed');
   });
 
+  it('says why a backward that indexes a tensor $dy like an array gets NaN', () => {
+    const built = libraryOp((a: Tensor) => tf.mul(a, 2), [['a', spec('f32', [3])]]);
+    built.op.target.libraryGradient = false;
+    built.op.target.backwardName = 'opBackward';
+    built.exposed.opBackward = (_a: Tensor, dy: Float32Array) => Float32Array.from([0, 1, 2], (i) => 2 * dy[i]!);
+    const o = check(built);
+    assert.equal(o.verdict, 'error');
+    assert.match(o.message, /has NaN at index \[0\] \(\$dy and \$y are tensors here, since the forward returned a tensor\)/);
+  });
+
   it('says clearly when a differentiated parameter is not a tensor', () => {
     const built = libraryOp((a: Tensor) => tf.mul(a, 2), [['a', spec('f32', [3])]]);
     built.op.params.push({ name: 'k', isField: false, sample: spec('num') });

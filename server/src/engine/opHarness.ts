@@ -252,7 +252,7 @@ export class OpHarness {
       const j = firstNonFinite(dests[p]);
       if (j >= 0) {
         const where = slots[p].shape.length ? ` at index ${formatIndex(unravelSlot(slots[p], j))}` : '';
-        fail(`gradient of '${slots[p].name}' has ${nonFiniteName(dests[p][j])}${where}`);
+        fail(`gradient of '${slots[p].name}' has ${nonFiniteName(dests[p][j])}${where}${this.tensors !== null ? this.tensors.upstreamNote() : ''}`);
       }
     }
   }

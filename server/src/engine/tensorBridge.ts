@@ -169,6 +169,14 @@ export class TensorBridge {
     return this.lib.tensor(data, shape, 'float32');
   }
 
+  /**
+   * For a message about a backward's NaN: indexing a tensor gives undefined, so a backward that
+   * treats `$dy` as an array while it is a tensor computes NaN.
+   */
+  upstreamNote(): string {
+    return this.outputShape !== null ? ' ($dy and $y are tensors here, since the forward returned a tensor)' : '';
+  }
+
   /** Calls a hand-written backward with tensors where the forward had them; reads tensors back. */
   callBackward(fn: AnyFunction, thisArg: unknown, list: unknown[], kinds: BackwardArg[]): unknown {
     return this.scoped(() => {
