@@ -37,6 +37,18 @@ describe('sandbox: TensorFlow.js runs in the runner context and the isolated int
     });
   });
 
+  it('gives the library nothing that reaches the host: no code from strings, no timers, no fetch', async () => {
+    const results = await checker.checkFile(fixture('tensor', 'platform.ts'), { filter: 'probePlatform' });
+    const r = resultOf(results, 'probePlatform');
+    assert.equal(r.verdict, 'pass', describeResults(results));
+    const out = r.output ?? '';
+    assert.match(out, /^constructor: threw EvalError: /m, out);
+    assert.match(out, /^timer: threw Error: timers are not available/m, out);
+    assert.match(out, /^utf8: returned "Quillmere ✓"$/m, out);
+    assert.match(out, /^latin1: threw Error: only utf-8 text can be encoded/m, out);
+    assert.match(out, /^fetch: rejected: fetching "file:\/\/\/etc\/passwd" is not possible here/m, out);
+  });
+
   it('reads a tensor output back and disposes every tensor a call makes', async () => {
     const results = await checker.checkFile(fixture('tensor', 'platform.ts'), { filter: 'louvreLift' });
     const r = resultOf(results, 'louvreLift');
