@@ -11,6 +11,7 @@ import { estimateGrouped } from './groupedCheck';
 import { paramHints, swapHints, type ParamEvidence } from './hints';
 import { ElementState, compareElements, floorsFor, type Comparison, type ElementEstimates } from './judge';
 import { elementLine } from './lines';
+import type { InstanceSnapshot } from './instanceState';
 import { elementName, unravelSlot, OpHarness } from './opHarness';
 import { describeOutputIndex, layoutPrecision } from './outputLayout';
 import type { ParamSlot } from './paramSlot';
@@ -206,13 +207,20 @@ function runAttempt(
     dotUs[p] = u;
   }
   const scratch = new F64(m);
+  let instanceState: InstanceSnapshot | null = null;
   const callBackward = (w: Float64Array, into: Float64Array[]): void => {
     // A method's backward may read state its forward cached, and the structure probes have run
-    // the forward at moved points since: run it at the sample point first, every time.
-    if (h.backwardNeedsFreshForward) h.forwardInto(scratch, true);
+    // the forward at moved points since: run it at the sample point once, keep the instance as
+    // it left it, and put that state back after every backward call (a layer's backward may
+    // accumulate into its fields: `this.gradW[k] += ...`).
+    if (h.backwardNeedsFreshForward && instanceState === null) {
+      h.forwardInto(scratch, true);
+      instanceState = h.snapshotInstance();
+    }
     h.backwardInto(h.takesUpstream ? w : null, y0, slots, into);
     const changed = guard.firstChange(h.inputValues());
     if (changed !== null) fail(`backward changed its input ${changed}`);
+    if (instanceState !== null) instanceState.restore();
   };
   for (let k = 0; k < K; k++) {
     const into: Float64Array[] = [];

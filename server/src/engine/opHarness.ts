@@ -6,6 +6,7 @@ import { F64, describeThrown, describeValue, formatIndex, formatNumber, position
 import { CheckStop, fail } from './failure';
 import { readGradients } from './gradients';
 import { InputGuard } from './inputGuard';
+import { InstanceSnapshot } from './instanceState';
 import { buildValue, describeOutputIndex, detectLayout, firstNonFinite, flattenInto, nonFiniteName, type OutputLayout } from './outputLayout';
 import type { ParamSlot } from './paramSlot';
 import type { RandomSource } from './random';
@@ -214,12 +215,28 @@ export class OpHarness {
    */
   backwardInto(dy: Float64Array | null, y: Float64Array, slots: ParamSlot[], dests: Float64Array[]): void {
     const list = this.backwardArgs(dy, y);
+    // `$dy` and `$y` are built fresh for each call; a backward that changes them in place
+    // (and perhaps returns them) is reported like one that changes `x` or `this.w`.
+    const madeNames: string[] = [];
+    const madeValues: unknown[] = [];
+    for (let i = 0; i < this.op.backwardArgs.length; i++) {
+      const a = this.op.backwardArgs[i];
+      if (a.kind === 'upstream' || a.kind === 'output') {
+        madeNames[madeNames.length] = a.kind === 'upstream' ? '$dy' : '$y';
+        madeValues[madeValues.length] = list[i];
+      }
+    }
+    const madeGuard = madeNames.length > 0 ? new InputGuard(madeNames, madeValues) : null;
     this.calls.backward++;
     let result: unknown;
     try {
       result = reflectApply(this.backwardFn, this.op.target.backwardIsMethod ? (this.instance ?? undefined) : undefined, list);
     } catch (e) {
       fail(`backward threw: ${describeThrown(e)}`);
+    }
+    if (madeGuard !== null) {
+      const changed = madeGuard.firstChange(madeValues);
+      if (changed !== null) fail(`backward changed its input ${changed} (the upstream gradient and the output are the check's, not the backward's to reuse: return a new array)`);
     }
     try {
       readGradients(result, slots, dests);
@@ -234,6 +251,11 @@ export class OpHarness {
         fail(`gradient of '${slots[p].name}' has ${nonFiniteName(dests[p][j])}${where}`);
       }
     }
+  }
+
+  /** The instance's state now (after a forward at the sample point), to restore before backward calls. */
+  snapshotInstance(): InstanceSnapshot | null {
+    return this.instance === null ? null : new InstanceSnapshot(this.instance);
   }
 
   /** Whether the backward runs on the instance after the forward (it may read cached state). */
