@@ -3,6 +3,7 @@
 // the module, builds the backward's argument list, and records each mistake where it stands.
 import ts from 'typescript';
 import type { BackwardArg, OpDescriptor, ParamDescriptor, SampleSpec, TagLocation } from '../engine/types';
+import { backwardSignatureProblem } from './backwardSignature';
 import type { ForwardSite } from './forwardSites';
 import { findMethod, type Binding, type ModuleBindings } from './moduleBindings';
 import { parseBackwardTag, parseNameListTag, parseNameTag, parseSeedTag, parseToleranceTag, type ParsedBackward } from './otherTags';
@@ -174,6 +175,21 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     ? explicitBackwardArgs(parsedBack, site, paramNames, samples, problems)
     : defaultBackwardArgs(isMethod, paramNames);
 
+  // The backward's declaration against the call the check will make (only when the tag itself is sound).
+  if (backTag && resolved?.fn && !site.unsupported && parsedBack.problems.length === 0 && !problems.some((p) => p.start >= backTag.raw.span.start && p.end <= backTag.raw.span.end)) {
+    const mismatch = backwardSignatureProblem({
+      backwardName,
+      backward: resolved.fn,
+      forward: site.fn,
+      paramNames,
+      fieldNames: fieldOrder,
+      args: backwardArgs,
+      explicit: parsedBack.args !== undefined,
+      isMethod,
+    });
+    if (mismatch) problems.push({ ...backTag.raw.span, message: mismatch });
+  }
+
   const tags: TagLocation[] = ours.map((t) => {
     const start = ctx.mapper.at(t.raw.span.start);
     const end = ctx.mapper.at(t.raw.span.end);
@@ -278,14 +294,14 @@ function resolveBackward(
   site: ForwardSite,
   bindings: ModuleBindings,
   problems: SpanProblem[],
-): { isMethod: boolean; span?: Span } | undefined {
+): { isMethod: boolean; span?: Span; fn?: ts.SignatureDeclaration } | undefined {
   let unknownBase = false;
   if (site.kind === 'method' && site.classNode) {
     const m = findMethod(site.classNode, name, bindings);
     if (m.found) {
       const flavour = m.fn ? functionFlavour(m.fn) : undefined;
       if (flavour) problems.push({ ...span, message: `backward '${name}' is ${flavour}: it must return its result directly` });
-      return { isMethod: true, span: m.span };
+      return { isMethod: true, span: m.span, fn: m.fn };
     }
     unknownBase = m.unknownBase;
   }
@@ -293,7 +309,7 @@ function resolveBackward(
   if (b) {
     const bad = bindingKindProblem(name, b, 'backward');
     if (bad) problems.push({ ...span, message: bad });
-    return { isMethod: false, span: b.span };
+    return { isMethod: false, span: b.span, fn: b.fn };
   }
   // The class extends one declared elsewhere: the backward may be inherited; the run will tell.
   if (unknownBase) return { isMethod: true };
