@@ -100,7 +100,7 @@ function result(
   const properties: Record<string, unknown> = { verdict: pair.verdict, seed: pair.seed };
   if (pair.forward !== null) properties['forward'] = pair.forward;
   if (pair.backward !== null) properties['backward'] = pair.backward;
-  return {
+  const out: Record<string, unknown> = {
     ruleId,
     ruleIndex,
     level: SARIF_RULES[ruleIndex]!.level,
@@ -108,6 +108,16 @@ function result(
     locations: [{ physicalLocation: { artifactLocation: artifactLocation(pair.file), region } }],
     properties,
   };
+  if (pair.thrownAt) {
+    // Where the op's own code threw (SARIF 2.1.0 §3.27.22 relatedLocations).
+    const at = pair.thrownAt;
+    out['relatedLocations'] = [{
+      id: 0,
+      message: { text: 'thrown here' },
+      physicalLocation: { artifactLocation: artifactLocation(at.file), region: { startLine: Math.max(1, at.line), startColumn: Math.max(1, at.column) } },
+    }];
+  }
+  return out;
 }
 
 /** Relative paths hang off the source root; absolute ones (another drive) become file URIs. */

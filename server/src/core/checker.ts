@@ -1,11 +1,12 @@
 // The Checker: the one orchestration shared by the CLI, the language server and benchmarks.
 // discovery → bundle once per file → one sandbox job per op (in parallel across runners) → OpResult.
 import { readFileSync } from 'node:fs';
-import { dirname, relative, resolve } from 'node:path';
+import { basename, dirname, relative, resolve } from 'node:path';
 import { discoverOps, type DiscoveryResult } from '../discovery/index';
 import type { CheckSettings } from '../engine/settings';
 import type { OpDescriptor, OpResult, Problem } from '../engine/types';
 import { Bundler, type BundleStats } from '../sandbox/bundle';
+import { bundleFramesFrom } from '../sandbox/contextSetup';
 import type { SourcePlace } from '../sandbox/sourceMap';
 import { IsolatedRunner } from '../sandbox/isolated';
 import { RunnerPool, type IsolationReport, type PoolStats, type RunnerPoolOptions } from '../sandbox/pool';
@@ -211,6 +212,16 @@ export class Checker {
               stop.abort();
             }
           }
+          let thrownAt: SourcePlace | undefined;
+          if ('outcome' in run && run.outcome.thrownFrames !== undefined) {
+            // The op's own code threw: name its place in the user's source, not the bundle's.
+            const place = thrownPlace(bundleFramesFrom(run.outcome.thrownFrames), bundle.originalPlace);
+            delete run.outcome.thrownFrames;
+            if (place) {
+              thrownAt = place;
+              run.outcome.message += ` (at ${place.file === abs ? basename(abs) : relative(dirname(abs), place.file)}:${place.line}:${place.column})`;
+            }
+          }
           const result =
             'outcome' in run
               ? resultFromOutcome(abs, op, run.outcome, run.elapsedMs, run.output)
@@ -219,6 +230,7 @@ export class Checker {
                   output: run.output,
                   problems: run.cause === 'load' || run.cause === 'cancelled' ? loadProblems : undefined,
                 });
+          if (thrownAt) result.thrownAt = { file: thrownAt.file, line: thrownAt.line, column: thrownAt.column };
           if (interpreted) result.isolation = 'interpreter';
           results[i] = emit(result);
         }),
@@ -240,6 +252,24 @@ export class Checker {
     this.isolated ??= new IsolatedRunner({ log: this.runnerLog });
     return this.isolated;
   }
+}
+
+/**
+ * Where user code threw: the innermost frame in the user's own files (not a package under
+ * node_modules), else the innermost frame that maps anywhere.
+ */
+function thrownPlace(
+  frames: Array<{ line: number; column: number }>,
+  originalPlace: (line: number, column: number) => SourcePlace | undefined,
+): SourcePlace | undefined {
+  let first: SourcePlace | undefined;
+  for (const frame of frames) {
+    const place = originalPlace(frame.line, frame.column);
+    if (!place) continue;
+    if (!/[\\/]node_modules[\\/]/.test(place.file)) return place;
+    first ??= place;
+  }
+  return first;
 }
 
 /** The first bundle frame that maps into the checked file, else the first that maps anywhere. */

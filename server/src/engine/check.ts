@@ -9,6 +9,7 @@ import { dotProductProbes, type DotProbeResult } from './dotProductCheck';
 import { estimateColumns } from './fullCheck';
 import { estimateGrouped } from './groupedCheck';
 import { paramHints, swapHints, type ParamEvidence } from './hints';
+import { bundleFramesOf } from './thrownPlace';
 import { ElementState, compareElements, floorsFor, type Comparison, type ElementEstimates } from './judge';
 import { elementLine } from './lines';
 import type { InstanceSnapshot } from './instanceState';
@@ -83,6 +84,7 @@ function emptyOutcome(verdict: Verdict, seed: number, message: string, calls: { 
 export function runCheck(exposed: Record<string, unknown>, request: CheckRequest, clock: () => number): CheckOutcome {
   let seed = 0;
   let calls = { forward: 0, backward: 0 };
+  let harness: OpHarness | null = null;
   try {
     const op = request.op;
     const settings: CheckSettings = { ...DEFAULT_SETTINGS, ...(request.settings ?? {}) };
@@ -92,6 +94,7 @@ export function runCheck(exposed: Record<string, unknown>, request: CheckRequest
     const deadline = start + TIME_BUDGET_SHARE * settings.timeLimitMs;
     const outOfTime = (): boolean => clock() > deadline;
     const h = new OpHarness(op, exposed);
+    harness = h;
     calls = h.calls;
     const kinks: KinkReport[] = [];
     let lastParams: ParamResult[] = [];
@@ -123,7 +126,16 @@ export function runCheck(exposed: Record<string, unknown>, request: CheckRequest
     if (lastInputs !== undefined) outcome.inputs = lastInputs;
     return finiteOnly(outcome);
   } catch (e) {
-    if (e instanceof CheckStop) return finiteOnly(emptyOutcome(e.verdict, seed, e.message, calls));
+    if (e instanceof CheckStop) {
+      const stopped = emptyOutcome(e.verdict, seed, e.message, calls);
+      // The inputs of the attempt that stopped, so an exception reproduces like a mismatch.
+      if (harness !== null && harness.capturedInputs !== undefined) stopped.inputs = harness.capturedInputs;
+      if (e.thrown !== undefined) {
+        const frames = bundleFramesOf(e.thrown);
+        if (frames !== '') stopped.thrownFrames = frames;
+      }
+      return finiteOnly(stopped);
+    }
     return finiteOnly(emptyOutcome('error', seed, `internal error in the check engine: ${describeThrown(e)}`, calls));
   }
 }
@@ -140,6 +152,7 @@ function runAttempt(
   const stream = (purpose: number) => substream(seed, attempt * STREAM_STRIDE + purpose);
   const sample = h.prepare(stream(STREAM.inputs), settings.maxElements);
   const inputs = captureInputs(sample);
+  h.capturedInputs = inputs;
   const slots = sample.slots;
   if (slots.length === 0) fail('no parameter is differentiated: every input is fixed, a literal, an integer or not numbers');
 

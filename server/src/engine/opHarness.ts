@@ -3,7 +3,7 @@
 // every failure of user code into a message naming the part of the op at fault.
 
 import { F64, describeThrown, describeValue, formatIndex, formatNumber, positionOf, reflectApply, reflectConstruct, sliceText } from './builtins';
-import { CheckStop, fail } from './failure';
+import { CheckStop, fail, failThrown } from './failure';
 import { readGradients } from './gradients';
 import { InputGuard } from './inputGuard';
 import { InstanceSnapshot } from './instanceState';
@@ -11,7 +11,7 @@ import { buildValue, describeOutputIndex, detectLayout, firstNonFinite, flattenI
 import type { ParamSlot } from './paramSlot';
 import type { RandomSource } from './random';
 import { drawSample, type Sample } from './sampling';
-import type { CallCounts, OpDescriptor } from './types';
+import type { CallCounts, CheckOutcome, OpDescriptor } from './types';
 
 type AnyFunction = (...args: unknown[]) => unknown;
 
@@ -42,6 +42,8 @@ export class OpHarness {
   private readonly samplesFn: AnyFunction | null;
   private instance: Record<string, unknown> | null = null;
   private sample: Sample | null = null;
+  /** The inputs of the current attempt as captured for the report (set by the check). */
+  capturedInputs: CheckOutcome['inputs'];
   /** Output shape, fixed by the first forward call. */
   layout: OutputLayout | null = null;
   /** Whether the backward receives `$dy`; when not, the forward returns a number. */
@@ -101,7 +103,7 @@ export class OpHarness {
       try {
         inst = this.constructFn !== null ? reflectApply(this.constructFn, undefined, []) : reflectConstruct(this.classCtor, []);
       } catch (e) {
-        fail(this.constructFn !== null ? `@construct ${this.op.target.constructFactory} threw ${describeThrown(e)}` : `new ${className}() threw ${describeThrown(e)}`);
+        failThrown(this.constructFn !== null ? `@construct ${this.op.target.constructFactory} threw ${describeThrown(e)}` : `new ${className}() threw ${describeThrown(e)}`, e);
       }
       if (inst === null || typeof inst !== 'object') {
         fail(`${this.constructFn !== null ? `@construct ${this.op.target.constructFactory}` : `new ${className}()`} gave ${describeValue(inst)}, expected an instance`);
@@ -147,7 +149,7 @@ export class OpHarness {
     try {
       return reflectApply(this.forwardFn, this.instance ?? undefined, this.args);
     } catch (e) {
-      return fail(`forward threw ${this.whereText()}: ${describeThrown(e)}`);
+      return failThrown(`forward threw ${this.whereText()}: ${describeThrown(e)}`, e);
     }
   }
 
@@ -162,7 +164,7 @@ export class OpHarness {
         this.layout = detectLayout(raw);
       } catch (e) {
         if (e instanceof CheckStop) throw e;
-        fail(`reading the forward output threw ${describeThrown(e)}`);
+        failThrown(`reading the forward output threw ${describeThrown(e)}`, e);
       }
       if (this.layout.size === 0) fail('forward output is empty');
     }
@@ -171,7 +173,7 @@ export class OpHarness {
       flattenInto(raw, this.layout, out);
     } catch (e) {
       if (e instanceof CheckStop) throw e;
-      fail(`reading the forward output threw ${describeThrown(e)}`);
+      failThrown(`reading the forward output threw ${describeThrown(e)}`, e);
     }
     if (requireFinite) {
       const j = firstNonFinite(out);
@@ -232,7 +234,7 @@ export class OpHarness {
     try {
       result = reflectApply(this.backwardFn, this.op.target.backwardIsMethod ? (this.instance ?? undefined) : undefined, list);
     } catch (e) {
-      fail(`backward threw: ${describeThrown(e)}`);
+      failThrown(`backward threw: ${describeThrown(e)}`, e);
     }
     if (madeGuard !== null) {
       const changed = madeGuard.firstChange(madeValues);
@@ -242,7 +244,7 @@ export class OpHarness {
       readGradients(result, slots, dests);
     } catch (e) {
       if (e instanceof CheckStop) throw e;
-      fail(`reading what the backward returned threw ${describeThrown(e)}`);
+      failThrown(`reading what the backward returned threw ${describeThrown(e)}`, e);
     }
     for (let p = 0; p < slots.length; p++) {
       const j = firstNonFinite(dests[p]);

@@ -182,6 +182,19 @@ export interface CheckOutcome {
    * Capped in size; absent when too large.
    */
   inputs?: { args: unknown[]; fields: Record<string, unknown> };
+  /**
+   * When the op's own code threw: "line:column,..." of the bundle script's stack frames (the
+   * engine's raw positions); the host maps them to `thrownAt` and drops this field.
+   */
+  thrownFrames?: string;
+}
+
+/** A place in a user's source file (1-based), e.g. where an exception was thrown. */
+export interface SourcePlaceRef {
+  /** Relative to the current folder (CLI) with `/` separators, or absolute (server). */
+  file: string;
+  line: number;
+  column: number;
 }
 
 /** One op's entry in the report (the `--json` `pairs` entries). */
@@ -197,6 +210,8 @@ export interface OpResult extends CheckOutcome {
   problems?: Problem[];
   /** Text the op printed with `console`. */
   output?: string;
+  /** Where the op's own code threw (mapped through the bundle's source map), when it did. */
+  thrownAt?: SourcePlaceRef;
   /**
    * 'interpreter' when the op ran in the isolated mode (a WebAssembly JavaScript interpreter,
    * slower, for small ops); absent when it ran in the normal runner process.
