@@ -61,3 +61,19 @@ describe('cli: exceptions in user code point at the line', function () {
     assert.ok(related.some((l) => l?.artifactLocation.uri === `${FIXTURES}/thrown/ops.ts` && l.region.startLine === where.line), JSON.stringify(related));
   });
 });
+
+describe('cli: Node built-ins in the import graph', function () {
+  this.timeout(120_000);
+
+  it('an op that never calls them is checked; one that calls them fails naming the module and the call site', async () => {
+    const run = await runCli(['check', `${FIXTURES}/imports/ops.ts`, '--json']);
+    const report = JSON.parse(run.stdout) as Report;
+    const curve = report.pairs.find((p) => p.forward === 'shadeCurve')!;
+    assert.equal(curve.verdict, 'pass', curve.message);
+    const logged = report.pairs.find((p) => p.forward === 'shadeLogged')!;
+    assert.equal(logged.verdict, 'error');
+    assert.match(logged.message, /node:path's basename\(\) is not available to code checked in the sandbox: "node:path" is a Node built-in module \(imported in log\.ts\)/);
+    const call = placeOf(`${FIXTURES}/imports/log.ts`, 'basename(file)');
+    assert.deepEqual(logged.thrownAt, { file: `${FIXTURES}/imports/log.ts`, ...call });
+  });
+});

@@ -1,11 +1,12 @@
 // The Checker: the one orchestration shared by the CLI, the language server and benchmarks.
 // discovery → bundle once per file → one sandbox job per op (in parallel across runners) → OpResult.
-import { readFileSync } from 'node:fs';
+import { existsSync, readFileSync } from 'node:fs';
 import { basename, dirname, relative, resolve } from 'node:path';
 import { discoverOps, type DiscoveryResult } from '../discovery/index';
 import type { CheckSettings } from '../engine/settings';
 import type { OpDescriptor, OpResult, Problem } from '../engine/types';
 import { Bundler, type BundleStats } from '../sandbox/bundle';
+import { UNAVAILABLE_BUILTIN_NAMESPACE } from '../sandbox/builtinStandIn';
 import { bundleFramesFrom } from '../sandbox/contextSetup';
 import type { SourcePlace } from '../sandbox/sourceMap';
 import { IsolatedRunner } from '../sandbox/isolated';
@@ -83,7 +84,7 @@ export interface CheckerStats {
 
 export class Checker {
   private readonly settings: CheckSettings;
-  private readonly bundler = new Bundler();
+  private readonly bundler = new Bundler({ diskCache: true });
   private readonly pool: RunnerPool;
   private isolated: IsolatedRunner | undefined;
   private readonly runnerLog: ((line: string) => void) | undefined;
@@ -265,8 +266,10 @@ function thrownPlace(
   let first: SourcePlace | undefined;
   for (const frame of frames) {
     const place = originalPlace(frame.line, frame.column);
-    if (!place) continue;
-    if (!/[\\/]node_modules[\\/]/.test(place.file)) return place;
+    // A built-in's stand-in is where the error is made, not where the user called it.
+    if (!place || place.file.includes(UNAVAILABLE_BUILTIN_NAMESPACE)) continue;
+    // A package's own source map can point outside node_modules, at files that are not there.
+    if (!/[\\/]node_modules[\\/]/.test(place.file) && existsSync(place.file)) return place;
     first ??= place;
   }
   return first;
