@@ -68,6 +68,8 @@ export function bindingsOf(op: OpDescriptor): string[] {
   const names: string[] = [];
   if (t.kind === 'method') {
     if (t.className) names.push(t.className);
+  } else if (t.objectName) {
+    names.push(t.objectName);
   } else {
     names.push(t.forwardName);
   }

@@ -41,6 +41,8 @@ export class OpHarness {
   private readonly constructFn: AnyFunction | null;
   private readonly samplesFn: AnyFunction | null;
   private instance: Record<string, unknown> | null = null;
+  /** The object literal holding the op's functions (`this` for their calls), or null. */
+  private holder: Record<string, unknown> | null = null;
   private sample: Sample | null = null;
   /** The inputs of the current attempt as captured for the report (set by the check). */
   capturedInputs: CheckOutcome['inputs'];
@@ -70,6 +72,18 @@ export class OpHarness {
       if (typeof bwd !== 'function') {
         fail(`backward '${op.backward}' is not ${t.backwardIsMethod ? `a method of class '${className}'` : 'a function of the module'} (got ${describeValue(bwd)})`);
       }
+      this.backwardFn = bwd as AnyFunction;
+    } else if (t.objectName !== undefined) {
+      // A function of a top-level object literal: called on the object, as `ops.f(x)` would be.
+      const holder = lookup(exposed, t.objectName);
+      if (holder === null || typeof holder !== 'object') fail(`'${t.objectName}' is not an object in the module (got ${describeValue(holder)})`);
+      this.holder = holder as Record<string, unknown>;
+      const fwd = this.holder[t.forwardName];
+      if (typeof fwd !== 'function') fail(`forward '${op.forward}' is not a function (got ${describeValue(fwd)})`);
+      this.forwardFn = fwd as AnyFunction;
+      this.classCtor = null;
+      const bwd = t.backwardIsMethod ? this.holder[t.backwardName] : lookup(exposed, t.backwardName);
+      if (typeof bwd !== 'function') fail(`backward '${op.backward}' is not a function (got ${describeValue(bwd)})`);
       this.backwardFn = bwd as AnyFunction;
     } else {
       const fwd = lookup(exposed, t.forwardName);
@@ -147,7 +161,7 @@ export class OpHarness {
   forwardRaw(): unknown {
     this.calls.forward++;
     try {
-      return reflectApply(this.forwardFn, this.instance ?? undefined, this.args);
+      return reflectApply(this.forwardFn, this.instance ?? this.holder ?? undefined, this.args);
     } catch (e) {
       return failThrown(`forward threw ${this.whereText()}: ${describeThrown(e)}`, e);
     }
@@ -232,7 +246,7 @@ export class OpHarness {
     this.calls.backward++;
     let result: unknown;
     try {
-      result = reflectApply(this.backwardFn, this.op.target.backwardIsMethod ? (this.instance ?? undefined) : undefined, list);
+      result = reflectApply(this.backwardFn, this.op.target.backwardIsMethod ? (this.instance ?? this.holder ?? undefined) : undefined, list);
     } catch (e) {
       failThrown(`backward threw: ${describeThrown(e)}`, e);
     }

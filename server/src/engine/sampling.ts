@@ -188,6 +188,10 @@ export function drawSample(
     for (let i = 0; i < positional.length; i++) {
       const p = positional[i];
       argNames[i] = p.name;
+      if (p.sample === undefined && p.hasDefault === true) {
+        args[i] = undefined; // the forward's default value applies
+        continue;
+      }
       if (p.sample === undefined) fail(`parameter '${p.name}' has no @sample`);
       args[i] = drawValue(p.name, p.sample, rng, maxElements);
       const spec = p.sample;

@@ -48,8 +48,13 @@ export interface ParamDescriptor {
   /** Parameter name, or `this.FIELD` for a field of the instance. */
   name: string;
   isField: boolean;
-  /** Absent when the op uses `@samples FACTORY`. */
+  /** Absent when the op uses `@samples FACTORY`, or for a parameter with a default value. */
   sample?: SampleSpec;
+  /**
+   * The parameter has a default value (or is optional) and no `@sample`: it is passed as
+   * `undefined`, so its default applies, and it is not differentiated.
+   */
+  hasDefault?: boolean;
 }
 
 /** One argument the backward receives, in order. */
@@ -58,6 +63,12 @@ export type BackwardArg =
   | { kind: 'output' } // `$y`: the forward's output at the sample point
   | { kind: 'upstream' }; // `$dy`: the upstream gradient
 
+/**
+ * The binding under which the sandbox exposes a module's anonymous default export
+ * (`export default function (x) {}`): OpTarget.forwardName of such an op.
+ */
+export const DEFAULT_EXPORT_BINDING = '__gradientProbeDefault';
+
 /** How the sandbox finds an op's functions in the module it evaluated. */
 export interface OpTarget {
   kind: 'function' | 'method';
@@ -65,6 +76,12 @@ export interface OpTarget {
   forwardName: string;
   /** The class binding, for methods. */
   className?: string;
+  /**
+   * For a function held by a top-level object literal (`export const ops = { f(x) {} }`): the
+   * object's binding. The forward is `object[forwardName]`, called with `this` = the object, and
+   * `backwardIsMethod` means the backward is another function of the same object.
+   */
+  objectName?: string;
   /** Top-level binding, or a method of the same class when the forward is a method. */
   backwardName: string;
   /** Whether the backward is a method of the class (called on the same instance). */

@@ -10,6 +10,7 @@ import type * as esbuildTypes from 'esbuild';
 import { UNAVAILABLE_BUILTIN_NAMESPACE, unavailableModuleCode } from './builtinStandIn';
 import { bundleCacheDir, readStoredBundle, writeStoredBundle } from './bundleDiskCache';
 import { originalPlace, type SourcePlace } from './sourceMap';
+import { DEFAULT_EXPORT_BINDING } from '../engine/types';
 
 /** Bundles kept in memory; a workspace rarely has more files with ops open at once. */
 const MAX_CACHED_BUNDLES = 128;
@@ -103,10 +104,13 @@ function sha256(...parts: string[]): string {
 }
 
 /** The code appended to the entry: `globalThis.__gradientProbeExposed = { name: …, … }`. */
-export function exposeCode(bindings: string[]): string {
+export function exposeCode(bindings: string[], file?: string): string {
   const names = [...new Set(bindings)].filter((n) => IDENTIFIER.test(n)).sort();
   const fields = names.map((n) => `  ${JSON.stringify(n)}: typeof ${n} !== 'undefined' ? ${n} : undefined`);
-  return `\n;globalThis.__gradientProbeExposed = {\n${fields.join(',\n')}\n};\n`;
+  // An anonymous default export has no name in its module: a self-import gives it one (the
+  // bundler resolves it to the same module, so nothing runs twice).
+  const selfImport = file !== undefined && names.includes(DEFAULT_EXPORT_BINDING) ? `\nimport ${DEFAULT_EXPORT_BINDING} from ${JSON.stringify(file)};` : '';
+  return `${selfImport}\n;globalThis.__gradientProbeExposed = {\n${fields.join(',\n')}\n};\n`;
 }
 
 /** Looks places up in an entry's source map (parsed on each call: only failures ask). */
@@ -248,7 +252,7 @@ export class Bundler {
   private async build(file: string, text: string, bindings: string[]): Promise<{ ok: true; entry: CacheEntry } | (BundleResult & { ok: false })> {
     const workDir = dirname(file);
     const loader = LOADERS[extname(file).toLowerCase()] ?? 'ts';
-    const entryContents = text + exposeCode(bindings);
+    const entryContents = text + exposeCode(bindings, file);
     const entryPlugin: esbuildTypes.Plugin = {
       name: 'gradient-probe-entry',
       setup(build) {
