@@ -10,6 +10,7 @@ import { estimateColumns } from './fullCheck';
 import { estimateGrouped } from './groupedCheck';
 import { paramHints, swapHints, type ParamEvidence } from './hints';
 import { bundleFramesOf } from './thrownPlace';
+import { blameOutput } from './outputBlame';
 import { ElementState, compareElements, floorsFor, type Comparison, type ElementEstimates } from './judge';
 import { elementLine } from './lines';
 import type { InstanceSnapshot } from './instanceState';
@@ -287,6 +288,24 @@ function runAttempt(
     if (e !== null && checks[s].result.verdict === 'mismatch') mismatched[mismatched.length] = e;
   }
   const opHints = anyMismatch ? swapHints(mismatched) : [];
+  // Several named outputs: say which one's term is wrong, when one output accounts for it.
+  if (anyMismatch && layout.kind === 'object' && !outOfTime()) {
+    const gradientsFor = (w: Float64Array): Float64Array[] => {
+      const into: Float64Array[] = [];
+      for (let s = 0; s < slots.length; s++) into[s] = new F64(slots[s].size);
+      callBackward(w, into);
+      return into;
+    };
+    for (let s = 0; s < checks.length; s++) {
+      const c = checks[s];
+      if (c.result.verdict !== 'mismatch' || c.evidence === null || c.worstPos < 0) continue;
+      const blame = blameOutput(h, layout, slots[s], s, c.evidence.est.indices[c.worstPos], ws[c.evidence.cmp.worstProbe[c.worstPos]], tol, gradientsFor);
+      if (blame !== null) {
+        c.result.hints[c.result.hints.length] = blame;
+        c.note += ` — ${blame}`;
+      }
+    }
+  }
   for (let s = 0; s < checks.length; s++) addReportData(at, s, checks[s]);
 
   const verdict: Verdict = anyMismatch ? 'mismatch' : anyInconclusive ? 'inconclusive' : 'pass';
