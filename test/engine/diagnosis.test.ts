@@ -28,3 +28,42 @@ describe('engine: diagnosis', () => {
     assert.ok(!o.params[0]!.hints.some((h) => /accounts for the disagreement/.test(h)), show(o));
   });
 });
+
+describe('engine: diagnosis of precision and the worst element', () => {
+  it('an f64-sampled op that computes in float32 inside gets a hint naming the precision', () => {
+    // Shape: a forward that goes through Float32Array (as a tensor library does) but is sampled f64.
+    const o = check(functionOp({
+      forward: (x: Float64Array) => Float64Array.from(Float32Array.from(x, (v) => Math.exp(v) * 1.7)),
+      backward: (x: Float64Array, dy: Float64Array) => x.map((v, i) => Math.exp(v) * 1.7 * dy[i]),
+      params: [['x', spec('f64', [16])]],
+    }));
+    assert.notEqual(o.verdict, 'pass', show(o));
+    assert.ok(o.hints.some((h) => /every output value is a float32 number/.test(h) && /f32/.test(h)), show(o));
+  });
+
+  it('a float64 op with a mismatch gets no precision hint', () => {
+    const o = check(functionOp({
+      forward: (x: Float64Array) => x.map((v) => Math.exp(v)),
+      backward: (x: Float64Array, dy: Float64Array) => x.map((v, i) => 1.01 * Math.exp(v) * dy[i]),
+      params: [['x', spec('f64', [16])]],
+    }));
+    assert.equal(o.verdict, 'mismatch');
+    assert.ok(!o.hints.some((h) => /float32/.test(h)), show(o));
+  });
+
+  it('the worst element is the largest confirmed mismatch, and the message names it with its own figure', () => {
+    // Two wrong elements, 2 % and 30 % off: the worst is the 30 % one, in the figure and the message.
+    const o = check(functionOp({
+      forward: (x: Float64Array) => x.map((v) => v * v * v),
+      backward: (x: Float64Array, dy: Float64Array) => x.map((v, i) => 3 * v * v * dy[i] * (i === 2 ? 1.02 : i === 5 ? 1.3 : 1)),
+      params: [['x', spec('f64', [8], [0.5, 1.5])]],
+      backwardArgs: ['x', '$dy'],
+    }));
+    assert.equal(o.verdict, 'mismatch', show(o));
+    const p = o.params[0]!;
+    assert.deepEqual(p.worst?.index, [5]);
+    const own = p.worst!.relError!;
+    assert.ok(own > 0.2 && own <= p.maxRelError, show(o));
+    assert.match(o.message, /disagrees at x\[5\]: .*\(relative error 0\.2\d*\)/);
+  });
+});

@@ -46,7 +46,8 @@ export function paramLine(param: ParamResult): string {
   if (!param.worst) return head;
   const w = param.worst;
   const where = w.index.length === 0 ? param.name : `${param.name}${formatIndex(w.index)}`;
-  return `${head}; at ${where} backward gives ${formatNumber(w.analytic)}, finite differences ${formatNumber(w.numeric)}`;
+  const own = w.relError !== undefined ? ` (relative error ${formatRelError(w.relError)})` : '';
+  return `${head}; at ${where}${own} backward gives ${formatNumber(w.analytic)}, finite differences ${formatNumber(w.numeric)}`;
 }
 
 function outputLines(output: string | undefined): string[] {

@@ -130,7 +130,8 @@ function messageOf(pair: OpResult): string {
   const parts: string[] = [];
   const param = worstParam(pair);
   if (pair.verdict === 'mismatch' && param) {
-    let text = `${opName(pair)}: gradient of ${param.name} disagrees with finite differences (max relative error ${formatRelError(param.maxRelError)}`;
+    // With an element named, the figure is that element's own relative error (one rule: types.ts WorstElement).
+    let text = `${opName(pair)}: gradient of ${param.name} disagrees with finite differences (max relative error ${formatRelError(param.worst?.relError ?? param.maxRelError)}`;
     if (param.worst) text += ` at [${param.worst.index.join(', ')}]: backward ${param.worst.analytic}, numeric ${param.worst.numeric}`;
     parts.push(`${text}).`);
     parts.push(...param.hints.map((h) => `Hint: ${h}.`));

@@ -8,7 +8,7 @@ import { GROUPED_WIDENINGS, chooseMethod, widened, type Structure } from './meth
 import { dotProductProbes, type DotProbeResult } from './dotProductCheck';
 import { estimateColumns } from './fullCheck';
 import { estimateGrouped } from './groupedCheck';
-import { paramHints, swapHints, type ParamEvidence } from './hints';
+import { float32OutputHint, paramHints, swapHints, type ParamEvidence } from './hints';
 import { bundleFramesOf } from './thrownPlace';
 import { blameOutput } from './outputBlame';
 import { ElementState, compareElements, floorsFor, type Comparison, type ElementEstimates } from './judge';
@@ -309,6 +309,11 @@ function runAttempt(
   for (let s = 0; s < checks.length; s++) addReportData(at, s, checks[s]);
 
   const verdict: Verdict = anyMismatch ? 'mismatch' : anyInconclusive ? 'inconclusive' : 'pass';
+  if (verdict !== 'pass' && precision === 'f64') {
+    // The check ran at float64 precision, yet the op may compute in float32: name the precision.
+    const f32 = float32OutputHint(y0);
+    if (f32 !== null) opHints[opHints.length] = f32;
+  }
   let message = '';
   const params: ParamResult[] = [];
   for (let s = 0; s < checks.length; s++) {
@@ -415,7 +420,8 @@ function summarise(
     // The worst element is a confirmed mismatch when there is one, then the largest relative error.
     const state = cmp.state[p];
     const priority = state === ElementState.mismatch ? 2 : state === ElementState.suspicious || state === ElementState.uncertain ? 1 : 0;
-    if (priority > worstPriority || (priority === worstPriority && cmp.rel[p] > maxRel)) {
+    // One rule for the worst element (types.ts WorstElement): the most serious state first, then the largest relative error.
+    if (priority > worstPriority || (priority === worstPriority && cmp.rel[p] > cmp.rel[worstPos])) {
       worstPos = p;
       worstPriority = max(worstPriority, priority);
     }
@@ -462,6 +468,7 @@ function summarise(
         index: unravelSlot(slot, est.indices[worstPos]),
         analytic: analytic[cmp.worstProbe[worstPos]][est.indices[worstPos]],
         numeric: est.numeric[cmp.worstProbe[worstPos]][worstPos],
+        relError: cmp.rel[worstPos],
       }
     : null;
   const result: ParamResult = {

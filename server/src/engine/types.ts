@@ -142,6 +142,13 @@ export interface WorstElement {
   index: number[];
   analytic: number;
   numeric: number;
+  /**
+   * This element's own relative error. The worst element is the one the verdict rests on: the
+   * confirmed mismatch with the largest relative error, else the element with the largest one.
+   * Every message that names an element names this one with this figure (`maxRelError` may be
+   * larger: it also counts elements whose estimate was not trusted and random directions).
+   */
+  relError?: number;
 }
 
 /** Error against step size for the worst element: the data of the report's log-log plot. */
