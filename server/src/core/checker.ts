@@ -1,7 +1,7 @@
 // The Checker: the one orchestration shared by the CLI, the language server and benchmarks.
 // discovery → bundle once per file → one sandbox job per op (in parallel across runners) → OpResult.
 import { existsSync, readFileSync } from 'node:fs';
-import { basename, dirname, relative, resolve } from 'node:path';
+import { dirname, relative, resolve } from 'node:path';
 import { discoverOps, type DiscoveryResult } from '../discovery/index';
 import type { CheckSettings } from '../engine/settings';
 import type { OpDescriptor, OpResult, Problem } from '../engine/types';
@@ -220,10 +220,8 @@ export class Checker {
             // The op's own code threw: name its place in the user's source, not the bundle's.
             const place = thrownPlace(bundleFramesFrom(run.outcome.thrownFrames), bundle.originalPlace);
             delete run.outcome.thrownFrames;
-            if (place) {
-              thrownAt = place;
-              run.outcome.message += ` (at ${place.file === abs ? basename(abs) : relative(dirname(abs), place.file)}:${place.line}:${place.column})`;
-            }
+            // Reported as a field (thrownAt), not in the message: the message stays the engine's own words.
+            if (place) thrownAt = place;
           }
           const result =
             'outcome' in run

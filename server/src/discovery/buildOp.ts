@@ -48,7 +48,11 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
 
   if (site.unsupported) problems.push({ ...site.nameSpan, message: site.unsupported });
   // The tags are misplaced as a whole: what they say does not matter here.
-  if (site.onlyProblem) return misplacedOp(site, ctx, problems);
+  if (site.onlyProblem) {
+    // Broken specs are still named where they stand, so the tag is never silently skipped.
+    for (const t of ours) if (t.name === 'sample') problems.push(...parseSampleTag(t.raw).problems);
+    return misplacedOp(site, ctx, problems, ours);
+  }
 
   // Tags given more than once where one is meant.
   const firstOf = new Map<OpTagName, OurTag>();
@@ -250,9 +254,14 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
 }
 
 /** An op whose tags stand where no op can be (on a class): its one problem, nothing parsed. */
-function misplacedOp(site: ForwardSite, ctx: BuildContext, problems: SpanProblem[]): OpDescriptor {
+function misplacedOp(site: ForwardSite, ctx: BuildContext, problems: SpanProblem[], ours: OurTag[]): OpDescriptor {
   const start = ctx.mapper.at(site.nameSpan.start);
   const end = ctx.mapper.at(site.nameSpan.end);
+  const tags: TagLocation[] = ours.map((t) => {
+    const a = ctx.mapper.at(t.raw.span.start);
+    const b = ctx.mapper.at(t.raw.span.end);
+    return { tag: t.name, line: a.line, column: a.column, endLine: b.line, endColumn: b.column };
+  });
   return {
     file: ctx.fileName,
     line: start.line,
@@ -265,8 +274,8 @@ function misplacedOp(site: ForwardSite, ctx: BuildContext, problems: SpanProblem
     params: [],
     backwardArgs: [],
     fixed: [],
-    tags: [],
-    problems: problems.map((p) => ctx.mapper.problem(p)),
+    tags,
+    problems: problems.sort((a, b) => a.start - b.start).map((p) => ctx.mapper.problem(p)),
   };
 }
 
