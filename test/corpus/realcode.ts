@@ -200,3 +200,33 @@ export class MisplacedLamp {
     return dy;
   }
 }
+
+/** Shape: a layer keeping its accumulator and cache in `#private` fields. */
+export class SealedMistDense {
+  weight = new Float64Array(ROWS * COLS);
+  #gradW = new Float64Array(ROWS * COLS);
+  #input = new Float64Array(COLS);
+
+  /**
+   * @backward backward
+   * @sample x f64[4]
+   * @sample this.weight f64[12] in [-0.5, 0.5]
+   */
+  forward(x: Float64Array): Float64Array {
+    this.#input = Float64Array.from(x);
+    const y = new Float64Array(ROWS);
+    for (let i = 0; i < ROWS; i++) for (let j = 0; j < COLS; j++) y[i] += this.weight[i * COLS + j] * x[j];
+    return y;
+  }
+
+  backward(dy: Float64Array): { x: Float64Array; weight: Float64Array } {
+    const dx = new Float64Array(COLS);
+    for (let i = 0; i < ROWS; i++) {
+      for (let j = 0; j < COLS; j++) {
+        this.#gradW[i * COLS + j] += dy[i] * this.#input[j];
+        dx[j] += this.weight[i * COLS + j] * dy[i];
+      }
+    }
+    return { x: dx, weight: this.#gradW };
+  }
+}

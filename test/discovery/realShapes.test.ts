@@ -47,6 +47,15 @@ describe('discovery: shapes of real code', () => {
     expectProblem(text, opNamed(discover(text), 'L.f'), '#w f64', /'this\.#w' is a private \(#\) field: .*declare it `private w`/);
   });
 
+  it('a class with #private members gets a fresh instance per backward call (its state cannot be snapshot)', () => {
+    // Shape: a layer keeping its gradient accumulator in `#gradW`.
+    const text = 'export class L {\n  #gradW = new Float64Array(2);\n  /**\n   * @backward back\n   * @sample x f64[2]\n   */\n  f(x: Float64Array) { return x; }\n  back(dy: Float64Array) { return dy; }\n}\nexport class M extends L {\n  /**\n   * @backward back\n   * @sample x f64[2]\n   */\n  g(x: Float64Array) { return x; }\n}\nexport class P {\n  /**\n   * @backward back\n   * @sample x f64[2]\n   */\n  f(x: Float64Array) { return x; }\n  back(dy: Float64Array) { return dy; }\n}\n';
+    const r = discover(text);
+    assert.equal(opNamed(r, 'L.f').target.renewInstance, true);
+    assert.equal(opNamed(r, 'M.g').target.renewInstance, true, 'inherited from a same-file base');
+    assert.equal(opNamed(r, 'P.f').target.renewInstance, undefined);
+  });
+
   it('a @backward block on a class is reported once, at the class name', () => {
     // Shape: the op's block written above `class` instead of above its forward method.
     const text = withDoc(['@backward backward', '@sample x f64[3]'], 'export class Lamp {\n  forward(x: Float64Array) { return x; }\n  backward(dy: Float64Array) { return dy; }\n}');

@@ -59,6 +59,38 @@ describe('engine: layer state between backward calls', () => {
     assert.equal(o.verdict, 'mismatch', show(o));
   });
 
+  it('a layer keeping its accumulator in a #private field passes with a fresh instance per backward call', () => {
+    /** Shape: `#gradW` accumulated by the backward; a snapshot of own fields cannot see it. */
+    class PrivateDense {
+      weight = new Float64Array(ROWS * COLS);
+      #gradW = new Float64Array(ROWS * COLS);
+      #input = new Float64Array(COLS);
+      forward(x: Float64Array): Float64Array {
+        this.#input = Float64Array.from(x);
+        const y = new Float64Array(ROWS);
+        for (let i = 0; i < ROWS; i++) for (let j = 0; j < COLS; j++) y[i] += this.weight[i * COLS + j] * x[j];
+        return y;
+      }
+      backward(dy: Float64Array): { x: Float64Array; weight: Float64Array } {
+        const dx = new Float64Array(COLS);
+        for (let i = 0; i < ROWS; i++) {
+          for (let j = 0; j < COLS; j++) {
+            this.#gradW[i * COLS + j] += dy[i] * this.#input[j];
+            dx[j] += this.weight[i * COLS + j] * dy[i];
+          }
+        }
+        return { x: dx, weight: this.#gradW };
+      }
+    }
+    const built = methodOp({ cls: PrivateDense, forwardName: 'forward', backwardName: 'backward', params: [['x', spec('f64', [COLS])], ['this.weight', spec('f64', [ROWS * COLS])]] });
+    // What discovery sets for a class with #private members (buildOp.declaresPrivateMembers).
+    built.op.target.renewInstance = true;
+    const o = check(built);
+    assert.equal(o.verdict, 'pass', show(o));
+    built.op.target.renewInstance = false;
+    assert.equal(check(built).verdict, 'mismatch', 'without a fresh instance the #private accumulator leaks between calls');
+  });
+
   it('a backward that reads a cache the forward did not refresh (stale from an earlier call) is caught', () => {
     /** Shape: a forward that caches its input only once, so later calls leave a stale cache. */
     class CachesOnce {

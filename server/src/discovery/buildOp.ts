@@ -245,6 +245,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   };
   if (site.className !== undefined) op.target.className = site.className;
   if (site.objectName !== undefined) op.target.objectName = site.objectName;
+  if (site.classNode && declaresPrivateMembers(site.classNode, ctx.bindings)) op.target.renewInstance = true;
   if (samplesFactory) op.target.samplesFactory = samplesFactory;
   if (constructFactory) op.target.constructFactory = constructFactory;
   if (tolerance !== undefined) op.tolerance = tolerance;
@@ -277,6 +278,18 @@ function misplacedOp(site: ForwardSite, ctx: BuildContext, problems: SpanProblem
     tags,
     problems: problems.sort((a, b) => a.start - b.start).map((p) => ctx.mapper.problem(p)),
   };
+}
+
+/** Whether the class or a same-file ancestor has `#private` members (state a snapshot cannot see). */
+function declaresPrivateMembers(cls: ts.ClassLikeDeclaration, bindings: ModuleBindings): boolean {
+  const seen = new Set<ts.ClassLikeDeclaration>();
+  for (let cur: ts.ClassLikeDeclaration | undefined = cls; cur && !seen.has(cur); ) {
+    seen.add(cur);
+    if (cur.members.some((m) => m.name !== undefined && ts.isPrivateIdentifier(m.name))) return true;
+    const ext: ts.ExpressionWithTypeArguments | undefined = cur.heritageClauses?.find((h) => h.token === ts.SyntaxKind.ExtendsKeyword)?.types[0];
+    cur = ext && ts.isIdentifier(ext.expression) ? bindings.classes.get(ext.expression.text) : undefined;
+  }
+  return false;
 }
 
 function displayName(site: ForwardSite): string {

@@ -227,7 +227,10 @@ function runAttempt(
     // the forward at moved points since: run it at the sample point once, keep the instance as
     // it left it, and put that state back after every backward call (a layer's backward may
     // accumulate into its fields: `this.gradW[k] += ...`).
-    if (h.backwardNeedsFreshForward && instanceState === null) {
+    if (h.renewsInstance) {
+      // State in `#private` fields cannot be snapshot: a fresh instance and forward per call.
+      h.prepareFreshInstanceForBackward(scratch);
+    } else if (h.backwardNeedsFreshForward && instanceState === null) {
       h.forwardInto(scratch, true);
       instanceState = h.snapshotInstance();
     }

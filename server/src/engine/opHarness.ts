@@ -41,6 +41,8 @@ export class OpHarness {
   private readonly constructFn: AnyFunction | null;
   private readonly samplesFn: AnyFunction | null;
   private instance: Record<string, unknown> | null = null;
+  /** A fresh instance for the next backward call (prepareFreshInstanceForBackward), or null. */
+  private backwardThis: Record<string, unknown> | null = null;
   /** The object literal holding the op's functions (`this` for their calls), or null. */
   private holder: Record<string, unknown> | null = null;
   private sample: Sample | null = null;
@@ -111,21 +113,50 @@ export class OpHarness {
   /** Creates the instance (methods) and draws the inputs of one attempt. */
   prepare(rng: RandomSource, maxElements: number): Sample {
     this.layout = null;
-    if (this.classCtor !== null) {
-      let inst: unknown;
-      const className = this.op.target.className ?? '';
-      try {
-        inst = this.constructFn !== null ? reflectApply(this.constructFn, undefined, []) : reflectConstruct(this.classCtor, []);
-      } catch (e) {
-        failThrown(this.constructFn !== null ? `@construct ${this.op.target.constructFactory} threw ${describeThrown(e)}` : `new ${className}() threw ${describeThrown(e)}`, e);
-      }
-      if (inst === null || typeof inst !== 'object') {
-        fail(`${this.constructFn !== null ? `@construct ${this.op.target.constructFactory}` : `new ${className}()`} gave ${describeValue(inst)}, expected an instance`);
-      }
-      this.instance = inst as Record<string, unknown>;
-    }
+    if (this.classCtor !== null) this.instance = this.construct(this.classCtor);
     this.sample = drawSample(this.op, rng, this.instance, this.samplesFn as ((r: () => number) => unknown) | null, maxElements);
     return this.sample;
+  }
+
+  /** A new instance from @construct or `new Class()`. */
+  private construct(cls: AnyFunction): Record<string, unknown> {
+    let inst: unknown;
+    const className = this.op.target.className ?? '';
+    try {
+      inst = this.constructFn !== null ? reflectApply(this.constructFn, undefined, []) : reflectConstruct(cls, []);
+    } catch (e) {
+      failThrown(this.constructFn !== null ? `@construct ${this.op.target.constructFactory} threw ${describeThrown(e)}` : `new ${className}() threw ${describeThrown(e)}`, e);
+    }
+    if (inst === null || typeof inst !== 'object') {
+      fail(`${this.constructFn !== null ? `@construct ${this.op.target.constructFactory}` : `new ${className}()`} gave ${describeValue(inst)}, expected an instance`);
+    }
+    return inst as Record<string, unknown>;
+  }
+
+  /** Whether each backward call gets a fresh instance (state in `#private` fields cannot be snapshot). */
+  get renewsInstance(): boolean {
+    return this.classCtor !== null && this.op.target.renewInstance === true;
+  }
+
+  /**
+   * For the next backward call only: a fresh instance with the sampled field values (the same
+   * objects) on which the forward has run at the sample point, so the backward sees exactly the
+   * state a forward leaves, also in `#private` fields.
+   */
+  prepareFreshInstanceForBackward(scratch: Float64Array): void {
+    const inst = this.construct(this.classCtor as AnyFunction);
+    const s = this.sample as Sample;
+    const current = this.instance as Record<string, unknown>;
+    for (let i = 0; i < s.fields.length; i++) inst[s.fields[i].field] = current[s.fields[i].field];
+    this.calls.forward++;
+    let raw: unknown;
+    try {
+      raw = reflectApply(this.forwardFn, inst, this.args);
+    } catch (e) {
+      failThrown(`forward threw ${this.whereText()}: ${describeThrown(e)}`, e);
+    }
+    flattenInto(raw, this.layout as OutputLayout, scratch);
+    this.backwardThis = inst;
   }
 
   private get args(): unknown[] {
@@ -246,10 +277,12 @@ export class OpHarness {
     this.calls.backward++;
     let result: unknown;
     try {
-      result = reflectApply(this.backwardFn, this.op.target.backwardIsMethod ? (this.instance ?? this.holder ?? undefined) : undefined, list);
+      result = reflectApply(this.backwardFn, this.op.target.backwardIsMethod ? (this.backwardThis ?? this.instance ?? this.holder ?? undefined) : undefined, list);
     } catch (e) {
+      this.backwardThis = null;
       failThrown(`backward threw: ${describeThrown(e)}`, e);
     }
+    this.backwardThis = null;
     if (madeGuard !== null) {
       const changed = madeGuard.firstChange(madeValues);
       if (changed !== null) fail(`backward changed its input ${changed} (the upstream gradient and the output are the check's, not the backward's to reuse: return a new array)`);

@@ -86,6 +86,11 @@ export interface OpTarget {
   backwardName: string;
   /** Whether the backward is a method of the class (called on the same instance). */
   backwardIsMethod: boolean;
+  /**
+   * The class (or a same-file ancestor) declares `#private` members, whose state the engine
+   * cannot snapshot: each backward call gets a fresh instance on which the forward ran.
+   */
+  renewInstance?: boolean;
   /** `@samples FACTORY`: exported/top-level function `(random) => unknown[]`. */
   samplesFactory?: string;
   /** `@construct FACTORY`: top-level function returning the instance. */
