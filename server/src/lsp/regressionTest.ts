@@ -2,7 +2,7 @@
 // that rebuilds the recorded sample, calls the backward with an all-ones upstream gradient and
 // compares the worst element with a central difference, so the bug stays caught after it is fixed.
 
-import type { BackwardArg, OpDescriptor, OpResult, ParamResult } from '../engine/types';
+import { DEFAULT_EXPORT_BINDING, type BackwardArg, type OpDescriptor, type OpResult, type ParamResult } from '../engine/types';
 import { indexText } from './format';
 
 /**
@@ -42,7 +42,9 @@ export function regressionTestFor(op: OpDescriptor, result: OpResult, tolerance:
     for (const [field, value] of Object.entries(result.inputs.fields)) push(1, `self.${field} = ${literal(value)};`);
     push(1, `const forward = (): any => self.${op.target.forwardName}(...args);`);
   } else {
-    push(1, `const forward = (): any => ${op.target.forwardName}(...args);`);
+    // A function of an object literal is called on the object (OpTarget.objectName).
+    const holder = op.target.objectName !== undefined ? `${op.target.objectName}.` : '';
+    push(1, `const forward = (): any => ${holder}${op.target.forwardName}(...args);`);
   }
   push(1, `// Flattens a number, typed array, nested array or object of outputs into one list.`);
   push(1, `const flat = (v: any): number[] => typeof v === 'number' ? [v] : ArrayBuffer.isView(v) || Array.isArray(v) ? Array.from(v as ArrayLike<any>).flatMap(flat) : Object.keys(v).sort().flatMap((k) => flat(v[k]));`);
@@ -50,7 +52,11 @@ export function regressionTestFor(op: OpDescriptor, result: OpResult, tolerance:
   push(1, `const y = forward();`);
   push(1, `const dy = onesLike(y);`);
   const backwardArgs = op.backwardArgs.map((a) => backwardArgText(a, plainParams));
-  const callee = isMethod && op.target.backwardIsMethod ? `self.${op.target.backwardName}` : op.target.backwardName;
+  const callee = isMethod && op.target.backwardIsMethod
+    ? `self.${op.target.backwardName}`
+    : op.target.objectName !== undefined && op.target.backwardIsMethod
+      ? `${op.target.objectName}.${op.target.backwardName}`
+      : op.target.backwardName;
   push(1, `const grads: any = ${callee}(${backwardArgs.join(', ')});`);
   const pick = differentiated.length === 1 ? 'grads' : `(Array.isArray(grads) ? grads[${differentiated.indexOf(param.name)}] : grads[${JSON.stringify(param.name.replace(/^this\./, ''))}])`;
   push(1, `const analytic = flat(${pick})[${flatIndex(param)}];`);
@@ -75,6 +81,9 @@ export function regressionTestFor(op: OpDescriptor, result: OpResult, tolerance:
 
 function importList(op: OpDescriptor): string[] {
   if (op.target.kind === 'method') return [op.target.constructFactory ?? op.target.className ?? op.forward];
+  if (op.target.objectName !== undefined) return op.target.backwardIsMethod ? [op.target.objectName] : [op.target.objectName, op.target.backwardName];
+  // An anonymous default export: `import name from` the module, under the name the snippet uses.
+  if (op.target.forwardName === DEFAULT_EXPORT_BINDING) return [`the default export (as ${DEFAULT_EXPORT_BINDING})`, op.target.backwardName];
   return [op.target.forwardName, op.target.backwardName];
 }
 
