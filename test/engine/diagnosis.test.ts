@@ -3,7 +3,7 @@
 // computes in float32. Derivatives by the chain rule: d sin = cos, d Σx² = 2x.
 
 import assert from 'node:assert/strict';
-import { check, functionOp, show, spec } from './opBuilder';
+import { check, functionOp, methodOp, show, spec } from './opBuilder';
 
 describe('engine: diagnosis', () => {
   it('a multi-output op whose "total" term is wrong names that output', () => {
@@ -65,5 +65,24 @@ describe('engine: diagnosis of precision and the worst element', () => {
     const own = p.worst!.relError!;
     assert.ok(own > 0.2 && own <= p.maxRelError, show(o));
     assert.match(o.message, /disagrees at x\[5\]: .*\(relative error 0\.2\d*\)/);
+  });
+});
+
+describe('engine: diagnosis of a layer with several outputs', () => {
+  it('naming the wrong output of a method op runs its backward on the state of the sample point', () => {
+    // Shape: a layer caching its input, returning { y, energy }; the energy term misses a factor 2.
+    class TwoHeads {
+      input = new Float64Array(4);
+      forward(x: Float64Array): { y: Float64Array; energy: number } {
+        this.input = Float64Array.from(x);
+        return { y: x.map((v) => Math.tanh(v)), energy: x.reduce((a, v) => a + v * v, 0) };
+      }
+      backward(dy: { y: Float64Array; energy: number }): Float64Array {
+        return this.input.map((v, i) => (1 - Math.tanh(v) ** 2) * dy.y[i] + v * dy.energy);
+      }
+    }
+    const o = check(methodOp({ cls: TwoHeads, forwardName: 'forward', backwardName: 'backward', params: [['x', spec('f64', [4])]] }));
+    assert.equal(o.verdict, 'mismatch', show(o));
+    assert.ok(o.params[0]!.hints.some((h) => /^output 'energy' accounts for the disagreement/.test(h)), show(o));
   });
 });

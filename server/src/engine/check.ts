@@ -233,6 +233,9 @@ function runAttempt(
     } else if (h.backwardNeedsFreshForward && instanceState === null) {
       h.forwardInto(scratch, true);
       instanceState = h.snapshotInstance();
+    } else if (instanceState !== null) {
+      // Forward calls at moved points may have run since (a late call, e.g. for output hints).
+      instanceState.restore();
     }
     h.backwardInto(h.takesUpstream ? w : null, y0, slots, into);
     const changed = guard.firstChange(h.inputValues());

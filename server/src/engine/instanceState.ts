@@ -17,8 +17,15 @@ type Saved =
   | { kind: 'array'; value: unknown[]; items: Saved[] }
   | { kind: 'object'; value: Record<string, unknown>; keys: string[]; items: Saved[] };
 
+/**
+ * Containers copied per snapshot at most: beyond it, values keep their identity only (a layer
+ * holding a list of thousands of objects is not a cache of the forward; our choice).
+ */
+const MAX_CONTAINERS = 2048;
+
 function save(v: unknown, depth: number, seen: unknown[]): Saved {
   if (v === null || typeof v !== 'object') return { kind: 'leaf', value: v };
+  if (seen.length >= MAX_CONTAINERS) return { kind: 'leaf', value: v };
   for (let i = 0; i < seen.length; i++) if (seen[i] === v) return { kind: 'leaf', value: v };
   if (isView(v)) {
     const arr = v as unknown as { [i: number]: unknown; length: number };
@@ -41,7 +48,15 @@ function save(v: unknown, depth: number, seen: unknown[]): Saved {
   const obj = v as Record<string, unknown>;
   const keys = objectKeys(obj);
   const items: Saved[] = [];
-  for (let i = 0; i < keys.length; i++) items[i] = save(obj[keys[i]], depth + 1, seen);
+  for (let i = 0; i < keys.length; i++) {
+    let field: unknown;
+    try {
+      field = obj[keys[i]];
+    } catch {
+      field = undefined; // a getter that throws: nothing to copy, and nothing will be written back
+    }
+    items[i] = save(field, depth + 1, seen);
+  }
   return { kind: 'object', value: obj, keys, items };
 }
 
@@ -67,8 +82,12 @@ function restore(s: Saved): unknown {
     }
     case 'array': {
       const arr = s.value;
-      arr.length = s.items.length;
-      for (let i = 0; i < s.items.length; i++) arr[i] = restore(s.items[i]);
+      try {
+        arr.length = s.items.length;
+        for (let i = 0; i < s.items.length; i++) arr[i] = restore(s.items[i]);
+      } catch {
+        // A frozen array cannot have changed.
+      }
       return arr;
     }
     case 'object': {
@@ -80,7 +99,12 @@ function restore(s: Saved): unknown {
 
 function restoreOwn(obj: Record<string, unknown>, keys: string[], items: Saved[]): void {
   // Fields added since the snapshot go, so a backward cannot leave state for the next call.
-  const now = objectKeys(obj);
+  let now: string[];
+  try {
+    now = objectKeys(obj);
+  } catch {
+    now = [];
+  }
   for (let i = 0; i < now.length; i++) {
     let kept = false;
     for (let k = 0; k < keys.length; k++) if (keys[k] === now[i]) kept = true;
@@ -107,11 +131,21 @@ export class InstanceSnapshot {
   private readonly saved: Saved;
 
   constructor(instance: Record<string, unknown>) {
-    this.saved = save(instance, 0, []);
+    let saved: Saved;
+    try {
+      saved = save(instance, 0, []);
+    } catch {
+      saved = { kind: 'leaf', value: instance }; // an instance that cannot be read (a Proxy): nothing to restore
+    }
+    this.saved = saved;
   }
 
-  /** Puts every saved field (and the contents of every saved array) back. */
+  /** Puts every saved field (and the contents of every saved array) back; never throws. */
   restore(): void {
-    restore(this.saved);
+    try {
+      restore(this.saved);
+    } catch {
+      // Setters that throw: the fields that could be written back are.
+    }
   }
 }
