@@ -2,11 +2,11 @@
 // command line) reuses the bundle of an unchanged file and its imports without building, and
 // builds again when an import changed. Uses a cache folder of its own (GRADIENT_PROBE_BUNDLE_CACHE).
 import assert from 'node:assert/strict';
-import { mkdirSync, mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdirSync, mkdtempSync, readdirSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
-import { join } from 'node:path';
+import { dirname, join } from 'node:path';
 import { Bundler } from '../../server/src/sandbox/bundle';
-import { BUNDLE_CACHE_ENV, bundleCacheDir } from '../../server/src/sandbox/bundleDiskCache';
+import { BUNDLE_CACHE_ENV, bundleCacheDir, defaultBundleCacheDir } from '../../server/src/sandbox/bundleDiskCache';
 
 describe('bundle: disk cache between runs', function () {
   this.timeout(60_000);
@@ -66,12 +66,17 @@ describe('bundle: disk cache between runs', function () {
     assert.equal(readdirSync(cacheDir).length, before);
   });
 
-  it('the default folder: node_modules/.cache/gradient-probe above the file, else the OS temporary folder', () => {
+  it('the default folder: private to the user in the OS temporary folder, never inside the project', () => {
     delete process.env[BUNDLE_CACHE_ENV];
     try {
-      mkdirSync(join(work, 'proj', 'node_modules'), { recursive: true });
-      mkdirSync(join(work, 'proj', 'src'), { recursive: true });
-      assert.equal(bundleCacheDir(join(work, 'proj', 'src', 'ops.ts')), join(work, 'proj', 'node_modules', '.cache', 'gradient-probe', 'bundles'));
+      const dir = bundleCacheDir();
+      assert.equal(dir, defaultBundleCacheDir());
+      assert.ok(dir!.startsWith(tmpdir()), dir);
+      if (typeof process.getuid === 'function') {
+        const st = statSync(dirname(dir!));
+        assert.equal(st.uid, process.getuid());
+        assert.equal(st.mode & 0o022, 0, 'not writable by group or others');
+      }
     } finally {
       process.env[BUNDLE_CACHE_ENV] = cacheDir;
     }

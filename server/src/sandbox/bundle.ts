@@ -184,7 +184,7 @@ export class Bundler {
       return { ok: true, code: cached.code, key: cached.key, cached: true, buildMs: 0, originalPlace: placeFinder(cached), inputs: inputPaths(cached) };
     }
     this.forget(requestKey);
-    const diskDir = this.options.diskCache ? bundleCacheDir(file) : undefined;
+    const diskDir = this.options.diskCache ? bundleCacheDir() : undefined;
     const stored = diskDir ? readStoredBundle(diskDir, requestKey) : undefined;
     if (stored && this.stillValid(stored)) {
       this.stats.diskHits++;

@@ -9,8 +9,10 @@ import * as esbuild from 'esbuild';
 
 /**
  * Environment variable naming the cache folder, or `off` to keep bundles in memory only. Default:
- * `node_modules/.cache/gradient-probe/bundles` in the nearest folder above the file that has a
- * `node_modules`, else `gradient-probe-USER/bundles` in the OS temporary folder.
+ * `gradient-probe-UID/bundles` in the OS temporary folder, used only while that folder belongs to
+ * the current user and nobody else may write to it. Not inside the project: a bundle planted in
+ * a repository (a committed `node_modules/.cache`) could make a check run other code than the
+ * source shows, and a pass must mean the source passed.
  */
 export const BUNDLE_CACHE_ENV = 'GRADIENT_PROBE_BUNDLE_CACHE';
 
@@ -50,22 +52,40 @@ function toolVersion(): string {
 
 const VERSION = toolVersion();
 
-/** The cache folder for a source file, or undefined when disk caching is off. */
-export function bundleCacheDir(file: string): string | undefined {
+/** The default cache folder (its parent is checked for ownership before use). */
+export function defaultBundleCacheDir(): string {
+  let who = 'user';
+  try {
+    who = typeof process.getuid === 'function' ? String(process.getuid()) : userInfo().username.replace(/[^A-Za-z0-9_-]/g, '_') || who;
+  } catch {
+    // no user id or name: the ownership check below still applies
+  }
+  return join(tmpdir(), `gradient-probe-${who}`, 'bundles');
+}
+
+/**
+ * Whether a folder in a shared temporary directory is ours alone: created now with mode 0700,
+ * or already there, owned by this user and not writable by group or others (POSIX; on Windows
+ * the per-user temporary folder is private already).
+ */
+function privateFolder(dir: string): boolean {
+  try {
+    mkdirSync(dir, { recursive: true, mode: 0o700 });
+    if (typeof process.getuid !== 'function') return true;
+    const st = statSync(dir);
+    return st.uid === process.getuid() && (st.mode & 0o022) === 0;
+  } catch {
+    return false;
+  }
+}
+
+/** The cache folder, or undefined when disk caching is off (or the default folder is not safe). */
+export function bundleCacheDir(): string | undefined {
   const fromEnv = process.env[BUNDLE_CACHE_ENV];
   if (fromEnv === 'off') return undefined;
   if (fromEnv) return fromEnv;
-  for (let dir = dirname(file); ; dir = dirname(dir)) {
-    if (existsSync(join(dir, 'node_modules'))) return join(dir, 'node_modules', '.cache', 'gradient-probe', 'bundles');
-    if (dirname(dir) === dir) break;
-  }
-  let user = 'user';
-  try {
-    user = userInfo().username.replace(/[^A-Za-z0-9_-]/g, '_') || user;
-  } catch {
-    // no user name: the shared name is fine, entries are re-validated anyway
-  }
-  return join(tmpdir(), `gradient-probe-${user}`, 'bundles');
+  const dir = defaultBundleCacheDir();
+  return privateFolder(dirname(dir)) ? dir : undefined;
 }
 
 function entryPath(dir: string, requestKey: string): string {
