@@ -50,7 +50,8 @@ function roleText(r: Role): string {
 }
 
 function sameRole(r: Role, a: BackwardArg): boolean {
-  if (r.kind === 'unknown') return true;
+  // `y`/`out` may well name an input too: an output-like name alone never makes a problem.
+  if (r.kind === 'unknown' || r.kind === 'output') return true;
   if (r.kind === 'param') return a.kind === 'param' && a.name === r.name;
   return r.kind === a.kind;
 }
