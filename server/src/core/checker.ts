@@ -253,38 +253,33 @@ export class Checker {
   }
 }
 
+type PlaceFinder = (line: number, column: number) => SourcePlace | undefined;
+
 /**
- * Where user code threw: the innermost frame in the user's own files (not a package under
- * node_modules), else the innermost frame that maps anywhere.
+ * The first bundle frame (innermost first) whose place `preferred` accepts, else the first that
+ * maps anywhere. Frames in a built-in's stand-in are skipped: the error is made there, the user
+ * called it elsewhere.
  */
-function thrownPlace(
-  frames: Array<{ line: number; column: number }>,
-  originalPlace: (line: number, column: number) => SourcePlace | undefined,
-): SourcePlace | undefined {
+function firstPlace(frames: Array<{ line: number; column: number }>, originalPlace: PlaceFinder, preferred: (place: SourcePlace) => boolean): SourcePlace | undefined {
   let first: SourcePlace | undefined;
   for (const frame of frames) {
     const place = originalPlace(frame.line, frame.column);
-    // A built-in's stand-in is where the error is made, not where the user called it.
     if (!place || place.file.includes(UNAVAILABLE_BUILTIN_NAMESPACE)) continue;
-    // A package's own source map can point outside node_modules, at files that are not there.
-    if (!/[\\/]node_modules[\\/]/.test(place.file) && existsSync(place.file)) return place;
+    if (preferred(place)) return place;
     first ??= place;
   }
   return first;
 }
 
-/** The first bundle frame that maps into the checked file, else the first that maps anywhere. */
-function loadErrorPlace(
-  file: string,
-  frames: Array<{ line: number; column: number }>,
-  originalPlace: (line: number, column: number) => SourcePlace | undefined,
-): SourcePlace | undefined {
-  let first: SourcePlace | undefined;
-  for (const frame of frames) {
-    const place = originalPlace(frame.line, frame.column);
-    if (!place) continue;
-    if (place.file === file) return place;
-    first ??= place;
-  }
-  return first;
+/**
+ * Where user code threw: the innermost frame in the user's own files (not a package under
+ * node_modules; a package's own source map can point outside it, at files that are not there).
+ */
+function thrownPlace(frames: Array<{ line: number; column: number }>, originalPlace: PlaceFinder): SourcePlace | undefined {
+  return firstPlace(frames, originalPlace, (place) => !/[\\/]node_modules[\\/]/.test(place.file) && existsSync(place.file));
+}
+
+/** Where the module threw while loading: the first frame in the checked file. */
+function loadErrorPlace(file: string, frames: Array<{ line: number; column: number }>, originalPlace: PlaceFinder): SourcePlace | undefined {
+  return firstPlace(frames, originalPlace, (place) => place.file === file);
 }

@@ -222,14 +222,8 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     return loc;
   });
 
-  const start = ctx.mapper.at(site.nameSpan.start);
-  const end = ctx.mapper.at(site.nameSpan.end);
   const op: OpDescriptor = {
-    file: ctx.fileName,
-    line: start.line,
-    column: start.column,
-    endLine: end.line,
-    endColumn: end.column,
+    ...opPlace(site, ctx),
     forward: displayName(site),
     backward: backwardName,
     target: {
@@ -256,20 +250,21 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
 }
 
 /** An op whose tags stand where no op can be (on a class): its one problem, nothing parsed. */
-function misplacedOp(site: ForwardSite, ctx: BuildContext, problems: SpanProblem[], ours: OurTag[]): OpDescriptor {
+/** The op's file and the span of its forward's name (1-based). */
+function opPlace(site: ForwardSite, ctx: BuildContext): Pick<OpDescriptor, 'file' | 'line' | 'column' | 'endLine' | 'endColumn'> {
   const start = ctx.mapper.at(site.nameSpan.start);
   const end = ctx.mapper.at(site.nameSpan.end);
+  return { file: ctx.fileName, line: start.line, column: start.column, endLine: end.line, endColumn: end.column };
+}
+
+function misplacedOp(site: ForwardSite, ctx: BuildContext, problems: SpanProblem[], ours: OurTag[]): OpDescriptor {
   const tags: TagLocation[] = ours.map((t) => {
     const a = ctx.mapper.at(t.raw.span.start);
     const b = ctx.mapper.at(t.raw.span.end);
     return { tag: t.name, line: a.line, column: a.column, endLine: b.line, endColumn: b.column };
   });
   return {
-    file: ctx.fileName,
-    line: start.line,
-    column: start.column,
-    endLine: end.line,
-    endColumn: end.column,
+    ...opPlace(site, ctx),
     forward: displayName(site),
     backward: '',
     target: { kind: site.kind, forwardName: site.name, backwardName: '', backwardIsMethod: false },
