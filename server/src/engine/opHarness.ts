@@ -11,6 +11,7 @@ import { buildValue, describeOutputIndex, detectLayout, firstNonFinite, flattenI
 import type { ParamSlot } from './paramSlot';
 import type { RandomSource } from './random';
 import { drawSample, type Sample } from './sampling';
+import { TensorBridge } from './tensorBridge';
 import type { CallCounts, CheckOutcome, OpDescriptor } from './types';
 
 type AnyFunction = (...args: unknown[]) => unknown;
@@ -52,6 +53,8 @@ export class OpHarness {
   layout: OutputLayout | null = null;
   /** Whether the backward receives `$dy`; when not, the forward returns a number. */
   readonly takesUpstream: boolean;
+  /** Tensors in and out, and the library's gradient, for ops that work with TensorFlow.js. */
+  private readonly tensors: TensorBridge | null;
 
   constructor(
     private readonly op: OpDescriptor,
@@ -61,6 +64,7 @@ export class OpHarness {
     let upstream = false;
     for (let i = 0; i < op.backwardArgs.length; i++) if (op.backwardArgs[i].kind === 'upstream') upstream = true;
     this.takesUpstream = upstream;
+    this.tensors = TensorBridge.forOp(op, exposed);
     if (t.kind === 'method') {
       const className = t.className ?? '';
       const cls = lookup(exposed, className);
@@ -92,7 +96,8 @@ export class OpHarness {
       if (typeof fwd !== 'function') fail(`forward '${op.forward}' is not a function (got ${describeValue(fwd)})`);
       this.forwardFn = fwd as AnyFunction;
       this.classCtor = null;
-      const bwd = lookup(exposed, t.backwardName);
+      // The library's gradient of the forward stands in for a backward function.
+      const bwd = t.libraryGradient ? this.forwardFn : lookup(exposed, t.backwardName);
       if (typeof bwd !== 'function') fail(`backward '${op.backward}' is not a function (got ${describeValue(bwd)})`);
       this.backwardFn = bwd as AnyFunction;
     }
@@ -115,6 +120,7 @@ export class OpHarness {
     this.layout = null;
     if (this.classCtor !== null) this.instance = this.construct(this.classCtor);
     this.sample = drawSample(this.op, rng, this.instance, this.samplesFn as ((r: () => number) => unknown) | null, maxElements);
+    if (this.tensors !== null && this.samplesFn !== null) this.tensors.adoptFactoryTensors(this.sample, this.op.fixed ?? []);
     return this.sample;
   }
 
@@ -151,7 +157,7 @@ export class OpHarness {
     this.calls.forward++;
     let raw: unknown;
     try {
-      raw = reflectApply(this.forwardFn, inst, this.args);
+      raw = this.tensors !== null ? this.tensors.callForward(this.forwardFn, inst, this.args) : reflectApply(this.forwardFn, inst, this.args);
     } catch (e) {
       failThrown(`forward threw ${this.whereText()}: ${describeThrown(e)}`, e);
     }
@@ -192,8 +198,10 @@ export class OpHarness {
   forwardRaw(): unknown {
     this.calls.forward++;
     try {
+      if (this.tensors !== null) return this.tensors.callForward(this.forwardFn, this.instance ?? this.holder ?? undefined, this.args);
       return reflectApply(this.forwardFn, this.instance ?? this.holder ?? undefined, this.args);
     } catch (e) {
+      if (e instanceof CheckStop) throw e;
       return failThrown(`forward threw ${this.whereText()}: ${describeThrown(e)}`, e);
     }
   }
@@ -276,13 +284,25 @@ export class OpHarness {
     const madeGuard = madeNames.length > 0 ? new InputGuard(madeNames, madeValues) : null;
     this.calls.backward++;
     let result: unknown;
+    const thisArg = this.op.target.backwardIsMethod ? (this.backwardThis ?? this.instance ?? this.holder ?? undefined) : undefined;
+    this.backwardThis = null;
     try {
-      result = reflectApply(this.backwardFn, this.op.target.backwardIsMethod ? (this.backwardThis ?? this.instance ?? this.holder ?? undefined) : undefined, list);
+      if (this.tensors !== null && this.op.target.libraryGradient) {
+        const names: string[] = [];
+        for (let p = 0; p < slots.length; p++) names[p] = slots[p].name;
+        // Without $dy the forward returns a number: its plain gradient is the one for dy = 1.
+        let upstream = dy;
+        if (upstream === null) {
+          upstream = new F64(y.length);
+          for (let j = 0; j < y.length; j++) upstream[j] = 1;
+        }
+        result = this.tensors.libraryGradient(this.forwardFn, this.args, names, upstream);
+      } else if (this.tensors !== null) result = this.tensors.callBackward(this.backwardFn, thisArg, list, this.op.backwardArgs);
+      else result = reflectApply(this.backwardFn, thisArg, list);
     } catch (e) {
-      this.backwardThis = null;
+      if (e instanceof CheckStop) throw e;
       failThrown(`backward threw: ${describeThrown(e)}`, e);
     }
-    this.backwardThis = null;
     if (madeGuard !== null) {
       const changed = madeGuard.firstChange(madeValues);
       if (changed !== null) fail(`backward changed its input ${changed} (the upstream gradient and the output are the check's, not the backward's to reuse: return a new array)`);
@@ -297,7 +317,7 @@ export class OpHarness {
       const j = firstNonFinite(dests[p]);
       if (j >= 0) {
         const where = slots[p].shape.length ? ` at index ${formatIndex(unravelSlot(slots[p], j))}` : '';
-        fail(`gradient of '${slots[p].name}' has ${nonFiniteName(dests[p][j])}${where}`);
+        fail(`gradient of '${slots[p].name}' has ${nonFiniteName(dests[p][j])}${where}${this.tensors !== null ? this.tensors.upstreamNote() : ''}`);
       }
     }
   }

@@ -7,10 +7,10 @@ import { builtinModules } from 'node:module';
 import { dirname, extname, isAbsolute, join, relative, resolve } from 'node:path';
 import * as esbuild from 'esbuild';
 import type * as esbuildTypes from 'esbuild';
+import { DEFAULT_EXPORT_BINDING, TENSOR_LIBRARY_BINDING } from '../engine/types';
 import { UNAVAILABLE_BUILTIN_NAMESPACE, unavailableModuleCode } from './builtinStandIn';
 import { bundleCacheDir, readStoredBundle, writeStoredBundle } from './bundleDiskCache';
 import { originalPlace, type SourcePlace } from './sourceMap';
-import { DEFAULT_EXPORT_BINDING } from '../engine/types';
 
 /** Bundles kept in memory; a workspace rarely has more files with ops open at once. */
 const MAX_CACHED_BUNDLES = 128;
@@ -40,6 +40,11 @@ export interface BundleRequest {
   text: string;
   /** Top-level names to expose: forward, class, backward, samples and construct factories. */
   bindings: string[];
+  /**
+   * A TensorFlow.js package the file imports: its namespace is imported too (resolved from the
+   * file's folder, so it is the user's own copy) and exposed as TENSOR_LIBRARY_BINDING.
+   */
+  tensorLibrary?: string;
 }
 
 export type BundleResult =
@@ -103,14 +108,25 @@ function sha256(...parts: string[]): string {
   return h.digest('hex');
 }
 
-/** The code appended to the entry: `globalThis.__gradientProbeExposed = { name: …, … }`. */
-export function exposeCode(bindings: string[], file?: string): string {
+/** Package names a tensor-library import may name (checked again here: it is spliced into code). */
+const TENSOR_LIBRARY_PACKAGE = /^@tensorflow\/tfjs(?:-core|-node|-node-gpu)?$/;
+
+/**
+ * The code appended to the entry: `globalThis.__gradientProbeExposed = { name: …, … }`, with
+ * the tensor library's namespace (an import, hoisted like every import) when asked for.
+ */
+export function exposeCode(bindings: string[], tensorLibrary?: string, file?: string): string {
   const names = [...new Set(bindings)].filter((n) => IDENTIFIER.test(n)).sort();
   const fields = names.map((n) => `  ${JSON.stringify(n)}: typeof ${n} !== 'undefined' ? ${n} : undefined`);
+  let head = '';
+  if (tensorLibrary !== undefined && TENSOR_LIBRARY_PACKAGE.test(tensorLibrary)) {
+    head = `\n;import * as ${TENSOR_LIBRARY_BINDING} from ${JSON.stringify(tensorLibrary)};`;
+    fields.push(`  ${JSON.stringify(TENSOR_LIBRARY_BINDING)}: ${TENSOR_LIBRARY_BINDING}`);
+  }
   // An anonymous default export has no name in its module: a self-import gives it one (the
   // bundler resolves it to the same module, so nothing runs twice).
-  const selfImport = file !== undefined && names.includes(DEFAULT_EXPORT_BINDING) ? `\nimport ${DEFAULT_EXPORT_BINDING} from ${JSON.stringify(file)};` : '';
-  return `${selfImport}\n;globalThis.__gradientProbeExposed = {\n${fields.join(',\n')}\n};\n`;
+  if (file !== undefined && names.includes(DEFAULT_EXPORT_BINDING)) head += `\nimport ${DEFAULT_EXPORT_BINDING} from ${JSON.stringify(file)};`;
+  return `${head}\n;globalThis.__gradientProbeExposed = {\n${fields.join(',\n')}\n};\n`;
 }
 
 /** Looks places up in an entry's source map (parsed on each call: only failures ask). */
@@ -175,7 +191,7 @@ export class Bundler {
     const bindings = [...new Set(request.bindings)].sort();
     const bad = bindings.find((b) => !IDENTIFIER.test(b));
     if (bad !== undefined) return { ok: false, message: `"${bad}" is not a plain identifier` };
-    const requestKey = sha256(file, request.text, bindings.join(','));
+    const requestKey = sha256(file, request.text, bindings.join(','), request.tensorLibrary ?? '');
     const cached = this.cache.get(requestKey);
     if (cached && this.stillValid(cached)) {
       this.cache.delete(requestKey);
@@ -192,7 +208,7 @@ export class Bundler {
       return { ok: true, code: stored.code, key: stored.key, cached: true, buildMs: 0, originalPlace: placeFinder(stored), inputs: inputPaths(stored) };
     }
     const started = performance.now();
-    const result = await this.build(file, request.text, bindings);
+    const result = await this.build(file, request.text, bindings, request.tensorLibrary);
     if (!result.ok) {
       this.stats.failures++;
       return result;
@@ -249,10 +265,10 @@ export class Bundler {
     return true;
   }
 
-  private async build(file: string, text: string, bindings: string[]): Promise<{ ok: true; entry: CacheEntry } | (BundleResult & { ok: false })> {
+  private async build(file: string, text: string, bindings: string[], tensorLibrary?: string): Promise<{ ok: true; entry: CacheEntry } | (BundleResult & { ok: false })> {
     const workDir = dirname(file);
     const loader = LOADERS[extname(file).toLowerCase()] ?? 'ts';
-    const entryContents = text + exposeCode(bindings, file);
+    const entryContents = text + exposeCode(bindings, tensorLibrary, file);
     const entryPlugin: esbuildTypes.Plugin = {
       name: 'gradient-probe-entry',
       setup(build) {
