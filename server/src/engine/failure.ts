@@ -7,6 +7,8 @@ export class CheckStop extends Error {
   constructor(
     readonly verdict: Extract<Verdict, 'error' | 'inconclusive'>,
     message: string,
+    /** What user code threw, when the stop is an exception of the op's own code. */
+    readonly thrown?: unknown,
     /** Set when the time limit stopped the check: how far it got (the limit is added by runCheck). */
     readonly timeLimit?: Omit<TimeLimitStop, 'timeLimitMs'>,
   ) {
@@ -19,6 +21,11 @@ export function fail(message: string): never {
   throw new CheckStop('error', message);
 }
 
+/** Stops the check with verdict `error` because user code threw `thrown` (its place is reported). */
+export function failThrown(message: string, thrown: unknown): never {
+  throw new CheckStop('error', message, thrown);
+}
+
 /** Stops the check with verdict `inconclusive`. */
 export function giveUp(message: string): never {
   throw new CheckStop('inconclusive', message);
@@ -26,5 +33,5 @@ export function giveUp(message: string): never {
 
 /** Stops the check with verdict `inconclusive` because its time limit ran out, saying how far it got. */
 export function stopAtTimeLimit(message: string, progress: Omit<TimeLimitStop, 'timeLimitMs'>): never {
-  throw new CheckStop('inconclusive', message, progress);
+  throw new CheckStop('inconclusive', message, undefined, progress);
 }
