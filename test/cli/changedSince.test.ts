@@ -68,7 +68,9 @@ describe('check --changed-since (spawned CLI, temporary git repository)', functi
 
   it('counts a new, untracked op file as changed', async () => {
     writeFileSync(join(repo, 'src', 'chimney.ts'), opFile('chimneyDamper', 4));
-    const report = JSON.parse((await runCli(['check', 'src', '--changed-since', 'HEAD', '--json'], { cwd: repo })).stdout) as Report;
+    const run = await runCli(['check', 'src', '--changed-since', 'HEAD', '--json'], { cwd: repo });
+    assert.equal(run.code, 0, `exit ${run.code}; stderr: ${run.stderr}`);
+    const report = JSON.parse(run.stdout) as Report;
     assert.ok(report.pairs.some((p) => p.forward === 'chimneyDamper'));
     assert.ok(!report.pairs.some((p) => p.forward === 'flueDamper'));
   });
