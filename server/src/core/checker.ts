@@ -4,11 +4,12 @@ import { readFileSync } from 'node:fs';
 import { dirname, relative, resolve } from 'node:path';
 import { discoverOps, type DiscoveryResult } from '../discovery/index';
 import type { CheckSettings } from '../engine/settings';
-import type { OpDescriptor, OpResult, Problem } from '../engine/types';
+import type { CheckOutcome, OpCoverage, OpDescriptor, OpResult, Problem } from '../engine/types';
 import { Bundler, type BundleStats } from '../sandbox/bundle';
+import { opCoverage } from '../sandbox/coverageMap';
 import type { SourcePlace } from '../sandbox/sourceMap';
 import { IsolatedRunner } from '../sandbox/isolated';
-import { RunnerPool, type IsolationReport, type PoolStats, type RunnerPoolOptions } from '../sandbox/pool';
+import { RunnerPool, type IsolationReport, type PoolStats, type RunnerPoolOptions, type RunResult } from '../sandbox/pool';
 import { errorResult, resultFromOutcome, summarizeProblems } from './opResult';
 
 /**
@@ -24,7 +25,16 @@ export interface CheckerOptions {
   workers?: number;
   /** Where the built runner and engine are, and a log sink (defaults suit dist/). */
   runner?: Omit<RunnerPoolOptions, 'size'>;
+  /**
+   * Also record which code of each op's forward and backward its check ran (OpResult.coverage):
+   * a second, separate run of the same check in coverage runners (sandbox/coverageSession.ts),
+   * concurrent with the verdict's run. Default false.
+   */
+  coverage?: boolean;
 }
+
+/** Why an op run in the isolated interpreter has no coverage. */
+export const INTERPRETER_NO_COVERAGE = 'not collected: the op ran in the isolated interpreter, which does not record coverage';
 
 export interface CheckFileOptions {
   /** The file's text (an unsaved editor buffer); default: read from disk. */
@@ -86,11 +96,20 @@ export class Checker {
   private readonly pool: RunnerPool;
   private isolated: IsolatedRunner | undefined;
   private readonly runnerLog: ((line: string) => void) | undefined;
+  /** Runners of the coverage pass, started on first use (only when coverage is asked for). */
+  private coveragePool: RunnerPool | undefined;
+  private readonly coverageOptions: RunnerPoolOptions | undefined;
 
   constructor(opts: CheckerOptions) {
     this.settings = opts.settings;
     this.pool = new RunnerPool({ ...opts.runner, size: opts.workers });
     this.runnerLog = opts.runner?.log;
+    if (opts.coverage) this.coverageOptions = { ...opts.runner, size: opts.workers, coverage: true };
+  }
+
+  /** Counters of the coverage pass's runners (undefined before it first ran). */
+  get coverageStats(): PoolStats | undefined {
+    return this.coveragePool?.stats;
   }
 
   /** Counters of runner reuse and bundle caching (for tests and benchmarks). */
@@ -197,7 +216,15 @@ export class Checker {
           // Isolated mode: the op runs in the WebAssembly interpreter instead of a runner process.
           const interpreted = settings.isolation === 'interpreter';
           const runner = interpreted ? this.interpreter() : this.pool;
-          const run = await runner.run({ bundleKey: bundle.key, bundleCode: bundle.code, op, settings, signal: stop.signal });
+          const job = { bundleKey: bundle.key, bundleCode: bundle.code, op, settings };
+          // The coverage pass runs the same job at the same time in its own runners; it is
+          // cancelled as soon as the verdict's run ends without an outcome.
+          const coverageStop = new AbortController();
+          const coverageRun = !interpreted && this.coverageOptions
+            ? this.coverageRunners().run({ ...job, signal: AbortSignal.any([stop.signal, coverageStop.signal]) })
+            : undefined;
+          const run = await runner.run({ ...job, signal: stop.signal });
+          if (!('outcome' in run) || run.outcome.verdict === 'error') coverageStop.abort();
           if ('error' in run && run.cause === 'load') {
             const place = loadErrorPlace(abs, run.bundleFrames ?? [], bundle.originalPlace);
             if (place) {
@@ -220,6 +247,14 @@ export class Checker {
                   problems: run.cause === 'load' || run.cause === 'cancelled' ? loadProblems : undefined,
                 });
           if (interpreted) result.isolation = 'interpreter';
+          if (coverageRun) {
+            const coverageResult = await coverageRun;
+            if ('outcome' in run && run.outcome.verdict !== 'error') {
+              result.coverage = coverageOf(op, run.outcome, coverageResult, source, bundle.code, bundle.segments);
+            }
+          } else if (interpreted && this.coverageOptions && result.verdict !== 'error') {
+            result.coverage = { collected: false, reason: INTERPRETER_NO_COVERAGE };
+          }
           results[i] = emit(result);
         }),
       );
@@ -232,13 +267,37 @@ export class Checker {
 
   /** Kills the runner processes (and the interpreter's worker); the Checker cannot run checks afterwards. */
   async dispose(): Promise<void> {
-    await Promise.all([this.pool.dispose(), this.isolated?.dispose()]);
+    await Promise.all([this.pool.dispose(), this.isolated?.dispose(), this.coveragePool?.dispose()]);
+  }
+
+  private coverageRunners(): RunnerPool {
+    this.coveragePool ??= new RunnerPool(this.coverageOptions);
+    return this.coveragePool;
   }
 
   /** The isolated mode's runner, started on first use. */
   private interpreter(): IsolatedRunner {
     this.isolated ??= new IsolatedRunner({ log: this.runnerLog });
     return this.isolated;
+  }
+}
+
+/**
+ * The op's coverage from the coverage pass. It describes the verdict's check only when the pass
+ * repeated that check: same verdict and the same number of forward and backward calls (the
+ * engine's time budget could make a slower run do less). Otherwise no coverage is claimed.
+ */
+function coverageOf(
+  op: OpDescriptor, outcome: CheckOutcome, run: RunResult, checkedText: string, bundleCode: string, segments: () => import('../sandbox/sourceMap').MappedSegment[],
+): OpCoverage {
+  if (!('outcome' in run)) return { collected: false, reason: `not collected: the coverage run failed (${run.error})` };
+  if (!run.coverage) return { collected: false, reason: 'not collected: the coverage runner returned no coverage' };
+  const same = run.outcome.verdict === outcome.verdict && run.outcome.calls.forward === outcome.calls.forward && run.outcome.calls.backward === outcome.calls.backward;
+  if (!same) return { collected: false, reason: 'not collected: the coverage run did not repeat the check exactly (different calls), so its coverage would not describe this check' };
+  try {
+    return opCoverage({ op, checkedText, bundleCode, segments: segments(), blocks: run.coverage });
+  } catch (e) {
+    return { collected: false, reason: `not collected: ${(e as Error).message}` };
   }
 }
 

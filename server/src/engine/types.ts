@@ -202,7 +202,45 @@ export interface OpResult extends CheckOutcome {
    * slower, for small ops); absent when it ran in the normal runner process.
    */
   isolation?: 'interpreter';
+  /** Which code of the forward and the backward the check ran (absent when coverage was not asked for). */
+  coverage?: OpCoverage;
 }
+
+/** Blocks of one side of an op (its function and the helpers it calls in the user's files) that ran during the check. */
+export interface BlockShare {
+  run: number;
+  total: number;
+}
+
+/** Code of an op's forward or backward (or a helper they call) that never ran during the check. */
+export interface CoverageGap {
+  /** Absolute (server) or relative to the current folder (CLI report), like OpResult.file. */
+  file: string;
+  /** 1-based; the end column is the column just after the gap's last character. */
+  startLine: number;
+  startColumn: number;
+  endLine: number;
+  endColumn: number;
+  /** The function the gap is in, as written (`Class.method` for a method). */
+  function: string;
+  /** Whose code it is: the forward's, the backward's, or a helper's that both call. */
+  side: 'forward' | 'backward' | 'both';
+  /** What code it is, e.g. "else of `x > 100`", "after the return on line 12", "never called". */
+  what: string;
+  /**
+   * When the gap sits behind a comparison of a sampled parameter with a number: which values it
+   * needs and what the @sample range allows (read from the condition, never guessed).
+   */
+  reach?: string;
+}
+
+/**
+ * Which code of the op ran during its check: V8 block coverage from a separate coverage pass,
+ * mapped back to the user's TypeScript (server/src/sandbox/coverage*.ts).
+ */
+export type OpCoverage =
+  | { collected: true; forward: BlockShare; backward: BlockShare; gaps: CoverageGap[] }
+  | { collected: false; reason: string };
 
 export interface ReportSummary {
   pass: number;

@@ -7,7 +7,7 @@ import { builtinModules } from 'node:module';
 import { dirname, extname, isAbsolute, join, relative, resolve } from 'node:path';
 import * as esbuild from 'esbuild';
 import type * as esbuildTypes from 'esbuild';
-import { originalPlace, type SourcePlace } from './sourceMap';
+import { mappedSegments, originalPlace, type MappedSegment, type SourcePlace } from './sourceMap';
 
 /** Bundles kept in memory; a workspace rarely has more files with ops open at once. */
 const MAX_CACHED_BUNDLES = 128;
@@ -48,6 +48,8 @@ export type BundleResult =
        * to any of them can change the op's result.
        */
       inputs: string[];
+      /** Every mapping of the bundle's source map (parsed on first call; for coverage). */
+      segments: () => MappedSegment[];
     }
   | { ok: false; message: string; location?: { file: string; line: number; column: number } };
 
@@ -73,6 +75,8 @@ interface CacheEntry {
   sourceMap: string;
   mapDir: string;
   inputs: InputRecord[];
+  /** The decoded mappings, once coverage asked for them. */
+  segments?: MappedSegment[];
 }
 
 const LOADERS: Record<string, esbuildTypes.Loader> = {
@@ -97,6 +101,11 @@ export function exposeCode(bindings: string[]): string {
   const names = [...new Set(bindings)].filter((n) => IDENTIFIER.test(n)).sort();
   const fields = names.map((n) => `  ${JSON.stringify(n)}: typeof ${n} !== 'undefined' ? ${n} : undefined`);
   return `\n;globalThis.__gradientProbeExposed = {\n${fields.join(',\n')}\n};\n`;
+}
+
+/** All mappings of an entry's source map, decoded once and kept with the entry. */
+function segmentsOf(entry: CacheEntry): () => MappedSegment[] {
+  return () => (entry.segments ??= entry.sourceMap ? mappedSegments(entry.sourceMap, entry.mapDir) : []);
 }
 
 /** Looks places up in an entry's source map (parsed on each call: only failures ask). */
@@ -148,7 +157,7 @@ export class Bundler {
       this.cache.delete(requestKey);
       this.cache.set(requestKey, cached);
       this.stats.cacheHits++;
-      return { ok: true, code: cached.code, key: cached.key, cached: true, buildMs: 0, originalPlace: placeFinder(cached), inputs: inputPaths(cached) };
+      return { ok: true, code: cached.code, key: cached.key, cached: true, buildMs: 0, originalPlace: placeFinder(cached), inputs: inputPaths(cached), segments: segmentsOf(cached) };
     }
     this.forget(requestKey);
     const started = performance.now();
@@ -166,7 +175,7 @@ export class Bundler {
       if (oldest === undefined) break;
       this.forget(oldest);
     }
-    return { ok: true, code: result.entry.code, key: result.entry.key, cached: false, buildMs: performance.now() - started, originalPlace: placeFinder(result.entry), inputs: inputPaths(result.entry) };
+    return { ok: true, code: result.entry.code, key: result.entry.key, cached: false, buildMs: performance.now() - started, originalPlace: placeFinder(result.entry), inputs: inputPaths(result.entry), segments: segmentsOf(result.entry) };
   }
 
   /** Forgets every cached bundle. */

@@ -8,7 +8,8 @@ import type { CheckSettings } from '../engine/settings';
 import type { CheckOutcome, OpDescriptor } from '../engine/types';
 import { CHILD_SCRIPT_NAME, ENGINE_SCRIPT_NAME, findBuiltAsset } from './assets';
 import { RESIDENT_HEADROOM_MB, watchMemory } from './memoryWatch';
-import type { ChildMessage, HelloMessage, JobMessage, ResultMessage } from './protocol';
+import { COVERAGE_RUNNER_ARG } from './coverageSession';
+import type { BlockCoverage, ChildMessage, HelloMessage, JobMessage, ResultMessage } from './protocol';
 import { runResultFromReply } from './runReply';
 import { runnerCommand, type RunnerCommand } from './runnerCommand';
 
@@ -43,6 +44,12 @@ export interface RunnerPoolOptions {
   engineScript?: string;
   /** Receives one line per noteworthy event (runner replaced, permission flag refused). */
   log?: (line: string) => void;
+  /**
+   * Runners that collect V8 block coverage (coverageSession.ts). Node 20's permission model
+   * denies the inspector, so these runners start without it: they serve only the separate
+   * coverage pass, never a verdict.
+   */
+  coverage?: boolean;
 }
 
 /** One op's check: the bundle of its file, the op and the settings. */
@@ -55,7 +62,7 @@ export interface RunJob {
 }
 
 export type RunResult =
-  | { outcome: CheckOutcome; output: string; elapsedMs: number }
+  | { outcome: CheckOutcome; output: string; elapsedMs: number; coverage?: BlockCoverage }
   | {
       error: string;
       output?: string;
@@ -164,6 +171,7 @@ export class RunnerPool {
   private nextId = 1;
   private disposed = false;
   private usePermission = true;
+  private readonly coverage: boolean;
   private useAddressLimit = true;
   private startFailures = 0;
   private lastHello?: { hello: HelloMessage; command: RunnerCommand; memoryLimitMb: number };
@@ -173,6 +181,8 @@ export class RunnerPool {
     this.childScriptOption = opts.childScript;
     this.engineScriptOption = opts.engineScript;
     this.log = opts.log ?? (() => undefined);
+    this.coverage = opts.coverage === true;
+    if (this.coverage) this.usePermission = false;
   }
 
   /** The isolation the latest runner reported from inside, or undefined before any started. */
@@ -296,6 +306,7 @@ export class RunnerPool {
       memoryLimitMb,
       usePermission: this.usePermission,
       useAddressLimit: this.useAddressLimit,
+      extraArgs: this.coverage ? [COVERAGE_RUNNER_ARG] : undefined,
     });
     let proc: ChildProcess;
     try {

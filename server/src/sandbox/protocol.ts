@@ -39,8 +39,16 @@ export interface HelloMessage {
 }
 
 /** Child → parent: the outcome of one job. */
+/**
+ * V8 block coverage of the bundle during one job (coverage runners only): per function, its
+ * ranges as [start, end, count] with offsets into the bundle's code; nested ranges override.
+ */
+export interface BlockCoverage {
+  functions: Array<{ name: string; ranges: Array<[number, number, number]> }>;
+}
+
 export type ResultMessage =
-  | { type: 'result'; id: number; ok: true; outcomeJson: string; output: string; elapsedMs: number }
+  | { type: 'result'; id: number; ok: true; outcomeJson: string; output: string; elapsedMs: number; coverage?: BlockCoverage }
   | {
       type: 'result';
       id: number;

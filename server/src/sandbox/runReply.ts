@@ -4,12 +4,13 @@
 
 import type { CheckOutcome, Verdict } from '../engine/types';
 import type { RunResult } from './pool';
+import type { BlockCoverage } from './protocol';
 
 const VERDICTS: ReadonlySet<Verdict> = new Set(['pass', 'mismatch', 'inconclusive', 'error']);
 
 /** What both kinds of runner send back for one job. */
 export type RunnerReply = (
-  | { ok: true; outcomeJson: string }
+  | { ok: true; outcomeJson: string; coverage?: BlockCoverage }
   | { ok: false; error: string; timedOut: boolean; duringLoad: boolean; bundleFrames?: Array<{ line: number; column: number }> }
 ) & { output: string; elapsedMs: number };
 
@@ -32,6 +33,7 @@ export function runResultFromReply(reply: RunnerReply): RunResult {
   const { output, elapsedMs } = reply;
   if (reply.ok) {
     const outcome = parseOutcome(reply.outcomeJson);
+    if (outcome && reply.coverage) return { outcome, output, elapsedMs, coverage: reply.coverage };
     return outcome
       ? { outcome, output, elapsedMs }
       : { error: 'the check returned malformed data', output, elapsedMs, cause: 'runner' };

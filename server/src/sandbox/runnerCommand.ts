@@ -47,6 +47,8 @@ export interface RunnerCommandOptions {
   usePermission: boolean;
   /** Use prlimit when it exists (false after it failed to start a runner). */
   useAddressLimit: boolean;
+  /** Arguments for the runner script itself (after it on the command line). */
+  extraArgs?: string[];
 }
 
 export interface RunnerCommand {
@@ -76,7 +78,7 @@ export function runnerCommand(opts: RunnerCommandOptions): RunnerCommand {
   // The heap limit makes a runaway op die with a clear V8 "heap out of memory" instead of
   // swapping the machine; off-heap buffers are caught by the address-space limit and the
   // parent's memory poll.
-  nodeArgs.push(`--max-old-space-size=${Math.max(16, Math.floor(opts.memoryLimitMb))}`, '--no-warnings', opts.childScript);
+  nodeArgs.push(`--max-old-space-size=${Math.max(16, Math.floor(opts.memoryLimitMb))}`, '--no-warnings', opts.childScript, ...(opts.extraArgs ?? []));
   const env = runnerEnvironment();
   const limitAddress = opts.useAddressLimit && process.platform === 'linux' && existsSync(PRLIMIT_PATH);
   if (limitAddress) {
