@@ -4,6 +4,7 @@
 // Pure (no editor API) so it can be tested outside the editor.
 
 import type { OpResult, ParamResult, StepScan } from '../../server/src/engine/types';
+import { coverageSection } from './reportCoverage';
 
 export interface ReportPageInput {
   result: OpResult;
@@ -40,6 +41,7 @@ export function reportPage(input: ReportPageInput): string {
 ${result.message ? `<p class="message">${esc(result.message)}</p>` : ''}
 ${hints}
 ${sections || '<p>No differentiated parameters.</p>'}
+${coverageSection(result, esc)}
 <p class="legend">How to read the step plot: for a correct backward the error first falls as the step shrinks (truncation, ∝ h²) and rises again once rounding dominates (∝ 1/h), a V with its floor near the dtype's roundoff. A wrong backward leaves a flat floor: the numbers disagree at every step.</p>
 </body>
 </html>`;
@@ -173,4 +175,5 @@ svg text { fill: var(--vscode-editor-foreground); font-size: 10px; font-family: 
 .dot { fill: var(--vscode-charts-blue, var(--vscode-editor-foreground)); }
 .cell { fill: var(--vscode-charts-red, var(--vscode-errorForeground)); }
 .hints li { color: var(--vscode-editorWarning-foreground); }
+.gaps .where { font-family: var(--vscode-editor-font-family); } .gaps .reach { color: var(--vscode-descriptionForeground); }
 `;

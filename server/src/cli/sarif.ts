@@ -3,6 +3,7 @@
 
 import { pathToFileURL } from 'node:url';
 import type { OpResult, Report } from '../engine/types';
+import { gapSentence } from './coverageLines';
 import { formatRelError } from './format';
 import { worstParam } from './report';
 
@@ -36,6 +37,11 @@ export const SARIF_RULES: readonly RuleSpec[] = [
     id: 'check-inconclusive', name: 'CheckInconclusive', level: 'warning',
     short: 'Finite differences cannot be trusted here',
     full: 'The finite-difference estimate is unreliable at the sample point (a kink that resampling did not escape, or a forward that is not deterministic).',
+  },
+  {
+    id: 'unreached-code', name: 'UnreachedCode', level: 'note',
+    short: 'Code the check never ran',
+    full: 'Code of the forward or the backward (or of a helper they call) that none of the sampled inputs reached during the check, so the check says nothing about it.',
   },
 ];
 
@@ -74,7 +80,7 @@ export function sarifLog(report: Report, options: SarifOptions): Record<string, 
         },
         originalUriBaseIds: { [SOURCE_ROOT_ID]: { uri: rootUri } },
         columnKind: 'utf16CodeUnits',
-        results: report.pairs.flatMap(resultsOf),
+        results: report.pairs.flatMap((pair) => [...resultsOf(pair), ...gapResults(pair)]),
       },
     ],
   };
@@ -88,6 +94,18 @@ function resultsOf(pair: OpResult): Record<string, unknown>[] {
   }
   const ruleId = pair.verdict === 'mismatch' ? 'gradient-mismatch' : pair.verdict === 'error' ? 'check-error' : 'check-inconclusive';
   return [result(ruleId, messageOf(pair), pair, pair.line, columnOf(pair))];
+}
+
+/** One note per code gap, at the gap's own place. */
+function gapResults(pair: OpResult): Record<string, unknown>[] {
+  const c = pair.coverage;
+  if (!c || !c.collected) return [];
+  return c.gaps.map((gap) => {
+    const text = `${opName(pair)}: ${gapSentence(gap)}.${gap.reach ? ` It ${gap.reach}.` : ''}`;
+    const r = result('unreached-code', text, { ...pair, file: gap.file }, gap.startLine, gap.startColumn, gap.endLine, gap.endColumn);
+    (r['properties'] as Record<string, unknown>)['side'] = gap.side;
+    return r;
+  });
 }
 
 function result(

@@ -180,7 +180,8 @@ export class CheckService {
   private getChecker(): Checker {
     if (!this.checker) {
       // Per-call settings go with each checkFile; these are only the pool's starting point.
-      this.checker = new Checker({ settings: DEFAULT_SETTINGS, ...(this.workers !== undefined ? { workers: this.workers } : {}) });
+      // Coverage is always collected here; gradientProbe.showUnreached only decides the marking.
+      this.checker = new Checker({ settings: DEFAULT_SETTINGS, coverage: true, ...(this.workers !== undefined ? { workers: this.workers } : {}) });
     }
     return this.checker;
   }

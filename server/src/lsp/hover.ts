@@ -4,6 +4,7 @@
 
 import { MarkupKind, type Hover, type Position } from 'vscode-languageserver';
 import type { OpDescriptor, ParamResult } from '../engine/types';
+import { coverageHoverLine } from './coverageMarks';
 import type { DocumentFacts } from './documentFacts';
 import { contains, figure, indexText, millis, opNameRange, sci, shapeText, toRange } from './format';
 
@@ -52,6 +53,8 @@ export function opMarkdown(op: OpDescriptor, facts: DocumentFacts, onlyParam?: s
   }
   const hints = [...(onlyParam === undefined ? result.hints : []), ...params.flatMap((p) => p.hints.map((h) => `${p.name}: ${h}`))];
   if (hints.length > 0) lines.push('Hints:', '', ...hints.map((h) => `- ${escape(h)}`), '');
+  const coverage = coverageHoverLine(result);
+  if (coverage) lines.push(escape(coverage), '');
   lines.push(`Reproduce with seed ${result.seed}${op.seed !== undefined ? ' (the op’s @seed)' : ''}.`);
   return lines.join('\n');
 }

@@ -109,6 +109,7 @@ export class Session {
       snapshot,
       trusted: this.checks.isTrusted,
       isolated: !this.checks.isTrusted && settings.isolatedWhenUntrusted,
+      showUnreached: settings.showUnreached,
       ...(settings.configError ? { configError: settings.configError } : {}),
       latest: (forward) => this.checks.latest(fsPath, forward),
       isRunning: (forward) => this.checks.isRunning(fsPath, forward),

@@ -5,6 +5,7 @@
 import { existsSync, readFileSync } from 'node:fs';
 import { dirname, resolve } from 'node:path';
 import ts from 'typescript';
+import { parserSafeText } from '../discovery/index';
 import type { OpDescriptor } from '../engine/types';
 
 export type Side = 'forward' | 'backward';
@@ -60,7 +61,10 @@ class Sources {
         text = undefined;
       }
     }
-    const sf = text === undefined ? undefined : ts.createSourceFile(file, text, ts.ScriptTarget.Latest, true, file.endsWith('x') ? ts.ScriptKind.TSX : ts.ScriptKind.TS);
+    // JSDoc is not needed here, and TypeScript 6.0.3's JSDoc scanner can hang on some comments
+    // (discovery/index.ts parserSafeText): parse none of it, and defuse the known trigger too.
+    const options = { languageVersion: ts.ScriptTarget.Latest, jsDocParsingMode: ts.JSDocParsingMode.ParseNone };
+    const sf = text === undefined ? undefined : ts.createSourceFile(file, parserSafeText(text), options, true, file.endsWith('x') ? ts.ScriptKind.TSX : ts.ScriptKind.TS);
     this.parsed.set(file, sf);
     return sf;
   }
@@ -360,8 +364,8 @@ export function blocksOf(functions: CodeFunction[]): CodeBlock[] {
       if (ts.isConditionalExpression(n)) {
         expression(n.condition, b);
         const c = conditionText(n.condition, sf);
-        exprArm(n.whenTrue, b, `\`${c} ?\` branch`, { condition: n.condition, negated: false });
-        exprArm(n.whenFalse, b, `\`: \` branch of \`${c}\``, { condition: n.condition, negated: true });
+        exprArm(n.whenTrue, b, `\`?\` arm of \`${c}\``, { condition: n.condition, negated: false });
+        exprArm(n.whenFalse, b, `\`:\` arm of \`${c}\``, { condition: n.condition, negated: true });
       } else if (ts.isBinaryExpression(n) && LOGICAL.has(n.operatorToken.kind)) {
         expression(n.left, b);
         exprArm(n.right, b, `right side of \`${conditionText(n.left, sf)} ${n.operatorToken.getText(sf)}\``);
