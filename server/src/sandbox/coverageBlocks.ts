@@ -163,7 +163,7 @@ function namespaceImport(sf: ts.SourceFile, ns: string): string | undefined {
 }
 
 /** Names declared inside a function (parameters, locals): a call to one of them is not a top-level helper. */
-function localNames(fn: FunctionNode): Set<string> {
+export function localNames(fn: FunctionNode): Set<string> {
   const names = new Set<string>();
   const addBinding = (n: ts.BindingName): void => {
     if (ts.isIdentifier(n)) names.add(n.text);

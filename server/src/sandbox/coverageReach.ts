@@ -4,7 +4,7 @@
 // parameter) gets no hint: the condition is read, never guessed.
 import ts from 'typescript';
 import type { OpDescriptor } from '../engine/types';
-import type { CodeBlock } from './coverageBlocks';
+import { localNames, type CodeBlock } from './coverageBlocks';
 
 type Comparison = '<' | '<=' | '>' | '>=';
 
@@ -21,11 +21,22 @@ function unwrap(e: ts.Expression): ts.Expression {
   return x;
 }
 
-/** A number literal, possibly negated. */
-function numberOf(e: ts.Expression): number | undefined {
+/** A number literal, possibly negated, or a top-level `const NAME = <such a literal>` of the same file. */
+function numberOf(e: ts.Expression, sf: ts.SourceFile, locals: Set<string>): number | undefined {
   const x = unwrap(e);
   if (ts.isNumericLiteral(x)) return Number(x.text);
   if (ts.isPrefixUnaryExpression(x) && x.operator === ts.SyntaxKind.MinusToken && ts.isNumericLiteral(x.operand)) return -Number(x.operand.text);
+  if (ts.isIdentifier(x) && !locals.has(x.text)) {
+    for (const st of sf.statements) {
+      if (!ts.isVariableStatement(st) || !(st.declarationList.flags & ts.NodeFlags.Const)) continue;
+      for (const d of st.declarationList.declarations) {
+        if (ts.isIdentifier(d.name) && d.name.text === x.text && d.initializer) {
+          const init = unwrap(d.initializer);
+          return ts.isIdentifier(init) ? undefined : numberOf(init, sf, locals);
+        }
+      }
+    }
+  }
   return undefined;
 }
 
@@ -94,10 +105,12 @@ export function reachHint(block: CodeBlock, op: OpDescriptor): string | undefine
   let op0 = COMPARISONS.get(cond.operatorToken.kind);
   if (!op0) return undefined;
   let ref = parameterRef(cond.left);
-  let bound = numberOf(cond.right);
+  const sf = block.fn.sf;
+  const locals = localNames(block.fn.node);
+  let bound = numberOf(cond.right, sf, locals);
   if (!ref || bound === undefined) {
     ref = parameterRef(cond.right);
-    bound = numberOf(cond.left);
+    bound = numberOf(cond.left, sf, locals);
     op0 = FLIPPED[op0];
   }
   if (!ref || bound === undefined || !Number.isFinite(bound)) return undefined;
