@@ -46,6 +46,12 @@ export interface CheckFileOptions {
   onResult?: (result: OpResult) => void;
   /** Overrides the Checker's settings for this call. */
   settings?: CheckSettings;
+  /**
+   * With coverage on: when given, onResult gets each op's result as soon as its verdict is
+   * known, and this gets the same op's result again once its coverage is there (the returned
+   * results carry it too). Without it, onResult waits for the coverage.
+   */
+  onCoverage?: (result: OpResult) => void;
 }
 
 /** The ops of a file without running anything (code lenses, hovers, the tests view). */
@@ -201,6 +207,10 @@ export class Checker {
     let stopReason = 'cancelled';
     // Where the module threw while loading, when that is a line of this file.
     let loadProblems: Problem[] | undefined;
+    // Each op's coverage run has its own stop (it ends early when the verdict's run fails);
+    // one listener stops them all with the file.
+    const coverageStops = new Set<AbortController>();
+    stop.signal.addEventListener('abort', () => { for (const c of coverageStops) c.abort(); }, { once: true });
     const onCallerAbort = (): void => stop.abort();
     opts.signal?.addEventListener('abort', onCallerAbort, { once: true });
     if (opts.signal?.aborted) stop.abort();
@@ -220,11 +230,12 @@ export class Checker {
           // The coverage pass runs the same job at the same time in its own runners; it is
           // cancelled as soon as the verdict's run ends without an outcome.
           const coverageStop = new AbortController();
+          coverageStops.add(coverageStop);
           const coverageRun = !interpreted && this.coverageOptions
-            ? this.coverageRunners().run({ ...job, signal: AbortSignal.any([stop.signal, coverageStop.signal]) })
+            ? this.coverageRunners().run({ ...job, signal: coverageStop.signal })
             : undefined;
           const run = await runner.run({ ...job, signal: stop.signal });
-          if (!('outcome' in run) || run.outcome.verdict === 'error') coverageStop.abort();
+          if (stop.signal.aborted || !('outcome' in run) || run.outcome.verdict === 'error') coverageStop.abort();
           if ('error' in run && run.cause === 'load') {
             const place = loadErrorPlace(abs, run.bundleFrames ?? [], bundle.originalPlace);
             if (place) {
@@ -247,15 +258,29 @@ export class Checker {
                   problems: run.cause === 'load' || run.cause === 'cancelled' ? loadProblems : undefined,
                 });
           if (interpreted) result.isolation = 'interpreter';
-          if (coverageRun) {
-            const coverageResult = await coverageRun;
-            if ('outcome' in run && run.outcome.verdict !== 'error') {
-              result.coverage = coverageOf(op, run.outcome, coverageResult, source, bundle.code, bundle.segments);
-            }
-          } else if (interpreted && this.coverageOptions && result.verdict !== 'error') {
+          if (interpreted && this.coverageOptions && result.verdict !== 'error') {
             result.coverage = { collected: false, reason: INTERPRETER_NO_COVERAGE };
           }
-          results[i] = emit(result);
+          const early = coverageRun !== undefined && opts.onCoverage !== undefined;
+          if (!coverageRun || early) results[i] = emit(result);
+          if (coverageRun) {
+            const coverageResult = await coverageRun;
+            coverageStops.delete(coverageStop);
+            const covered: OpResult = { ...result };
+            if ('outcome' in run && run.outcome.verdict !== 'error') {
+              covered.coverage = coverageOf(op, run.outcome, coverageResult, source, bundle.code, bundle.segments);
+            }
+            if (early) {
+              results[i] = covered;
+              try {
+                opts.onCoverage?.(covered);
+              } catch {
+                // As with onResult: a failing listener costs no other op its result.
+              }
+            } else {
+              results[i] = emit(covered);
+            }
+          }
         }),
       );
     } finally {

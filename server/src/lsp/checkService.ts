@@ -147,6 +147,12 @@ export class CheckService {
         signal: controller.signal,
         settings: request.settings,
         onResult: accept,
+        // Verdicts show at once; an op's coverage (hints, hover line) follows when its run ends.
+        onCoverage: (result) => {
+          if (controller.signal.aborted) return;
+          this.store(request.uri, result.forward ?? '', key, result);
+          this.onChange(request.uri);
+        },
         ...(filter !== undefined ? { filter } : {}),
       });
       // Results not seen through onResult (a Checker that reports only at the end).

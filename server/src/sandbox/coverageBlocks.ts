@@ -45,6 +45,28 @@ const MAX_REEXPORT_DEPTH = 4;
 
 type FunctionNode = ts.FunctionLikeDeclaration;
 
+/** Parsed files kept between ops: the ops of one file share their sources (file → text and tree). */
+const PARSED_CACHE = new Map<string, { text: string; sf: ts.SourceFile }>();
+/** Files kept parsed; a workspace check touches a few dozen. */
+const MAX_PARSED = 64;
+
+function parse(file: string, text: string): ts.SourceFile {
+  const known = PARSED_CACHE.get(file);
+  if (known && known.text === text) return known.sf;
+  // JSDoc is not needed here, and TypeScript 6.0.3's JSDoc scanner can hang on some comments
+  // (discovery/index.ts parserSafeText): parse none of it, and defuse the known trigger too.
+  const options = { languageVersion: ts.ScriptTarget.Latest, jsDocParsingMode: ts.JSDocParsingMode.ParseNone };
+  const sf = ts.createSourceFile(file, parserSafeText(text), options, true, file.endsWith('x') ? ts.ScriptKind.TSX : ts.ScriptKind.TS);
+  PARSED_CACHE.delete(file);
+  PARSED_CACHE.set(file, { text, sf });
+  while (PARSED_CACHE.size > MAX_PARSED) {
+    const oldest = PARSED_CACHE.keys().next().value;
+    if (oldest === undefined) break;
+    PARSED_CACHE.delete(oldest);
+  }
+  return sf;
+}
+
 /** Reads the user's sources (the checked file's text may be an unsaved buffer) and parses each once. */
 class Sources {
   private readonly parsed = new Map<string, ts.SourceFile | undefined>();
@@ -61,10 +83,7 @@ class Sources {
         text = undefined;
       }
     }
-    // JSDoc is not needed here, and TypeScript 6.0.3's JSDoc scanner can hang on some comments
-    // (discovery/index.ts parserSafeText): parse none of it, and defuse the known trigger too.
-    const options = { languageVersion: ts.ScriptTarget.Latest, jsDocParsingMode: ts.JSDocParsingMode.ParseNone };
-    const sf = text === undefined ? undefined : ts.createSourceFile(file, parserSafeText(text), options, true, file.endsWith('x') ? ts.ScriptKind.TSX : ts.ScriptKind.TS);
+    const sf = text === undefined ? undefined : parse(file, text);
     this.parsed.set(file, sf);
     return sf;
   }

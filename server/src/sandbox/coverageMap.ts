@@ -25,7 +25,12 @@ function lineStarts(text: string): number[] {
   return starts;
 }
 
+/** Indexes already built, per bundle (its decoded mappings are one array kept with the bundle). */
+const indexes = new WeakMap<MappedSegment[], Map<string, FileIndex>>();
+
 function indexByFile(segments: MappedSegment[], bundleCode: string): Map<string, FileIndex> {
+  const known = indexes.get(segments);
+  if (known) return known;
   const starts = lineStarts(bundleCode);
   const byFile = new Map<string, FileIndex>();
   for (const s of segments) {
@@ -36,6 +41,7 @@ function indexByFile(segments: MappedSegment[], bundleCode: string): Map<string,
     list.push({ line: s.place.line, column: s.place.column, offset: lineStart + s.genColumn });
   }
   for (const list of byFile.values()) list.sort((a, b) => a.line - b.line || a.column - b.column || a.offset - b.offset);
+  indexes.set(segments, byFile);
   return byFile;
 }
 
