@@ -5,6 +5,7 @@
 import assert from 'node:assert/strict';
 import { join } from 'node:path';
 import type { Hover, MarkupContent } from 'vscode-languageserver-protocol/lib/node/main';
+import { Methods, type OpReportResult } from '../../server/src/lsp/protocol';
 import { FIXTURES, LspSession, lsp } from './lspSession';
 
 const { DiagnosticSeverity, DiagnosticTag, HoverRequest } = lsp;
@@ -40,21 +41,17 @@ describe('language server over LSP (coverage)', function () {
     }
   });
 
-  it('marks nothing with gradientProbe.showUnreached off', async () => {
+  it('runs no coverage and marks nothing with gradientProbe.showUnreached off', async () => {
     const s = new LspSession({ trusted: true, workspace: WORKSPACE, settings: { showUnreached: false } });
     try {
       await s.initialize();
       const uri = await s.open(FILE);
-      await s.waitFor('spill to pass', () => s.opState(uri, 'spill') === 'pass');
-      // Coverage has arrived once the hover reports it; then one more request, so the
-      // diagnostics published with that change have been sent before they are read.
-      const line = s.text(FILE).split('\n').findIndex((l) => l.startsWith('export function spill('));
-      const hoverOf = async (): Promise<string> => {
-        const h = (await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: { line, character: 17 } })) as Hover | null;
-        return h ? (h.contents as MarkupContent).value : '';
-      };
-      for (let i = 0; i < 200 && !/Backward coverage/.test(await hoverOf()); i++) await new Promise((r) => setTimeout(r, 100));
-      assert.match(await hoverOf(), /Backward coverage: 3 of 4 blocks ran/);
+      // The server logs a file's check as done only after every op's runs (coverage included) ended.
+      await s.waitFor('the check of branches.ts to end', () => s.logs.some((l) => /check branches\.ts \[.*\]: done/.test(l)));
+      const report = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri, forward: 'spill' });
+      assert.ok(report.result, report.reason);
+      assert.equal(report.result.verdict, 'pass');
+      assert.equal(report.result.coverage, undefined);
       assert.deepEqual((s.diagnostics.get(uri) ?? []).filter((x) => x.code === 'unreached-code'), []);
     } finally {
       await s.close();

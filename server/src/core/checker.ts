@@ -52,6 +52,8 @@ export interface CheckFileOptions {
    * results carry it too). Without it, onResult waits for the coverage.
    */
   onCoverage?: (result: OpResult) => void;
+  /** Collect coverage in this call (default true; only a Checker made with `coverage` can). */
+  coverage?: boolean;
 }
 
 /** The ops of a file without running anything (code lenses, hovers, the tests view). */
@@ -231,7 +233,7 @@ export class Checker {
           // cancelled as soon as the verdict's run ends without an outcome.
           const coverageStop = new AbortController();
           coverageStops.add(coverageStop);
-          const coverageRun = !interpreted && this.coverageOptions
+          const coverageRun = !interpreted && this.coverageOptions && opts.coverage !== false
             ? this.coverageRunners().run({ ...job, signal: coverageStop.signal })
             : undefined;
           const run = await runner.run({ ...job, signal: stop.signal });
@@ -258,7 +260,7 @@ export class Checker {
                   problems: run.cause === 'load' || run.cause === 'cancelled' ? loadProblems : undefined,
                 });
           if (interpreted) result.isolation = 'interpreter';
-          if (interpreted && this.coverageOptions && result.verdict !== 'error') {
+          if (interpreted && this.coverageOptions && opts.coverage !== false && result.verdict !== 'error') {
             result.coverage = { collected: false, reason: INTERPRETER_NO_COVERAGE };
           }
           const early = coverageRun !== undefined && opts.onCoverage !== undefined;

@@ -136,6 +136,7 @@ export class Session {
       // Untrusted with the user's opt-in: the isolated interpreter, never the runner processes.
       settings: isolated ? { ...settings.settings, isolation: 'interpreter' } : settings.settings,
       knownForwards: runnable,
+      coverage: settings.showUnreached,
       ...(opts.forwards ? { forwards: opts.forwards.filter((f) => runnable.includes(f)) } : {}),
       ...(opts.force !== undefined ? { force: opts.force } : {}),
       ...(opts.signal ? { signal: opts.signal } : {}),

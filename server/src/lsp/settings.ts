@@ -22,7 +22,7 @@ export interface EditorOnlySettings {
    * slower) instead of running nothing. A user-level opt-in: the workspace cannot set it.
    */
   isolatedWhenUntrusted: boolean;
-  /** Mark code of a checked backward that its check never ran, as hint-level diagnostics (coverage). */
+  /** Record coverage and mark code of a checked backward that its check never ran, as hint-level diagnostics; off: no coverage run. */
   showUnreached: boolean;
 }
 
