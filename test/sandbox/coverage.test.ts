@@ -5,7 +5,7 @@ import assert from 'node:assert/strict';
 import { mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { dirname, join } from 'node:path';
-import { bindingsOf, Checker } from '../../server/src/core/checker';
+import { bindingsOf, Checker, coverageOf } from '../../server/src/core/checker';
 import { discoverOps } from '../../server/src/discovery/index';
 import type { CoverageGap, OpCoverage, OpResult } from '../../server/src/engine/types';
 import { Bundler } from '../../server/src/sandbox/bundle';
@@ -101,6 +101,32 @@ describe('coverage: what each check ran', function () {
     const again = await checker.checkFile(branches, { filter: 'spill' });
     assert.equal(gapsIn(resultOf(again, 'spill'), 'spillBackward').length, 1);
     assert.deepEqual(collected(resultOf(again, 'spillWide')).gaps, []);
+  });
+});
+
+describe('coverage: kept only for a run that repeated the check', function () {
+  this.timeout(60_000);
+
+  it('claims nothing when the coverage run failed, or made other calls than the verdict run', async () => {
+    const text = readFileSync(branches, 'utf8');
+    const op = discoverOps(branches, text).ops.find((o) => o.forward === 'spill')!;
+    const bundle = await new Bundler().bundle({ file: branches, text, bindings: bindingsOf(op) });
+    assert.ok(bundle.ok);
+    const pool = new RunnerPool({ size: 1, coverage: true });
+    try {
+      const run = await pool.run({ bundleKey: bundle.key, bundleCode: bundle.code, op, settings: settingsWith({}) });
+      assert.ok('outcome' in run && run.coverage);
+      const same = coverageOf(op, run.outcome, run, text, bundle.code, bundle.segments);
+      assert.ok(same.collected);
+      const otherCalls = { ...run.outcome, calls: { ...run.outcome.calls, forward: run.outcome.calls.forward + 1 } };
+      const differs = coverageOf(op, otherCalls, run, text, bundle.code, bundle.segments);
+      assert.deepEqual(differs.collected, false);
+      assert.match(differs.collected ? '' : differs.reason, /did not repeat the check exactly/);
+      const killed = coverageOf(op, run.outcome, { error: 'the runner process died (signal SIGKILL)', elapsedMs: 1, cause: 'crash' }, text, bundle.code, bundle.segments);
+      assert.match(killed.collected ? '' : killed.reason, /^not collected: the coverage run failed/);
+    } finally {
+      await pool.dispose();
+    }
   });
 });
 

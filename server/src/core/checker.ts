@@ -314,7 +314,7 @@ export class Checker {
  * repeated that check: same verdict and the same number of forward and backward calls (the
  * engine's time budget could make a slower run do less). Otherwise no coverage is claimed.
  */
-function coverageOf(
+export function coverageOf(
   op: OpDescriptor, outcome: CheckOutcome, run: RunResult, checkedText: string, bundleCode: string, segments: () => import('../sandbox/sourceMap').MappedSegment[],
 ): OpCoverage {
   if (!('outcome' in run)) return { collected: false, reason: `not collected: the coverage run failed (${run.error})` };
