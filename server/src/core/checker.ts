@@ -1,5 +1,6 @@
 // The Checker: the one orchestration shared by the CLI, the language server and benchmarks.
 // discovery → bundle once per file → one sandbox job per op (in parallel across runners) → OpResult.
+import { setMaxListeners } from 'node:events';
 import { readFileSync } from 'node:fs';
 import { dirname, relative, resolve } from 'node:path';
 import { discoverOps, type DiscoveryResult } from '../discovery/index';
@@ -212,6 +213,8 @@ export class Checker {
     // Each op's coverage run has its own stop (it ends early when the verdict's run fails);
     // one listener stops them all with the file.
     const coverageStops = new Set<AbortController>();
+    // One listener per queued op (the pool's) plus these few, by design: not a leak.
+    setMaxListeners(runnable.length + 4, stop.signal);
     stop.signal.addEventListener('abort', () => { for (const c of coverageStops) c.abort(); }, { once: true });
     const onCallerAbort = (): void => stop.abort();
     opts.signal?.addEventListener('abort', onCallerAbort, { once: true });
