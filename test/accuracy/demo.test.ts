@@ -68,6 +68,10 @@ describe('demo workspace through the command line', function () {
     const gap = dawn.gaps.find((g) => g.side === 'backward')!;
     assert.deepEqual([gap.file, gap.startLine, gap.function], ['examples/src/dawn.ts', gapLine, 'dawnRampBackward']);
     assert.match(gap.reach ?? '', /irradiance < 100, outside @sample irradiance \[200, 1000\]/);
+    // The forward's arm reads the parameter through `const g = irradiance[h]`: followed, not guessed.
+    const forwardGap = dawn.gaps.find((g) => g.side === 'forward')!;
+    assert.equal(forwardGap.what, '`?` arm of `g < DAWN_W_M2`');
+    assert.match(forwardGap.reach ?? '', /an element of irradiance < 100/);
   });
 
   it('explains each demo bug with at least one hint', function () {

@@ -61,6 +61,8 @@ describe('coverage: what each check ran', function () {
     const heat = resultOf(results, 'heat');
     const gaps = gapsIn(heat, 'clampedGain');
     assert.deepEqual(gaps.map((g) => [g.file, g.startLine, g.side]), [[helpers, 5, 'backward']]);
+    // A helper's own parameter is not an op parameter: its condition gets no range hint.
+    assert.equal(gaps[0]!.reach, undefined);
     assert.equal(collected(heat).forward.run, collected(heat).forward.total);
   });
 

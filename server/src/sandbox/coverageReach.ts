@@ -55,6 +55,31 @@ function parameterRef(e: ts.Expression): { name: string; element: boolean } | un
   return undefined;
 }
 
+/**
+ * Follows a local `const g = x[h]` (or `const g = x`) to the parameter it reads, when the
+ * function declares that name exactly once; anything else is left as it is.
+ */
+function throughConstAlias(fn: ts.FunctionLikeDeclaration, ref: { name: string; element: boolean }): { name: string; element: boolean } {
+  if (ref.name.startsWith('this.') || fn.parameters.some((p) => ts.isIdentifier(p.name) && p.name.text === ref.name)) return ref;
+  const found: ts.VariableDeclaration[] = [];
+  let other = false;
+  const visit = (n: ts.Node): void => {
+    if (ts.isVariableDeclaration(n) && ts.isIdentifier(n.name) && n.name.text === ref.name) {
+      if (n.parent.flags & ts.NodeFlags.Const) found.push(n);
+      else other = true;
+    } else if ((ts.isParameter(n) || ts.isFunctionDeclaration(n)) && n.name && ts.isIdentifier(n.name) && n.name.text === ref.name) {
+      other = true;
+    }
+    ts.forEachChild(n, visit);
+  };
+  if (fn.body) visit(fn.body);
+  const decl = found[0];
+  if (other || found.length !== 1 || !decl?.initializer) return ref;
+  const inner = parameterRef(decl.initializer);
+  if (!inner || inner.name === ref.name) return ref;
+  return { name: inner.name, element: inner.element || ref.element };
+}
+
 /** True when the function writes to the name or its elements anywhere (then its sampled values are not what the condition sees). */
 function isWritten(fn: ts.FunctionLikeDeclaration, name: string): boolean {
   const rootName = (e: ts.Expression): string | undefined => {
@@ -114,6 +139,7 @@ export function reachHint(block: CodeBlock, op: OpDescriptor): string | undefine
     op0 = FLIPPED[op0];
   }
   if (!ref || bound === undefined || !Number.isFinite(bound)) return undefined;
+  ref = throughConstAlias(block.fn.node, ref);
   const paramName = opParamName(block, op, ref.name);
   if (!paramName || isWritten(block.fn.node, ref.name)) return undefined;
   const param = op.params.find((p) => p.name === paramName);
