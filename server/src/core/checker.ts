@@ -235,10 +235,9 @@ export class Checker {
           // The coverage pass runs the same job at the same time in its own runners; it is
           // cancelled as soon as the verdict's run ends without an outcome.
           const coverageStop = new AbortController();
-          coverageStops.add(coverageStop);
-          const coverageRun = !interpreted && this.coverageOptions && opts.coverage !== false
-            ? this.coverageRunners().run({ ...job, signal: coverageStop.signal })
-            : undefined;
+          const wantCoverage = !interpreted && this.coverageOptions !== undefined && opts.coverage !== false;
+          if (wantCoverage) coverageStops.add(coverageStop);
+          const coverageRun = wantCoverage ? this.coverageRunners().run({ ...job, signal: coverageStop.signal }) : undefined;
           const run = await runner.run({ ...job, signal: stop.signal });
           if (stop.signal.aborted || !('outcome' in run) || run.outcome.verdict === 'error') coverageStop.abort();
           if ('error' in run && run.cause === 'load') {
@@ -278,7 +277,7 @@ export class Checker {
             if (early) {
               results[i] = covered;
               try {
-                opts.onCoverage?.(covered);
+                if (covered.coverage) opts.onCoverage?.(covered);
               } catch {
                 // As with onResult: a failing listener costs no other op its result.
               }
