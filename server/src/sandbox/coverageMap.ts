@@ -34,6 +34,8 @@ function indexByFile(segments: MappedSegment[], bundleCode: string): Map<string,
   const starts = lineStarts(bundleCode);
   const byFile = new Map<string, FileIndex>();
   for (const s of segments) {
+    // Packages are never the user's code (coverageBlocks.ts follows no import into them).
+    if (s.place.file.includes('/node_modules/') || s.place.file.includes('\\node_modules\\')) continue;
     const lineStart = starts[s.genLine - 1];
     if (lineStart === undefined) continue;
     let list = byFile.get(s.place.file);
