@@ -4,7 +4,7 @@
 import { cpSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { COVERAGE_RUNNER_ARG } from '../../server/src/sandbox/coverageSession';
+import { COVERAGE_RUNNER_ARG } from '../../server/src/sandbox/jobTypes';
 import { ROOT, runCli as runCliIn, type CliRun } from '../helpers/cli';
 
 export { BIN, ROOT, type CliRun } from '../helpers/cli';

@@ -4,7 +4,7 @@
 import type { CoverageGap, OpCoverage, OpDescriptor } from '../engine/types';
 import { blocksOf, findOpFunctions, type CodeBlock, type CodeFunction } from './coverageBlocks';
 import { reachHint } from './coverageReach';
-import type { BlockCoverage } from './protocol';
+import type { BlockCoverage } from './jobTypes';
 import type { MappedSegment } from './sourceMap';
 
 export interface CoverageInput {

@@ -8,10 +8,9 @@
 // coverage runners are started without the permission flag and run a second, separate pass:
 // verdicts always come from the runners that have it (core/checker.ts).
 import { Session } from 'node:inspector';
-import type { BlockCoverage } from './protocol';
+import type { BlockCoverage } from './jobTypes';
 
-/** The argument after the runner script that makes a runner collect coverage. */
-export const COVERAGE_RUNNER_ARG = '--gradient-probe-coverage';
+export { COVERAGE_RUNNER_ARG } from './jobTypes';
 
 /** The filename every bundle script is compiled under (child.ts). */
 const BUNDLE_URL = 'user-bundle.js';
