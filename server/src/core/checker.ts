@@ -30,7 +30,7 @@ export interface CheckerOptions {
   /**
    * Also record which code of each op's forward and backward its check ran (OpResult.coverage):
    * a second, separate run of the same check in coverage runners (sandbox/coverageSession.ts),
-   * concurrent with the verdict's run. Default false.
+   * after the verdict's run gave a verdict. Default false.
    */
   coverage?: boolean;
 }
@@ -208,8 +208,7 @@ export class Checker {
     let stopReason = 'cancelled';
     // Where the module threw while loading, when that is a line of this file.
     let loadProblems: Problem[] | undefined;
-    // Each op's coverage run has its own stop (it ends early when the verdict's run fails);
-    // one listener stops them all with the file.
+    // Each op's coverage run has its own stop; one listener stops them all with the file.
     const coverageStops = new Set<AbortController>();
     // One listener per queued op (the pool's) plus these few, by design: not a leak.
     setMaxListeners(runnable.length + 4, stop.signal);
@@ -230,14 +229,15 @@ export class Checker {
           const interpreted = settings.isolation === 'interpreter';
           const runner = interpreted ? this.interpreter() : this.pool;
           const job = { bundleKey: bundle.key, bundleCode: bundle.code, op, settings };
-          // The coverage pass runs the same job at the same time in its own runners; it is
-          // cancelled as soon as the verdict's run ends without an outcome.
+          const run = await runner.run({ ...job, signal: stop.signal });
+          // The coverage run repeats the job in its own runners once the verdict's run gave a
+          // verdict: an op that failed (a hang, an allocation bomb) never runs twice, and no
+          // coverage run competes with the verdict's run of the same op.
           const coverageStop = new AbortController();
-          const wantCoverage = !interpreted && this.coverageOptions !== undefined && opts.coverage !== false;
+          const wantCoverage = !interpreted && this.coverageOptions !== undefined && opts.coverage !== false
+            && !stop.signal.aborted && 'outcome' in run && run.outcome.verdict !== 'error';
           if (wantCoverage) coverageStops.add(coverageStop);
           const coverageRun = wantCoverage ? this.coverageRunners().run({ ...job, signal: coverageStop.signal }) : undefined;
-          const run = await runner.run({ ...job, signal: stop.signal });
-          if (stop.signal.aborted || !('outcome' in run) || run.outcome.verdict === 'error') coverageStop.abort();
           if ('error' in run && run.cause === 'load') {
             const place = loadErrorPlace(abs, run.bundleFrames ?? [], bundle.originalPlace);
             if (place) {
