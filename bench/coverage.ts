@@ -70,7 +70,7 @@ async function perOp(): Promise<void> {
 }
 
 async function perFile(): Promise<void> {
-  console.log('\nfile (Checker, 1 worker; coverage on = verdict run + concurrent coverage run + mapping)   off      on');
+  console.log('\nfile (Checker, 1 worker; coverage on = verdict run, then coverage run + mapping)   off      on');
   for (const rel of FILES) {
     const file = join(process.cwd(), rel);
     const times: Record<'off' | 'on', number[]> = { off: [], on: [] };
