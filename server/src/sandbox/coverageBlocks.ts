@@ -101,6 +101,20 @@ function asFunction(e: ts.Node | undefined): FunctionNode | undefined {
   return x && (ts.isArrowFunction(x) || ts.isFunctionExpression(x) || ts.isFunctionDeclaration(x) || ts.isMethodDeclaration(x)) ? x : undefined;
 }
 
+/**
+ * The function a wrapper call is given, as in `const f = tf.customGrad((x, save) => …)`: the code
+ * that runs when `f` is called (its gradient function inside it included).
+ */
+function wrappedFunction(e: ts.Expression | undefined): FunctionNode | undefined {
+  const x = unwrap(e);
+  if (!x || !ts.isCallExpression(x)) return undefined;
+  for (const arg of x.arguments) {
+    const fn = asFunction(arg);
+    if (fn) return fn;
+  }
+  return undefined;
+}
+
 /** A top-level function (declaration or `const f = (…) => …`) or class of a file, by name. */
 function topLevel(sf: ts.SourceFile, name: string): FunctionNode | ts.ClassDeclaration | undefined {
   for (const st of sf.statements) {
@@ -108,7 +122,7 @@ function topLevel(sf: ts.SourceFile, name: string): FunctionNode | ts.ClassDecla
     if (ts.isClassDeclaration(st) && st.name?.text === name) return st;
     if (ts.isVariableStatement(st)) {
       for (const d of st.declarationList.declarations) {
-        if (ts.isIdentifier(d.name) && d.name.text === name) return asFunction(d.initializer);
+        if (ts.isIdentifier(d.name) && d.name.text === name) return asFunction(d.initializer) ?? wrappedFunction(d.initializer);
       }
     }
   }
