@@ -3,6 +3,7 @@
 // the module, builds the backward's argument list, and records each mistake where it stands.
 import ts from 'typescript';
 import type { BackwardArg, OpDescriptor, ParamDescriptor, SampleSpec, TagLocation } from '../engine/types';
+import { DERIVATIVE_KINDS, defaultDerivativeArgs, explicitDerivativeArgs, parseDerivativeTag, type DerivativeKind } from './derivativeTags';
 import type { ForwardSite } from './forwardSites';
 import { findMethod, type Binding, type ModuleBindings } from './moduleBindings';
 import { parseBackwardTag, parseNameListTag, parseNameTag, parseSeedTag, parseToleranceTag, type ParsedBackward } from './otherTags';
@@ -19,17 +20,21 @@ export interface BuildContext {
 }
 
 /** Tags that make a declaration an op, or show that one was meant (then reported as incomplete). */
-const OP_MARKING_TAGS: readonly OpTagName[] = ['backward', 'sample', 'samples'];
+const OP_MARKING_TAGS: readonly OpTagName[] = ['backward', 'sample', 'samples', ...DERIVATIVE_KINDS];
 /** Tags an op may carry once. */
-const SINGLE_TAGS: readonly OpTagName[] = ['backward', 'samples', 'construct', 'tolerance', 'seed'];
+const SINGLE_TAGS: readonly OpTagName[] = ['backward', 'samples', 'construct', 'tolerance', 'seed', ...DERIVATIVE_KINDS];
 
 interface OurTag {
   name: OpTagName;
   raw: RawTag;
 }
 
-/** Builds the op of a declaration, or returns undefined when its JSDoc does not mark one. */
-export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext): OpDescriptor | undefined {
+/**
+ * Builds the ops of a declaration: one per derivative tag (`@backward`, `@jacobian`, `@tangent`,
+ * `@hessian`), or one op carrying the problems when none is usable; [] when its JSDoc does not
+ * mark an op.
+ */
+export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext): OpDescriptor[] {
   const problems: SpanProblem[] = [];
   const ours: OurTag[] = [];
   let marked = false;
@@ -43,7 +48,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
       if (OP_MARKING_TAGS.includes(cls.suggestion)) marked = true;
     }
   }
-  if (!marked) return undefined;
+  if (!marked) return [];
 
   if (site.unsupported) problems.push({ ...site.nameSpan, message: site.unsupported });
 
@@ -157,13 +162,17 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   const fnFlags = site.fn ? functionFlavour(site.fn) : undefined;
   if (fnFlags) problems.push({ ...site.nameSpan, message: `${displayName(site)} is ${fnFlags}: checks call the forward synchronously and need a plain return value` });
 
+  // Problems so far concern every derivative of this forward; the rest only the @backward op.
+  const sharedProblemCount = problems.length;
+  const derivativeTags = DERIVATIVE_KINDS.flatMap((k) => (firstOf.has(k) ? [{ kind: k, tag: firstOf.get(k)! }] : []));
+
   // @backward: name, resolution, argument list.
   const backTag = firstOf.get('backward');
   let parsedBack: ParsedBackward = { problems: [] };
   if (backTag) {
     parsedBack = parseBackwardTag(backTag.raw);
     problems.push(...parsedBack.problems);
-  } else if (!problems.some((p) => /did you mean @backward\?/.test(p.message))) {
+  } else if (derivativeTags.length === 0 && !problems.some((p) => /did you mean @(backward|jacobian|tangent|hessian)\?/.test(p.message))) {
     const first = ours[0]?.raw.nameSpan ?? site.nameSpan;
     problems.push({ ...first, message: `${displayName(site)} has sampling tags but no @backward: add \`@backward NAME\` naming its gradient function` });
   }
@@ -211,8 +220,46 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   if (tolerance !== undefined) op.tolerance = tolerance;
   if (seed !== undefined) op.seed = seed;
   if (resolved?.span) op.backwardLocation = { file: ctx.fileName, ...ctx.mapper.at(resolved.span.start) };
-  return op;
+  if (derivativeTags.length === 0) return [op];
+
+  // One op per further derivative tag: the shared set-up, its own function and argument list.
+  const shared = problems.slice(0, sharedProblemCount);
+  const backwardOk = backTag !== undefined && problems.length === sharedProblemCount;
+  const ops: OpDescriptor[] = backTag ? [op] : [];
+  const sampledFields = new Set(fieldOrder);
+  for (const { kind, tag } of derivativeTags) {
+    const own: SpanProblem[] = [];
+    const parsed = parseDerivativeTag(tag.raw, kind);
+    own.push(...parsed.problems);
+    const fnName = parsed.name ?? '';
+    const where = parsed.name && parsed.nameSpan ? resolveBackward(parsed.name, parsed.nameSpan, site, ctx.bindings, own, kind) : undefined;
+    const args = parsed.args
+      ? explicitDerivativeArgs(kind, parsed, { isMethod, forwardName: displayName(site), paramNames, sampledFields, suggest: (n) => suggest(n, paramNames) }, own)
+      : defaultDerivativeArgs(kind, paramNames, params, fixed, samplesFactory !== undefined);
+    if (kind === 'hessian') {
+      const returns = nonNumberReturn(site.fn?.type);
+      if (returns) own.push({ ...(parsed.nameSpan ?? tag.raw.nameSpan), message: `@hessian: ${displayName(site)} returns ${returns}; a Hessian needs a forward that returns a number (use @jacobian for a vector output)` });
+    }
+    const variant: OpDescriptor = {
+      ...op,
+      kind,
+      backward: fnName,
+      target: { ...op.target, backwardName: fnName, backwardIsMethod: where?.isMethod ?? false },
+      backwardArgs: args,
+      problems: [...shared, ...own].sort((a, b) => a.start - b.start).map((p) => ctx.mapper.problem(p)),
+    };
+    delete variant.backwardLocation;
+    if (where?.span) variant.backwardLocation = { file: ctx.fileName, ...ctx.mapper.at(where.span.start) };
+    if (kind === 'hessian' && backwardOk) {
+      variant.gradient = { name: backwardName, backwardName, backwardIsMethod: resolved?.isMethod ?? false, args: backwardArgs };
+    }
+    ops.push(variant);
+  }
+  return ops;
 }
+
+/** Kinds named in messages as the role of the function a tag names. */
+type Role = 'backward' | DerivativeKind;
 
 function displayName(site: ForwardSite): string {
   const name = site.name || '(anonymous)';
@@ -278,20 +325,21 @@ function resolveBackward(
   site: ForwardSite,
   bindings: ModuleBindings,
   problems: SpanProblem[],
+  role: Role = 'backward',
 ): { isMethod: boolean; span?: Span } | undefined {
   let unknownBase = false;
   if (site.kind === 'method' && site.classNode) {
     const m = findMethod(site.classNode, name, bindings);
     if (m.found) {
       const flavour = m.fn ? functionFlavour(m.fn) : undefined;
-      if (flavour) problems.push({ ...span, message: `backward '${name}' is ${flavour}: it must return its result directly` });
+      if (flavour) problems.push({ ...span, message: `${role} '${name}' is ${flavour}: it must return its result directly` });
       return { isMethod: true, span: m.span };
     }
     unknownBase = m.unknownBase;
   }
   const b = bindings.topLevel.get(name);
   if (b) {
-    const bad = bindingKindProblem(name, b, 'backward');
+    const bad = bindingKindProblem(name, b, role);
     if (bad) problems.push({ ...span, message: bad });
     return { isMethod: false, span: b.span };
   }
@@ -299,7 +347,7 @@ function resolveBackward(
   if (unknownBase) return { isMethod: true };
   const where = site.kind === 'method' ? `a method of ${site.className || 'the class'}, a top-level function of this module or an import` : 'a top-level function of this module or an import';
   const candidates = [...bindings.topLevel.keys(), ...(site.classNode ? site.classNode.members.flatMap((m) => (m.name && ts.isIdentifier(m.name) ? [m.name.text] : [])) : [])];
-  problems.push({ ...span, message: `backward '${name}' not found: it must be ${where}${suggest(name, candidates)}` });
+  problems.push({ ...span, message: `${role} '${name}' not found: it must be ${where}${suggest(name, candidates)}` });
   return undefined;
 }
 

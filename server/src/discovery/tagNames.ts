@@ -2,7 +2,7 @@
 // an unknown tag is a misspelling of ours (flagged with "did you mean").
 
 /** Every tag Gradient Probe reads (interface.md §1). */
-export const OP_TAG_NAMES = ['backward', 'sample', 'samples', 'fixed', 'construct', 'tolerance', 'seed'] as const;
+export const OP_TAG_NAMES = ['backward', 'sample', 'samples', 'fixed', 'construct', 'tolerance', 'seed', 'jacobian', 'tangent', 'hessian'] as const;
 export type OpTagName = (typeof OP_TAG_NAMES)[number];
 
 /**

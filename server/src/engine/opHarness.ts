@@ -10,7 +10,7 @@ import { buildValue, describeOutputIndex, detectLayout, firstNonFinite, flattenI
 import type { ParamSlot } from './paramSlot';
 import type { RandomSource } from './random';
 import { drawSample, type Sample } from './sampling';
-import type { CallCounts, OpDescriptor } from './types';
+import type { BackwardArg, CallCounts, OpDescriptor } from './types';
 
 type AnyFunction = (...args: unknown[]) => unknown;
 
@@ -65,7 +65,7 @@ export class OpHarness {
       this.forwardFn = fwd as AnyFunction;
       const bwd = t.backwardIsMethod ? (proto ? proto[t.backwardName] : undefined) : lookup(exposed, t.backwardName);
       if (typeof bwd !== 'function') {
-        fail(`backward '${op.backward}' is not ${t.backwardIsMethod ? `a method of class '${className}'` : 'a function of the module'} (got ${describeValue(bwd)})`);
+        fail(`${op.kind ?? 'backward'} '${op.backward}' is not ${t.backwardIsMethod ? `a method of class '${className}'` : 'a function of the module'} (got ${describeValue(bwd)})`);
       }
       this.backwardFn = bwd as AnyFunction;
     } else {
@@ -74,7 +74,7 @@ export class OpHarness {
       this.forwardFn = fwd as AnyFunction;
       this.classCtor = null;
       const bwd = lookup(exposed, t.backwardName);
-      if (typeof bwd !== 'function') fail(`backward '${op.backward}' is not a function (got ${describeValue(bwd)})`);
+      if (typeof bwd !== 'function') fail(`${op.kind ?? 'backward'} '${op.backward}' is not a function (got ${describeValue(bwd)})`);
       this.backwardFn = bwd as AnyFunction;
     }
     this.constructFn = null;
@@ -109,6 +109,16 @@ export class OpHarness {
     }
     this.sample = drawSample(this.op, rng, this.instance, this.samplesFn as ((r: () => number) => unknown) | null, maxElements);
     return this.sample;
+  }
+
+  /**
+   * Uses another harness's drawn inputs, instance and output layout, so a second function of
+   * the same forward (the @backward of a @hessian op) is called at the very same point.
+   */
+  adoptSample(other: OpHarness): void {
+    this.sample = other.sample;
+    this.instance = other.instance;
+    this.layout = other.layout;
   }
 
   private get args(): unknown[] {
@@ -180,7 +190,7 @@ export class OpHarness {
   }
 
   /** Backward's argument list for an upstream gradient (flat, output-shaped) at output y. */
-  private backwardArgs(dy: Float64Array | null, y: Float64Array): unknown[] {
+  private backwardArgs(dy: Float64Array | null, y: Float64Array, placeholder?: (a: BackwardArg) => unknown): unknown[] {
     const s = this.sample as Sample;
     const list: unknown[] = [];
     const layout = this.layout as OutputLayout;
@@ -188,6 +198,7 @@ export class OpHarness {
       const a = this.op.backwardArgs[i];
       if (a.kind === 'upstream') list[i] = buildValue(layout, dy as Float64Array);
       else if (a.kind === 'output') list[i] = buildValue(layout, y);
+      else if (a.kind === 'tangent' || a.kind === 'vector') list[i] = placeholder ? placeholder(a) : undefined;
       else {
         const name = a.name;
         const pos = positionOf(s.argNames, name);
@@ -236,11 +247,32 @@ export class OpHarness {
     }
   }
 
+  /**
+   * Calls the op's derivative function (`@jacobian`, `@tangent`, `@hessian`) at the sample point
+   * with output y; `placeholder` gives the values of `$dNAME` and `$v`. Returns what it returned.
+   */
+  derivativeRaw(y: Float64Array, placeholder: (a: BackwardArg) => unknown): unknown {
+    const list = this.backwardArgs(null, y, placeholder);
+    this.calls.backward++;
+    try {
+      return reflectApply(this.backwardFn, this.op.target.backwardIsMethod ? (this.instance ?? undefined) : undefined, list);
+    } catch (e) {
+      return fail(`${this.op.kind ?? 'backward'} threw: ${describeThrown(e)}`);
+    }
+  }
+
   /** Whether the backward runs on the instance after the forward (it may read cached state). */
   get backwardNeedsFreshForward(): boolean {
     return this.op.target.kind === 'method';
   }
 }
+
+/**
+ * What finite differences need of a harness: a vector-valued map evaluated at the current
+ * inputs, its output size, and where the inputs are moved (for messages). An OpHarness is one;
+ * so is the gradient of a @hessian op (engine/gradientMap.ts).
+ */
+export type ForwardMap = Pick<OpHarness, 'forwardInto' | 'perturbation' | 'layout'>;
 
 /** Multi-index of element i of a slot. */
 export function unravelSlot(slot: ParamSlot, i: number): number[] {

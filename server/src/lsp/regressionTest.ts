@@ -4,6 +4,7 @@
 
 import type { BackwardArg, OpDescriptor, OpResult, ParamResult } from '../engine/types';
 import { indexText } from './format';
+import { regressionTestForKind } from './regressionTestKinds';
 
 /**
  * Relative step of the snippet's central difference: the cube root of the dtype's machine
@@ -18,6 +19,7 @@ export type SnippetOutcome = { snippet: string } | { reason: string };
 /** `tolerance` is the relative tolerance the check used for this op. */
 export function regressionTestFor(op: OpDescriptor, result: OpResult, tolerance: number): SnippetOutcome {
   if (result.verdict !== 'mismatch') return { reason: `${op.forward} is not a mismatch (verdict ${result.verdict}); there is no failing case to copy` };
+  if (op.kind !== undefined && op.kind !== 'backward') return regressionTestForKind(op, result, tolerance);
   if (!result.inputs) return { reason: `the sample of ${op.forward} was too large to record, so it cannot be written into a test` };
   const param = result.params.filter((p) => p.verdict === 'mismatch').sort((a, b) => b.maxRelError - a.maxRelError)[0];
   if (!param || !param.worst) return { reason: `${op.forward}: no mismatching element was recorded` };
@@ -81,6 +83,7 @@ function importList(op: OpDescriptor): string[] {
 function backwardArgText(arg: BackwardArg, plainParams: string[]): string {
   if (arg.kind === 'output') return 'y';
   if (arg.kind === 'upstream') return 'dy';
+  if (arg.kind === 'tangent' || arg.kind === 'vector') return 'undefined';
   if (arg.name.startsWith('this.')) return `self.${arg.name.slice(5)}`;
   return `args[${plainParams.indexOf(arg.name)}]`;
 }
