@@ -243,6 +243,9 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     const variant: OpDescriptor = {
       ...op,
       kind,
+      // The kind is part of the display name, so every surface that names ops (report, editor
+      // results, filters, corpus labels) tells this op from the forward's other derivatives.
+      forward: `${op.forward} @${kind}`,
       backward: fnName,
       target: { ...op.target, backwardName: fnName, backwardIsMethod: where?.isMethod ?? false },
       backwardArgs: args,

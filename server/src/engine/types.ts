@@ -96,7 +96,11 @@ export interface OpDescriptor {
   column: number;
   endLine: number;
   endColumn: number;
-  /** Display name: `softplus`, or `Class.method` for a method. */
+  /**
+   * Display name: `softplus`, or `Class.method` for a method; for the kinds other than
+   * 'backward' followed by the tag (`reach @jacobian`), so each derivative of one forward has a
+   * name of its own on every surface.
+   */
   forward: string;
   /** Name of the backward as written in `@backward`. */
   backward: string;
