@@ -81,7 +81,7 @@ describe('engine: @jacobian', () => {
   it('several parameters: an array or an object of matrices; a wrong sign in one is located', () => {
     // y = (a·b0, a + b1²): J_a is 2×1, J_b is 2×2.
     const fwd = (a: number, b: Float64Array): Float64Array => Float64Array.of(a * b[0], a + b[1] * b[1]);
-    const ja = (a: number, b: Float64Array): number[][] => [[b[0]], [1]];
+    const ja = (_a: number, b: Float64Array): number[][] => [[b[0]], [1]];
     const jb = (a: number, b: Float64Array): number[][] => [[a, 0], [0, 2 * b[1]]];
     const params: [string, ReturnType<typeof spec>][] = [['a', spec('num')], ['b', spec('f64', [2])]];
     const asArray = check(kindOp('jacobian', fwd, (a: number, b: Float64Array) => [ja(a, b), jb(a, b)], params, [p('a'), p('b')]));
@@ -150,7 +150,7 @@ describe('engine: @tangent', () => {
     const ok = check(kindOp('tangent', fwd, good, params, args));
     assert.equal(ok.verdict, 'pass', show(ok));
     // BUG: the ḃ term is missing.
-    const o = check(kindOp('tangent', fwd, (a: number, b: Float64Array, da: number) => b.map((v) => da * Math.sin(v)), params, args));
+    const o = check(kindOp('tangent', fwd, (_a: number, b: Float64Array, da: number) => b.map((v) => da * Math.sin(v)), params, args));
     assert.equal(o.verdict, 'mismatch', show(o));
     assert.equal(o.params[0].verdict, 'pass', show(o));
     assert.equal(o.params[1].verdict, 'mismatch', show(o));

@@ -25,7 +25,7 @@ export function hoverAt(facts: DocumentFacts, position: Position): Hover | null 
 
 /** The hover text; `onlyParam` narrows the table to the parameter a `@sample` tag draws. */
 export function opMarkdown(op: OpDescriptor, facts: DocumentFacts, onlyParam?: string): string {
-  const head = `**${escape(op.forward)}** → backward \`${op.backward}\``;
+  const head = `**${escape(op.forward)}** → ${op.kind ?? 'backward'} \`${op.backward}\``;
   if (op.problems.length > 0) {
     return [head, '', 'Annotation errors (nothing runs until they are fixed):', '', ...op.problems.map((p) => `- line ${p.line}: ${escape(p.message)}`)].join('\n');
   }

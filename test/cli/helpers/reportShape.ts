@@ -47,6 +47,7 @@ export function reportViolations(report: unknown): string[] {
     if (typeof pair['message'] !== 'string') out.push(`${at}.message must be a string`);
     if (!Array.isArray(pair['hints']) || !pair['hints'].every((h) => typeof h === 'string')) out.push(`${at}.hints must be strings`);
     if (pair['output'] !== undefined && typeof pair['output'] !== 'string') out.push(`${at}.output must be a string when present`);
+    if (pair['kind'] !== undefined && !['backward', 'jacobian', 'tangent', 'hessian'].includes(pair['kind'] as string)) out.push(`${at}.kind must be backward, jacobian, tangent or hessian when present`);
     const problems = pair['problems'];
     if (problems !== undefined) {
       if (!Array.isArray(problems)) out.push(`${at}.problems must be an array when present`);
