@@ -106,7 +106,7 @@ function elementAccess(holder: string, p: ParamResult): { read: string; write: s
 }
 
 /** A recorded input as TypeScript source: typed arrays come as `{ dtype, data }`. */
-function literal(value: unknown): string {
+export function literal(value: unknown): string {
   if (typeof value === 'number') return numberText(value);
   if (Array.isArray(value)) return `[${value.map(literal).join(', ')}]`;
   if (value && typeof value === 'object') {
@@ -133,7 +133,7 @@ function numberText(n: number): string {
   return Object.is(n, -0) ? '-0' : String(n);
 }
 
-function quote(text: string): string {
+export function quote(text: string): string {
   return text.replace(/\\/g, '\\\\').replace(/'/g, "\\'");
 }
 
