@@ -6,7 +6,7 @@
 
 import assert from 'node:assert/strict';
 import type { BackwardArg, OpDescriptor, OpKind } from '../../server/src/engine/types';
-import { check, functionOp, show, spec } from './opBuilder';
+import { check, functionOp, methodOp, show, spec } from './opBuilder';
 
 type Fn = (...args: any[]) => any;
 
@@ -278,3 +278,39 @@ describe('engine: @hessian', () => {
     assert.notEqual(o2.verdict, 'mismatch', show(o2));
   });
 });
+
+describe('engine: derivative kinds on methods', () => {
+  // A layer that caches its input in the forward (as stateful code does) and whose tangent and
+  // Jacobian read that cache: y = w ⊙ tanh(x) with the weight a field.
+  class Squash {
+    w = new Float64Array(3);
+    private cached = new Float64Array(3);
+    forward(x: Float64Array): Float64Array {
+      this.cached = x.map(Math.tanh);
+      return this.cached.map((t, i) => this.w[i]! * t);
+    }
+    jacobian(x: Float64Array): number[][] {
+      return Array.from(x, (_, i) => Array.from(x, (v, j) => (i === j ? this.w[i]! * (1 - this.cached[i]! ** 2) : 0)));
+    }
+    tangent(_x: Float64Array, dx: Float64Array, dw: Float64Array): Float64Array {
+      return this.cached.map((t, i) => this.w[i]! * (1 - t * t) * dx[i]! + dw[i]! * t);
+    }
+  }
+  const build = (kind: OpKind, name: string, args: BackwardArg[]) => {
+    const built = methodOp({ cls: Squash, forwardName: 'forward', backwardName: name, params: [['x', spec('f64', [3])], ['this.w', spec('f64', [3], [0.5, 2])]] });
+    built.op.kind = kind;
+    built.op.backwardArgs = args;
+    return built;
+  };
+
+  it('a method Jacobian (x only; the field fixed by its spec) and a method tangent over x and this.w pass', () => {
+    const jac = build('jacobian', 'jacobian', [p('x')]);
+    jac.op.params[1]!.sample = spec('f64', [3], [0.5, 2], { fixed: true });
+    const o = check(jac);
+    assert.equal(o.verdict, 'pass', show(o));
+    const tan = check(build('tangent', 'tangent', [p('x'), d('x'), d('this.w')]));
+    assert.equal(tan.verdict, 'pass', show(tan));
+    assert.deepEqual(tan.params.map((q) => q.name), ['x', 'this.w']);
+  });
+});
+

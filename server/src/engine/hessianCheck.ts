@@ -314,6 +314,8 @@ function hvpAttempt(ctx: AttemptContext, base: Baseline, c: Coords, gm: Gradient
       const line = directionLine(gm ?? h, slot, d);
       const v = line.scaled;
       const placeholder = (a: BackwardArg): unknown => (a.kind === 'vector' ? vectorValue(slots, s, v) : undefined);
+      // A method's derivative may read state its forward cached: run the forward at the sample point first.
+      if (h.backwardNeedsFreshForward) h.forwardInto(new F64(1), true);
       const raw = h.derivativeRaw(y0, placeholder);
       checkUnchanged(h, base, what);
       const analytic = readProduct(raw, slots, c, what);

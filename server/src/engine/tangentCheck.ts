@@ -82,6 +82,9 @@ function callTangent(h: OpHarness, base: Baseline, op: OpDescriptor, tangents: (
     }
     return fail(`${what}: $d${a.name} names '${a.name}', which is not differentiated here (fixed, a literal, an integer or not numbers)`);
   };
+  // A method's derivative may read state its forward cached, and the differences have run the
+  // forward at moved points since: run it at the sample point first.
+  if (h.backwardNeedsFreshForward) h.forwardInto(new F64(layout.size), true);
   const raw = h.derivativeRaw(y0, placeholder);
   checkUnchanged(h, base, what);
   const analytic = new F64(layout.size);
