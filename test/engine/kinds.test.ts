@@ -290,7 +290,7 @@ describe('engine: derivative kinds on methods', () => {
       return this.cached.map((t, i) => this.w[i]! * t);
     }
     jacobian(x: Float64Array): number[][] {
-      return Array.from(x, (_, i) => Array.from(x, (v, j) => (i === j ? this.w[i]! * (1 - this.cached[i]! ** 2) : 0)));
+      return Array.from(x, (_, i) => Array.from(x, (_v, j) => (i === j ? this.w[i]! * (1 - this.cached[i]! ** 2) : 0)));
     }
     tangent(_x: Float64Array, dx: Float64Array, dw: Float64Array): Float64Array {
       return this.cached.map((t, i) => this.w[i]! * (1 - t * t) * dx[i]! + dw[i]! * t);
