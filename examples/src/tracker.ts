@@ -12,6 +12,7 @@ const SUN = [
 /**
  * Pointing error of the mount for each of the three sun positions, for angles [tilt, azimuth].
  * @jacobian pointingJacobian
+ * @tangent pointingTangent(angles, $dangles)
  * @sample angles f64[2] in [-1.2, 1.2]
  */
 export function pointingResidual(angles: Float64Array): Float64Array {
@@ -23,6 +24,11 @@ export function pointingResidual(angles: Float64Array): Float64Array {
 export function pointingJacobian(angles: Float64Array): number[][] {
   const [tilt, az] = [angles[0], angles[1]];
   return SUN.map((s) => [-Math.sin(tilt) * s.a + Math.cos(tilt) * Math.cos(az - s.b), -Math.sin(tilt) * Math.sin(az - s.b)]);
+}
+
+/** How the pointing errors move when the angles move by dAngles (forward mode, J·dAngles). */
+export function pointingTangent(angles: Float64Array, dAngles: Float64Array): Float64Array {
+  return Float64Array.from(pointingJacobian(angles).map((row) => row[0] * dAngles[0] + row[1] * dAngles[1]));
 }
 
 /**
