@@ -314,3 +314,38 @@ describe('engine: derivative kinds on methods', () => {
   });
 });
 
+
+describe('engine: derivative kinds, seeds and failures', () => {
+  const params = (): [string, ReturnType<typeof spec>][] => [['q', spec('f64', [2], [-3, 3])]];
+
+  it('the same seed gives the same outcome; another seed draws other inputs', () => {
+    const run = (seed: number) => check(kindOp('jacobian', reach, reachJacobian, params(), [p('q')]), { seed });
+    const a = run(7);
+    const b = run(7);
+    const c = run(8);
+    assert.deepEqual(a.inputs, b.inputs);
+    assert.deepEqual(a.params, b.params);
+    assert.notDeepEqual(a.inputs, c.inputs);
+    assert.equal(c.verdict, 'pass', show(c));
+  });
+
+  it('a derivative function that throws, or returns NaN, is an error naming it', () => {
+    const thrown = check(kindOp('tangent', reach, () => { throw new Error('no tangent here'); }, params(), [p('q'), d('q')]));
+    assert.equal(thrown.verdict, 'error');
+    assert.match(thrown.message, /tangent threw: .*no tangent here/);
+    const nan = check(kindOp('jacobian', reach, () => [[NaN, 0], [0, 1]], params(), [p('q')]));
+    assert.equal(nan.verdict, 'error');
+    assert.match(nan.message, /jacobian 'opBackward' result has NaN at \[0, 0\]/);
+    const missing = kindOp('hessian', rosen, rosenHess, [['v', spec('f64', [2])]], [p('v')]);
+    delete missing.exposed.opBackward;
+    const o = check(missing);
+    assert.equal(o.verdict, 'error');
+    assert.match(o.message, /hessian 'opBackward' is not a function/);
+  });
+
+  it('a derivative function that changes its input is an error', () => {
+    const o = check(kindOp('jacobian', reach, (q: Float64Array) => { q[0] += 1; return reachJacobian(q); }, params(), [p('q')]));
+    assert.equal(o.verdict, 'error');
+    assert.match(o.message, /jacobian 'opBackward' changed its input 'q' at \[0\]/);
+  });
+});
