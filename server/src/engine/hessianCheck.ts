@@ -34,11 +34,13 @@ interface Reference {
   /** The @backward op when it passed, else null (second differences). */
   gradientOp: OpDescriptor | null;
   note: string;
+  /** Calls the check of the @backward made. */
+  calls: { forward: number; backward: number };
 }
 
 function chooseReference(op: OpDescriptor, settings: CheckSettings, runBackward: BackwardRunner): Reference {
   const g = op.gradient;
-  if (g === undefined) return { gradientOp: null, note: 'reference: second differences of the forward (step u^(1/4); the op has no @backward)' };
+  if (g === undefined) return { gradientOp: null, note: 'reference: second differences of the forward (step u^(1/4); the op has no @backward)', calls: { forward: 0, backward: 0 } };
   const gradientOp: OpDescriptor = {
     ...op,
     kind: 'backward',
@@ -49,8 +51,8 @@ function chooseReference(op: OpDescriptor, settings: CheckSettings, runBackward:
   };
   delete gradientOp.gradient;
   const outcome = runBackward(gradientOp, { ...settings, timeLimitMs: settings.timeLimitMs * REFERENCE_TIME_SHARE, stepScans: 'none' });
-  if (outcome.verdict === 'pass') return { gradientOp, note: `reference: central differences of the @backward '${g.name}', which passes` };
-  return { gradientOp: null, note: `reference: second differences of the forward (step u^(1/4)), because the @backward '${g.name}' did not pass (${outcome.verdict})` };
+  if (outcome.verdict === 'pass') return { gradientOp, note: `reference: central differences of the @backward '${g.name}', which passes`, calls: outcome.calls };
+  return { gradientOp: null, note: `reference: second differences of the forward (step u^(1/4)), because the @backward '${g.name}' did not pass (${outcome.verdict})`, calls: outcome.calls };
 }
 
 export function runHessianCheck(
@@ -63,7 +65,7 @@ export function runHessianCheck(
   runBackward: BackwardRunner,
 ): CheckOutcome {
   const h = new OpHarness(op, exposed);
-  let reference: Reference = { gradientOp: null, note: '' };
+  let reference: Reference = { gradientOp: null, note: '', calls: { forward: 0, backward: 0 } };
   let hg: OpHarness | null = null;
   let extraCalls = { forward: 0, backward: 0 };
   const outcome = runAttempts(h, op, settings, seed, deadline, clock, (ctx) => {
@@ -76,7 +78,11 @@ export function runHessianCheck(
     }
     return hessianAttempt(ctx, hg);
   });
-  outcome.calls = { forward: outcome.calls.forward + extraCalls.forward, backward: outcome.calls.backward + extraCalls.backward };
+  // Every call counts: the Hessian's own, the gradient map's, and the check of the @backward.
+  outcome.calls = {
+    forward: outcome.calls.forward + extraCalls.forward + reference.calls.forward,
+    backward: outcome.calls.backward + extraCalls.backward + reference.calls.backward,
+  };
   if (reference.note !== '' && outcome.verdict !== 'error') outcome.message = outcome.message ? `${outcome.message}; ${reference.note}` : reference.note;
   return outcome;
 }
