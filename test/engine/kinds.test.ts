@@ -349,3 +349,22 @@ describe('engine: derivative kinds, seeds and failures', () => {
     assert.match(o.message, /jacobian 'opBackward' changed its input 'q' at \[0\]/);
   });
 });
+
+describe('engine: derivative kinds in float32', () => {
+  // y = tanh(x) in float32 (elementwise): J = diag(1 − y²); tolerances follow float32 (u = 2^-24, IEEE 754).
+  const fwd = (x: Float32Array): Float32Array => x.map(Math.tanh);
+  const jac = (x: Float32Array): number[][] => Array.from(x, (v, i) => Array.from(x, (_w, j) => (i === j ? 1 - Math.tanh(v) ** 2 : 0)));
+  const tan = (x: Float32Array, dx: Float32Array): Float32Array => x.map((v, i) => (1 - Math.tanh(v) ** 2) * dx[i]!);
+  const params = (): [string, ReturnType<typeof spec>][] => [['x', spec('f32', [4], [-2, 2])]];
+
+  it('correct float32 Jacobian and tangent pass; 2 % off on the diagonal is caught', () => {
+    const j = check(kindOp('jacobian', fwd, jac, params(), [p('x')]));
+    assert.equal(j.verdict, 'pass', show(j));
+    const t = check(kindOp('tangent', fwd, tan, params(), [p('x'), d('x')]));
+    assert.equal(t.verdict, 'pass', show(t));
+    const bad = check(kindOp('jacobian', fwd, (x: Float32Array) => jac(x).map((row) => row.map((v) => v * 1.02)), params(), [p('x')]));
+    assert.equal(bad.verdict, 'mismatch', show(bad));
+    const badT = check(kindOp('tangent', fwd, (x: Float32Array, dx: Float32Array) => tan(x, dx).map((v) => v * 1.02), params(), [p('x'), d('x')]));
+    assert.equal(badT.verdict, 'mismatch', show(badT));
+  });
+});
