@@ -50,5 +50,11 @@ describe('language server over LSP: @jacobian, @tangent and @hessian ops', funct
     const hover = (await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: diags.find((d) => String(d.message).startsWith('bowl'))!.range.start })) as Hover | null;
     assert.ok(hover);
     assert.match((hover.contents as MarkupContent).value, /bowl @hessian\*\* → hessian `bowlHessian`/);
+    // Two derivatives of one forward: the hover shows both.
+    const linkDiag = diags.find((d) => String(d.message).startsWith('link @jacobian'))!;
+    const both = (await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: linkDiag.range.start })) as Hover | null;
+    const text = (both!.contents as MarkupContent).value;
+    assert.match(text, /link @jacobian\*\* → jacobian `linkJacobian` — \*\*mismatch\*\*/);
+    assert.match(text, /link @tangent\*\* → tangent `linkTangent` — \*\*mismatch\*\*/);
   });
 });
