@@ -343,6 +343,13 @@ describe('engine: derivative kinds, seeds and failures', () => {
     assert.match(o.message, /hessian 'opBackward' is not a function/);
   });
 
+  it('a result whose reading throws (a getter of user code) is an error naming the function', () => {
+    const trap = (): unknown => { const row = [1, 0]; Object.defineProperty(row, 0, { get() { throw new Error('trap'); } }); return [row, [0, 1]]; };
+    const o = check(kindOp('jacobian', reach, trap, params(), [p('q')]));
+    assert.equal(o.verdict, 'error', show(o));
+    assert.match(o.message, /reading what jacobian 'opBackward' returned threw .*trap/);
+  });
+
   it('a derivative function that changes its input is an error', () => {
     const o = check(kindOp('jacobian', reach, (q: Float64Array) => { q[0] += 1; return reachJacobian(q); }, params(), [p('q')]));
     assert.equal(o.verdict, 'error');

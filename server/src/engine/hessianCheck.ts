@@ -10,7 +10,7 @@ import { readGradients } from './gradients';
 import { GradientMap } from './gradientMap';
 import { ElementState, compareElements, excessOf, floorsFor, type ElementEstimates } from './judge';
 import { assemble } from './jacobianCheck';
-import { checkUnchanged, combinedVerdict, runAttempts, takeBaseline, unitVectors, type AttemptContext, type AttemptResult, type Baseline } from './kindBaseline';
+import { checkUnchanged, combinedVerdict, readingResult, runAttempts, takeBaseline, unitVectors, type AttemptContext, type AttemptResult, type Baseline } from './kindBaseline';
 import { directionLine } from './lines';
 import { checkMatrixBlock, summariseBlock, type MatrixCheck, type MatrixNaming } from './matrixCompare';
 import { readMatrix } from './matrixRead';
@@ -131,7 +131,7 @@ function matrixAttempt(ctx: AttemptContext, base: Baseline, c: Coords, gm: Gradi
   const what = `hessian '${op.backward}'`;
   const raw = h.derivativeRaw(y0, () => undefined);
   checkUnchanged(h, base, what);
-  const H = readMatrix(raw, n, n, `${what} result`, `${n} gradient entr${n === 1 ? 'y' : 'ies'}`, `${n} parameter element${n === 1 ? '' : 's'}`);
+  const H = readingResult(what, () => readMatrix(raw, n, n, `${what} result`, `${n} gradient entr${n === 1 ? 'y' : 'ies'}`, `${n} parameter element${n === 1 ? '' : 's'}`));
   for (let e = 0; e < H.length; e++) {
     if (H[e] - H[e] !== 0) fail(`${what} result has ${H[e] !== H[e] ? 'NaN' : 'an infinite value'} at H[${(e - (e % n)) / n}, ${e % n}]`);
   }
@@ -324,7 +324,7 @@ function hvpAttempt(ctx: AttemptContext, base: Baseline, c: Coords, gm: Gradient
       if (h.backwardNeedsFreshForward) h.forwardInto(new F64(1), true);
       const raw = h.derivativeRaw(y0, placeholder);
       checkUnchanged(h, base, what);
-      const analytic = readProduct(raw, slots, c, what);
+      const analytic = readingResult(what, () => readProduct(raw, slots, c, what));
       for (let k = 0; k < c.n; k++) if (analytic[k] - analytic[k] !== 0) fail(`${what} result has ${analytic[k] !== analytic[k] ? 'NaN' : 'an infinite value'} at ${name(k)}`);
       if (gm !== null && g0 !== null) {
         const cmp = compareAlongLine(line, analytic, g0, base.uOut, base.tol, base.precision, name, {

@@ -3,7 +3,7 @@
 // central differences of the forward, refined before any entry is blamed.
 
 import { fail } from './failure';
-import { checkUnchanged, combinedVerdict, runAttempts, takeBaseline, unitVectors, type AttemptContext, type AttemptResult } from './kindBaseline';
+import { checkUnchanged, combinedVerdict, readingResult, runAttempts, takeBaseline, unitVectors, type AttemptContext, type AttemptResult } from './kindBaseline';
 import { checkMatrixBlock, matrixRows, type MatrixCheck } from './matrixCompare';
 import { readMatrix, splitParts } from './matrixRead';
 import { OpHarness } from './opHarness';
@@ -41,12 +41,12 @@ function jacobianAttempt(ctx: AttemptContext): AttemptResult {
   const what = `jacobian '${op.backward}'`;
   const raw = h.derivativeRaw(y0, () => undefined);
   checkUnchanged(h, base, what);
-  const parts = splitParts(raw, slots, what, 'matrix');
+  const parts = readingResult(what, () => splitParts(raw, slots, what, 'matrix'));
   const analytic: Float64Array[][] = [];
   for (let s = 0; s < slots.length; s++) {
     const slot = slots[s];
     const label = slots.length === 1 ? `${what} result` : `${what} matrix of '${slot.name}'`;
-    const a = readMatrix(parts[s], m, slot.size, label, `${m} output${m === 1 ? '' : 's'}`, `${slot.size} element${slot.size === 1 ? '' : 's'} of '${slot.name}'`);
+    const a = readingResult(what, () => readMatrix(parts[s], m, slot.size, label, `${m} output${m === 1 ? '' : 's'}`, `${slot.size} element${slot.size === 1 ? '' : 's'} of '${slot.name}'`));
     for (let e = 0; e < a.length; e++) {
       const v = a[e];
       if (v - v !== 0) fail(`${label} has ${v !== v ? 'NaN' : 'an infinite value'} at [${(e - (e % slot.size)) / slot.size}, ${e % slot.size}]`);

@@ -63,6 +63,19 @@ export function checkUnchanged(h: OpHarness, base: Baseline, what: string): void
   if (changed !== null) fail(`${what} changed its input ${changed}`);
 }
 
+/**
+ * Runs a reader over what a derivative function returned: a getter or proxy of user code that
+ * throws while being read is the function's fault, named as such, not an engine failure.
+ */
+export function readingResult<T>(what: string, read: () => T): T {
+  try {
+    return read();
+  } catch (e) {
+    if (e instanceof CheckStop) throw e;
+    return fail(`reading what ${what} returned threw ${describeThrown(e)}`);
+  }
+}
+
 /** The m unit vectors of the output space: comparing with them reads a matrix entry by entry. */
 export function unitVectors(m: number): Float64Array[] {
   const ws: Float64Array[] = [];

@@ -8,7 +8,7 @@ import { F32, F64, abs, describeValue, formatNumber, isArray, isView, max, min }
 import { CheckStop, fail } from './failure';
 import { excessOf } from './judge';
 import { findKink } from './kinkTest';
-import { checkUnchanged, combinedVerdict, runAttempts, takeBaseline, type AttemptContext, type AttemptResult, type Baseline } from './kindBaseline';
+import { checkUnchanged, combinedVerdict, readingResult, runAttempts, takeBaseline, type AttemptContext, type AttemptResult, type Baseline } from './kindBaseline';
 import { outputName } from './jacobianCheck';
 import { centralOnLine, directionLine, type Line } from './lines';
 import { OpHarness } from './opHarness';
@@ -88,7 +88,7 @@ function callTangent(h: OpHarness, base: Baseline, op: OpDescriptor, tangents: (
   const raw = h.derivativeRaw(y0, placeholder);
   checkUnchanged(h, base, what);
   const analytic = new F64(layout.size);
-  readTangentResult(raw, layout, analytic, what);
+  readingResult(what, () => readTangentResult(raw, layout, analytic, what));
   for (let j = 0; j < analytic.length; j++) {
     const v = analytic[j];
     if (v - v !== 0) fail(`${what} result has ${v !== v ? 'NaN' : 'an infinite value'} at ${outputName(layout, j)}`);
