@@ -4,7 +4,7 @@
 // (first differences of an exact gradient), else second differences of the forward
 // (secondDifferences.ts). The message says which reference was used.
 
-import { F64, abs, formatNumber, max, sliceText } from './builtins';
+import { F64, I32, abs, formatNumber, max, sliceText } from './builtins';
 import { CheckStop, fail } from './failure';
 import { readGradients } from './gradients';
 import { GradientMap } from './gradientMap';
@@ -102,8 +102,8 @@ function coordsOf(slots: ParamSlot[]): Coords {
     offsets[s] = n;
     n += slots[s].size;
   }
-  const slotOf = new Int32Array(n);
-  const indexOf = new Int32Array(n);
+  const slotOf = new I32(n);
+  const indexOf = new I32(n);
   for (let s = 0; s < slots.length; s++) for (let i = 0; i < slots[s].size; i++) {
     slotOf[offsets[s] + i] = s;
     indexOf[offsets[s] + i] = i;
@@ -200,7 +200,7 @@ function secondDifferenceBlock(h: OpHarness, base: Baseline, c: Coords, s: numbe
   const slot = base.slots[s];
   const n = c.n;
   const t = secondStep(base.precision);
-  const indices = new Int32Array(slot.size);
+  const indices = new I32(slot.size);
   const numeric: Float64Array[] = [];
   const bound: Float64Array[] = [];
   for (let k = 0; k < n; k++) {

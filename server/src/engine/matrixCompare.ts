@@ -4,7 +4,7 @@
 // suspicious columns go through the same refinement as a @backward (kink test, then Ridders),
 // so an entry is blamed only beyond tolerance plus the estimate's own error.
 
-import { F64, abs, formatNumber, max } from './builtins';
+import { F64, I32, abs, formatNumber, max } from './builtins';
 import { giveUp } from './failure';
 import { ElementState, compareElements, excessOf, floorsFor, type Comparison, type ElementEstimates } from './judge';
 import { HINT_TOLERANCE_FACTOR } from './hints';
@@ -41,7 +41,7 @@ export interface MatrixCheck {
  */
 export function unitColumns(f: ForwardMap, slot: ParamSlot, m: number, uOut: number, outOfTime: () => boolean): ElementEstimates {
   const n = slot.size;
-  const indices = new Int32Array(n);
+  const indices = new I32(n);
   for (let i = 0; i < n; i++) indices[i] = i;
   const numeric: Float64Array[] = [];
   const bound: Float64Array[] = [];
