@@ -257,6 +257,25 @@ describe('engine: @hessian', () => {
     assert.match(bad.message, /H\[2, 2\] \(b\[1\], b\[1\]\)/, show(bad));
   });
 
+  it('Hessian-vector products over several parameters: $v and the result have one part per parameter', () => {
+    // f(a, b) = a²·b0 + sin(b1)·a, as above: H·v split as [(H·v)_a, (H·v)_b].
+    const f = (a: number, b: Float64Array): number => a * a * b[0] + Math.sin(b[1]) * a;
+    const hvp = (a: number, b: Float64Array, v: [number, Float64Array]): [number, Float64Array] => {
+      const [va, vb] = v;
+      return [2 * b[0] * va + 2 * a * vb[0] + Math.cos(b[1]) * vb[1], Float64Array.of(2 * a * va, Math.cos(b[1]) * va - Math.sin(b[1]) * a * vb[1])];
+    };
+    const params: [string, ReturnType<typeof spec>][] = [['a', spec('num')], ['b', spec('f64', [2])]];
+    const o = check(kindOp('hessian', f, hvp, params, [p('a'), p('b'), V]));
+    assert.equal(o.verdict, 'pass', show(o));
+    const wrong = (a: number, b: Float64Array, v: [number, Float64Array]): { a: number; b: Float64Array } => {
+      const [ha, hb] = hvp(a, b, v);
+      return { a: ha, b: Float64Array.of(hb[0]!, hb[1]! + Math.sin(b[1]) * a * v[1][1]! * 2) }; // BUG: sign of the b1 curvature
+    };
+    const bad = check(kindOp('hessian', f, wrong, params, [p('a'), p('b'), V]));
+    assert.equal(bad.verdict, 'mismatch', show(bad));
+    assert.match(bad.message, /H·v for a v of 'b' disagrees at b\[1\]/, show(bad));
+  });
+
   it('bad shapes and a vector forward are clear errors', () => {
     const params: [string, ReturnType<typeof spec>][] = [['v', spec('f64', [2])]];
     const o = check(kindOp('hessian', rosen, () => [[1, 2, 3]], params, [p('v')]));
