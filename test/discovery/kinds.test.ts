@@ -108,3 +108,24 @@ export function vh() { return 0; }
     expectProblem(text, op, 'vh', /a Hessian needs a forward that returns a number/);
   });
 });
+
+describe('discovery: derivative kinds keep their problems apart', () => {
+  it("a @backward's own mistake stays on the @backward op; the @hessian op runs against second differences", () => {
+    const text = `
+/**
+ * @sample v f64[2]
+ * @backward gradOf(v, $dq)
+ * @hessian hessOf
+ */
+export function cost(v: Float64Array): number { return 0; }
+export function gradOf() { return 0; }
+export function hessOf() { return 0; }
+`;
+    const r = discover(text);
+    const backward = r.ops.find((o) => o.kind === undefined)!;
+    const hessian = r.ops.find((o) => o.kind === 'hessian')!;
+    expectProblem(text, backward, '$dq', /unknown placeholder '\$dq'/);
+    assert.deepEqual(hessian.problems, []);
+    assert.equal(hessian.gradient, undefined);
+  });
+});
