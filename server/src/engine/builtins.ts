@@ -12,6 +12,7 @@ export const ceil = Math.ceil;
 export const min = Math.min;
 export const max = Math.max;
 export const log10 = Math.log10;
+export const log2 = Math.log2;
 export const pow = Math.pow;
 export const round = Math.round;
 export const fround = Math.fround;

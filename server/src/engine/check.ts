@@ -14,7 +14,7 @@ import { elementLine } from './lines';
 import { elementName, unravelSlot, OpHarness } from './opHarness';
 import { describeOutputIndex, layoutPrecision } from './outputLayout';
 import type { ParamSlot } from './paramSlot';
-import { relativeFloorFactor, unitRoundoff, type Precision } from './precision';
+import { outputPrecision, relativeFloorFactor, unitRoundoff, type Precision } from './precision';
 import { STREAM, STREAM_STRIDE, fillSigned, substream, type RandomSource } from './random';
 import { refineSuspicious, type KinkReport, type RefineSummary } from './refine';
 import { describeSearch, splitSearch } from './splitSearch';
@@ -163,11 +163,13 @@ function runAttempt(
     fail(`the backward takes no $dy, so the forward must return a number; it returned ${layout.size} values`);
   }
 
-  // Precision and tolerance: float32 anywhere in the parameters or the output rounds every value.
-  let precision: Precision = layoutPrecision(layout);
-  for (let s = 0; s < slots.length; s++) if (slots[s].precision === 'f32') precision = 'f32';
+  // Precision: the outputs' roundoff comes from the outputs (their layout and their values), a
+  // parameter's from the parameter. The tolerance is float32's when either is float32.
+  const precision: Precision = outputPrecision(layoutPrecision(layout), y0);
+  let anyF32 = precision === 'f32';
+  for (let s = 0; s < slots.length; s++) if (slots[s].precision === 'f32') anyF32 = true;
   const uOut = unitRoundoff(precision);
-  const tol = typeof op.tolerance === 'number' && op.tolerance > 0 ? op.tolerance : precision === 'f32' ? settings.toleranceF32 : settings.toleranceF64;
+  const tol = typeof op.tolerance === 'number' && op.tolerance > 0 ? op.tolerance : anyF32 ? settings.toleranceF32 : settings.toleranceF64;
 
   // Upstream vectors: uniform in [-1, 1] (K of them), or the plain gradient when there is no $dy.
   const m = y0.length;
