@@ -385,7 +385,8 @@ function probeParam(at: Attempt, s: number, random: RandomSource): ParamCheck {
   };
   const result = summarise(at, s, 'dot-product', grads, search.est, search.cmp, refine, [], false);
   const r = result.result;
-  r.detectionFloor = search.detectionFloor;
+  // Infinite when the root probes could not all run (time): no floor to state.
+  if (search.detectionFloor < Infinity) r.detectionFloor = search.detectionFloor;
   // The probes' worst relative discrepancy (against their threshold's scale) joins the figures.
   for (let q = 0; q < search.rootProbes.length; q++) {
     const rp = search.rootProbes[q];
