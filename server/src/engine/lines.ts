@@ -160,35 +160,53 @@ export function centralOnLine(line: Line, ws: Float64Array[], t: number, plus: F
   return out;
 }
 
-/**
- * The line through a set of elements of a slot along signs s_p (±1), each scaled by
- * max(1, |x_i|): x_i(t) = x_i + t·s_p·max(1, |x_i|) for i = indices[p], every other element
- * fixed. Moves only the listed elements, so a probe of a small part of a million-element
- * parameter costs its forward calls and little else. `scaled[p]` is element indices[p]'s
- * displacement per unit t.
- */
-export function subsetLine(h: OpHarness, slot: ParamSlot, indices: Int32Array, signs: Float64Array): Line & { scaled: Float64Array } {
-  const count = indices.length;
-  const x0 = new F64(count);
-  const scaled = new F64(count);
-  let maxStep = Infinity;
+/** Per-element figures of a slot that every range line reuses (computed once per parameter). */
+export interface SlotGeometry {
+  /** The values at the sample point. */
+  x0: Float64Array;
+  /** max(1, |x_i|): the scale of element i's step. */
+  scale: Float64Array;
+  /** 0.9 × the distance to the nearest barrier ÷ scale: the largest t keeping element i inside. */
+  reach: Float64Array;
+}
+
+export function slotGeometry(slot: ParamSlot): SlotGeometry {
+  const n = slot.size;
+  const x0 = slot.snapshot();
+  const scale = new F64(n);
+  const reach = new F64(n);
   const barriers = slot.avoid.length > 0 || (slot.range !== null && slot.range[0] < slot.range[1]);
-  for (let p = 0; p < count; p++) {
-    const x = slot.get(indices[p]);
-    x0[p] = x;
-    scaled[p] = signs[p] * (x > 1 ? x : x < -1 ? -x : 1);
-    if (barriers) {
-      const b = distanceToBarrier(slot, x);
-      if (b < Infinity) maxStep = min(maxStep, (b * 0.9) / abs(scaled[p]));
-    }
+  for (let i = 0; i < n; i++) {
+    const x = x0[i];
+    const c = x > 1 ? x : x < -1 ? -x : 1;
+    scale[i] = c;
+    reach[i] = barriers ? (0.9 * distanceToBarrier(slot, x)) / c : Infinity;
+  }
+  return { x0, scale, reach };
+}
+
+/**
+ * The line through the elements start … start + count − 1 of a slot along signs s_q (±1), each
+ * scaled by max(1, |x_i|): x_i(t) = x_i + t·s_q·max(1, |x_i|), every other element fixed. A
+ * contiguous range moves with plain indexed loops, so a probe of a million elements costs
+ * little beyond its forward calls.
+ */
+export function rangeLine(h: OpHarness, slot: ParamSlot, geo: SlotGeometry, start: number, count: number, signs: Float64Array): Line {
+  let maxStep = Infinity;
+  for (let q = 0; q < count; q++) {
+    const r = geo.reach[start + q];
+    if (r < maxStep) maxStep = r;
   }
   const hc = relativeStep(slot.precision);
   maxStep = max(maxStep, MIN_REFINE_STEPS * hc);
   const typed = slot.typed;
+  const x0 = geo.x0;
+  // Each element's displacement per unit t, once, so a move is one multiply-add per element.
+  const dir = new F64(count);
+  for (let q = 0; q < count; q++) dir[q] = signs[q] * geo.scale[start + q];
   return {
     slot,
-    element: count === 1 ? indices[0] : -1,
-    scaled,
+    element: count === 1 ? start : -1,
     centralStep: hc,
     maxStep,
     refineStep: min(RIDDERS_INITIAL_STEP, maxStep),
@@ -196,15 +214,15 @@ export function subsetLine(h: OpHarness, slot: ParamSlot, indices: Int32Array, s
       const p = h.perturbation;
       p.slot = slot;
       p.several = count > 1;
-      if (count === 1) p.index = indices[0];
-      if (typed !== null) for (let q = 0; q < count; q++) typed[indices[q]] = x0[q] + t * scaled[q];
-      else for (let q = 0; q < count; q++) slot.set(indices[q], x0[q] + t * scaled[q]);
-      if (count === 1) p.value = slot.get(indices[0]);
+      if (count === 1) p.index = start;
+      if (typed !== null) for (let q = 0; q < count; q++) typed[start + q] = x0[start + q] + t * dir[q];
+      else for (let q = 0; q < count; q++) slot.set(start + q, x0[start + q] + t * dir[q]);
+      if (count === 1) p.value = slot.get(start);
       try {
         h.forwardInto(out, false);
       } finally {
-        if (typed !== null) for (let q = 0; q < count; q++) typed[indices[q]] = x0[q];
-        else for (let q = 0; q < count; q++) slot.set(indices[q], x0[q]);
+        if (typed !== null) for (let q = 0; q < count; q++) typed[start + q] = x0[start + q];
+        else for (let q = 0; q < count; q++) slot.set(start + q, x0[start + q]);
         p.slot = null;
       }
       return isFiniteVector(out) ? t : NaN;

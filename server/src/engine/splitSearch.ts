@@ -34,11 +34,11 @@
 import { F64, I32, abs, max, sqrt } from './builtins';
 import { estimateColumns } from './fullCheck';
 import { ElementState, compareElements, type Comparison, type ElementEstimates } from './judge';
-import { centralOnLine, subsetLine } from './lines';
+import { centralOnLine, rangeLine, slotGeometry, type SlotGeometry } from './lines';
 import type { OpHarness } from './opHarness';
 import type { ParamSlot } from './paramSlot';
 import { ROUNDOFF_ULPS } from './precision';
-import { fillSigned, type RandomSource } from './random';
+import type { RandomSource } from './random';
 import { refineSuspicious, type KinkReport } from './refine';
 import { RIDDERS_MIN_INITIAL_CENTRAL_STEPS, riddersAdaptive } from './ridders';
 import { UNIT_ROUNDOFF_F64 } from './settings';
@@ -126,27 +126,35 @@ export interface SplitContext {
 interface Scratch {
   plus: Float64Array;
   minus: Float64Array;
+  geo: SlotGeometry;
   /** Σ_j |u_j|·|y0_j| per upstream vector: the output magnitude behind the resolution. */
   magnitude: Float64Array;
 }
 
-/**
- * Probes a set (indices) along signs, for upstream u and backward gradient g. Returns the
- * figures and whether the discrepancy is evidence.
- */
-export function probeSet(ctx: SplitContext, sc: Scratch, indices: Int32Array, signs: Float64Array, u: Float64Array, g: Float64Array, magnitude: number): SetProbe {
-  const line = subsetLine(ctx.h, ctx.slot, indices, signs);
-  const count = indices.length;
-  let analytic = 0;
+/** The sums of a range's gradient terms g_i·s_i·max(1, |x_i|): signed, absolute, squared. */
+function termSums(geo: SlotGeometry, g: Float64Array, start: number, count: number, signs: Float64Array): { sum: number; s1: number; s2: number } {
+  let sum = 0;
   let s1 = 0;
   let s2 = 0;
-  for (let p = 0; p < count; p++) {
-    const t = g[indices[p]] * line.scaled[p];
-    analytic += t;
-    s1 += abs(t);
+  const sc = geo.scale;
+  for (let q = 0; q < count; q++) {
+    const t = g[start + q] * signs[q] * sc[start + q];
+    sum += t;
+    s1 += t < 0 ? -t : t;
     s2 += t * t;
   }
-  const rms = sqrt(s2 / count);
+  return { sum, s1, s2 };
+}
+
+/**
+ * Probes the elements start … start + count − 1 along signs, for upstream u and backward
+ * gradient g. Returns the figures and whether the discrepancy is evidence.
+ */
+export function probeSet(ctx: SplitContext, sc: Scratch, start: number, count: number, signs: Float64Array, u: Float64Array, g: Float64Array, magnitude: number): SetProbe {
+  const line = rangeLine(ctx.h, ctx.slot, sc.geo, start, count, signs);
+  const sums = termSums(sc.geo, g, start, count, signs);
+  const analytic = sums.sum;
+  const rms = sqrt(sums.s2 / count);
   const ws = [u];
   // Settled when the probe could see one typical element wrong by the tolerance.
   const target = (ctx.tol * rms) / PROBE_EVIDENCE_FACTOR;
@@ -160,17 +168,28 @@ export function probeSet(ctx: SplitContext, sc: Scratch, indices: Int32Array, si
   // Outputs whose change stays below their rounding hide it: the resolution at the initial step.
   const resolution = (ROUNDOFF_ULPS * ctx.uOut * magnitude) / r.initialStep[0];
   const numericError = max(r.error[0], resolution);
-  // Roundoff of the sum ⟨g, v⟩ in float64, and the backward's own rounding per element.
-  const analyticError = ROUNDOFF_ULPS * UNIT_ROUNDOFF_F64 * s1 + ANALYTIC_NOISE_SIGMAS * ROUNDOFF_ULPS * ctx.uGrad * sqrt(s2);
-  const threshold = PROBE_EVIDENCE_FACTOR * numericError + analyticError + ctx.tol * rms;
+  const threshold = thresholdOf(ctx, sums, count, numericError);
   const unresolved = !(numericError < Infinity);
   const flagged = !unresolved && abs(analytic - r.value[0]) > threshold;
   return { analytic, numeric: r.value[0], threshold, rms, count, numericError, flagged, unresolved };
 }
 
+/**
+ * The threshold of evidence of a range whose numeric side has the given error: the numeric
+ * error × PROBE_EVIDENCE_FACTOR, the roundoff of the sum ⟨g, v⟩ in float64, the backward's own
+ * rounding per element (ANALYTIC_NOISE_SIGMAS standard deviations), and what one element of
+ * typical size within the tolerance could contribute.
+ */
+function thresholdOf(ctx: SplitContext, sums: { s1: number; s2: number }, count: number, numericError: number): number {
+  const rms = count > 0 ? sqrt(sums.s2 / count) : 0;
+  return PROBE_EVIDENCE_FACTOR * numericError + ROUNDOFF_ULPS * UNIT_ROUNDOFF_F64 * sums.s1 + ANALYTIC_NOISE_SIGMAS * ROUNDOFF_ULPS * ctx.uGrad * sqrt(sums.s2) + ctx.tol * rms;
+}
+
 /** A part of the parameter awaiting a look: its elements, signs and discrepancy. */
 interface Part {
-  indices: Int32Array;
+  /** The elements start … start + count − 1. */
+  start: number;
+  count: number;
   signs: Float64Array;
   /** Which upstream vector its probes use. */
   p: number;
@@ -189,14 +208,12 @@ export function splitSearch(ctx: SplitContext, us: Float64Array[], grads: Float6
   const slot = ctx.slot;
   const n = slot.size;
   const m = ctx.y0.length;
-  const sc: Scratch = { plus: new F64(m), minus: new F64(m), magnitude: new F64(us.length) };
+  const sc: Scratch = { plus: new F64(m), minus: new F64(m), geo: slotGeometry(slot), magnitude: new F64(us.length) };
   for (let p = 0; p < us.length; p++) {
     let s = 0;
     for (let j = 0; j < m; j++) s += abs(us[p][j]) * abs(ctx.y0[j]);
     sc.magnitude[p] = s;
   }
-  const all = new I32(n);
-  for (let i = 0; i < n; i++) all[i] = i;
   const result: SplitResult = {
     est: { indices: [], numeric: [new F64(0)], bound: [new F64(0)] },
     cmp: { excess: new F64(0), worstProbe: new I32(0), rel: new F64(0), state: new Uint8Array(0), floors: new F64(us.length) },
@@ -223,11 +240,11 @@ export function splitSearch(ctx: SplitContext, us: Float64Array[], grads: Float6
     if (ctx.outOfTime()) break;
     const p = q % us.length;
     const signs = fillSigns(random, n);
-    const probe = probeSet(ctx, sc, all, signs, us[p], grads[p], sc.magnitude[p]);
+    const probe = probeSet(ctx, sc, 0, n, signs, us[p], grads[p], sc.magnitude[p]);
     result.probes++;
     result.rootProbes[result.rootProbes.length] = probe;
     if (probe.unresolved) result.unexplored++;
-    if (probe.flagged) stack[stack.length] = partOf(all, signs, p, probe);
+    if (probe.flagged) stack[stack.length] = partOf(0, n, signs, p, probe);
   }
   let floorRel = ctx.tol;
   for (let q = 0; q < result.rootProbes.length; q++) {
@@ -241,7 +258,7 @@ export function splitSearch(ctx: SplitContext, us: Float64Array[], grads: Float6
   while (stack.length > 0 && result.mismatchPos < 0) {
     const part = stack[stack.length - 1];
     stack.length = stack.length - 1;
-    if (part.indices.length <= LEAF_ELEMENTS) {
+    if (part.count <= LEAF_ELEMENTS) {
       compareLeaves(ctx, us, grads, part, result, { leafIdx, leafP, leafNum, leafBound, leafState, leafRel, leafExcess });
       continue;
     }
@@ -286,27 +303,26 @@ export function splitSearch(ctx: SplitContext, us: Float64Array[], grads: Float6
   return result;
 }
 
+/** Random ±1 signs, 32 from each draw of the generator (its values carry at least 32 random bits). */
 function fillSigns(random: RandomSource, count: number): Float64Array {
-  const s = fillSigned(random, new F64(count));
-  for (let i = 0; i < count; i++) s[i] = s[i] < 0 ? -1 : 1;
+  const s = new F64(count);
+  let bits = 0;
+  for (let i = 0; i < count; i++) {
+    if ((i & 31) === 0) bits = (random() * 4294967296) >>> 0;
+    s[i] = (bits >>> (i & 31)) & 1 ? 1 : -1;
+  }
   return s;
 }
 
-// Plain loops, not typed-array methods: the op's module may have replaced those.
-function copyRange(src: Int32Array, a: number, b: number): Int32Array {
-  const out = new I32(b - a);
-  for (let i = a; i < b; i++) out[i - a] = src[i];
-  return out;
-}
-
+// A plain loop, not a typed-array method: the op's module may have replaced those.
 function copySigns(src: Float64Array, a: number, b: number): Float64Array {
   const out = new F64(b - a);
   for (let i = a; i < b; i++) out[i - a] = src[i];
   return out;
 }
 
-function partOf(indices: Int32Array, signs: Float64Array, p: number, probe: SetProbe): Part {
-  return { indices, signs, p, analytic: probe.analytic, numeric: probe.numeric, numericError: probe.numericError, threshold: probe.threshold };
+function partOf(start: number, count: number, signs: Float64Array, p: number, probe: SetProbe): Part {
+  return { start, count, signs, p, analytic: probe.analytic, numeric: probe.numeric, numericError: probe.numericError, threshold: probe.threshold };
 }
 
 /**
@@ -315,29 +331,30 @@ function partOf(indices: Int32Array, signs: Float64Array, p: number, probe: SetP
  * evidence even after LOST_RETRIES fresh-sign probes of both.
  */
 function splitPart(ctx: SplitContext, sc: Scratch, us: Float64Array[], grads: Float64Array[], part: Part, random: RandomSource, result: SplitResult): Part[] | null {
-  const count = part.indices.length;
+  const count = part.count;
   const half = count >> 1;
-  const aIdx = copyRange(part.indices, 0, half);
-  const bIdx = copyRange(part.indices, half, count);
+  const aStart = part.start;
+  const bStart = part.start + half;
+  const bCount = count - half;
   const aSigns = copySigns(part.signs, 0, half);
   const bSigns = copySigns(part.signs, half, count);
   const u = us[part.p];
   const g = grads[part.p];
   const mag = sc.magnitude[part.p];
-  const a = probeSet(ctx, sc, aIdx, aSigns, u, g, mag);
+  const a = probeSet(ctx, sc, aStart, half, aSigns, u, g, mag);
   result.probes++;
   const out: Part[] = [];
   // The second half, inferred: its discrepancy is the parent's minus the first half's.
   const bAnalytic = part.analytic - a.analytic;
   const bNumeric = part.numeric - a.numeric;
   const bError = part.numericError + a.numericError;
-  const bThreshold = thresholdFor(ctx, bIdx, bSigns, g, bError);
+  const bThreshold = thresholdOf(ctx, termSums(sc.geo, g, bStart, bCount, bSigns), bCount, bError);
   const aFlag = a.flagged;
   const bFlag = !a.unresolved && abs(bAnalytic - bNumeric) > bThreshold;
   const gapA = abs(a.analytic - a.numeric);
   const gapB = abs(bAnalytic - bNumeric);
-  const aPart: Part = partOf(aIdx, aSigns, part.p, a);
-  const bPart: Part = { indices: bIdx, signs: bSigns, p: part.p, analytic: bAnalytic, numeric: bNumeric, numericError: bError, threshold: bThreshold };
+  const aPart: Part = partOf(aStart, half, aSigns, part.p, a);
+  const bPart: Part = { start: bStart, count: bCount, signs: bSigns, p: part.p, analytic: bAnalytic, numeric: bNumeric, numericError: bError, threshold: bThreshold };
   if (aFlag && bFlag) return gapA >= gapB ? [aPart, bPart] : [bPart, aPart];
   if (aFlag) return [aPart];
   if (bFlag) {
@@ -348,30 +365,16 @@ function splitPart(ctx: SplitContext, sc: Scratch, us: Float64Array[], grads: Fl
   for (let r = 0; r < LOST_RETRIES; r++) {
     if (result.probes >= MAX_SPLIT_PROBES || ctx.outOfTime()) return null;
     for (let side = 0; side < 2; side++) {
-      const idx = side === 0 ? aIdx : bIdx;
-      const signs = fillSigns(random, idx.length);
-      const probe = probeSet(ctx, sc, idx, signs, u, g, mag);
+      const start = side === 0 ? aStart : bStart;
+      const size = side === 0 ? half : bCount;
+      const signs = fillSigns(random, size);
+      const probe = probeSet(ctx, sc, start, size, signs, u, g, mag);
       result.probes++;
-      if (probe.flagged) out[out.length] = partOf(idx, signs, part.p, probe);
+      if (probe.flagged) out[out.length] = partOf(start, size, signs, part.p, probe);
     }
     if (out.length > 0) return out;
   }
   return null;
-}
-
-/** The threshold of a set whose numeric side has the given error (see probeSet). */
-function thresholdFor(ctx: SplitContext, indices: Int32Array, signs: Float64Array, g: Float64Array, numericError: number): number {
-  let s1 = 0;
-  let s2 = 0;
-  for (let p = 0; p < indices.length; p++) {
-    const i = indices[p];
-    const x = ctx.slot.get(i);
-    const t = g[i] * signs[p] * (x > 1 ? x : x < -1 ? -x : 1);
-    s1 += abs(t);
-    s2 += t * t;
-  }
-  const rms = indices.length > 0 ? sqrt(s2 / indices.length) : 0;
-  return PROBE_EVIDENCE_FACTOR * numericError + ROUNDOFF_ULPS * UNIT_ROUNDOFF_F64 * s1 + ANALYTIC_NOISE_SIGMAS * ROUNDOFF_ULPS * ctx.uGrad * sqrt(s2) + ctx.tol * rms;
 }
 
 /**
@@ -390,14 +393,16 @@ function compareLeaves(
   const { leafIdx, leafP, leafNum, leafBound, leafState, leafRel, leafExcess } = leaves;
   const ws = [us[part.p]];
   const analytic = [grads[part.p]];
-  const est = estimateColumns(ctx.h, ctx.slot, part.indices, ws, ctx.uOut, ctx.outOfTime);
+  const indices = new I32(part.count);
+  for (let q = 0; q < part.count; q++) indices[q] = part.start + q;
+  const est = estimateColumns(ctx.h, ctx.slot, indices, ws, ctx.uOut, ctx.outOfTime);
   const floors = new F64(1);
   floors[0] = ctx.floorOf(part.p);
   const cmp = compareElements(analytic, est, ctx.tol, floors);
   const refine = refineSuspicious(ctx.h, ctx.slot, analytic, est, cmp, ws, ctx.y0, ctx.uOut, ctx.tol, ctx.outOfTime, false);
-  for (let q = 0; q < part.indices.length; q++) {
+  for (let q = 0; q < part.count; q++) {
     const pos = leafIdx.length;
-    leafIdx[pos] = part.indices[q];
+    leafIdx[pos] = indices[q];
     leafP[pos] = part.p;
     leafNum[pos] = est.numeric[0][q];
     leafBound[pos] = est.bound[0][q];
