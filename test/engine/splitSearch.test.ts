@@ -138,6 +138,12 @@ describe('engine: dot-product probes split down to single elements (Dorfman 1943
     assert.equal(o.params[0].method, 'dot-product');
   });
 
+  it('a search cut short by the time limit is never a pass', () => {
+    // 1 ms is spent before the first probe (inputs, baseline calls): no probe runs, no floor.
+    const o = check(softmax(20_000, [[0, 1e-3]]), { seed: 11, timeLimitMs: 1 });
+    assert.equal(o.verdict, 'inconclusive', show(o));
+  });
+
   it('kinks inside a probed set (|z| before the softmax, no avoid points) never become a mismatch', () => {
     for (const seed of [1, 2, 3]) {
       const o = check(softmax(3000, [], { absInside: true }), { seed });

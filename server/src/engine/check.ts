@@ -17,7 +17,7 @@ import type { ParamSlot } from './paramSlot';
 import { outputPrecision, relativeFloorFactor, unitRoundoff, type Precision } from './precision';
 import { STREAM, STREAM_STRIDE, fillSigned, substream, type RandomSource } from './random';
 import { refineSuspicious, type KinkReport, type RefineSummary } from './refine';
-import { describeSearch, splitSearch } from './splitSearch';
+import { ROOT_PROBES, describeSearch, splitSearch } from './splitSearch';
 import { ERROR_MAP_MAX_ELEMENTS, captureInputs, finiteOnly, stepScan } from './reportData';
 import { DEFAULT_SETTINGS, type CheckSettings } from './settings';
 import type { CheckMethod, CheckOutcome, OpDescriptor, ParamResult, Verdict } from './types';
@@ -393,7 +393,11 @@ function probeParam(at: Attempt, s: number, random: RandomSource): ParamCheck {
     const scale = max(abs(rp.analytic), abs(rp.numeric), rp.threshold / at.tol);
     if (scale > 0) r.maxRelError = max(r.maxRelError, abs(rp.analytic - rp.numeric) / scale);
   }
-  if (r.verdict === 'pass' && search.unexplored > 0 && search.kink === null) {
+  if (r.verdict === 'pass' && search.rootProbes.length < ROOT_PROBES) {
+    // The time limit came before every root probe ran: no floor to stand on, so no pass.
+    r.verdict = 'inconclusive';
+    result.note = `check of '${slot.name}' stopped at the time limit after ${search.rootProbes.length} of ${ROOT_PROBES} dot-product probes`;
+  } else if (r.verdict === 'pass' && search.unexplored > 0 && search.kink === null) {
     r.verdict = 'inconclusive';
     result.note = describeSearch(slot, search);
   }
