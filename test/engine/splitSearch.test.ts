@@ -138,6 +138,44 @@ describe('engine: dot-product probes split down to single elements (Dorfman 1943
     assert.equal(o.params[0].method, 'dot-product');
   });
 
+  it('a correct float32 softmax over 3,000 and a badly scaled one (outputs × 1e20) pass by probes', () => {
+    const f32 = functionOp({
+      forward: (z: Float32Array) => {
+        let sum = 0;
+        for (let i = 0; i < z.length; i++) sum += Math.exp(z[i]);
+        return Float32Array.from(z, (v) => Math.exp(v) / sum);
+      },
+      backward: (z: Float32Array, y: Float32Array, dy: Float32Array) => {
+        let dot = 0;
+        for (let i = 0; i < z.length; i++) dot += dy[i] * y[i];
+        return Float32Array.from(y, (v, i) => v * (dy[i] - dot));
+      },
+      params: [['z', spec('f32', [3000], [-2, 2])]],
+      backwardArgs: ['z', '$y', '$dy'],
+    });
+    const scaled = functionOp({
+      forward: (z: Float64Array) => {
+        let sum = 0;
+        for (let i = 0; i < z.length; i++) sum += Math.exp(z[i]);
+        return Float64Array.from(z, (v) => (1e20 * Math.exp(v)) / sum);
+      },
+      backward: (z: Float64Array, y: Float64Array, dy: Float64Array) => {
+        let dot = 0;
+        for (let i = 0; i < z.length; i++) dot += dy[i] * y[i];
+        return Float64Array.from(y, (v, i) => v * (dy[i] - dot / 1e20));
+      },
+      params: [['z', spec('f64', [3000], [-2, 2])]],
+      backwardArgs: ['z', '$y', '$dy'],
+    });
+    for (const seed of [1, 2, 3]) {
+      for (const built of [f32, scaled]) {
+        const o = check(built, { seed });
+        assert.equal(o.params[0].method, 'dot-product', show(o));
+        assert.equal(o.verdict, 'pass', show(o));
+      }
+    }
+  });
+
   it('a search cut short by the time limit is never a pass', () => {
     // 1 ms is spent before the first probe (inputs, baseline calls): no probe runs, no floor.
     const o = check(softmax(20_000, [[0, 1e-3]]), { seed: 11, timeLimitMs: 1 });
