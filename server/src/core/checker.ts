@@ -1,13 +1,17 @@
 // The Checker: the one orchestration shared by the CLI, the language server and benchmarks.
 // discovery → bundle once per file → one sandbox job per op (in parallel across runners) → OpResult.
-import { readFileSync } from 'node:fs';
+import { setMaxListeners } from 'node:events';
+import { existsSync, readFileSync } from 'node:fs';
 import { dirname, relative, resolve } from 'node:path';
 import { discoverOps, type DiscoveryResult } from '../discovery/index';
 import type { CheckSettings } from '../engine/settings';
 import type { OpDescriptor, OpResult, Problem } from '../engine/types';
 import { Bundler, type BundleStats } from '../sandbox/bundle';
+import { UNAVAILABLE_BUILTIN_NAMESPACE } from '../sandbox/builtinStandIn';
+import { bundleFramesFrom } from '../sandbox/contextSetup';
 import type { SourcePlace } from '../sandbox/sourceMap';
 import { IsolatedRunner } from '../sandbox/isolated';
+import { emptyStats, type RunnerStats } from '../sandbox/jobTypes';
 import { RunnerPool, type IsolationReport, type PoolStats, type RunnerPoolOptions } from '../sandbox/pool';
 import { errorResult, resultFromOutcome, summarizeProblems } from './opResult';
 
@@ -66,10 +70,12 @@ export function bindingsOf(op: OpDescriptor): string[] {
   const names: string[] = [];
   if (t.kind === 'method') {
     if (t.className) names.push(t.className);
+  } else if (t.objectName) {
+    names.push(t.objectName);
   } else {
     names.push(t.forwardName);
   }
-  if (!t.backwardIsMethod) names.push(t.backwardName);
+  if (!t.backwardIsMethod && !t.libraryGradient) names.push(t.backwardName);
   if (t.samplesFactory) names.push(t.samplesFactory);
   if (t.constructFactory) names.push(t.constructFactory);
   return names;
@@ -77,12 +83,14 @@ export function bindingsOf(op: OpDescriptor): string[] {
 
 export interface CheckerStats {
   pool: PoolStats;
+  /** The isolated interpreter's counters (all zero until an op runs there). */
+  isolated: RunnerStats;
   bundle: BundleStats;
 }
 
 export class Checker {
   private readonly settings: CheckSettings;
-  private readonly bundler = new Bundler();
+  private readonly bundler = new Bundler({ diskCache: true });
   private readonly pool: RunnerPool;
   private isolated: IsolatedRunner | undefined;
   private readonly runnerLog: ((line: string) => void) | undefined;
@@ -93,9 +101,9 @@ export class Checker {
     this.runnerLog = opts.runner?.log;
   }
 
-  /** Counters of runner reuse and bundle caching (for tests and benchmarks). */
+  /** Counters of runner reuse (both kinds of runner) and bundle caching (for tests and benchmarks). */
   get stats(): CheckerStats {
-    return { pool: this.pool.stats, bundle: this.bundler.stats };
+    return { pool: this.pool.stats, isolated: this.isolated?.stats ?? emptyStats(), bundle: this.bundler.stats };
   }
 
   /** The isolation the runners report from inside, once one has started. */
@@ -106,11 +114,6 @@ export class Checker {
   /** Starts the runner processes now, so the first check does not pay the cold start. */
   warm(settings: CheckSettings = this.settings): void {
     this.pool.warm(settings.memoryLimitMb);
-  }
-
-  /** Discovers the ops of a file without running them. */
-  listOps(file: string, text?: string): OpListing {
-    return listOps(file, text);
   }
 
   /** Checks every annotated op of one file; never rejects. Results are in source order. */
@@ -166,7 +169,8 @@ export class Checker {
     // One bundle per file, exposing every runnable op's bindings (not only the filtered ones),
     // so the cache serves every filter.
     const bindings = listing.ops.filter((op) => op.problems.length === 0).flatMap(bindingsOf);
-    const bundle = await this.bundler.bundle({ file: abs, text: source, bindings });
+    const tensorLibrary = listing.ops.find((op) => op.problems.length === 0 && op.target.tensorLibrary)?.target.tensorLibrary;
+    const bundle = await this.bundler.bundle({ file: abs, text: source, bindings, ...(tensorLibrary ? { tensorLibrary } : {}) });
     if (!bundle.ok) {
       const location = bundle.location;
       const problems = location && location.file === abs ? [{ line: location.line, column: location.column, message: bundle.message }] : undefined;
@@ -178,6 +182,8 @@ export class Checker {
 
     // The per-file cap and the caller's signal both stop what is still queued or running.
     const stop = new AbortController();
+    // Every queued op listens to it (one listener each): not a leak, whatever Node's default of 10 says.
+    setMaxListeners(runnable.length + 10, stop.signal);
     const fileLimitMs = settings.timeLimitMs * FILE_TIME_LIMIT_FACTOR;
     let stopReason = 'cancelled';
     // Where the module threw while loading, when that is a line of this file.
@@ -211,6 +217,14 @@ export class Checker {
               stop.abort();
             }
           }
+          let thrownAt: SourcePlace | undefined;
+          if ('outcome' in run && run.outcome.thrownFrames !== undefined) {
+            // The op's own code threw: name its place in the user's source, not the bundle's.
+            const place = thrownPlace(bundleFramesFrom(run.outcome.thrownFrames), bundle.originalPlace);
+            delete run.outcome.thrownFrames;
+            // Reported as a field (thrownAt), not in the message: the message stays the engine's own words.
+            if (place) thrownAt = place;
+          }
           const result =
             'outcome' in run
               ? resultFromOutcome(abs, op, run.outcome, run.elapsedMs, run.output)
@@ -219,6 +233,7 @@ export class Checker {
                   output: run.output,
                   problems: run.cause === 'load' || run.cause === 'cancelled' ? loadProblems : undefined,
                 });
+          if (thrownAt) result.thrownAt = { file: thrownAt.file, line: thrownAt.line, column: thrownAt.column };
           if (interpreted) result.isolation = 'interpreter';
           results[i] = emit(result);
         }),
@@ -242,18 +257,33 @@ export class Checker {
   }
 }
 
-/** The first bundle frame that maps into the checked file, else the first that maps anywhere. */
-function loadErrorPlace(
-  file: string,
-  frames: Array<{ line: number; column: number }>,
-  originalPlace: (line: number, column: number) => SourcePlace | undefined,
-): SourcePlace | undefined {
+type PlaceFinder = (line: number, column: number) => SourcePlace | undefined;
+
+/**
+ * The first bundle frame (innermost first) whose place `preferred` accepts, else the first that
+ * maps anywhere. Frames in a built-in's stand-in are skipped: the error is made there, the user
+ * called it elsewhere.
+ */
+function firstPlace(frames: Array<{ line: number; column: number }>, originalPlace: PlaceFinder, preferred: (place: SourcePlace) => boolean): SourcePlace | undefined {
   let first: SourcePlace | undefined;
   for (const frame of frames) {
     const place = originalPlace(frame.line, frame.column);
-    if (!place) continue;
-    if (place.file === file) return place;
+    if (!place || place.file.includes(UNAVAILABLE_BUILTIN_NAMESPACE)) continue;
+    if (preferred(place)) return place;
     first ??= place;
   }
   return first;
+}
+
+/**
+ * Where user code threw: the innermost frame in the user's own files (not a package under
+ * node_modules; a package's own source map can point outside it, at files that are not there).
+ */
+function thrownPlace(frames: Array<{ line: number; column: number }>, originalPlace: PlaceFinder): SourcePlace | undefined {
+  return firstPlace(frames, originalPlace, (place) => !/[\\/]node_modules[\\/]/.test(place.file) && existsSync(place.file));
+}
+
+/** Where the module threw while loading: the first frame in the checked file. */
+function loadErrorPlace(file: string, frames: Array<{ line: number; column: number }>, originalPlace: PlaceFinder): SourcePlace | undefined {
+  return firstPlace(frames, originalPlace, (place) => place.file === file);
 }

@@ -1,17 +1,17 @@
-// Parses the body of a `@sample PARAM SPEC` tag (interface.md §1, "SPEC of @sample") into the
+// Parses the body of a `@sample PARAM SPEC` tag (docs/annotations.md, "@sample PARAM SPEC") into the
 // parameter it draws and a SampleSpec, or problems pointing inside the tag.
 import type { SampleDtype, SampleSpec } from '../engine/types';
 import { TagCursor, type Token } from './lexer';
 import type { Span, SpanProblem } from './positions';
 import type { RawTag } from './tagText';
-import { closestWord } from './tagNames';
+import { nearestName } from '../text/nearestName';
 import { findJsonSyntaxError } from './jsonError';
 
 const DTYPES: readonly SampleDtype[] = ['f64', 'f32', 'num', 'i32', 'int'];
 /** Element types that are single numbers when written without dimensions. */
 const SCALAR_DTYPES: readonly SampleDtype[] = ['num', 'int'];
 const INTEGER_DTYPES: readonly SampleDtype[] = ['i32', 'int'];
-/** Range used when a spec has no `in [lo, hi]` (interface.md §1). */
+/** Range used when a spec has no `in [lo, hi]` (docs/annotations.md). */
 export const DEFAULT_SAMPLE_RANGE: readonly [number, number] = [-1, 1];
 
 /** The parameter named by a `@sample` tag. */
@@ -37,6 +37,11 @@ export function parseSampleTag(tag: RawTag): ParsedSample {
   return { target, spec: problems.length ? undefined : spec, problems };
 }
 
+/** Why `this.#name` cannot be sampled, and what to write instead. */
+export function privateFieldMessage(name: string): string {
+  return `'this.#${name}' is a private (#) field: the checker cannot set or read it from outside the class; declare it \`private ${name}\` (TypeScript's private, a normal property at run time) to sample it, or build the instance with @construct and sample only the parameters`;
+}
+
 /** `x` or `this.FIELD`. */
 function parseSampleTarget(c: TagCursor, problems: SpanProblem[]): SampleTarget | undefined {
   const first = c.next();
@@ -51,6 +56,10 @@ function parseSampleTarget(c: TagCursor, problems: SpanProblem[]): SampleTarget 
   if (first.text === 'this') {
     const dot = c.eat('.');
     const field = c.peek();
+    if (dot && field && field.text === '#') {
+      problems.push(c.problemAt(field, privateFieldMessage(c.peek(1)?.kind === 'word' ? c.peek(1)!.text : 'FIELD')));
+      return undefined;
+    }
     if (!dot || !field || field.kind !== 'word') {
       problems.push(c.problemAt(field ?? first, '@sample: expected `this.FIELD`'));
       return undefined;
@@ -70,7 +79,7 @@ function parseSpec(c: TagCursor, param: string, problems: SpanProblem[]): Sample
   }
   if (head.kind === 'punct' && head.text === '=') return parseLiteral(c, head, param, problems);
   if (head.kind !== 'word' || !DTYPES.includes(head.text as SampleDtype)) {
-    const near = head.kind === 'word' ? closestWord(head.text, DTYPES) : undefined;
+    const near = head.kind === 'word' ? nearestName(head.text, DTYPES) : undefined;
     const hint = near ? `; did you mean '${near}'?` : ' (f64, f32, num, i32 or int), or `= JSON`';
     problems.push(c.problemAt(head, `@sample ${param}: unknown element type '${head.text}'${hint}`));
     return undefined;
@@ -103,7 +112,7 @@ function parseSpec(c: TagCursor, param: string, problems: SpanProblem[]): Sample
       }
       continue;
     }
-    const near = word.kind === 'word' ? closestWord(word.text, ['in', 'avoid', 'fixed']) : undefined;
+    const near = word.kind === 'word' ? nearestName(word.text, ['in', 'avoid', 'fixed']) : undefined;
     const hint = near && near !== word.text ? `; did you mean '${near}'?` : ' (expected `in [lo, hi]`, `avoid v, ...` or `fixed`)';
     problems.push(c.problemAt(word, `@sample ${param}: unexpected '${word.text}'${hint}`));
     return undefined;

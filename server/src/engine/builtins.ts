@@ -4,6 +4,7 @@
 export const F64 = Float64Array;
 export const F32 = Float32Array;
 export const I32 = Int32Array;
+export const U8 = Uint8Array;
 
 export const abs = Math.abs;
 export const sqrt = Math.sqrt;
@@ -12,7 +13,6 @@ export const ceil = Math.ceil;
 export const min = Math.min;
 export const max = Math.max;
 export const log10 = Math.log10;
-export const log2 = Math.log2;
 export const pow = Math.pow;
 export const round = Math.round;
 export const fround = Math.fround;
@@ -29,6 +29,7 @@ export const objectPrototype = Object.prototype;
 export const hasOwn = Object.prototype.hasOwnProperty;
 export const reflectApply = Reflect.apply;
 export const reflectConstruct = Reflect.construct;
+export const toStringTagKey = Symbol.toStringTag;
 export const toStringCall = String;
 const numberToPrecision = Number.prototype.toPrecision;
 const stringSlice = String.prototype.slice;

@@ -1,13 +1,15 @@
 // Detects a forward or backward that changes its inputs: a deep copy of the numbers in every
 // argument (and `this.FIELD` value) is taken before a call and compared after it.
 
-import { F64, formatIndex, formatNumber, getPrototypeOf, isArray, isView, objectKeys, objectPrototype } from './builtins';
+import { F64, formatIndex, formatNumber, getPrototypeOf, isArray, isView, objectKeys, objectPrototype, stringifyJson, toStringCall } from './builtins';
 
 /** A frozen copy of one value's numbers (typed arrays and arrays copied, plain objects walked). */
 type Snap =
   | { kind: 'prim'; value: unknown }
   | { kind: 'view'; data: Float64Array | null; length: number }
   | { kind: 'array'; items: Snap[] }
+  /** A plain array holding only numbers (a row of a nested `number[][]`): copied flat, one object per row. */
+  | { kind: 'numbers'; data: Float64Array }
   | { kind: 'object'; keys: string[]; items: Snap[] }
   | { kind: 'opaque' };
 
@@ -26,6 +28,13 @@ function snap(v: unknown, depth: number): Snap {
   }
   if (depth >= MAX_DEPTH) return { kind: 'opaque' };
   if (isArray(v)) {
+    let allNumbers = true;
+    for (let i = 0; i < v.length && allNumbers; i++) if (typeof v[i] !== 'number') allNumbers = false;
+    if (allNumbers) {
+      const data = new F64(v.length);
+      for (let i = 0; i < v.length; i++) data[i] = v[i] as number;
+      return { kind: 'numbers', data };
+    }
     const items: Snap[] = [];
     for (let i = 0; i < v.length; i++) items[i] = snap(v[i], depth + 1);
     return { kind: 'array', items };
@@ -61,6 +70,17 @@ function diff(s: Snap, v: unknown, path: number[]): string | null {
       }
       return null;
     }
+    case 'numbers': {
+      if (!isArray(v) || v.length !== s.data.length) return `${path.length ? `at ${formatIndex(path)} ` : ''}its length changed`;
+      const data = s.data;
+      for (let i = 0; i < data.length; i++) {
+        if (!same(data[i], v[i])) {
+          path[path.length] = i;
+          return `at ${formatIndex(path)} from ${show(data[i])} to ${show(v[i])}`;
+        }
+      }
+      return null;
+    }
     case 'array': {
       if (!isArray(v) || v.length !== s.items.length) return `${path.length ? `at ${formatIndex(path)} ` : ''}its length changed`;
       for (let i = 0; i < s.items.length; i++) {
@@ -86,7 +106,7 @@ function diff(s: Snap, v: unknown, path: number[]): string | null {
 }
 
 function show(v: unknown): string {
-  return typeof v === 'number' ? formatNumber(v) : typeof v === 'string' ? JSON.stringify(v) : String(v);
+  return typeof v === 'number' ? formatNumber(v) : typeof v === 'string' ? stringifyJson(v) : toStringCall(v);
 }
 
 /** Copies of named inputs, to compare after a call. */

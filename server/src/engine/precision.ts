@@ -2,7 +2,7 @@
 // float32) and the step sizes and error allowances derived from them, each with its source.
 
 import { UNIT_ROUNDOFF_F32, UNIT_ROUNDOFF_F64 } from './settings';
-import { abs, cbrt, floor, fround, log2, max, pow, sqrt } from './builtins';
+import { abs, cbrt, fround, max, sqrt } from './builtins';
 
 /** How a parameter stores its numbers: every perturbed value is rounded to this precision. */
 export type Precision = 'f64' | 'f32';
@@ -59,34 +59,4 @@ export const AVOID_MARGIN_STEPS = 10;
 /** The margin around an avoid point p, absolute units of x (see AVOID_MARGIN_STEPS). */
 export function avoidMargin(p: Precision, point: number): number {
   return AVOID_MARGIN_STEPS * centralStep(p, point);
-}
-
-/**
- * Significant bits a value must carry to count as evidence of float32 rounding: exact
- * arithmetic on simple inputs gives short dyadic values (0.5, 1.25) that are float32 values by
- * accident; a rounded float32 result fills its 24 bits. Our choice: more than 12.
- */
-const RICH_BITS = 12;
-
-/**
- * The precision an op's outputs actually carry: the layout's (a Float32Array is float32), or
- * float32 when every value of an ordinary number output is exactly a float32 value and at least
- * one carries more than RICH_BITS significant bits (a forward that rounds with Math.fround or
- * copies a Float32Array into a plain array). A float64 computation gives such values with
- * probability about 2^-29 each. A float32 parameter summed into a float64 number gives float64
- * outputs, and their roundoff is float64's (IEEE 754).
- */
-export function outputPrecision(layoutPrecision: Precision, y: Float64Array): Precision {
-  if (layoutPrecision === 'f32') return 'f32';
-  let rich = false;
-  for (let j = 0; j < y.length; j++) {
-    const v = y[j];
-    if (fround(v) !== v) return 'f64';
-    if (!rich && v !== 0 && v - v === 0) {
-      // Scale the value so RICH_BITS significant bits sit left of the point; anything right of it is more.
-      const scaled = v * pow(2, RICH_BITS - 1 - floor(log2(abs(v))));
-      if (scaled !== floor(scaled)) rich = true;
-    }
-  }
-  return rich ? 'f32' : 'f64';
 }

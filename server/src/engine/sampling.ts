@@ -3,7 +3,7 @@
 // in a ParamSlot.
 
 import { F32, F64, I32, abs, contains, describeThrown, sliceText, describeValue, formatNumber, isArray, isFiniteNumber, isInteger, max, min, parseJson, reflectApply, stringifyJson } from './builtins';
-import { fail } from './failure';
+import { fail, failThrown } from './failure';
 import { nestedShape } from './outputLayout';
 import { ParamSlot, nestedLeaves, precisionOf } from './paramSlot';
 import { avoidMargin, roundTo, type Precision } from './precision';
@@ -28,7 +28,8 @@ const AVOID_TRIES = 64;
 type RandomSpec = Extract<SampleSpec, { kind: 'random' }>;
 
 function drawElement(random: RandomSource, spec: RandomSpec, precision: Precision): number {
-  const [lo, hi] = spec.range;
+  const lo = spec.range[0];
+  const hi = spec.range[1];
   let best = roundTo(precision, uniform(random, lo, hi));
   if (spec.avoid.length === 0) return best;
   let bestSlack = -Infinity;
@@ -51,7 +52,8 @@ function drawElement(random: RandomSource, spec: RandomSpec, precision: Precisio
 }
 
 function validateSpec(name: string, spec: RandomSpec, maxElements: number): number {
-  const [lo, hi] = spec.range;
+  const lo = spec.range[0];
+  const hi = spec.range[1];
   if (!isFiniteNumber(lo) || !isFiniteNumber(hi) || lo > hi) {
     fail(`@sample ${name}: range [${formatNumber(lo)}, ${formatNumber(hi)}] is not a finite interval with lo ≤ hi`);
   }
@@ -166,7 +168,7 @@ export function drawSample(
     try {
       produced = reflectApply(samplesFactory, undefined, [random]);
     } catch (e) {
-      fail(`@samples ${op.target.samplesFactory}: threw ${describeThrown(e)}`);
+      failThrown(`@samples ${op.target.samplesFactory}: threw ${describeThrown(e)}`, e);
     }
     if (!isArray(produced)) fail(`@samples ${op.target.samplesFactory}: returned ${describeValue(produced)}, expected the argument list (an array)`);
     const list = produced as unknown[];
@@ -188,6 +190,10 @@ export function drawSample(
     for (let i = 0; i < positional.length; i++) {
       const p = positional[i];
       argNames[i] = p.name;
+      if (p.sample === undefined && p.hasDefault === true) {
+        args[i] = undefined; // the forward's default value applies
+        continue;
+      }
       if (p.sample === undefined) fail(`parameter '${p.name}' has no @sample`);
       args[i] = drawValue(p.name, p.sample, rng, maxElements);
       const spec = p.sample;

@@ -31,7 +31,7 @@
 // probability at most 1/2, and all ROOT_PROBES independent root probes with at most
 // 2^-ROOT_PROBES < 0.01.
 
-import { F64, I32, abs, max, sqrt } from './builtins';
+import { F64, I32, U8, abs, max, sqrt } from './builtins';
 import { estimateColumns } from './fullCheck';
 import { ElementState, compareElements, type Comparison, type ElementEstimates } from './judge';
 import { centralOnLine, rangeLine, slotGeometry, type SlotGeometry } from './lines';
@@ -238,7 +238,7 @@ export function splitSearch(ctx: SplitContext, us: Float64Array[], grads: Float6
   }
   const result: SplitResult = {
     est: { indices: [], numeric: [new F64(0)], bound: [new F64(0)] },
-    cmp: { excess: new F64(0), worstProbe: new I32(0), rel: new F64(0), state: new Uint8Array(0), floors: new F64(us.length) },
+    cmp: { excess: new F64(0), worstProbe: new I32(0), rel: new F64(0), state: new U8(0), floors: new F64(us.length) },
     mismatchPos: -1,
     kink: null,
     uncertain: 0,
@@ -306,7 +306,7 @@ export function splitSearch(ctx: SplitContext, us: Float64Array[], grads: Float6
     numeric[k] = new F64(count);
     bound[k] = new F64(count);
   }
-  const cmp: Comparison = { excess: new F64(count), worstProbe: new I32(count), rel: new F64(count), state: new Uint8Array(count), floors: new F64(K) };
+  const cmp: Comparison = { excess: new F64(count), worstProbe: new I32(count), rel: new F64(count), state: new U8(count), floors: new F64(K) };
   for (let k = 0; k < K; k++) cmp.floors[k] = ctx.floorOf(k);
   for (let q = 0; q < count; q++) {
     idx[q] = leafIdx[q];

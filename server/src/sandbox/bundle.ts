@@ -7,6 +7,9 @@ import { builtinModules } from 'node:module';
 import { dirname, extname, isAbsolute, join, relative, resolve } from 'node:path';
 import * as esbuild from 'esbuild';
 import type * as esbuildTypes from 'esbuild';
+import { DEFAULT_EXPORT_BINDING, TENSOR_LIBRARY_BINDING } from '../engine/types';
+import { UNAVAILABLE_BUILTIN_NAMESPACE, unavailableModuleCode } from './builtinStandIn';
+import { bundleCacheDir, readStoredBundle, writeStoredBundle } from './bundleDiskCache';
 import { originalPlace, type SourcePlace } from './sourceMap';
 
 /** Bundles kept in memory; a workspace rarely has more files with ops open at once. */
@@ -21,6 +24,12 @@ const MAX_CACHED_CHARS = 32 * 1024 * 1024;
 /** esbuild namespace of the empty stand-ins for Node built-ins imported by packages. */
 const EMPTY_NAMESPACE = 'gradient-probe-empty';
 
+/**
+ * esbuild namespace of the stand-ins for Node built-ins imported by the user's own files. The
+ * name shows in stack positions mapped back through the source map (sandbox/builtinStandIn.ts).
+ */
+const UNAVAILABLE_NAMESPACE = UNAVAILABLE_BUILTIN_NAMESPACE;
+
 /** A binding name we may splice into code: a plain identifier, nothing else. */
 const IDENTIFIER = /^[A-Za-z_$][A-Za-z0-9_$]*$/;
 
@@ -31,6 +40,11 @@ export interface BundleRequest {
   text: string;
   /** Top-level names to expose: forward, class, backward, samples and construct factories. */
   bindings: string[];
+  /**
+   * A TensorFlow.js package the file imports: its namespace is imported too (resolved from the
+   * file's folder, so it is the user's own copy) and exposed as TENSOR_LIBRARY_BINDING.
+   */
+  tensorLibrary?: string;
 }
 
 export type BundleResult =
@@ -57,6 +71,8 @@ export interface BundleStats {
   /** Requests answered from the cache after re-validating every input. */
   cacheHits: number;
   failures: number;
+  /** Requests answered from the disk cache (after re-validating every input). */
+  diskHits: number;
 }
 
 interface InputRecord {
@@ -92,11 +108,25 @@ function sha256(...parts: string[]): string {
   return h.digest('hex');
 }
 
-/** The code appended to the entry: `globalThis.__gradientProbeExposed = { name: …, … }`. */
-export function exposeCode(bindings: string[]): string {
+/** Package names a tensor-library import may name (checked again here: it is spliced into code). */
+const TENSOR_LIBRARY_PACKAGE = /^@tensorflow\/tfjs(?:-core|-node|-node-gpu)?$/;
+
+/**
+ * The code appended to the entry: `globalThis.__gradientProbeExposed = { name: …, … }`, with
+ * the tensor library's namespace (an import, hoisted like every import) when asked for.
+ */
+export function exposeCode(bindings: string[], tensorLibrary?: string, file?: string): string {
   const names = [...new Set(bindings)].filter((n) => IDENTIFIER.test(n)).sort();
   const fields = names.map((n) => `  ${JSON.stringify(n)}: typeof ${n} !== 'undefined' ? ${n} : undefined`);
-  return `\n;globalThis.__gradientProbeExposed = {\n${fields.join(',\n')}\n};\n`;
+  let head = '';
+  if (tensorLibrary !== undefined && TENSOR_LIBRARY_PACKAGE.test(tensorLibrary)) {
+    head = `\n;import * as ${TENSOR_LIBRARY_BINDING} from ${JSON.stringify(tensorLibrary)};`;
+    fields.push(`  ${JSON.stringify(TENSOR_LIBRARY_BINDING)}: ${TENSOR_LIBRARY_BINDING}`);
+  }
+  // An anonymous default export has no name in its module: a self-import gives it one (the
+  // bundler resolves it to the same module, so nothing runs twice).
+  if (file !== undefined && names.includes(DEFAULT_EXPORT_BINDING)) head += `\nimport ${DEFAULT_EXPORT_BINDING} from ${JSON.stringify(file)};`;
+  return `${head}\n;globalThis.__gradientProbeExposed = {\n${fields.join(',\n')}\n};\n`;
 }
 
 /** Looks places up in an entry's source map (parsed on each call: only failures ask). */
@@ -131,10 +161,29 @@ function describeFailure(entry: string, workDir: string, errors: esbuildTypes.Me
   return { ok: false, message: `${text} (${where})${more}`, location: { file, line, column } };
 }
 
+export interface BundlerOptions {
+  /**
+   * Keep bundles on disk between runs (bundleDiskCache.ts says where). Off by default so a
+   * test's counts stay its own; the Checker turns it on.
+   */
+  diskCache?: boolean;
+  /**
+   * Only bundles that took at least this long to build go to disk (default
+   * DISK_WORTHY_BUILD_MS): an editor buffer re-bundled on every edit writes nothing, a file
+   * importing a large package is kept.
+   */
+  diskCacheMinBuildMs?: number;
+}
+
+/** Build time from which a bundle is worth keeping on disk (our choice: well above a small file's ~20 ms). */
+const DISK_WORTHY_BUILD_MS = 150;
+
 export class Bundler {
-  readonly stats: BundleStats = { builds: 0, cacheHits: 0, failures: 0 };
+  readonly stats: BundleStats = { builds: 0, cacheHits: 0, failures: 0, diskHits: 0 };
   private readonly cache = new Map<string, CacheEntry>();
   private cachedChars = 0;
+
+  constructor(private readonly options: BundlerOptions = {}) {}
 
   /** Bundles a file for the sandbox; never rejects. */
   async bundle(request: BundleRequest): Promise<BundleResult> {
@@ -142,7 +191,7 @@ export class Bundler {
     const bindings = [...new Set(request.bindings)].sort();
     const bad = bindings.find((b) => !IDENTIFIER.test(b));
     if (bad !== undefined) return { ok: false, message: `"${bad}" is not a plain identifier` };
-    const requestKey = sha256(file, request.text, bindings.join(','));
+    const requestKey = sha256(file, request.text, bindings.join(','), request.tensorLibrary ?? '');
     const cached = this.cache.get(requestKey);
     if (cached && this.stillValid(cached)) {
       this.cache.delete(requestKey);
@@ -151,22 +200,35 @@ export class Bundler {
       return { ok: true, code: cached.code, key: cached.key, cached: true, buildMs: 0, originalPlace: placeFinder(cached), inputs: inputPaths(cached) };
     }
     this.forget(requestKey);
+    const diskDir = this.options.diskCache ? bundleCacheDir() : undefined;
+    const stored = diskDir ? readStoredBundle(diskDir, requestKey) : undefined;
+    if (stored && this.stillValid(stored)) {
+      this.stats.diskHits++;
+      this.remember(requestKey, stored);
+      return { ok: true, code: stored.code, key: stored.key, cached: true, buildMs: 0, originalPlace: placeFinder(stored), inputs: inputPaths(stored) };
+    }
     const started = performance.now();
-    const result = await this.build(file, request.text, bindings);
+    const result = await this.build(file, request.text, bindings, request.tensorLibrary);
     if (!result.ok) {
       this.stats.failures++;
       return result;
     }
     this.stats.builds++;
-    this.cache.set(requestKey, result.entry);
-    this.cachedChars += result.entry.code.length;
+    this.remember(requestKey, result.entry);
+    const buildMs = performance.now() - started;
+    if (diskDir && buildMs >= (this.options.diskCacheMinBuildMs ?? DISK_WORTHY_BUILD_MS)) writeStoredBundle(diskDir, requestKey, result.entry);
+    return { ok: true, code: result.entry.code, key: result.entry.key, cached: false, buildMs, originalPlace: placeFinder(result.entry), inputs: inputPaths(result.entry) };
+  }
+
+  private remember(requestKey: string, entry: CacheEntry): void {
+    this.cache.set(requestKey, entry);
+    this.cachedChars += entry.code.length;
     // Oldest first; the newest entry always stays, however large.
     while (this.cache.size > 1 && (this.cache.size > MAX_CACHED_BUNDLES || this.cachedChars > MAX_CACHED_CHARS)) {
       const oldest = this.cache.keys().next().value;
       if (oldest === undefined) break;
       this.forget(oldest);
     }
-    return { ok: true, code: result.entry.code, key: result.entry.key, cached: false, buildMs: performance.now() - started, originalPlace: placeFinder(result.entry), inputs: inputPaths(result.entry) };
   }
 
   /** Forgets every cached bundle. */
@@ -203,10 +265,10 @@ export class Bundler {
     return true;
   }
 
-  private async build(file: string, text: string, bindings: string[]): Promise<{ ok: true; entry: CacheEntry } | (BundleResult & { ok: false })> {
+  private async build(file: string, text: string, bindings: string[], tensorLibrary?: string): Promise<{ ok: true; entry: CacheEntry } | (BundleResult & { ok: false })> {
     const workDir = dirname(file);
     const loader = LOADERS[extname(file).toLowerCase()] ?? 'ts';
-    const entryContents = text + exposeCode(bindings);
+    const entryContents = text + exposeCode(bindings, tensorLibrary, file);
     const entryPlugin: esbuildTypes.Plugin = {
       name: 'gradient-probe-entry',
       setup(build) {
@@ -221,6 +283,18 @@ export class Bundler {
           isBuiltinModule(args.path) && /[\\/]node_modules[\\/]/.test(args.importer) ? { path: args.path, namespace: EMPTY_NAMESPACE } : undefined,
         );
         build.onLoad({ filter: /.*/, namespace: EMPTY_NAMESPACE }, () => ({ contents: 'module.exports = {};', loader: 'js' }));
+        // The user's own files get a stand-in whose members throw when used, naming the module
+        // and the member: a logging helper that imports `node:path` but is never called during
+        // the check does not make the file uncheckable.
+        build.onResolve({ filter: /^[a-z_:][a-z0-9_/:.-]*$/ }, (args) =>
+          isBuiltinModule(args.path) && !/[\\/]node_modules[\\/]/.test(args.importer)
+            ? { path: `${args.path}|${relative(workDir, args.importer) || args.importer}`, namespace: UNAVAILABLE_NAMESPACE }
+            : undefined,
+        );
+        build.onLoad({ filter: /.*/, namespace: UNAVAILABLE_NAMESPACE }, (args) => {
+          const bar = args.path.indexOf('|');
+          return { contents: unavailableModuleCode(args.path.slice(0, bar), args.path.slice(bar + 1)), loader: 'js' };
+        });
         // The entry's text comes from the caller (an unsaved buffer), also when another
         // module imports it back (an import cycle).
         build.onLoad({ filter: /.*/, namespace: 'file' }, (args) =>

@@ -2,7 +2,7 @@
 // VS Code for the browser (code-server from the npm registry) serves the workbench on
 // 127.0.0.1, Debian's Chromium drives it headless, and the installed .vsix is the extension
 // under test. Installs what is missing, packages, runs each suite, screenshots the editor, and
-// exits with the suites' code. The steps follow ../shared/recipes/editor-host.md.
+// exits with the suites' code. The steps are described in test/editor/README.md.
 
 import { format } from 'node:util';
 import { execFileSync, spawn, type ChildProcess } from 'node:child_process';
@@ -11,6 +11,7 @@ import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { screenshotFlag, screenshotRequest } from '../suite/screenshotSignal';
+import { linkRepositoryPackages } from './demoPackages';
 
 /** Last release of code-server that runs on Node 20 (VS Code 1.100.3; later ones need Node 22+). */
 const CODE_SERVER_VERSION = '4.100.3';
@@ -59,6 +60,7 @@ export async function main(root: string): Promise<number> {
     // A fresh copy per run: the suites edit and save files, and trust is remembered per folder.
     const workspace = join(scratch, `workspace-${run.name}`);
     cpSync(demoWorkspace(root), workspace, { recursive: true });
+    linkRepositoryPackages(root, workspace);
     // Editor settings that keep the runs deterministic (no auto-save behind the suite's back,
     // no start page over the editor in the screenshot), plus the run's own.
     mkdirSync(join(dirs.userData, 'User'), { recursive: true });
