@@ -17,7 +17,7 @@ export const GOALS = {
   coldMs: 1500,
   workerSpeedup: 1.7,
   memoryGrowth: 0.1,
-  /** Issue 11: elementwise 1,000,000 with one wrong element, median ms. */
+  /** Elementwise 1,000,000 with one wrong element, median ms. */
   elementwiseBugMs: 1200,
   /** y = W x, W 1000×1000: passing check, and a located single wrong element (median), ms. */
   denseMatmulPassMs: 500,
@@ -143,7 +143,7 @@ function caughtText(d: DetectionMeasurement): string {
   return `caught ${d.caught}/${d.trials}, located ${d.located}, 95 % lower bound ${d.lowerBound95.toFixed(3)}; median ${ms(d.medianMs)}, max ${ms(d.maxMs)}${Object.keys(d.missed).length ? `; missed: ${JSON.stringify(d.missed)}` : ''}`;
 }
 
-/** Issue 11's goals for dense Jacobians and block colours, each beside the exact scheme. */
+/** The goals for dense Jacobians (README, "How a check works") and block colours, each beside the exact scheme. */
 function denseGoals(r: BenchReport): GoalLine[] {
   const goals: GoalLine[] = [];
   const op = (kind: string, min: number): OpMeasurement | undefined => r.ops.find((m) => m.kind === kind && m.elements >= min);

@@ -58,7 +58,7 @@ function plan(quick: boolean): Plan {
       detection.push([kind, 1_000_000, count, quick ? Math.min(bigTrials, goalRun ? 30 : 3) : bigTrials]);
     }
   }
-  // Issue 11: the dense families — y = W x with the bug in W or in x, 300 trials each for the
+  // The dense families — y = W x with the bug in W or in x, 300 trials each for the
   // p ≥ 0.99 bound; a softmax over one vector of 100,000 and 1,000,000.
   detection.push(['matmul', 1_000_000, 1, quick ? 30 : 300, 'weight']);
   detection.push(['matmul', 1_000_000, 1, quick ? 30 : 300, 'x']);

@@ -1,4 +1,4 @@
-// Benchmark (prints figures; not a test) of issue 9's nested-array case: one 500×500 op
+// Benchmark (prints figures; not a test) of the nested-array case (listed in DEVELOPERS.md): one 500×500 op
 // checked through the real Checker and runner, as nested `number[][]` in map style and in
 // push-loop style, against the same op on a Float64Array. Minimum of RUNS checks each.
 // Run: npx esbuild bench/nestedArrays.ts --bundle --platform=node --packages=external \

@@ -39,7 +39,7 @@ export interface DetectionMeasurement {
   kind: string;
   forward: string;
   elements: number;
-  /** The parameter whose gradient carries the bug (absent in runs before issue 11: the op's default). */
+  /** The parameter whose gradient carries the bug (absent in runs recorded before it was recorded: the op's default). */
   bugParam?: string;
   bugCount: number;
   bugRelative: number;

@@ -36,7 +36,7 @@ export function reportPage(input: ReportPageInput): string {
 </head>
 <body>
 <h1>${esc(result.forward ?? 'op')} <span class="verdict ${esc(result.verdict)}">${esc(result.verdict)}</span></h1>
-<p class="meta">${esc(input.fileLabel)}:${result.line} · backward ${esc(result.backward ?? '—')} · seed ${result.seed} · ${result.elapsedMs.toFixed(1)} ms · ${result.calls.forward} forward / ${result.calls.backward} backward calls</p>
+<p class="meta">${esc(input.fileLabel)}:${result.line} · ${result.kind ?? 'backward'} ${esc(result.backward ?? '—')} · seed ${result.seed} · ${result.elapsedMs.toFixed(1)} ms · ${result.calls.forward} forward / ${result.calls.backward} backward calls</p>
 ${result.message ? `<p class="message">${esc(result.message)}</p>` : ''}
 ${hints}
 ${sections || '<p>No differentiated parameters.</p>'}

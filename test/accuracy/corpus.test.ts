@@ -104,7 +104,7 @@ describe('accuracy corpus through the command line', function () {
     assert.equal(errors.length, 0, `kink ops that could not be checked:\n${formatTable(errors)}`);
   });
 
-  it('gets the three precision traps right: each correct op passes and each buggy twin is a mismatch (issue 11)', function () {
+  it('gets the three precision traps right: each correct op passes and each buggy twin is a mismatch (test/corpus/precision.ts)', function () {
     // Labels of test/corpus/precision.ts; each follows from a handbook derivative named there.
     const traps = ops.filter((o) => o.file === 'precision.ts');
     assert.equal(traps.length, 6, formatTable(traps));

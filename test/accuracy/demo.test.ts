@@ -17,6 +17,10 @@ const EXPECTED: Record<string, 'pass' | 'mismatch'> = {
   'examples/src/loss.ts#huberLoss': 'pass',
   'examples/src/memory.ts#IrradianceMemory.trace': 'mismatch',
   'examples/src/inverter.ts#inverterClip': 'pass',
+  'examples/src/tracker.ts#pointingResidual @jacobian': 'pass',
+  'examples/src/tracker.ts#pointingResidual @tangent': 'pass',
+  'examples/src/tracker.ts#aimingCost': 'pass',
+  'examples/src/tracker.ts#aimingCost @hessian': 'mismatch',
   'examples/src/soiling.ts#soilingLoss': 'mismatch',
 };
 

@@ -77,7 +77,7 @@ describe('gradient-probe command (spawned)', function () {
       for (const name of ['glazeResponse', 'coolingCurve', 'thermocouple']) assert.equal(pairNamed(report, name).verdict, 'pass', name);
     });
 
-    it('states a detection floor on every checked parameter: the tolerance itself when every element was compared (issue 11)', () => {
+    it('states a detection floor on every checked parameter: the tolerance itself when every element was compared (docs/report-format.md, detectionFloor)', () => {
       for (const name of ['glazeResponse', 'coolingCurve', 'thermocouple', 'fuelLog']) {
         for (const p of pairNamed(report, name).params) {
           // Small ops compare every element, so the floor is the float64 tolerance (engine/settings.ts).

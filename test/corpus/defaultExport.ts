@@ -1,4 +1,4 @@
-// Shape (issue 9): an op that is the module's anonymous default export.
+// Shape (README, "Shapes of code that work as written"): an op that is the module's anonymous default export.
 
 /**
  * Cube root response of the Quillmere Glasshouse humidity sensor.

@@ -1,5 +1,5 @@
-// The backward's declared parameters against the call the check will make (issue 9, "Mistakes
-// must get a diagnosis"): each mistake seen in user code is an annotation problem at the
+// The backward's declared parameters against the call the check will make (README, "Annotating
+// an op": mistakes get a diagnosis): each mistake seen in user code is an annotation problem at the
 // @backward tag that spells out the call and the fix; correct declarations are left alone.
 import assert from 'node:assert/strict';
 import { discover, expectProblem, opNamed, withDoc } from './helpers';

@@ -56,7 +56,7 @@ describe('report page', function () {
     assert.match(html, /var\(--vscode-editor-foreground\)/);
   });
 
-  it('states each parameter\'s detection floor beside its figures (issue 11)', () => {
+  it('states each parameter\'s detection floor beside its figures (README, "What a pass does and does not prove")', () => {
     const html = reportPage({ result: pass, fileLabel: 'pass.ts', nonce: 'n0nce', cspSource: 'vscode-webview:' });
     const floor = pass.params[0]!.detectionFloor;
     assert.equal(typeof floor, 'number');

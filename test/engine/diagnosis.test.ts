@@ -1,4 +1,4 @@
-// Diagnoses rather than symptoms (issue 9): which named output's term is wrong, one worst
+// Diagnoses rather than symptoms (docs/report-format.md, `worst` and `hints`): which named output's term is wrong, one worst
 // element for the figure and the message, and a precision hint for an f64-sampled op that
 // computes in float32. Derivatives by the chain rule: d sin = cos, d Σx² = 2x.
 

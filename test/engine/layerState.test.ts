@@ -1,6 +1,7 @@
-// Layers written the way training frameworks write them (issue 9, "Correct code must not be
-// flagged"): a backward that accumulates into the instance's gradient fields, a backward that
-// reuses its upstream gradient in place, and a backward that reads a cache its forward did not
+// Layers written the way training frameworks write them (correct code must not be flagged;
+// README, "Shapes of code that work as written"): a backward that accumulates into the
+// instance's gradient fields, a backward that reuses its upstream gradient in place, and a
+// backward that reads a cache its forward did not
 // refresh. Derivatives by the chain rule: d(W·x)/dW[i][j] = dy[i]·x[j], d/dx[j] = Σ_i W[i][j]·dy[i].
 
 import assert from 'node:assert/strict';

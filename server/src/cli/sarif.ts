@@ -100,6 +100,7 @@ function result(
   const properties: Record<string, unknown> = { verdict: pair.verdict, seed: pair.seed };
   if (pair.forward !== null) properties['forward'] = pair.forward;
   if (pair.backward !== null) properties['backward'] = pair.backward;
+  if (pair.kind !== undefined) properties['kind'] = pair.kind;
   const out: Record<string, unknown> = {
     ruleId,
     ruleIndex,
@@ -129,7 +130,11 @@ function artifactLocation(file: string): Record<string, string> {
 function messageOf(pair: OpResult): string {
   const parts: string[] = [];
   const param = worstParam(pair);
-  if (pair.verdict === 'mismatch' && param) {
+  if (pair.verdict === 'mismatch' && param && pair.kind !== undefined && pair.kind !== 'backward') {
+    // The message of a Jacobian, tangent or Hessian names the wrong entry or output.
+    parts.push(`${opName(pair)}: the ${pair.kind} disagrees with finite differences (max relative error ${formatRelError(param.maxRelError)}).`);
+    parts.push(...param.hints.map((h) => `Hint: ${h}.`));
+  } else if (pair.verdict === 'mismatch' && param) {
     // With an element named, the figure is that element's own relative error (one rule: types.ts WorstElement).
     let text = `${opName(pair)}: gradient of ${param.name} disagrees with finite differences (max relative error ${formatRelError(param.worst?.relError ?? param.maxRelError)}`;
     if (param.worst) text += ` at [${param.worst.index.join(', ')}]: backward ${param.worst.analytic}, numeric ${param.worst.numeric}`;

@@ -76,6 +76,8 @@ export function bindingsOf(op: OpDescriptor): string[] {
     names.push(t.forwardName);
   }
   if (!t.backwardIsMethod && !t.libraryGradient) names.push(t.backwardName);
+  // A @hessian op also calls the forward's @backward (its reference when that passes).
+  if (op.gradient && !op.gradient.backwardIsMethod && !names.includes(op.gradient.backwardName)) names.push(op.gradient.backwardName);
   if (t.samplesFactory) names.push(t.samplesFactory);
   if (t.constructFactory) names.push(t.constructFactory);
   return names;

@@ -7,7 +7,7 @@ import { ElementState, excessOf, relativeError, type Comparison, type ElementEst
 import { estimateColumns } from './fullCheck';
 import { findKink } from './kinkTest';
 import { centralOnLine, elementLine, projectMagnitude } from './lines';
-import { elementName, type OpHarness } from './opHarness';
+import { elementName, type ForwardMap } from './opHarness';
 import type { ParamSlot } from './paramSlot';
 import { ROUNDOFF_ULPS, unitRoundoff } from './precision';
 import { RIDDERS_MIN_INITIAL_CENTRAL_STEPS, RIDDERS_RETRY_RATIO, riddersAdaptive, type AdaptiveRiddersResult } from './ridders';
@@ -87,7 +87,7 @@ function smallestStep(slot: ParamSlot, i: number, analytic: Float64Array[], floo
  * stopping at the first confirmed mismatch. Updates est, cmp in place.
  */
 export function refineSuspicious(
-  h: OpHarness,
+  h: ForwardMap,
   slot: ParamSlot,
   analytic: Float64Array[],
   est: ElementEstimates,

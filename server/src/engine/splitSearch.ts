@@ -35,7 +35,7 @@ import { F64, I32, U8, abs, max, sqrt } from './builtins';
 import { estimateColumns } from './fullCheck';
 import { ElementState, compareElements, type Comparison, type ElementEstimates } from './judge';
 import { centralOnLine, rangeLine, slotGeometry, type SlotGeometry } from './lines';
-import type { OpHarness } from './opHarness';
+import type { ForwardMap } from './opHarness';
 import type { ParamSlot } from './paramSlot';
 import { ROUNDOFF_ULPS } from './precision';
 import type { RandomSource } from './random';
@@ -133,7 +133,7 @@ export interface SplitResult {
 }
 
 export interface SplitContext {
-  h: OpHarness;
+  h: ForwardMap;
   slot: ParamSlot;
   y0: Float64Array;
   /** Unit roundoff of the outputs, and of the gradient the backward returned. */

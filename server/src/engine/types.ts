@@ -67,7 +67,9 @@ export interface ParamDescriptor {
 export type BackwardArg =
   | { kind: 'param'; name: string } // a forward parameter (or `this.FIELD`), by name
   | { kind: 'output' } // `$y`: the forward's output at the sample point
-  | { kind: 'upstream' }; // `$dy`: the upstream gradient
+  | { kind: 'upstream' } // `$dy`: the upstream gradient
+  | { kind: 'tangent'; name: string } // `$dNAME` (@tangent): the tangent of parameter NAME
+  | { kind: 'vector' }; // `$v` (@hessian): the vector of a Hessian-vector product
 
 /**
  * The binding under which the sandbox exposes a module's anonymous default export
@@ -136,7 +138,11 @@ export interface OpDescriptor {
   column: number;
   endLine: number;
   endColumn: number;
-  /** Display name: `softplus`, or `Class.method` for a method. */
+  /**
+   * Display name: `softplus`, or `Class.method` for a method; for the kinds other than
+   * 'backward' followed by the tag (`reach @jacobian`), so each derivative of one forward has a
+   * name of its own on every surface.
+   */
   forward: string;
   /** Name of the backward as written in `@backward`. */
   backward: string;
@@ -155,6 +161,12 @@ export interface OpDescriptor {
   tags: TagLocation[];
   /** Where the backward is declared, when discovery could resolve it in this file. */
   backwardLocation?: SourcePosition & { file: string };
+  /**
+   * For a `@hessian` op whose forward also has a `@backward` without problems: that backward
+   * (name, binding, argument list). The Hessian is then checked against central differences of
+   * this gradient when the gradient itself passes its check.
+   */
+  gradient?: { name: string; backwardName: string; backwardIsMethod: boolean; args: BackwardArg[] };
   /** Annotation mistakes; non-empty means the op is reported as `error` without running. */
   problems: Problem[];
 }
@@ -187,7 +199,10 @@ export interface StepScan {
 export type CheckMethod =
   | 'full' // one central difference per element
   | 'grouped' // structurally orthogonal elements share perturbations (Curtis, Powell & Reid 1974)
-  | 'dot-product'; // adjoint dot-product probes judged against their own error, split down to single elements
+  | 'dot-product' // adjoint dot-product probes judged against their own error, split down to single elements
+  | 'directional' // @tangent: central differences along random tangent directions
+  | 'gradient-differences' // @hessian: central differences of the op's passing @backward
+  | 'second-differences'; // @hessian: second differences of the forward (step u^(1/4))
 
 /** Per-parameter result. */
 export interface ParamResult {

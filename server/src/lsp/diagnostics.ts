@@ -73,7 +73,7 @@ function resultDiagnostic(op: OpDescriptor, result: OpResult, facts: DocumentFac
     const lines = loc.file === snapshot.fsPath ? snapshot.lines : [];
     related.push({
       location: { uri: loc.file === snapshot.fsPath ? snapshot.uri : pathToFileURL(loc.file).toString(), range: toRange(loc, undefined, lines) },
-      message: `backward ${op.backward}: the hand-written gradient`,
+      message: op.kind !== undefined && op.kind !== 'backward' ? `${op.kind} ${op.backward}: the hand-written derivative` : `backward ${op.backward}: the hand-written gradient`,
     });
   }
   if (result.thrownAt) {
