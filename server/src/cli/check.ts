@@ -14,6 +14,7 @@ import type { CheckOptions } from './args';
 import { ChangedSinceError, changedFilesSince, inputsChanged, type ChangedFiles } from './changed';
 import { nothingCheckedReason, type SkipTally } from './nothingChecked';
 import { emitReport, failPolicyOf } from './output';
+import { backwardHasGaps } from './coverageLines';
 import { buildReport, exitCodeFor, reportPath } from './report';
 import { inShard } from './shard';
 
@@ -95,6 +96,7 @@ export async function runCheckCommand(options: CheckOptions, io: CliIo, toolVers
 
   const written = emitReport(report, options, io, toolVersion, { fileCount: files.length, elapsedMs: performance.now() - started, notes });
   if (!written || emptyReason !== undefined) return EXIT_USAGE;
+  if (options.failOnUnreached && report.pairs.some(backwardHasGaps)) return EXIT_FAILED;
   return exitCodeFor(report, failPolicyOf(options));
 }
 
@@ -143,7 +145,8 @@ interface RunScope {
  * (the report sorts them).
  */
 async function checkAll(files: readonly string[], settings: CheckSettings, options: CheckOptions, io: CliIo, scope: RunScope): Promise<OpResult[]> {
-  const checkerOptions: ConstructorParameters<typeof Checker>[0] = { settings };
+  // Coverage is on unless asked off; the isolated interpreter does not record it (checker.ts).
+  const checkerOptions: ConstructorParameters<typeof Checker>[0] = { settings, coverage: options.noCoverage !== true };
   if (options.workers !== undefined) checkerOptions.workers = options.workers;
   const checker = new Checker(checkerOptions);
   const results: OpResult[] = [];

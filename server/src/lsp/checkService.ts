@@ -31,6 +31,8 @@ export interface CheckRequest {
   force?: boolean;
   /** Cancels this run (a client's cancellation); newer edits cancel it too. */
   signal?: AbortSignal;
+  /** Record which code each check ran (gradientProbe.showUnreached); default true. */
+  coverage?: boolean;
 }
 
 export class CheckService {
@@ -100,7 +102,7 @@ export class CheckService {
   async check(request: CheckRequest): Promise<OpResult[]> {
     // Untrusted: only the isolated interpreter may run code (the session decides when).
     if (!this.trusted && request.settings.isolation !== 'interpreter') throw new CheckRefused('the workspace is not trusted, so no code from it runs');
-    const key = `${hashText(request.text)}|${settingsKey(request.settings)}`;
+    const key = `${hashText(request.text)}|${settingsKey(request.settings)}|${request.coverage === false ? 'no-coverage' : 'coverage'}`;
     // Unique names: a client may name an op twice (a file and its op both selected).
     const wanted = [...new Set(request.forwards ?? request.knownForwards)];
     const stored = this.results.get(request.uri);
@@ -141,6 +143,13 @@ export class CheckService {
         signal: controller.signal,
         settings: request.settings,
         onResult: accept,
+        coverage: request.coverage !== false,
+        // Verdicts show at once; an op's coverage (hints, hover line) follows when its run ends.
+        onCoverage: (result) => {
+          if (controller.signal.aborted) return;
+          this.store(request.uri, result.forward ?? '', key, result);
+          this.onChange(request.uri);
+        },
         ...(filter !== undefined ? { filter } : {}),
       });
       // Results not seen through onResult (a Checker that reports only at the end).
@@ -174,7 +183,8 @@ export class CheckService {
   private getChecker(): Checker {
     if (!this.checker) {
       // Per-call settings go with each checkFile; these are only the pool's starting point.
-      this.checker = new Checker({ settings: DEFAULT_SETTINGS, ...(this.workers !== undefined ? { workers: this.workers } : {}) });
+      // Coverage runners start on first use; gradientProbe.showUnreached off means none (CheckRequest.coverage).
+      this.checker = new Checker({ settings: DEFAULT_SETTINGS, coverage: true, ...(this.workers !== undefined ? { workers: this.workers } : {}) });
     }
     return this.checker;
   }

@@ -36,14 +36,16 @@ export function codeLensesFor(facts: DocumentFacts): CodeLens[] {
       continue;
     }
     const p = worstParam(result);
+    // Several derivatives of one forward share its line: each lens names its own kind.
+    const what = op.kind !== undefined && op.kind !== 'backward' ? op.kind : 'gradient';
     // Checks in the isolated interpreter say so: they are slower and limited to small ops.
     const time = `${millis(result.elapsedMs)}${result.isolation === 'interpreter' ? ' · isolated interpreter' : ''}`;
     switch (result.verdict) {
       case 'pass':
-        lenses.push(recheck(`✓ gradient ok${p ? ` · worst ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
+        lenses.push(recheck(`✓ ${what} ok${p ? ` · worst ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
         break;
       case 'mismatch':
-        lenses.push(recheck(`✗ gradient mismatch${p ? ` · ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
+        lenses.push(recheck(`✗ ${what} mismatch${p ? ` · ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
         break;
       case 'inconclusive':
         lenses.push(recheck(`? inconclusive · ${oneLine(result.message, 60)} · ${time}`));
