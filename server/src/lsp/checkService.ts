@@ -1,18 +1,37 @@
 // Runs checks for the language server: one Checker for the whole server, the latest result of
 // every op per document, which ops are running, cancellation of stale runs, and reuse of a
-// result when neither the text nor the settings changed since it was computed.
+// result when neither the text, the settings nor any other file of its bundle changed since it
+// was computed (the bundle's inputs are remembered, so a saved helper file re-checks its users).
 
 import { createHash } from 'node:crypto';
+import { statSync } from 'node:fs';
 import { basename } from 'node:path';
 import { Checker } from '../core/checker';
 import { DEFAULT_SETTINGS, type CheckSettings } from '../engine/settings';
 import type { OpResult } from '../engine/types';
 import { settingsKey } from './settings';
 
-/** A result and the (text, settings) it was computed for. */
+/** A result, the (text, settings) it was computed for, and the other input files' stamps then. */
 interface StoredResult {
   key: string;
   result: OpResult;
+  /** Size and modification time of every other file the bundle read, by path. */
+  inputs: ReadonlyMap<string, string>;
+}
+
+/** A file's size and modification time: what tells that it changed on disk. */
+function stampOf(path: string): string {
+  try {
+    const st = statSync(path);
+    return `${st.size}:${st.mtimeMs}`;
+  } catch {
+    return 'missing';
+  }
+}
+
+function inputsUnchanged(inputs: ReadonlyMap<string, string>): boolean {
+  for (const [path, stamp] of inputs) if (stampOf(path) !== stamp) return false;
+  return true;
 }
 
 /** Why a run did not happen; shown to the user as is. */
@@ -38,6 +57,8 @@ export class CheckService {
   private readonly results = new Map<string, Map<string, StoredResult>>();
   private readonly running = new Map<string, Map<string, number>>();
   private readonly controllers = new Map<string, Set<AbortController>>();
+  /** The other files each document's last bundle read (absolute paths). */
+  private readonly bundleInputs = new Map<string, string[]>();
   private trusted: boolean;
   private started = 0;
 
@@ -96,6 +117,14 @@ export class CheckService {
     this.cancel(uri);
     this.results.delete(uri);
     this.running.delete(uri);
+    this.bundleInputs.delete(uri);
+  }
+
+  /** Documents whose last bundle read the given file (not counting the file itself). */
+  dependentsOf(fsPath: string): string[] {
+    const out: string[] = [];
+    for (const [uri, inputs] of this.bundleInputs) if (uri !== fsPath && inputs.includes(fsPath)) out.push(uri);
+    return out;
   }
 
   /**
@@ -110,7 +139,10 @@ export class CheckService {
     // Unique names: a client may name an op twice (a file and its op both selected).
     const wanted = [...new Set(request.forwards ?? request.knownForwards)];
     const stored = this.results.get(request.uri);
-    const reusable = !request.force && wanted.length > 0 && wanted.every((f) => stored?.get(f)?.key === key);
+    const reusable = !request.force && wanted.length > 0 && wanted.every((f) => {
+      const entry = stored?.get(f);
+      return entry?.key === key && inputsUnchanged(entry.inputs);
+    });
     if (reusable) return wanted.map((f) => stored!.get(f)!.result);
 
     this.started += wanted.length;
@@ -125,12 +157,19 @@ export class CheckService {
     this.markRunning(request.uri, wanted, +1);
     const finished = new Set<string>();
     const collected: OpResult[] = [];
+    // Stamps of the bundle's other inputs, taken when it was built (before any op ran).
+    let inputs: ReadonlyMap<string, string> = new Map();
+    const onBundle = (paths: string[]): void => {
+      const others = paths.filter((p) => p !== request.fsPath);
+      this.bundleInputs.set(request.uri, others);
+      inputs = new Map(others.map((p) => [p, stampOf(p)] as const));
+    };
     const accept = (result: OpResult): void => {
       if (controller.signal.aborted) return;
       const forward = result.forward ?? '';
       if (request.forwards && !request.forwards.includes(forward)) return; // `filter` is a substring match
       collected.push(result);
-      this.store(request.uri, forward, key, result);
+      this.store(request.uri, forward, key, result, inputs);
       if (wanted.includes(forward) && !finished.has(forward)) {
         finished.add(forward);
         this.markRunning(request.uri, [forward], -1);
@@ -147,6 +186,7 @@ export class CheckService {
         signal: controller.signal,
         settings: request.settings,
         onResult: accept,
+        onBundle,
         ...(filter !== undefined ? { filter } : {}),
       });
       // Results not seen through onResult (a Checker that reports only at the end).
@@ -185,10 +225,10 @@ export class CheckService {
     return this.checker;
   }
 
-  private store(uri: string, forward: string, key: string, result: OpResult): void {
+  private store(uri: string, forward: string, key: string, result: OpResult, inputs: ReadonlyMap<string, string>): void {
     let perDoc = this.results.get(uri);
     if (!perDoc) this.results.set(uri, (perDoc = new Map()));
-    perDoc.set(forward, { key, result });
+    perDoc.set(forward, { key, result, inputs });
   }
 
   private markRunning(uri: string, forwards: string[], delta: number): void {
