@@ -84,7 +84,7 @@ async function checkWorkspace(ctx: ProbeContext): Promise<CheckWorkspaceResult |
       }
     },
   );
-  const counts = `${result.pass} pass, ${result.mismatch} mismatch, ${result.inconclusive} inconclusive, ${result.error} could not be checked`;
+  const counts = `${result.pass} pass, ${result.mismatch} mismatch, ${result.inconclusive} inconclusive, ${result.error} error`;
   const head = result.cancelled ? 'workspace check cancelled' : `checked ${result.files} file${result.files === 1 ? '' : 's'}`;
   const text = `Gradient Probe: ${head}: ${counts}.${result.reason ? ` ${result.reason}.` : ''}`;
   if (result.mismatch + result.error > 0) {

@@ -77,7 +77,7 @@ describe('language server over LSP (trusted workspace)', function () {
     const lenses = await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } }) as CodeLens[];
     const titles = lenses.map((l) => l.command?.title ?? '');
     assert.equal(lenses.length, 2, titles.join(' | '));
-    assert.match(titles[0]!, /^✓ gradient ok · worst x \d\.\de-\d+ rel · \d/);
+    assert.match(titles[0]!, /^✓ pass · worst x \d\.\de-\d+ rel · \d/);
     assert.equal(lenses[0]!.command?.command, 'gradientProbe.server.recheck');
     assert.deepEqual(lenses[0]!.command?.arguments, [uri, 'softplus']);
     assert.equal(lenses[1]!.command?.command, 'gradientProbe.openReport');
@@ -272,7 +272,7 @@ describe('language server over LSP (untrusted, isolated interpreter opted in)', 
     const uri = await s.open('mismatch.ts');
     await s.waitFor('growth to mismatch in the interpreter', () => s.opState(uri, 'growth') === 'mismatch');
     const lenses = await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } }) as CodeLens[];
-    assert.match(lenses[0]!.command!.title, /^✗ gradient mismatch · x 5\.0e-1 rel · .* · isolated interpreter$/);
+    assert.match(lenses[0]!.command!.title, /^✗ mismatch · x 5\.0e-1 rel · .* · isolated interpreter$/);
     const diag = await s.waitFor('the mismatch diagnostic', () => s.diagnostics.get(uri)?.find((d) => d.code === 'gradient-mismatch'));
     assert.match(String(diag.message), /\[isolated interpreter\]$/);
     // The same figures as the runner process: the engine is the same, only the host differs.

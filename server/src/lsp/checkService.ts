@@ -17,6 +17,8 @@ interface StoredResult {
   result: OpResult;
   /** Size and modification time of every other file the bundle read, by path. */
   inputs: ReadonlyMap<string, string>;
+  /** Stored results are numbered, so a client can tell a new result from one pushed again. */
+  seq: number;
 }
 
 /** A file's size and modification time: what tells that it changed on disk. */
@@ -61,6 +63,7 @@ export class CheckService {
   private readonly bundleInputs = new Map<string, string[]>();
   private trusted: boolean;
   private started = 0;
+  private storedCount = 0;
 
   constructor(
     options: { trusted: boolean; workers?: number },
@@ -96,6 +99,11 @@ export class CheckService {
 
   latest(uri: string, forward: string): OpResult | undefined {
     return this.results.get(uri)?.get(forward)?.result;
+  }
+
+  /** The number of the op's latest result (see StoredResult.seq). */
+  latestSeq(uri: string, forward: string): number | undefined {
+    return this.results.get(uri)?.get(forward)?.seq;
   }
 
   latestAll(uri: string): Map<string, OpResult> {
@@ -228,7 +236,7 @@ export class CheckService {
   private store(uri: string, forward: string, key: string, result: OpResult, inputs: ReadonlyMap<string, string>): void {
     let perDoc = this.results.get(uri);
     if (!perDoc) this.results.set(uri, (perDoc = new Map()));
-    perDoc.set(forward, { key, result, inputs });
+    perDoc.set(forward, { key, result, inputs, seq: ++this.storedCount });
   }
 
   private markRunning(uri: string, forwards: string[], delta: number): void {

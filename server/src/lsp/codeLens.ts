@@ -1,5 +1,5 @@
-// Code lenses above every annotated op: the verdict with its figure (worst parameter, max
-// relative error, time) or "checking…" while it runs — clicking re-checks the op — and one
+// Code lenses above every annotated op: the verdict, in the CLI's words (`pass`, `mismatch`,
+// `inconclusive`, `error`), with its figure (worst parameter, max relative error, time) or "checking…" while it runs — clicking re-checks the op — and one
 // more that opens the op's report.
 
 import type { CodeLens } from 'vscode-languageserver';
@@ -40,16 +40,16 @@ export function codeLensesFor(facts: DocumentFacts): CodeLens[] {
     const time = `${millis(result.elapsedMs)}${result.isolation === 'interpreter' ? ' · isolated interpreter' : ''}`;
     switch (result.verdict) {
       case 'pass':
-        lenses.push(recheck(`✓ gradient ok${p ? ` · worst ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
+        lenses.push(recheck(`✓ pass${p ? ` · worst ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
         break;
       case 'mismatch':
-        lenses.push(recheck(`✗ gradient mismatch${p ? ` · ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
+        lenses.push(recheck(`✗ mismatch${p ? ` · ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
         break;
       case 'inconclusive':
         lenses.push(recheck(`? inconclusive · ${oneLine(result.message, 60)} · ${time}`));
         break;
       case 'error':
-        lenses.push(recheck(`! could not check · ${oneLine(result.message, 60)}${result.isolation === 'interpreter' ? ' · isolated interpreter' : ''}`));
+        lenses.push(recheck(`! error · ${oneLine(result.message, 60)}${result.isolation === 'interpreter' ? ' · isolated interpreter' : ''}`));
         break;
     }
     lenses.push({ range, command: { title: 'report', command: ClientCommands.openReport, arguments: args } });

@@ -21,6 +21,8 @@ export interface DocumentFacts {
   /** A broken project file: nothing runs. */
   configError?: { message: string; file?: string };
   latest(forward: string): OpResult | undefined;
+  /** The number of the latest result (new results get higher numbers), when known. */
+  resultSeq?(forward: string): number | undefined;
   isRunning(forward: string): boolean;
 }
 

@@ -111,6 +111,7 @@ export class Session {
       isolated: !this.checks.isTrusted && settings.isolatedWhenUntrusted,
       ...(settings.configError ? { configError: settings.configError } : {}),
       latest: (forward) => this.checks.latest(fsPath, forward),
+      resultSeq: (forward) => this.checks.latestSeq(fsPath, forward),
       isRunning: (forward) => this.checks.isRunning(fsPath, forward),
     };
   }
