@@ -76,12 +76,17 @@ describe('language server over LSP (trusted workspace)', function () {
     assert.equal(s.diagnostics.get(uri)?.length ?? 0, 0, 'a pass publishes no diagnostic');
     const lenses = await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } }) as CodeLens[];
     const titles = lenses.map((l) => l.command?.title ?? '');
-    assert.equal(lenses.length, 2, titles.join(' | '));
+    assert.equal(lenses.length, 3, titles.join(' | '));
     assert.match(titles[0]!, /^✓ pass · worst x \d\.\de-\d+ rel · \d/);
     assert.equal(lenses[0]!.command?.command, 'gradientProbe.server.recheck');
     assert.deepEqual(lenses[0]!.command?.arguments, [uri, 'softplus']);
     assert.equal(lenses[1]!.command?.command, 'gradientProbe.openReport');
     assert.deepEqual(lenses[0]!.range.start, positionOf(text, 'softplus('));
+    // Above the backward: the way back to its forward.
+    assert.equal(lenses[2]!.command?.title, 'backward of softplus');
+    assert.equal(lenses[2]!.command?.command, 'gradientProbe.goToOp');
+    assert.deepEqual(lenses[2]!.range.start, positionOf(text, 'softplusBackward('));
+    assert.deepEqual(lenses[2]!.command?.arguments, [uri, positionOf(text, 'softplus(').line, positionOf(text, 'softplus(').character]);
 
     const hover = hoverText(await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: positionOf(text, 'softplus(') }));
     assert.match(hover, /\*\*softplus\*\* → backward `softplusBackward` — \*\*pass\*\* · seed 1234/);

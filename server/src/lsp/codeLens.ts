@@ -1,10 +1,11 @@
 // Code lenses above every annotated op: the verdict, in the CLI's words (`pass`, `mismatch`,
 // `inconclusive`, `error`), with its figure (worst parameter, max relative error, time) or "checking…" while it runs — clicking re-checks the op — and one
-// more that opens the op's report.
+// more that opens the op's report. Above a backward declared in the same file, a lens leads
+// back to the forward it belongs to.
 
 import type { CodeLens } from 'vscode-languageserver';
 import type { DocumentFacts } from './documentFacts';
-import { millis, oneLine, opNameRange, sci, worstParam } from './format';
+import { millis, oneLine, opNameRange, sci, toRange, worstParam } from './format';
 import { ClientCommands, ServerCommands } from './protocol';
 
 export function codeLensesFor(facts: DocumentFacts): CodeLens[] {
@@ -53,6 +54,15 @@ export function codeLensesFor(facts: DocumentFacts): CodeLens[] {
         break;
     }
     lenses.push({ range, command: { title: 'report', command: ClientCommands.openReport, arguments: args } });
+  }
+  for (const op of snapshot.ops) {
+    const loc = op.backwardLocation;
+    if (!loc || loc.file !== snapshot.fsPath) continue;
+    const at = opNameRange(op, snapshot.lines).start;
+    lenses.push({
+      range: toRange(loc, undefined, snapshot.lines),
+      command: { title: `${op.kind && op.kind !== 'backward' ? op.kind : 'backward'} of ${op.forward}`, command: ClientCommands.goToOp, arguments: [snapshot.uri, at.line, at.character] },
+    });
   }
   return lenses;
 }

@@ -129,4 +129,6 @@ export const ServerCommands = {
 /** Client-side command a code lens opens (the report webview); args: [uri, forward]. */
 export const ClientCommands = {
   openReport: 'gradientProbe.openReport',
+  /** args: [uri, line, character] (0-based): reveal an op's forward (the lens above its backward). */
+  goToOp: 'gradientProbe.goToOp',
 } as const;
