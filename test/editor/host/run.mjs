@@ -18,6 +18,7 @@ await esbuild.build({
     trusted: join(root, 'test/editor/suite/trustedSuite.ts'),
     untrusted: join(root, 'test/editor/suite/untrustedSuite.ts'),
     isolated: join(root, 'test/editor/suite/isolatedSuite.ts'),
+    writing: join(root, 'test/editor/suite/writingSuite.ts'),
   },
   outdir: join(root, 'dist/editor-suite'),
   external: ['vscode', 'mocha'],
