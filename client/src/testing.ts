@@ -159,13 +159,14 @@ export class ProbeTests implements vscode.Disposable {
 function report(run: vscode.TestRun, item: vscode.TestItem, result: OpResult): 'passed' | 'failed' | 'errored' | 'skipped' {
   const duration = result.elapsedMs;
   if (result.output) run.appendOutput(result.output.replace(/\r?\n/g, '\r\n'), undefined, item);
+  // Every result leaves a line in the run's output, a pass too (its figure and time).
+  run.appendOutput(`${item.label}: ${result.verdict} — ${result.message || 'gradient agrees'} (${result.elapsedMs.toFixed(1)} ms)\r\n`, undefined, item);
   if (result.verdict === 'pass') {
     run.passed(item, duration);
     return 'passed';
   }
   if (result.verdict === 'inconclusive') {
     // Neither right nor wrong: the numeric estimate could not be trusted at the sample.
-    run.appendOutput(`${item.label}: inconclusive: ${result.message}\r\n`, undefined, item);
     run.skipped(item);
     return 'skipped';
   }
