@@ -43,7 +43,9 @@ export function run(): Promise<void> {
       it('completes @sample with the unsampled parameters and specs from their types', async () => {
         const at = endOfLine(vents, '@sample temp num in [5, 30]');
         await editor.edit((b) => b.insert(at, '\n * @sample '));
-        const cursor = endOfLine(vents, ' * @sample ');
+        // The new line is the one below `@sample temp` (other ops have `@sample` lines too).
+        const cursor = vents.lineAt(positionOf(vents, '@sample temp num in [5, 30]').line + 1).range.end;
+        assert.equal(vents.lineAt(cursor.line).text, ' * @sample ');
         const list = await waitFor('completion items for @sample', async () => {
           const l = await vscode.commands.executeCommand<vscode.CompletionList>('vscode.executeCompletionItemProvider', vents.uri, new vscode.Position(cursor.line, cursor.character));
           return l && l.items.some((i) => i.label === 'humidity') ? l : undefined;
