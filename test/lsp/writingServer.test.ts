@@ -99,6 +99,7 @@ describe('writing features over LSP', function () {
     await s.save(uri);
     await s.waitFor('airflow to pass', () => s.opState(uri, 'airflow') === 'pass');
     const runsBefore = s.logs.join('').split('check vents.ts [').length;
+    const firstSeq = s.opStates.get(uri)!.ops.find((o) => o.forward === 'airflow')!.seq!;
     // The helper now scales by 4 while the backward still says 3: the op must turn into a mismatch.
     const scaleUri = await s.open('scale.ts');
     const changed = s.text('scale.ts').replace('VENT_FACTOR = 3', 'VENT_FACTOR = 4');
@@ -112,6 +113,10 @@ describe('writing features over LSP', function () {
     await s.connection.sendNotification(lsp.DidCloseTextDocumentNotification.type, { textDocument: { uri: scaleUri } });
     await s.connection.sendNotification(DidChangeWatchedFilesNotification.type, { changes: [{ uri: scaleUri, type: FileChangeType.Changed }] });
     await s.waitFor('airflow to pass again', () => s.opState(uri, 'airflow') === 'pass');
+    // Each new result carries a higher number and its duration (the Testing view records each once).
+    const states = s.opStates.get(uri)!.ops.find((o) => o.forward === 'airflow')!;
+    assert.ok(typeof states.seq === 'number' && typeof states.elapsedMs === 'number' && states.elapsedMs > 0, JSON.stringify(states));
+    assert.ok(states.seq > firstSeq, `a newer result has a higher number (${states.seq} after ${firstSeq})`);
     // Each change ran vents.ts's check again (a started and a finished line per run).
     assert.ok(s.logs.join('').split('check vents.ts [').length - runsBefore >= 4, s.logs.join('').slice(-1500));
   });

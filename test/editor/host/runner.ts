@@ -38,7 +38,7 @@ interface SuiteRun {
   workspace?: string;
 }
 
-export async function main(root: string): Promise<number> {
+export async function main(root: string, only?: string): Promise<number> {
   const codeServer = ensureCodeServer(join(root, '.editor-host'));
   const vsix = packageExtension(root);
   const scratch = mkdtempSync(join(tmpdir(), 'gradient-probe-editor-'));
@@ -58,7 +58,8 @@ export async function main(root: string): Promise<number> {
     { name: 'writing', trustPrompt: false, workspace: 'test/fixtures/lsp-writing' },
   ];
   let worst = 0;
-  for (const run of runs) {
+  if (only !== undefined && !runs.some((r) => r.name === only)) throw new Error(`no suite named ${only}; the suites: ${runs.map((r) => r.name).join(', ')}`);
+  for (const run of runs.filter((r) => only === undefined || r.name === only)) {
     // A fresh copy per run: the suites edit and save files, and trust is remembered per folder.
     const workspace = join(scratch, `workspace-${run.name}`);
     cpSync(run.workspace ? join(root, run.workspace) : demoWorkspace(root), workspace, { recursive: true });
