@@ -191,6 +191,16 @@ describe('writing features: navigation and tag hovers', () => {
     assert.equal(ORIGINAL.split('\n')[loc.range.start.line]!.slice(loc.range.start.character, loc.range.end.character), 'airflowBackward');
   });
 
+  it('goes from a method op\'s @backward to the method, and from @jacobian to its function', () => {
+    const text = ORIGINAL.replace('   * @backward\n', '   * @backward spinBackward\n').replace(' * @bakward mistBackward\n', ' * @backward mistBackward\n * @jacobian mistBackward\n');
+    const method = definitionAt(FILE, text, after(text, '@backward spinBack'));
+    assert.ok(method);
+    assert.equal(method.range.start.line, after(text, '  spinBackward(dy').line);
+    const jacobian = definitionAt(FILE, text, after(text, '@jacobian mist'));
+    assert.ok(jacobian);
+    assert.equal(jacobian.range.start.line, after(text, 'export function mistBackward').line);
+  });
+
   it('goes from @construct to the factory', () => {
     const loc = definitionAt(FILE, ORIGINAL, after(ORIGINAL, '@construct make'));
     assert.ok(loc);
