@@ -161,6 +161,14 @@ describe('writing features: quick fixes', () => {
     assert.deepEqual((sf as unknown as { parseDiagnostics: unknown[] }).parseDiagnostics, []);
   });
 
+  it('offers both renaming a misspelt backward and creating it', () => {
+    const text = ORIGINAL.replace('@backward airflowBackward', '@backward airflowBakward');
+    const titles = actionsFor(text, "backward 'airflowBakward' not found").map((a) => a.title);
+    assert.deepEqual(titles, ["Change to 'airflowBackward'", "Create function 'airflowBakward'"]);
+    const fixed = applyAction(text, actionsFor(text, "backward 'airflowBakward' not found")[0]!);
+    assert.deepEqual(discoverOps(FILE, fixed).ops.find((o) => o.forward === 'airflow')!.problems, []);
+  });
+
   it('annotates an exported function with numeric parameters as an op', () => {
     const facts = factsOf(ORIGINAL);
     const at = after(ORIGINAL, 'export function sha');

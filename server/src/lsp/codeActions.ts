@@ -7,7 +7,7 @@ import ts from 'typescript';
 import { CodeActionKind, type CodeAction, type Diagnostic, type Range, type TextEdit } from 'vscode-languageserver';
 import type { OpDescriptor, ProblemFix } from '../engine/types';
 import { DIAGNOSTIC_SOURCE, DiagnosticCodes } from './diagnostics';
-import { fixFromData, fixFromMessage } from './problemFixes';
+import { fixFromData, fixesFromMessage } from './problemFixes';
 import { specFromType, GUESS_LENGTH } from './specGuess';
 import { indentAt, SourceModel, type ParamInfo, type SiteModel } from './sourceModel';
 import { TAG_DOCS } from './tagDocs';
@@ -28,13 +28,14 @@ export function codeActionsFor(input: CodeActionInput): CodeAction[] {
   const seen = new Set<string>();
   for (const d of input.diagnostics) {
     if (d.source !== DIAGNOSTIC_SOURCE || d.code !== DiagnosticCodes.annotation) continue;
-    const fix = fixFromData(d.data) ?? fixFromMessage(String(d.message));
-    if (!fix) continue;
-    const action = actionFor(fix, d, model, input);
-    // One "add samples" or "create" per op, however many diagnostics ask for it.
-    if (action && !seen.has(action.title)) {
-      seen.add(action.title);
-      actions.push(action);
+    const carried = fixFromData(d.data);
+    for (const fix of [...(carried ? [carried] : []), ...fixesFromMessage(String(d.message))]) {
+      const action = actionFor(fix, d, model, input);
+      // One "add samples" or "create" per op, however many diagnostics ask for it.
+      if (action && !seen.has(action.title)) {
+        seen.add(action.title);
+        actions.push(action);
+      }
     }
   }
   const annotate = annotateAction(model, input);

@@ -7,7 +7,7 @@ import type { Problem, ProblemFix } from '../engine/types';
 /** `did you mean @backward?` or `did you mean 'weight'?` at the end of a message. */
 const DID_YOU_MEAN = /did you mean (@?)'?([\w$.]+)'?\?/;
 const MISSING_SAMPLE = /parameter '[\w$]+' has no @sample/;
-const MISSING_FUNCTION = /^(?:backward|jacobian|tangent|hessian) '([\w$]+)' not found/;
+const MISSING_FUNCTION = /(?:^|: )(?:backward|jacobian|tangent|hessian) '([\w$]+)' not found/;
 
 export function fixOf(problem: Problem): ProblemFix | undefined {
   if (problem.fix) return problem.fix;
@@ -15,12 +15,18 @@ export function fixOf(problem: Problem): ProblemFix | undefined {
 }
 
 export function fixFromMessage(message: string): ProblemFix | undefined {
+  return fixesFromMessage(message)[0];
+}
+
+/** Every fix the wording admits, the likeliest first: a misspelt backward can be renamed or created. */
+export function fixesFromMessage(message: string): ProblemFix[] {
+  const out: ProblemFix[] = [];
   const mean = DID_YOU_MEAN.exec(message);
-  if (mean) return { kind: 'replace', text: `${mean[1]}${mean[2]}` };
-  if (MISSING_SAMPLE.test(message)) return { kind: 'add-samples' };
+  if (mean) out.push({ kind: 'replace', text: `${mean[1]}${mean[2]}` });
+  if (MISSING_SAMPLE.test(message)) out.push({ kind: 'add-samples' });
   const missing = MISSING_FUNCTION.exec(message);
-  if (missing) return { kind: 'create-function', name: missing[1]! };
-  return undefined;
+  if (missing) out.push({ kind: 'create-function', name: missing[1]! });
+  return out;
 }
 
 /** Reads the fix back from a diagnostic's `data` (the client returns it unchanged). */
