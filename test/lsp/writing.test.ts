@@ -161,6 +161,16 @@ describe('writing features: quick fixes', () => {
     assert.deepEqual((sf as unknown as { parseDiagnostics: unknown[] }).parseDiagnostics, []);
   });
 
+  it('creates a missing backward of a method op as a method taking $dy and returning every sampled gradient', () => {
+    const text = ORIGINAL.replace('   * @backward\n   * @sample x f64[3]\n', '   * @backward turnBackward\n   * @sample x f64[3]\n   * @sample this.speed num\n');
+    const create = actionsFor(text, "backward 'turnBackward' not found").find((a) => a.title === "Create method 'turnBackward'");
+    assert.ok(create);
+    const fixed = applyAction(text, create);
+    // Inside the class, after the method, in the class body's indentation; a method op's default call is (dy).
+    assert.ok(fixed.includes('  }\n\n  turnBackward(dy: Float64Array): { x: Float64Array; speed: number } {\n    // The gradient'), fixed);
+    assert.deepEqual(discoverOps(FILE, fixed).ops.find((o) => o.forward === 'Fan.spin')!.problems, []);
+  });
+
   it('offers both renaming a misspelt backward and creating it', () => {
     const text = ORIGINAL.replace('@backward airflowBackward', '@backward airflowBakward');
     const titles = actionsFor(text, "backward 'airflowBakward' not found").map((a) => a.title);
