@@ -94,6 +94,8 @@ describe('language server over LSP (trusted workspace)', function () {
     // The @sample tag's hover narrows the table to the parameter it draws.
     const tagHover = hoverText(await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: positionOf(text, '@sample x') }));
     assert.match(tagHover, /\| x \| f64\[8\] \|/);
+    // On the tag's name, the hover also says what the tag does, above the figures.
+    assert.match(tagHover, /^\*\*@sample\*\* — How to draw one parameter[\s\S]*---[\s\S]*\| x \| f64\[8\] \|/);
     const report = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri, forward: 'softplus' });
     assert.ok(report.result!.params[0]!.maxRelError < USER_SETTINGS.tolerance.f64);
   });

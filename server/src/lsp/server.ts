@@ -5,7 +5,7 @@
 import { relative } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import {
-  CancellationToken, CodeActionKind, createConnection, MarkupKind, DidChangeConfigurationNotification, FileChangeType, ProposedFeatures,
+  CancellationToken, CodeActionKind, createConnection, DidChangeConfigurationNotification, FileChangeType, ProposedFeatures,
   ResponseError, TextDocuments, TextDocumentSyncKind, type Connection, type InitializeParams, type InitializeResult,
 } from 'vscode-languageserver/node';
 import { TextDocument } from 'vscode-languageserver-textdocument';
@@ -18,7 +18,7 @@ import { DocumentEvents } from './documentEvents';
 import { hoverAt } from './hover';
 import { referencesAt } from './references';
 import { documentSymbolsFor, workspaceSymbolsFor } from './symbols';
-import { tagHoverAt } from './tagHover';
+import { tagHoverAt, withTagHover } from './tagHover';
 import {
   Methods, ServerCommands, type CheckOpsParams, type OpReportParams, type ProbeInitializationOptions, type TrustChangedParams,
 } from './protocol';
@@ -116,13 +116,7 @@ export function startServer(connection: Connection): void {
     guard('hover', null, async () => {
       const facts = await need().facts(need().keyOf(params.textDocument.uri));
       if (!facts) return null;
-      // On a tag name: what the tag means; on a `@sample` tag that is also the parameter's figures.
-      const tag = tagHoverAt(facts.snapshot.fsPath, facts.snapshot.text, params.position);
-      const result = hoverAt(facts, params.position);
-      if (tag && result && typeof result.contents === 'object' && 'value' in result.contents) {
-        return { range: tag.range, contents: { kind: MarkupKind.Markdown, value: `${(tag.contents as { value: string }).value}\n\n---\n\n${result.contents.value}` } };
-      }
-      return tag ?? result;
+      return withTagHover(tagHoverAt(facts.snapshot.fsPath, facts.snapshot.text, params.position), hoverAt(facts, params.position));
     }));
 
   /** The open buffer (or the file) of a request's document, with its path. */
@@ -197,7 +191,7 @@ export function startServer(connection: Connection): void {
         // Changed outside this editor (an open document's save is handled by its save event).
         if (change.type !== FileChangeType.Created && !change.uri.endsWith('/gradient-probe.json')) {
           const key = s.keyOf(change.uri);
-          if (!events?.isOpen(key)) void events?.fileChanged(key);
+          if (!events?.isOpen(key)) void guard('re-check of dependents', undefined, () => events?.fileChanged(key));
         }
       }
       if (configChanged) {
