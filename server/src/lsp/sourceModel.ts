@@ -25,13 +25,17 @@ export interface SiteModel {
   /** The JSDoc block right above it, when there is one. */
   doc?: ts.JSDoc;
   /** The tags of that block as discovery reads them. */
-  tags: RawTag[];
-  params: ParamInfo[];
+  readonly tags: RawTag[];
+  readonly params: ParamInfo[];
   /** Non-function fields of the class, for a method (as `this.NAME`). */
-  fields: ParamInfo[];
+  readonly fields: ParamInfo[];
   /** The statement (or class member) to insert around: a stub goes after it, a JSDoc before. */
   declaration: ts.Node;
 }
+
+/** Parsed texts kept for reuse: one per open editor the user switches between (our choice). */
+const RECENT_MODELS = 4;
+const recent: SourceModel[] = [];
 
 export class SourceModel {
   readonly sf: ts.SourceFile;
@@ -44,8 +48,17 @@ export class SourceModel {
     this.sites = findForwardSites(this.sf).map((site) => siteModel(site, text));
   }
 
+  /**
+   * The model of a text, reused while the text is unchanged: an editor asks for code actions on
+   * every cursor move and for hovers on every pause, each time of the same text.
+   */
   static parse(fileName: string, text: string): SourceModel {
-    return new SourceModel(fileName, text);
+    const hit = recent.find((m) => m.fileName === fileName && m.text === text);
+    if (hit) return hit;
+    const model = new SourceModel(fileName, text);
+    recent.unshift(model);
+    if (recent.length > RECENT_MODELS) recent.pop();
+    return model;
   }
 
   offsetAt(position: { line: number; character: number }): number {
@@ -83,27 +96,54 @@ export class SourceModel {
   }
 }
 
+/**
+ * A site with its JSDoc found at once (to locate the cursor) and the rest read on first use: a
+ * request needs the details of one or two sites, not of every declaration in the file.
+ */
 function siteModel(site: ForwardSite, text: string): SiteModel {
   const docs = ts.getJSDocCommentsAndTags(site.docHost).filter((d): d is ts.JSDoc => ts.isJSDoc(d));
   const doc = docs[docs.length - 1];
+  // A variable's JSDoc sits on its statement: insert around the statement, not the declarator.
+  let declaration: ts.Node = site.docHost;
+  if (ts.isVariableDeclaration(declaration) && ts.isVariableDeclarationList(declaration.parent) && ts.isVariableStatement(declaration.parent.parent)) declaration = declaration.parent.parent;
+  let tags: RawTag[] | undefined;
+  let params: ParamInfo[] | undefined;
+  let fields: ParamInfo[] | undefined;
+  return {
+    site,
+    ...(doc ? { doc } : {}),
+    declaration,
+    get tags() {
+      return (tags ??= readDocTags(text, site.docHost));
+    },
+    get params() {
+      return (params ??= paramsOf(site));
+    },
+    get fields() {
+      return (fields ??= fieldsOf(site));
+    },
+  };
+}
+
+function paramsOf(site: ForwardSite): ParamInfo[] {
   const params: ParamInfo[] = [];
   for (const p of site.fn?.parameters ?? []) {
     if (!ts.isIdentifier(p.name) || p.name.text === 'this' || p.dotDotDotToken) continue;
     params.push({ name: p.name.text, ...(p.type ? { typeNode: p.type } : {}), ...(p.initializer ? { initializer: p.initializer } : {}) });
   }
+  return params;
+}
+
+function fieldsOf(site: ForwardSite): ParamInfo[] {
   const fields: ParamInfo[] = [];
-  if (site.kind === 'method' && site.classNode) {
-    for (const m of site.classNode.members) {
-      if (!ts.isPropertyDeclaration(m) || !ts.isIdentifier(m.name)) continue;
-      if ((ts.getCombinedModifierFlags(m) & ts.ModifierFlags.Static) !== 0) continue;
-      if (m.initializer && (ts.isArrowFunction(m.initializer) || ts.isFunctionExpression(m.initializer))) continue;
-      fields.push({ name: `this.${m.name.text}`, ...(m.type ? { typeNode: m.type } : {}), ...(m.initializer ? { initializer: m.initializer } : {}) });
-    }
+  if (site.kind !== 'method' || !site.classNode) return fields;
+  for (const m of site.classNode.members) {
+    if (!ts.isPropertyDeclaration(m) || !ts.isIdentifier(m.name)) continue;
+    if ((ts.getCombinedModifierFlags(m) & ts.ModifierFlags.Static) !== 0) continue;
+    if (m.initializer && (ts.isArrowFunction(m.initializer) || ts.isFunctionExpression(m.initializer))) continue;
+    fields.push({ name: `this.${m.name.text}`, ...(m.type ? { typeNode: m.type } : {}), ...(m.initializer ? { initializer: m.initializer } : {}) });
   }
-  // A variable's JSDoc sits on its statement: insert around the statement, not the declarator.
-  let declaration: ts.Node = site.docHost;
-  if (ts.isVariableDeclaration(declaration) && ts.isVariableDeclarationList(declaration.parent) && ts.isVariableStatement(declaration.parent.parent)) declaration = declaration.parent.parent;
-  return { site, ...(doc ? { doc } : {}), tags: readDocTags(text, site.docHost), params, fields, declaration };
+  return fields;
 }
 
 /** Parameter counts a function accepts: required ones, and at most (Infinity with a rest parameter). */
