@@ -1,8 +1,8 @@
-// The issue's goals, each judged from the measured figures: one line per goal with its figure
+// The performance goals (README, "Performance"; bench/PERFORMANCE.md), each judged from the measured figures: one line per goal with its figure
 // and met / not met, so the printed table, the JSON file and the performance notes agree.
 import type { BenchReport, GoalLine, OpMeasurement } from './results';
 
-/** Goal thresholds, as the issue states them. */
+/** Goal thresholds, as bench/PERFORMANCE.md's goals table states them. */
 export const GOALS = {
   /** Check of a passing op ÷ its evaluation floor, once warm. */
   floorRatio: 1.2,

@@ -1,4 +1,4 @@
-// The accuracy bar of issue 2: runs the real command line over the labelled corpus in
+// The accuracy bar (test/corpus/README.md, "the bar"): runs the real command line over the labelled corpus in
 // test/corpus and holds it to the bar (no correct op flagged, ≥ 95 % of bugs caught, no kink
 // called a mismatch, every broken op an error), then compares it with a fixed-step loop.
 
@@ -16,7 +16,7 @@ import * as scaled from '../corpus/scaled';
 import * as float32 from '../corpus/float32';
 import * as outputs from '../corpus/outputs';
 
-/** Share of bug ops that must be called mismatch (issue 2, "Accuracy bar"). */
+/** Share of bug ops that must be called mismatch (test/corpus/README.md). */
 const REQUIRED_BUG_RECALL = 0.95;
 /** Seed of the fixed-step contrast's inputs and upstream gradients. */
 const CONTRAST_SEED = 1234;
@@ -62,14 +62,14 @@ describe('accuracy corpus through the command line', function () {
 
   const ofClass = (c: JudgedOp['label']): JudgedOp[] => ops.filter((o) => o.label === c);
 
-  it('holds the required mix of labelled ops (issue 2, "Accuracy bar")', function () {
+  it('holds the required mix of labelled ops (test/corpus/README.md)', function () {
     const counts: Record<string, number> = { correct: 0, bug: 0, kink: 0, broken: 0 };
     for (const entries of Object.values(loadLabels(root))) for (const l of Object.values(entries)) counts[l.class]++;
     const total = Object.values(counts).reduce((a, b) => a + b, 0);
     assert.ok(total >= 40 && counts.correct >= 16 && counts.bug >= 14 && counts.kink >= 4 && counts.broken >= 5, JSON.stringify(counts));
   });
 
-  it('exits with 1, because the corpus holds mismatches and errors (interface §3)', function () {
+  it('exits with 1, because the corpus holds mismatches and errors (README, "Command line")', function () {
     assert.equal(status, 1);
   });
 

@@ -1,7 +1,7 @@
 // Discovery of every forward form and backward resolution the interface allows
-// (interface.md §1, "Marking an op"), with exact positions of names and tags.
+// (docs/annotations.md, "Where the tags go"), with exact positions of names and tags.
 import assert from 'node:assert/strict';
-import { findOpAt, OP_TAG_NAMES } from '../../server/src/discovery/index';
+import { OP_TAG_NAMES } from '../../server/src/discovery/index';
 import { at, discover, expectProblem, opNamed } from './helpers';
 
 // Fixture: a fictional greenhouse climate controller's ops (our own scenario).
@@ -66,7 +66,7 @@ describe('discovery: forward forms', () => {
   const r = discover(FORMS);
 
   it('finds every annotated forward, in source order, and nothing else', () => {
-    // Spec: interface.md §1 — function declarations, const arrows, const function
+    // Spec: docs/annotations.md — function declarations, const arrows, const function
     // expressions and class methods, exported or not.
     assert.deepEqual(r.ops.map((o) => o.forward), ['heatLoss', 'humidity', 'vent', 'shade', 'Damper.step', 'Heater.power', 'Heater.warm']);
     assert.deepEqual(r.fileProblems, []);
@@ -113,7 +113,7 @@ describe('discovery: forward forms', () => {
   });
 
   it('builds the default backward argument lists', () => {
-    // interface.md §1: functions get every forward parameter then $dy; methods $dy alone.
+    // docs/annotations.md, "@backward": functions get every forward parameter then $dy; methods $dy alone.
     assert.deepEqual(opNamed(r, 'vent').backwardArgs, [{ kind: 'param', name: 'a' }, { kind: 'param', name: 'b' }, { kind: 'upstream' }]);
     assert.deepEqual(opNamed(r, 'Damper.step').backwardArgs, [{ kind: 'upstream' }]);
   });
@@ -134,17 +134,6 @@ describe('discovery: forward forms', () => {
       { tag: 'sample', param: 'this.gain', line: s1.line, column: s1.column, endLine: s1.line, endColumn: s1.column + '@sample this.gain num[2, 3]'.length },
       { tag: 'sample', param: 'x', line: s2.line, column: s2.column, endLine: s2.line, endColumn: s2.column + '@sample x num[3]'.length },
     ]);
-  });
-
-  it('findOpAt answers for the forward name and for a tag, and nothing elsewhere', () => {
-    const name = at(FORMS, 'heatLoss(t');
-    assert.equal(findOpAt(r, name.line, name.column + 2)?.op.forward, 'heatLoss');
-    const tag = at(FORMS, '@sample t f64[8]');
-    const hit = findOpAt(r, tag.line, tag.column + 10);
-    assert.equal(hit?.op.forward, 'heatLoss');
-    assert.equal(hit?.tag?.param, 't');
-    const body = at(FORMS, 'return t; }');
-    assert.equal(findOpAt(r, body.line, body.column), undefined);
   });
 
   it('exports our tag names', () => {

@@ -1,4 +1,4 @@
-// Every annotation mistake the interface names (interface.md §1; issue 2, "Discovery") becomes
+// Every annotation mistake docs/annotations.md names (and the README: "never as a crash") becomes
 // a problem on the op at the exact line and column of the offending tag or token, never an
 // exception. Expected positions are where the needle stands in the fixture (helpers.at).
 import assert from 'node:assert/strict';

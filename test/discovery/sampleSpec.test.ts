@@ -1,4 +1,4 @@
-// Every form of the `@sample` SPEC (interface.md §1, "SPEC of @sample") read into a
+// Every form of the `@sample` SPEC (docs/annotations.md, "@sample PARAM SPEC") read into a
 // SampleSpec, and each malformed spec reported at the exact token inside the tag.
 import assert from 'node:assert/strict';
 import type { SampleSpec } from '../../server/src/engine/types';
@@ -16,7 +16,7 @@ const random = (dtype: string, shape: number[], range: [number, number] = [-1, 1
 
 describe('discovery: @sample specs', () => {
   it('reads element types and shapes', () => {
-    // interface.md §1: f64/f32/num/i32 take dimensions; num and int alone are scalars.
+    // docs/annotations.md: f64/f32/num/i32 take dimensions; num and int alone are scalars.
     assert.deepEqual(specOf('f64[64]'), random('f64', [64]));
     assert.deepEqual(specOf('f32[3, 4]'), random('f32', [3, 4]));
     assert.deepEqual(specOf('num[2,3,5]'), random('num', [2, 3, 5]));

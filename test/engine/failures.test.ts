@@ -1,5 +1,5 @@
 // Bad ops are reported, never thrown: each failure is a verdict with a message naming the part
-// of the op at fault (interface §1 "Bad shapes, missing entries, NaN or Infinity, a forward or
+// of the op at fault (docs/annotations.md, "Outputs": "Bad shapes, missing entries, NaN or Infinity, a forward or
 // backward that changes its inputs, a thrown error: each is reported as a clear error").
 
 import assert from 'node:assert/strict';

@@ -1,4 +1,4 @@
-// The forms the interface allows (shared/design/interface.md §1): outputs that are numbers,
+// The forms the interface allows (docs/annotations.md): outputs that are numbers,
 // typed arrays, nested number[] or objects of named outputs; gradients returned singly, as a
 // list or keyed by name; `$y` and `$dy` in the backward list; methods with `this.FIELD`
 // parameters and `@construct`; float32, literal, fixed and integer inputs. Correct backwards

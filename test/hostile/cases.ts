@@ -5,7 +5,7 @@
 import type { Verdict } from '../../server/src/engine/types';
 
 export interface HostileCase {
-  /** The wording of the case. */
+  /** The case in words (as test/fixtures/hostile/README.md lists it). */
   what: string;
   file: string;
   forward: string;

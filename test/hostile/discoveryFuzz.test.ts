@@ -144,7 +144,7 @@ describe('discovery fuzzing on whole real sources (fast-check)', function () {
   });
 
   it(`a @sample tag broken at random gets a problem on its own op (${BROKEN_TAG_RUNS} runs, seed 5503)`, () => {
-    // Element types that are not ours: f65, F64, float, tensor, ... (interface §1 lists the valid ones).
+    // Element types that are not ours: f65, F64, float, tensor, ... (docs/annotations.md lists the valid ones).
     const badType = fc.constantFrom('f65', 'F64', 'float', 'f6', 'double', 'tensor', 'i64', 'f64x', 'numb');
     const sampled = SOURCES.filter((s) => /@sample \w+ (f64|f32|num|i32|int)\b/.test(s.text) && s.name !== 'annotations.ts');
     const arb = fc.tuple(fc.constantFrom(...sampled), fc.nat(), badType);

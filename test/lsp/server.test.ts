@@ -57,8 +57,8 @@ describe('language server over LSP (trusted workspace)', function () {
     assert.equal(d.severity, DiagnosticSeverity.Error);
     assert.equal(d.source, 'gradient-probe');
     assert.match(String(d.message), /gradient of x is wrong: max relative error 5\.0e-1 at \[\d, \d\]/);
-    // d/dx e^(2x) = 2e^(2x) (chain rule; Abramowitz & Stegun ch. 4 gives d/dx e^x = e^x, from
-    // memory of §4.2): a backward returning e^(2x) is off by |a - n| / |n| = 1/2 at every element.
+    // d/dx e^(2x) = 2e^(2x) (chain rule; d/dx e^x = e^x, Abramowitz & Stegun §4.2, from memory):
+    // a backward returning e^(2x) is off by |a - n| / |n| = 1/2 at every element.
     const report = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri, forward: 'growth' });
     assert.ok(report.result, report.reason);
     const x = report.result.params.find((p) => p.name === 'x')!;

@@ -63,11 +63,14 @@ describe('sandbox: an op stuck inside a built-in the vm timeout cannot interrupt
   });
   after(() => checker.dispose());
 
-  it('is killed by the parent watchdog, and the next op runs on a replacement runner', async () => {
+  it('ends as its own timeout, and the next op runs on a replacement runner', async () => {
     const results = await checker.checkFile(fixture('hostile', 'unstoppable.ts'));
     const stuck = resultOf(results, 'sortForever');
     assert.equal(stuck.verdict, 'error', describeResults(results));
-    assert.match(stuck.message, /timed out after 1000 ms \(the runner did not stop by itself and was killed\)/);
+    // Which stops it depends on how long one sort pass takes on the machine at that moment: the
+    // vm timeout between passes, or the parent's watchdog inside one (tested on its own, without
+    // a race, in supervisor.test.ts with a runner that never answers).
+    assert.match(stuck.message, /^timed out after 1000 ms( \(the runner did not stop by itself and was killed\))?$/);
     assert.equal(resultOf(results, 'double').verdict, 'pass', describeResults(results));
     assert.equal(checker.stats.pool.timeouts, 1);
     assert.equal(checker.stats.pool.spawned, 2);

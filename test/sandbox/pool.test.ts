@@ -169,7 +169,7 @@ describe('checker: listing and filtering', function () {
 
   it('lists ops without starting a runner', () => {
     const checker = new Checker({ settings: settingsWith({}) });
-    const listing = checker.listOps(fixture('hostile', 'failures.ts'));
+    const listing = listOps(fixture('hostile', 'failures.ts'));
     assert.deepEqual(listing.ops.map((o) => o.forward), ['recurse', 'throwsError', 'throwsNumber', 'throwsString']);
     assert.equal(checker.stats.pool.spawned, 0);
     return checker.dispose();

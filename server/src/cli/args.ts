@@ -3,7 +3,7 @@
 
 import type { CheckSettings } from '../engine/settings';
 import { checkSettingValue } from '../project/config';
-import { nearestName } from '../project/nearestName';
+import { nearestName } from '../text/nearestName';
 
 /** When the human output uses colour. */
 export type ColorMode = 'auto' | 'always' | 'never';

@@ -26,7 +26,7 @@ export interface CliIo {
   signal?: AbortSignal;
 }
 
-/** Exit codes of the interface (§3). */
+/** Exit codes (README, "Command line"; docs/report-format.md). */
 export const EXIT_OK = 0;
 export const EXIT_FAILED = 1;
 export const EXIT_USAGE = 2;

@@ -8,6 +8,7 @@ import type { OpDescriptor, OpResult, Problem } from '../engine/types';
 import { Bundler, type BundleStats } from '../sandbox/bundle';
 import type { SourcePlace } from '../sandbox/sourceMap';
 import { IsolatedRunner } from '../sandbox/isolated';
+import { emptyStats, type RunnerStats } from '../sandbox/jobTypes';
 import { RunnerPool, type IsolationReport, type PoolStats, type RunnerPoolOptions } from '../sandbox/pool';
 import { errorResult, resultFromOutcome, summarizeProblems } from './opResult';
 
@@ -79,6 +80,8 @@ export function bindingsOf(op: OpDescriptor): string[] {
 
 export interface CheckerStats {
   pool: PoolStats;
+  /** The isolated interpreter's counters (all zero until an op runs there). */
+  isolated: RunnerStats;
   bundle: BundleStats;
 }
 
@@ -95,9 +98,9 @@ export class Checker {
     this.runnerLog = opts.runner?.log;
   }
 
-  /** Counters of runner reuse and bundle caching (for tests and benchmarks). */
+  /** Counters of runner reuse (both kinds of runner) and bundle caching (for tests and benchmarks). */
   get stats(): CheckerStats {
-    return { pool: this.pool.stats, bundle: this.bundler.stats };
+    return { pool: this.pool.stats, isolated: this.isolated?.stats ?? emptyStats(), bundle: this.bundler.stats };
   }
 
   /** The isolation the runners report from inside, once one has started. */
@@ -108,11 +111,6 @@ export class Checker {
   /** Starts the runner processes now, so the first check does not pay the cold start. */
   warm(settings: CheckSettings = this.settings): void {
     this.pool.warm(settings.memoryLimitMb);
-  }
-
-  /** Discovers the ops of a file without running them. */
-  listOps(file: string, text?: string): OpListing {
-    return listOps(file, text);
   }
 
   /** Checks every annotated op of one file; never rejects. Results are in source order. */

@@ -9,7 +9,8 @@ import { parseBackwardTag, parseNameListTag, parseNameTag, parseSeedTag, parseTo
 import type { PositionMapper, Span, SpanProblem } from './positions';
 import { nonNumberReturn } from './returnType';
 import { parseSampleTag, type SampleTarget } from './sampleTag';
-import { classifyTag, closestWord, type OpTagName } from './tagNames';
+import { nearestName } from '../text/nearestName';
+import { classifyTag, type OpTagName } from './tagNames';
 import type { RawTag } from './tagText';
 
 export interface BuildContext {
@@ -220,7 +221,7 @@ function displayName(site: ForwardSite): string {
 }
 
 function suggest(name: string, candidates: readonly string[]): string {
-  const near = closestWord(name, candidates);
+  const near = nearestName(name, candidates);
   return near ? `; did you mean '${near}'?` : '';
 }
 

@@ -2,7 +2,7 @@
 // parses their tags into OpDescriptors, with every mistake placed at its line and column.
 // One parse, no type checker: the language server calls this on every save.
 import ts from 'typescript';
-import type { OpDescriptor, Problem, TagLocation } from '../engine/types';
+import type { OpDescriptor, Problem } from '../engine/types';
 import { buildOp } from './buildOp';
 import { findForwardSites } from './forwardSites';
 import { collectBindings } from './moduleBindings';
@@ -70,28 +70,4 @@ function syntaxProblems(sf: ts.SourceFile, mapper: PositionMapper): Problem[] {
     const start = d.start ?? 0;
     return mapper.problem({ start, end: start + (d.length ?? 0), message: ts.flattenDiagnosticMessageText(d.messageText, '\n') });
   });
-}
-
-/** What sits at a 1-based position: an op's forward name or one of its tags (for hover). */
-export interface OpAtPosition {
-  op: OpDescriptor;
-  /** The tag under the position, when it is on a tag rather than the forward's name. */
-  tag?: TagLocation;
-}
-
-function within(line: number, column: number, r: { line: number; column: number; endLine: number; endColumn: number }): boolean {
-  const afterStart = line > r.line || (line === r.line && column >= r.column);
-  // The end column is exclusive, but a cursor just past the last character still counts.
-  const beforeEnd = line < r.endLine || (line === r.endLine && column <= r.endColumn);
-  return afterStart && beforeEnd;
-}
-
-/** Finds the op whose forward name or tag covers the position (1-based line and column). */
-export function findOpAt(result: DiscoveryResult, line: number, column: number): OpAtPosition | undefined {
-  for (const op of result.ops) {
-    if (within(line, column, op)) return { op };
-    const tag = op.tags.find((t) => within(line, column, t));
-    if (tag) return { op, tag };
-  }
-  return undefined;
 }

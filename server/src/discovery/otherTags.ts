@@ -1,5 +1,5 @@
 // Parses the bodies of `@backward`, `@samples`, `@construct`, `@fixed`, `@tolerance` and
-// `@seed` (interface.md §1) into values with spans, or problems pointing inside the tag.
+// `@seed` (docs/annotations.md) into values with spans, or problems pointing inside the tag.
 import { TagCursor, type Token } from './lexer';
 import type { Span, SpanProblem } from './positions';
 import type { RawTag } from './tagText';

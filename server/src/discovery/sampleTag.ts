@@ -1,17 +1,17 @@
-// Parses the body of a `@sample PARAM SPEC` tag (interface.md §1, "SPEC of @sample") into the
+// Parses the body of a `@sample PARAM SPEC` tag (docs/annotations.md, "@sample PARAM SPEC") into the
 // parameter it draws and a SampleSpec, or problems pointing inside the tag.
 import type { SampleDtype, SampleSpec } from '../engine/types';
 import { TagCursor, type Token } from './lexer';
 import type { Span, SpanProblem } from './positions';
 import type { RawTag } from './tagText';
-import { closestWord } from './tagNames';
+import { nearestName } from '../text/nearestName';
 import { findJsonSyntaxError } from './jsonError';
 
 const DTYPES: readonly SampleDtype[] = ['f64', 'f32', 'num', 'i32', 'int'];
 /** Element types that are single numbers when written without dimensions. */
 const SCALAR_DTYPES: readonly SampleDtype[] = ['num', 'int'];
 const INTEGER_DTYPES: readonly SampleDtype[] = ['i32', 'int'];
-/** Range used when a spec has no `in [lo, hi]` (interface.md §1). */
+/** Range used when a spec has no `in [lo, hi]` (docs/annotations.md). */
 export const DEFAULT_SAMPLE_RANGE: readonly [number, number] = [-1, 1];
 
 /** The parameter named by a `@sample` tag. */
@@ -70,7 +70,7 @@ function parseSpec(c: TagCursor, param: string, problems: SpanProblem[]): Sample
   }
   if (head.kind === 'punct' && head.text === '=') return parseLiteral(c, head, param, problems);
   if (head.kind !== 'word' || !DTYPES.includes(head.text as SampleDtype)) {
-    const near = head.kind === 'word' ? closestWord(head.text, DTYPES) : undefined;
+    const near = head.kind === 'word' ? nearestName(head.text, DTYPES) : undefined;
     const hint = near ? `; did you mean '${near}'?` : ' (f64, f32, num, i32 or int), or `= JSON`';
     problems.push(c.problemAt(head, `@sample ${param}: unknown element type '${head.text}'${hint}`));
     return undefined;
@@ -103,7 +103,7 @@ function parseSpec(c: TagCursor, param: string, problems: SpanProblem[]): Sample
       }
       continue;
     }
-    const near = word.kind === 'word' ? closestWord(word.text, ['in', 'avoid', 'fixed']) : undefined;
+    const near = word.kind === 'word' ? nearestName(word.text, ['in', 'avoid', 'fixed']) : undefined;
     const hint = near && near !== word.text ? `; did you mean '${near}'?` : ' (expected `in [lo, hi]`, `avoid v, ...` or `fixed`)';
     problems.push(c.problemAt(word, `@sample ${param}: unexpected '${word.text}'${hint}`));
     return undefined;

@@ -1,7 +1,8 @@
 // Our tag names, the ordinary JSDoc/TSDoc tags we leave alone, and the rule that decides when
 // an unknown tag is a misspelling of ours (flagged with "did you mean").
+import { editDistance } from '../text/nearestName';
 
-/** Every tag Gradient Probe reads (interface.md §1). */
+/** Every tag Gradient Probe reads (docs/annotations.md). */
 export const OP_TAG_NAMES = ['backward', 'sample', 'samples', 'fixed', 'construct', 'tolerance', 'seed'] as const;
 export type OpTagName = (typeof OP_TAG_NAMES)[number];
 
@@ -59,35 +60,4 @@ export function classifyTag(name: string): TagClass {
     if (d <= limit && (!best || d < best.distance)) best = { name: t, distance: d };
   }
   return best ? { kind: 'misspelled', suggestion: best.name } : { kind: 'other' };
-}
-
-/**
- * Optimal string alignment distance: insertions, deletions, substitutions and swaps of two
- * neighbouring letters each cost 1 (Damerau's 1964 rule for single typing errors).
- */
-export function editDistance(a: string, b: string): number {
-  const rows = a.length + 1;
-  const cols = b.length + 1;
-  const d: number[] = new Array<number>(rows * cols).fill(0);
-  for (let i = 0; i < rows; i++) d[i * cols] = i;
-  for (let j = 0; j < cols; j++) d[j] = j;
-  for (let i = 1; i < rows; i++) {
-    for (let j = 1; j < cols; j++) {
-      const cost = a[i - 1] === b[j - 1] ? 0 : 1;
-      let v = Math.min(d[(i - 1) * cols + j]! + 1, d[i * cols + j - 1]! + 1, d[(i - 1) * cols + j - 1]! + cost);
-      if (i > 1 && j > 1 && a[i - 1] === b[j - 2] && a[i - 2] === b[j - 1]) v = Math.min(v, d[(i - 2) * cols + j - 2]! + 1);
-      d[i * cols + j] = v;
-    }
-  }
-  return d[rows * cols - 1]!;
-}
-
-/** The closest of a list of words to a misspelled one, if any is within distance 2. */
-export function closestWord(word: string, candidates: readonly string[]): string | undefined {
-  let best: { w: string; d: number } | undefined;
-  for (const c of candidates) {
-    const d = editDistance(word.toLowerCase(), c.toLowerCase());
-    if (d <= MAX_DISTANCE_LONG && (!best || d < best.d)) best = { w: c, d };
-  }
-  return best?.w;
 }

@@ -4,6 +4,7 @@
 export const F64 = Float64Array;
 export const F32 = Float32Array;
 export const I32 = Int32Array;
+export const U8 = Uint8Array;
 
 export const abs = Math.abs;
 export const sqrt = Math.sqrt;

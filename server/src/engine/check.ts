@@ -2,7 +2,7 @@
 // estimate every differentiated parameter's gradient numerically (full, grouped or
 // dot-product), refine suspicious elements, redraw after kinks, and assemble the verdict.
 
-import { F64, abs, describeThrown, formatNumber, max, min } from './builtins';
+import { F64, I32, abs, describeThrown, formatNumber, max, min } from './builtins';
 import { CheckStop, fail, giveUp } from './failure';
 import { GROUPED_WIDENINGS, chooseMethod, widened, type Structure } from './methodChoice';
 import { dotProductProbes, type DotProbeResult } from './dotProductCheck';
@@ -337,7 +337,7 @@ function checkParam(at: Attempt, s: number): ParamCheck {
     est = estimateColumns(at.h, slot, subset, at.ws, at.uOut, at.outOfTime);
     complete = subset.length === n;
   } else {
-    const all = new Int32Array(n);
+    const all = new I32(n);
     for (let i = 0; i < n; i++) all[i] = i;
     est = estimateColumns(at.h, slot, all, at.ws, at.uOut, at.outOfTime);
   }

@@ -2,7 +2,7 @@
 // accepting the shapes the interface allows and naming the parameter and the shapes when the
 // result does not fit.
 
-import { describeValue, formatIndex, getPrototypeOf, isArray, isView, objectKeys, objectPrototype, ownKey, quotedList } from './builtins';
+import { F64, describeValue, formatIndex, getPrototypeOf, isArray, isView, objectKeys, objectPrototype, ownKey, quotedList } from './builtins';
 import { fail } from './failure';
 import type { ParamSlot } from './paramSlot';
 
@@ -92,8 +92,8 @@ function readGradient(value: unknown, slot: ParamSlot, dest: Float64Array): stri
 function swapNote(entries: unknown[], slots: ParamSlot[], bad: number): string {
   for (let q = 0; q < slots.length; q++) {
     if (q === bad) continue;
-    const scratchBad = new Float64Array(slots[q].size);
-    const scratchQ = new Float64Array(slots[bad].size);
+    const scratchBad = new F64(slots[q].size);
+    const scratchQ = new F64(slots[bad].size);
     if (readGradient(entries[bad], slots[q], scratchBad) === null && readGradient(entries[q], slots[bad], scratchQ) === null) {
       return ` — it fits '${slots[q].name}' instead: the gradients of '${slots[bad].name}' and '${slots[q].name}' look swapped`;
     }

@@ -3,7 +3,7 @@
 // (Curtis, Powell & Reid, "On the estimation of sparse Jacobian matrices", J. Inst. Math. Appl.
 // 13 (1974) 117–119). An elementwise op's whole diagonal comes from one pair of forward calls.
 
-import { F64, abs, max, min } from './builtins';
+import { F64, I32, abs, max, min } from './builtins';
 import { giveUp } from './failure';
 import type { ElementEstimates } from './judge';
 import { anchorOf, type Structure } from './methodChoice';
@@ -27,7 +27,7 @@ export function estimateGrouped(
   const n = slot.size;
   const m = st.m;
   const K = ws.length;
-  const indices = new Int32Array(n);
+  const indices = new I32(n);
   for (let i = 0; i < n; i++) indices[i] = i;
   const numeric: Float64Array[] = [];
   const bound: Float64Array[] = [];

@@ -138,7 +138,8 @@ export function paramHints(ev: ParamEvidence, others: ParamSlot[]): string[] {
 }
 
 function transposedHolds(ev: ParamEvidence): boolean {
-  const [r, c] = ev.slot.shape;
+  const r = ev.slot.shape[0];
+  const c = ev.slot.shape[1];
   const n = ev.slot.size;
   if (ev.est.indices.length !== n) return false;
   let support = 0;

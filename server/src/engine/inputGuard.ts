@@ -1,7 +1,7 @@
 // Detects a forward or backward that changes its inputs: a deep copy of the numbers in every
 // argument (and `this.FIELD` value) is taken before a call and compared after it.
 
-import { F64, formatIndex, formatNumber, getPrototypeOf, isArray, isView, objectKeys, objectPrototype } from './builtins';
+import { F64, formatIndex, formatNumber, getPrototypeOf, isArray, isView, objectKeys, objectPrototype, stringifyJson, toStringCall } from './builtins';
 
 /** A frozen copy of one value's numbers (typed arrays and arrays copied, plain objects walked). */
 type Snap =
@@ -86,7 +86,7 @@ function diff(s: Snap, v: unknown, path: number[]): string | null {
 }
 
 function show(v: unknown): string {
-  return typeof v === 'number' ? formatNumber(v) : typeof v === 'string' ? JSON.stringify(v) : String(v);
+  return typeof v === 'number' ? formatNumber(v) : typeof v === 'string' ? stringifyJson(v) : toStringCall(v);
 }
 
 /** Copies of named inputs, to compare after a call. */

@@ -1,7 +1,7 @@
 // The per-element comparison of an analytic gradient value with a numeric estimate and its
 // error bound, and the per-parameter error figures (max absolute/relative error, worst element).
 
-import { abs, max } from './builtins';
+import { F64, I32, U8, abs, max } from './builtins';
 
 /**
  * Whether |a − n| exceeds what tolerance and the estimate's own error allow:
@@ -55,7 +55,7 @@ export interface Comparison {
 /** The level below which values of probe k count as zero: factor × the largest |a| or |n|. */
 export function floorsFor(analytic: Float64Array[], est: ElementEstimates, floorFactor: number): Float64Array {
   const K = analytic.length;
-  const floors = new Float64Array(K);
+  const floors = new F64(K);
   for (let k = 0; k < K; k++) {
     let g = 0;
     const a = analytic[k];
@@ -69,10 +69,10 @@ export function floorsFor(analytic: Float64Array[], est: ElementEstimates, floor
 /** Compares every estimated element against the analytic values (excessOf and relativeError, inlined: this runs per element of million-element parameters). */
 export function compareElements(analytic: Float64Array[], est: ElementEstimates, tol: number, floors: Float64Array): Comparison {
   const count = est.indices.length;
-  const excess = new Float64Array(count);
-  const worstProbe = new Int32Array(count);
-  const rel = new Float64Array(count);
-  const state = new Uint8Array(count);
+  const excess = new F64(count);
+  const worstProbe = new I32(count);
+  const rel = new F64(count);
+  const state = new U8(count);
   const K = analytic.length;
   for (let p = 0; p < count; p++) {
     const i = est.indices[p];

@@ -8,7 +8,7 @@
 // — marks a non-differentiable point within the step (the one-sided quotient argument of
 // Nocedal & Wright, 2nd ed., §8.1, applied at two scales; the ladder design is ours).
 
-import { abs, max, min, sqrt } from './builtins';
+import { F64, abs, max, min, sqrt } from './builtins';
 import { projectDifference, projectMagnitude, type Line } from './lines';
 import { ROUNDOFF_ULPS } from './precision';
 
@@ -62,12 +62,12 @@ export function kinkLadder(line: Line): number[] {
 export function findKink(line: Line, y0: Float64Array, ws: Float64Array[], u: number, tol: number, floors: Float64Array, discrepancy: Float64Array): KinkScan {
   const K = ws.length;
   const steps = kinkLadder(line);
-  const plus = new Float64Array(y0.length);
-  const minus = new Float64Array(y0.length);
-  const pd = new Float64Array(K);
-  const md = new Float64Array(K);
-  const pm = new Float64Array(K);
-  const mm = new Float64Array(K);
+  const plus = new F64(y0.length);
+  const minus = new F64(y0.length);
+  const pd = new F64(K);
+  const md = new F64(K);
+  const pm = new F64(K);
+  const mm = new F64(K);
   let prevGap: Float64Array | null = null;
   let prevStep = 0;
   let lastFlagged = -1;
@@ -85,7 +85,7 @@ export function findKink(line: Line, y0: Float64Array, ws: Float64Array[], u: nu
     projectDifference(ws, y0, minus, md);
     projectMagnitude(ws, plus, y0, pm);
     projectMagnitude(ws, y0, minus, mm);
-    const gap = new Float64Array(K);
+    const gap = new F64(K);
     let flagged: KinkFinding | null = null;
     for (let k = 0; k < K; k++) {
       const dPlus = pd[k] / sp;

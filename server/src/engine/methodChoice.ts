@@ -52,7 +52,10 @@ export function anchorOf(i: number, n: number, m: number): number {
 export function colourCount(n: number, m: number, width: number, maxColours: number): number {
   const tight = max(1, ceil((width * n) / m));
   const safe = max(1, ceil(((width + 1) * n) / m));
-  for (const c of tight === safe ? [tight] : [tight, safe]) {
+  // Two candidates by index, not `for ... of` over an array: user code may replace the array iterator.
+  for (let k = 0; k < 2; k++) {
+    const c = k === 0 ? tight : safe;
+    if (k === 1 && safe === tight) break;
     if (c > maxColours) return 0;
     let ok = true;
     for (let i = 0; i + c < n; i++) {

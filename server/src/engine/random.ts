@@ -1,7 +1,7 @@
 // The engine's seeded random generator: every draw of a check (inputs, upstream gradients,
 // probe directions, subsets) comes from here, never from the context's Math.random.
 
-import { ceil, floor, imul } from './builtins';
+import { U8, ceil, floor, imul } from './builtins';
 
 /** A source of uniform numbers in [0, 1). Injectable: anything with this shape works. */
 export type RandomSource = () => number;
@@ -95,7 +95,7 @@ export function distinctIndices(random: RandomSource, n: number, count: number):
     return all;
   }
   // Floyd's algorithm with a byte per candidate (no Set: user code may replace it).
-  const taken = new Uint8Array(n);
+  const taken = new U8(n);
   for (let j = n - count; j < n; j++) {
     const t = floor(random() * (j + 1));
     taken[taken[t] === 1 ? j : t] = 1;

@@ -2,7 +2,7 @@
 // at the worst element, the per-element error map of 2-D parameters, and the sample inputs as
 // JSON-safe values.
 
-import { F32, F64, I32, abs, getPrototypeOf, isArray, isFiniteNumber, isView, max, objectKeys, objectPrototype, pow } from './builtins';
+import { F32, F64, I32, abs, getPrototypeOf, isArray, isFiniteNumber, isView, objectKeys, objectPrototype, pow } from './builtins';
 import { projectDifference, type Line } from './lines';
 import type { Sample } from './sampling';
 import type { StepScan } from './types';
@@ -106,11 +106,4 @@ export function finiteOnly<T>(v: T): T {
     }
   }
   return v;
-}
-
-/** max over a list, 0 when empty. */
-export function maxOf(values: ArrayLike<number>): number {
-  let m = 0;
-  for (let i = 0; i < values.length; i++) m = max(m, values[i]);
-  return m;
 }

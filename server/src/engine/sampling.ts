@@ -28,7 +28,8 @@ const AVOID_TRIES = 64;
 type RandomSpec = Extract<SampleSpec, { kind: 'random' }>;
 
 function drawElement(random: RandomSource, spec: RandomSpec, precision: Precision): number {
-  const [lo, hi] = spec.range;
+  const lo = spec.range[0];
+  const hi = spec.range[1];
   let best = roundTo(precision, uniform(random, lo, hi));
   if (spec.avoid.length === 0) return best;
   let bestSlack = -Infinity;
@@ -51,7 +52,8 @@ function drawElement(random: RandomSource, spec: RandomSpec, precision: Precisio
 }
 
 function validateSpec(name: string, spec: RandomSpec, maxElements: number): number {
-  const [lo, hi] = spec.range;
+  const lo = spec.range[0];
+  const hi = spec.range[1];
   if (!isFiniteNumber(lo) || !isFiniteNumber(hi) || lo > hi) {
     fail(`@sample ${name}: range [${formatNumber(lo)}, ${formatNumber(hi)}] is not a finite interval with lo ≤ hi`);
   }

@@ -46,7 +46,7 @@ export interface CheckSettings {
    * hardened vm context, at full speed. 'interpreter': the isolated mode, a JavaScript
    * interpreter compiled to WebAssembly (QuickJS) that reaches no Node API, with its own time and
    * memory limits (memory capped at 512 MiB), 35–50× slower on numeric loops
-   * (shared/design/sandbox.md): for small ops, and the only way ops of an untrusted workspace run.
+   * (measured, bench/PERFORMANCE.md): for small ops, and the only way ops of an untrusted workspace run.
    */
   isolation?: 'process' | 'interpreter';
   /**

@@ -2,7 +2,7 @@
 // language server. Everything here is plain JSON-serialisable data: it crosses the process
 // boundary to the sandbox and back.
 
-/** Element types of `@sample` specs (see docs in ../shared/design/interface.md §1). */
+/** Element types of `@sample` specs (docs/annotations.md, "@sample PARAM SPEC"). */
 export type SampleDtype = 'f64' | 'f32' | 'num' | 'i32' | 'int';
 
 /** A parsed `@sample` spec. */

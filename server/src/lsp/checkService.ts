@@ -106,12 +106,6 @@ export class CheckService {
     return this.results.get(uri)?.get(forward)?.seq;
   }
 
-  latestAll(uri: string): Map<string, OpResult> {
-    const out = new Map<string, OpResult>();
-    for (const [forward, stored] of this.results.get(uri) ?? []) out.set(forward, stored.result);
-    return out;
-  }
-
   isRunning(uri: string, forward: string): boolean {
     return (this.running.get(uri)?.get(forward) ?? 0) > 0;
   }

@@ -7,7 +7,7 @@ import type { OpResult } from '../engine/types';
  * Messages that mean the process running the op died or was killed for its memory, rather than
  * the op failing inside it (RunnerPool's texts, and the isolated mode's).
  */
-const CRASH = /^(the runner process died|the interpreter process (ended|failed)|the op used \d+ MiB of memory)/;
+const CRASH = /^(the (runner|interpreter) process died|the op used \d+ MiB of memory)/;
 
 export class CrashNotice {
   /** `file#forward` of ops whose latest run crashed and was already reported. */

@@ -43,12 +43,12 @@ export const Methods = {
   regressionTest: 'gradientProbe/regressionTest',
 } as const;
 
-/** client → server notification: the workspace's trust changed (interface.md §3). */
+/** client → server notification: the workspace's trust changed (DEVELOPERS.md, "Language server entry"). */
 export interface TrustChangedParams {
   workspaceTrusted: boolean;
 }
 
-/** What the client sends in `initializationOptions` (interface.md §3). */
+/** What the client sends in `initializationOptions` (DEVELOPERS.md, "Language server entry"). */
 export interface ProbeInitializationOptions {
   workspaceTrusted?: boolean;
 }

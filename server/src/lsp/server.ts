@@ -65,7 +65,7 @@ export function startServer(connection: Connection): void {
     const options = (params.initializationOptions ?? {}) as ProbeInitializationOptions;
     folders = workspaceFolderPaths(params);
     session = new Session(connection, (uri) => documents.get(uri), {
-      // interface.md §3: a client that says nothing is trusted (someone started the server by hand).
+      // DEVELOPERS.md, "Language server entry": a client that says nothing is trusted (someone started the server by hand).
       trusted: options.workspaceTrusted !== false,
       codeLensRefresh: params.capabilities.workspace?.codeLens?.refreshSupport === true,
     });

@@ -5,7 +5,7 @@ import { existsSync, readFileSync, statSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { DEFAULT_SETTINGS, type CheckSettings } from '../engine/settings';
 import { CONFIG_FIELDS, FILE_GLOB_KEYS, describeValue, fieldForSetting, type ConfigField } from './configFields';
-import { nearestName } from './nearestName';
+import { nearestName } from '../text/nearestName';
 import { relativeInside } from './paths';
 
 /** The name of the project configuration file. */

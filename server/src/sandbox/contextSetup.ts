@@ -6,8 +6,8 @@
 
 /**
  * Built-ins handed to the engine and the user bundle as function parameters. Global lookups in a
- * vm context go through an interceptor and cost 2–12× on numeric loops (measured, see
- * shared/design/sandbox.md); parameters are plain local variables. `Infinity`, `NaN` and
+ * vm context go through an interceptor and cost 2–12× on numeric loops (measured during the
+ * sandbox's design; bench/sandbox.ts times it); parameters are plain local variables. `Infinity`, `NaN` and
  * `undefined` are global lookups too: one `-Infinity` in the engine's per-element comparison
  * made it 4–5× slower in a context than in the host (bench/PERFORMANCE.md).
  */

@@ -1,43 +1,26 @@
 // The isolated mode's host side: runs ops one at a time in a separate process that evaluates
-// them in QuickJS compiled to WebAssembly (no Node API reachable), with a watchdog for when the
-// interpreter's own interrupt does not stop an op in time and a memory watch for WebAssembly
-// memory that grows past the interpreter's own limit. Same job and result shapes as RunnerPool,
-// so the Checker can use either. Slower (QuickJS interprets): for small ops.
-import { spawn, type ChildProcess } from 'node:child_process';
-import { readFileSync } from 'node:fs';
-import { ENGINE_SCRIPT_NAME, findBuiltAsset } from './assets';
+// them in QuickJS compiled to WebAssembly (no Node API reachable). The job queue, the supervised
+// process (watchdog, memory watch, kill, stderr) and the shapes are shared with RunnerPool, so
+// the Checker can use either; what is its own: one process started on first use, the engine sent
+// with every job, a restart after an answer marked poisoned, and the interpreter's memory limit.
+// Slower (QuickJS interprets): for small ops.
+import { EngineCode, ISOLATED_WORKER_SCRIPT_NAME, locateScript } from './assets';
 import { ISOLATED_HEAP_FACTOR, ISOLATED_MEMORY_CAP_MB } from './isolatedEval';
 import type { IsolatedReply, IsolatedRequest } from './isolatedWorker';
-import { RESIDENT_HEADROOM_MB, watchMemory } from './memoryWatch';
-import { KILL_GRACE_MS, OUTPUT_LIMIT_CHARS, type RunJob, type RunResult } from './pool';
+import { JobQueue, closedWhile, type QueuedJob } from './jobQueue';
+import { emptyStats, runnerJobFields, type RunJob, type RunResult, type RunnerStats } from './jobTypes';
+import { RESIDENT_HEADROOM_MB } from './memoryWatch';
 import { runResultFromReply } from './runReply';
 import { runnerEnvironment } from './runnerCommand';
+import { SupervisedProcess } from './supervisedProcess';
 
-/** Name of the built interpreter script next to the other built assets. */
-export const ISOLATED_WORKER_SCRIPT_NAME = 'isolated-worker.js';
+export { ISOLATED_WORKER_SCRIPT_NAME } from './assets';
 
 /**
  * V8 heap of the interpreter process itself, in MiB: it holds only the bridge and the messages;
  * the interpreter's memory is WebAssembly memory, watched separately.
  */
 const BRIDGE_HEAP_MB = 256;
-
-/** Counters for tests and logs. */
-export interface IsolatedStats {
-  processesStarted: number;
-  jobs: number;
-  /** Processes killed because the interpreter did not stop an op in time. */
-  watchdogKills: number;
-  /** Processes killed because their memory passed the limit. */
-  memoryKills: number;
-}
-
-interface Pending {
-  id: number;
-  job: RunJob;
-  resolve: (r: RunResult) => void;
-}
-
 
 export interface IsolatedRunnerOptions {
   /** Paths of the built interpreter script and engine (default: found next to dist/). */
@@ -47,198 +30,160 @@ export interface IsolatedRunnerOptions {
 }
 
 export class IsolatedRunner {
-  readonly stats: IsolatedStats = { processesStarted: 0, jobs: 0, watchdogKills: 0, memoryKills: 0 };
-  private proc: ChildProcess | undefined;
-  private readonly queue: Pending[] = [];
-  private current: Pending | undefined;
-  private watchdog: NodeJS.Timeout | undefined;
-  private stopWatch: (() => void) | undefined;
-  private engineCode: string | undefined;
-  private nextId = 1;
-  private disposed = false;
-  private stderrTail = '';
+  /** The same counters as the pool's; every job sends its bundle (the interpreter keeps none). */
+  readonly stats: RunnerStats = emptyStats();
+  private readonly queue: JobQueue;
+  private readonly engine: EngineCode;
   private readonly log: (line: string) => void;
+  private worker: SupervisedProcess | undefined;
+  /** Jobs the current worker process has taken (for warm reuse in the stats). */
+  private workerJobs = 0;
+  private current: QueuedJob | undefined;
 
   constructor(private readonly options: IsolatedRunnerOptions = {}) {
     this.log = options.log ?? (() => undefined);
+    this.engine = new EngineCode(options.engineScript);
+    this.queue = new JobQueue(this.stats, (job) => {
+      if (this.current !== job) return;
+      this.finish({ error: 'cancelled', elapsedMs: Date.now() - job.startedAt, cause: 'cancelled' });
+      this.restart('cancelled');
+    });
   }
 
   /** Runs one op's check in the interpreter; never rejects. */
   run(job: RunJob): Promise<RunResult> {
-    return new Promise<RunResult>((resolve) => {
-      if (this.disposed) return resolve({ error: 'the checker was closed before this op ran', elapsedMs: 0, cause: 'closed' });
-      if (job.signal?.aborted) return resolve({ error: 'cancelled', elapsedMs: 0, cause: 'cancelled' });
-      const pending: Pending = { id: this.nextId++, job, resolve };
-      job.signal?.addEventListener('abort', () => this.cancel(pending), { once: true });
-      this.queue.push(pending);
-      this.next();
-    });
+    const result = this.queue.submit(job);
+    this.next();
+    return result;
   }
 
   async dispose(): Promise<void> {
-    this.disposed = true;
-    for (const p of this.queue.splice(0)) p.resolve({ error: 'the checker was closed before this op ran', elapsedMs: 0, cause: 'closed' });
-    if (this.current) this.finish({ error: 'the checker was closed while this op ran', elapsedMs: 0, cause: 'closed' });
-    await this.stopProcess();
+    this.queue.close();
+    if (this.current) this.finish(closedWhile(this.current));
+    await this.stopWorker('closed');
   }
 
-  private cancel(pending: Pending): void {
-    const i = this.queue.indexOf(pending);
-    if (i >= 0) {
-      this.queue.splice(i, 1);
-      pending.resolve({ error: 'cancelled', elapsedMs: 0, cause: 'cancelled' });
-    } else if (this.current === pending) {
-      this.finish({ error: 'cancelled', elapsedMs: 0, cause: 'cancelled' });
-      void this.stopProcess();
-      this.next();
-    }
-  }
-
-  private engine(): string | undefined {
-    if (this.engineCode === undefined) {
-      const path = this.options.engineScript ?? findBuiltAsset(ENGINE_SCRIPT_NAME);
-      if (!path) return undefined;
-      this.engineCode = readFileSync(path, 'utf8');
-    }
-    return this.engineCode;
-  }
-
-  private ensureProcess(): ChildProcess | string {
-    if (this.proc) return this.proc;
-    const script = this.options.workerScript ?? findBuiltAsset(ISOLATED_WORKER_SCRIPT_NAME);
-    if (!script) return `the interpreter script ${ISOLATED_WORKER_SCRIPT_NAME} was not found next to dist/ (run npm run build)`;
-    let proc: ChildProcess;
-    try {
-      // Like the runner processes: an environment that carries nothing of ours, no stdio of ours
-      // (it must never write into the language server's stdout); stderr only to explain a crash.
-      proc = spawn(process.execPath, [`--max-old-space-size=${BRIDGE_HEAP_MB}`, '--no-warnings', script], {
-        env: runnerEnvironment(),
-        stdio: ['ignore', 'ignore', 'pipe', 'ipc'],
-        windowsHide: true,
-      });
-    } catch (e) {
-      return `the interpreter process could not start: ${(e as Error).message}`;
-    }
-    this.stats.processesStarted++;
-    this.stderrTail = '';
-    proc.stderr?.setEncoding('utf8');
-    proc.stderr?.on('data', (chunk: string) => {
-      this.stderrTail = (this.stderrTail + chunk).slice(-2000);
-    });
-    proc.on('message', (reply: IsolatedReply) => this.onReply(proc, reply));
-    proc.on('error', (e) => this.onProcessGone(proc, `the interpreter process failed: ${e.message}`));
-    proc.on('exit', (code, signal) => {
-      const last = this.stderrTail.trim().split('\n').pop();
-      this.onProcessGone(proc, `the interpreter process ended (${signal ? `signal ${signal}` : `exit code ${code}`})${last ? `: ${last.slice(0, 300)}` : ''}`);
-    });
-    this.proc = proc;
-    this.hold(proc, false);
+  private ensureWorker(): SupervisedProcess | string {
+    if (this.worker) return this.worker;
+    const script = locateScript(ISOLATED_WORKER_SCRIPT_NAME, 'the interpreter script', this.options.workerScript);
+    if ('error' in script) return script.error;
+    // Like the runner processes: an environment that carries nothing of ours.
+    const holder: { proc?: SupervisedProcess } = {};
+    const proc = SupervisedProcess.start(
+      { command: process.execPath, args: [`--max-old-space-size=${BRIDGE_HEAP_MB}`, '--no-warnings', script.path], env: runnerEnvironment() },
+      {
+        onMessage: (reply) => holder.proc && this.onReply(holder.proc, reply as IsolatedReply),
+        onExit: (code, signal) => holder.proc && this.onExit(holder.proc, code, signal),
+      },
+    );
+    if (typeof proc === 'string') return `the interpreter process could not start: ${proc}`;
+    holder.proc = proc;
+    this.stats.spawned++;
+    this.worker = proc;
+    this.workerJobs = 0;
+    proc.hold(false);
     return proc;
   }
 
   private next(): void {
-    if (this.disposed || this.current || this.queue.length === 0) return;
-    const pending = this.queue.shift()!;
-    const engineCode = this.engine();
-    if (engineCode === undefined) {
-      pending.resolve({ error: `the check engine ${ENGINE_SCRIPT_NAME} was not found next to dist/ (run npm run build)`, elapsedMs: 0, cause: 'runner' });
-      return this.next();
+    while (!this.queue.isClosed && !this.current && this.queue.length > 0) {
+      // When nothing can run, every waiting job gets the reason (a later job tries again).
+      const engine = this.engine.load();
+      if ('error' in engine) return this.queue.failWaiting(engine.error);
+      const worker = this.ensureWorker();
+      if (typeof worker === 'string') return this.queue.failWaiting(worker);
+      this.start(worker, this.queue.take()!, engine.code);
     }
-    const proc = this.ensureProcess();
-    if (typeof proc === 'string') {
-      pending.resolve({ error: proc, elapsedMs: 0, cause: 'runner' });
-      return this.next();
-    }
-    this.current = pending;
-    this.stats.jobs++;
-    this.hold(proc, true);
-    const { job } = pending;
+  }
+
+  private start(proc: SupervisedProcess, queued: QueuedJob, engineCode: string): void {
+    this.current = queued;
+    this.stats.jobsStarted++;
+    if (this.workerJobs > 0) this.stats.warmJobs++;
+    this.workerJobs++;
+    this.stats.bundlesSent++;
+    proc.hold(true);
+    const { job } = queued;
     const limitMs = job.settings.timeLimitMs;
     const memoryMb = Math.min(job.settings.memoryLimitMb, ISOLATED_MEMORY_CAP_MB);
-    const started = Date.now();
-    this.watchdog = setTimeout(() => {
-      if (this.current !== pending) return;
-      this.stats.watchdogKills++;
-      this.finish({ error: `timed out after ${limitMs} ms (the interpreter did not stop by itself and was ended)`, elapsedMs: Date.now() - started, cause: 'timeout' });
-      void this.stopProcess();
-      this.next();
-    }, limitMs + KILL_GRACE_MS);
-    if (proc.pid !== undefined) {
-      // The interpreter's WebAssembly memory may outgrow its own limit inside one long built-in
-      // call, where no interrupt runs: the process is killed from outside then.
-      const residentLimit = ISOLATED_HEAP_FACTOR * memoryMb + RESIDENT_HEADROOM_MB;
-      this.stopWatch = watchMemory(proc.pid, residentLimit, (usedMb) => {
-        if (this.current !== pending) return;
+    // The interpreter's WebAssembly memory may outgrow its own limit inside one long built-in
+    // call, where no interrupt runs: the process is killed from outside then.
+    const residentLimit = ISOLATED_HEAP_FACTOR * memoryMb + RESIDENT_HEADROOM_MB;
+    proc.guard(
+      limitMs,
+      residentLimit,
+      () => {
+        if (this.current !== queued) return;
+        this.stats.timeouts++;
+        this.finish({ error: `timed out after ${limitMs} ms (the interpreter did not stop by itself and was killed)`, elapsedMs: Date.now() - queued.startedAt, cause: 'timeout' });
+        this.restart('watchdog');
+      },
+      (usedMb) => {
+        if (this.current !== queued) return;
         this.stats.memoryKills++;
         this.finish({
           error: `the op used ${Math.round(usedMb)} MiB of memory in the interpreter, over the limit of ${residentLimit} MiB (${ISOLATED_HEAP_FACTOR} × its memory limit of ${memoryMb} MiB plus ${RESIDENT_HEADROOM_MB} MiB for the runtime); it was stopped`,
-          elapsedMs: Date.now() - started,
+          elapsedMs: Date.now() - queued.startedAt,
           cause: 'memory',
         });
-        void this.stopProcess();
-        this.next();
-      });
-    }
+        this.restart('memory');
+      },
+    );
     const request: IsolatedRequest = {
-      id: pending.id,
+      id: queued.id,
       engineCode,
       bundleCode: job.bundleCode,
-      requestJson: JSON.stringify({ op: job.op, settings: job.settings }),
-      seed: job.op.seed ?? job.settings.seed,
-      timeLimitMs: limitMs,
       memoryLimitMb: memoryMb,
-      outputLimitChars: OUTPUT_LIMIT_CHARS,
+      ...runnerJobFields(job),
     };
     proc.send(request);
   }
 
-  private onReply(proc: ChildProcess, reply: IsolatedReply): void {
-    const pending = this.current;
-    if (proc !== this.proc || !pending || reply.id !== pending.id) return;
-    const result = runResultFromReply(reply);
-    if (reply.poisoned) void this.stopProcess();
-    this.finish(result);
-    this.next();
+  private onReply(proc: SupervisedProcess, reply: IsolatedReply): void {
+    const queued = this.current;
+    if (proc !== this.worker || !queued || reply.id !== queued.id) return;
+    if (!reply.ok && reply.timedOut) this.stats.timeouts++;
+    this.finish(runResultFromReply(reply));
+    // An answer marked poisoned (out of memory, an abort): the WebAssembly instance may be
+    // unusable, so the next job gets a fresh process.
+    if (reply.poisoned) this.restart('poisoned');
+    else this.next();
   }
 
-  private onProcessGone(proc: ChildProcess, why: string): void {
-    if (proc !== this.proc) return;
-    this.proc = undefined;
-    if (this.current) {
+  private onExit(proc: SupervisedProcess, code: number | null, signal: NodeJS.Signals | null): void {
+    // A process we stopped on purpose was already replaced.
+    if (proc !== this.worker) return;
+    this.worker = undefined;
+    const queued = this.current;
+    if (queued) {
+      this.stats.crashes++;
+      const why = proc.crashText('interpreter', code, signal, Math.min(queued.job.settings.memoryLimitMb, ISOLATED_MEMORY_CAP_MB));
       this.log(why);
-      this.finish({ error: why, elapsedMs: 0, cause: 'crash' });
+      this.finish({ error: why, elapsedMs: Date.now() - queued.startedAt, cause: 'crash' });
     }
     this.next();
   }
 
   private finish(result: RunResult): void {
-    const pending = this.current;
+    const queued = this.current;
     this.current = undefined;
-    if (this.watchdog) clearTimeout(this.watchdog);
-    this.watchdog = undefined;
-    this.stopWatch?.();
-    this.stopWatch = undefined;
-    if (this.proc) this.hold(this.proc, false);
-    pending?.resolve(result);
-  }
-
-  /** Keeps the caller's event loop alive only while a job runs (an idle process never blocks exit). */
-  private hold(proc: ChildProcess, busy: boolean): void {
-    const handles = [proc, proc.channel, proc.stderr] as Array<{ ref?: () => void; unref?: () => void } | null | undefined>;
-    for (const h of handles) {
-      if (busy) h?.ref?.();
-      else h?.unref?.();
+    this.worker?.unguard();
+    this.worker?.hold(false);
+    if (queued) {
+      this.stats.jobsFinished++;
+      this.queue.settle(queued, result);
     }
   }
 
-  private stopProcess(): Promise<void> {
-    const proc = this.proc;
-    this.proc = undefined;
-    if (!proc || proc.exitCode !== null || proc.signalCode !== null) return Promise.resolve();
-    return new Promise<void>((resolve) => {
-      proc.once('exit', () => resolve());
-      proc.ref();
-      proc.kill('SIGKILL');
-    });
+  /** Ends the process (the next job starts a fresh one) and goes on with the queue. */
+  private restart(reason: string): void {
+    void this.stopWorker(reason);
+    this.next();
+  }
+
+  private stopWorker(reason: string): Promise<void> {
+    const proc = this.worker;
+    this.worker = undefined;
+    return proc ? proc.kill(reason) : Promise.resolve();
   }
 }

@@ -2,6 +2,7 @@
 // JavaScript interpreter with no Node API at all, its own memory limit and an interrupt handler
 // for time. The same context setup and driver as the process runner, so verdicts agree.
 import type { QuickJSContext, QuickJSRuntime, QuickJSWASMModule } from 'quickjs-emscripten';
+import type { RunnerJobFields, RunnerReply } from './jobTypes';
 import { CONTEXT_SETUP_SOURCE, FIXED_DATE_MS, bundleFramesFrom, wrapWithBuiltins } from './contextSetup';
 
 /**
@@ -31,31 +32,14 @@ export const ISOLATED_HEAP_FACTOR = 2;
 const READ_BACK_MS = 1000;
 
 /** One op's check for the interpreter: the same fields the process runner gets. */
-export interface IsolatedJob {
+export type IsolatedJob = RunnerJobFields & {
   engineCode: string;
   bundleCode: string;
-  /** JSON of the engine's CheckRequest ({ op, settings }). */
-  requestJson: string;
-  seed: number;
-  timeLimitMs: number;
+  /** The interpreter's memory limit, in MiB (already capped at ISOLATED_MEMORY_CAP_MB). */
   memoryLimitMb: number;
-  outputLimitChars: number;
-}
+};
 
-export type IsolatedAnswer = (
-  | { ok: true; outcomeJson: string }
-  | {
-      ok: false;
-      error: string;
-      timedOut: boolean;
-      /** The module's own top-level code threw or hung: every op of its file fails the same way. */
-      duringLoad: boolean;
-      /** Where in the bundle a load error was thrown (line 1-based, column 0-based), innermost first. */
-      bundleFrames?: Array<{ line: number; column: number }>;
-    }
-) & {
-  output: string;
-  elapsedMs: number;
+export type IsolatedAnswer = RunnerReply & {
   /** The interpreter may be in a bad state (out of memory, an abort): the worker should start afresh. */
   poisoned: boolean;
 };

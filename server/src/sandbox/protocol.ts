@@ -1,5 +1,6 @@
 // The messages between the runner pool (parent) and a runner process (dist/sandbox-child.js),
 // declared once so both sides agree. Every field is plain data: strings and numbers only.
+import type { RunnerJobFields, RunnerReply } from './jobTypes';
 
 /** Parent → child, once after start: the engine's source, evaluated in every fresh context. */
 export interface InitMessage {
@@ -8,22 +9,14 @@ export interface InitMessage {
 }
 
 /** Parent → child: one op's whole check. */
-export interface JobMessage {
+export type JobMessage = {
   type: 'job';
   id: number;
   /** Content hash of the bundle; the child keeps compiled bundles by this key. */
   bundleKey: string;
   /** The bundle's code, sent only when the parent believes the child lacks it. */
   bundleCode?: string;
-  /** JSON of the engine's CheckRequest ({ op, settings }). */
-  requestJson: string;
-  /** Seed of the context's Math.random (the op's seed). */
-  seed: number;
-  /** vm timeout for loading the module and running the check, in milliseconds. */
-  timeLimitMs: number;
-  /** Most characters of console text kept for the op. */
-  outputLimitChars: number;
-}
+} & RunnerJobFields;
 
 export type ParentMessage = InitMessage | JobMessage;
 
@@ -38,22 +31,8 @@ export interface HelloMessage {
   isolation: string;
 }
 
-/** Child → parent: the outcome of one job. */
-export type ResultMessage =
-  | { type: 'result'; id: number; ok: true; outcomeJson: string; output: string; elapsedMs: number }
-  | {
-      type: 'result';
-      id: number;
-      ok: false;
-      error: string;
-      timedOut: boolean;
-      /** True when the module's own top-level code threw or hung: every op of its file would fail the same way. */
-      duringLoad: boolean;
-      /** For an error thrown at load: where, in the bundle's code (1-based line, 0-based column), innermost first. */
-      bundleFrames?: Array<{ line: number; column: number }>;
-      output: string;
-      elapsedMs: number;
-    };
+/** Child → parent: the outcome of one job (the reply shape both kinds of runner share). */
+export type ResultMessage = { type: 'result'; id: number } & RunnerReply;
 
 /** Child → parent: the child evicted (or never had) the bundle; resend the job with its code. */
 export interface MissingBundleMessage {

@@ -3,15 +3,9 @@
 // callers read.
 
 import type { CheckOutcome, Verdict } from '../engine/types';
-import type { RunResult } from './pool';
+import type { RunFailure, RunnerReply, RunResult } from './jobTypes';
 
 const VERDICTS: ReadonlySet<Verdict> = new Set(['pass', 'mismatch', 'inconclusive', 'error']);
-
-/** What both kinds of runner send back for one job. */
-export type RunnerReply = (
-  | { ok: true; outcomeJson: string }
-  | { ok: false; error: string; timedOut: boolean; duringLoad: boolean; bundleFrames?: Array<{ line: number; column: number }> }
-) & { output: string; elapsedMs: number };
 
 /** Parses the engine's JSON; undefined when it is not an outcome. */
 export function parseOutcome(json: string): CheckOutcome | undefined {
@@ -36,7 +30,7 @@ export function runResultFromReply(reply: RunnerReply): RunResult {
       ? { outcome, output, elapsedMs }
       : { error: 'the check returned malformed data', output, elapsedMs, cause: 'runner' };
   }
-  const result: Extract<RunResult, { error: string }> = {
+  const result: RunFailure = {
     error: reply.error, output, elapsedMs,
     cause: reply.duringLoad ? 'load' : reply.timedOut ? 'timeout' : 'runner',
   };

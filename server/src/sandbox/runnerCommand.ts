@@ -1,7 +1,11 @@
 // Builds the command line and environment of a runner process: permission flag where the
 // runtime has one, heap limit, address-space limit through prlimit where it exists, and an
-// environment that carries nothing of the caller's.
+// environment that carries nothing of the caller's; and which of the optional limits to give up
+// when a runner will not start under them; the isolation a started runner really has.
 import { existsSync } from 'node:fs';
+import { RESIDENT_HEADROOM_MB } from './memoryWatch';
+import type { HelloMessage } from './protocol';
+import { tellingLine } from './supervisedProcess';
 
 /** Where util-linux's prlimit lives on Linux distributions that ship it. */
 const PRLIMIT_PATH = '/usr/bin/prlimit';
@@ -9,7 +13,7 @@ const PRLIMIT_PATH = '/usr/bin/prlimit';
 /**
  * Address space a Node process needs before user code allocates anything, in MiB. Measured on
  * Node 20: a runner reserves ~0.73 GiB of virtual memory at start (VmSize), and the vm timeout
- * adds a watchdog thread; 1 GiB leaves room for those. (shared/design/sandbox.md: 512 MiB is too
+ * adds a watchdog thread; 1 GiB leaves room for those. (Measured during design: 512 MiB is too
  * small for Node to start, 2 GiB in total worked.)
  */
 export const RUNTIME_ADDRESS_SPACE_MB = 1024;
@@ -91,4 +95,75 @@ export function runnerCommand(opts: RunnerCommandOptions): RunnerCommand {
     };
   }
   return { command: process.execPath, args: nodeArgs, env, permissionFlag, addressSpaceLimitMb: undefined };
+}
+
+/** Consecutive failed starts after which queued jobs fail instead of retrying forever. */
+const MAX_START_FAILURES = 3;
+
+/**
+ * The optional limits runners start with (the permission flag, the address-space limit), given
+ * up one at a time when a runner dies before it is ready, the one the error names first.
+ */
+export class RunnerStartPolicy {
+  private usePermission = true;
+  private useAddressLimit = true;
+  private failures = 0;
+
+  command(childScript: string, memoryLimitMb: number): RunnerCommand {
+    return runnerCommand({ childScript, memoryLimitMb, usePermission: this.usePermission, useAddressLimit: this.useAddressLimit });
+  }
+
+  started(): void {
+    this.failures = 0;
+  }
+
+  /** A runner died before it was ready: a line for the log (try again), or why to give up. */
+  failedStart(command: RunnerCommand, stderr: string, code: number | null, signal: NodeJS.Signals | null): { log: string } | { giveUp: string } | undefined {
+    this.failures++;
+    const why = tellingLine(stderr) ?? (signal ? `signal ${signal}` : `exit code ${code}`);
+    const hasPermission = command.permissionFlag !== undefined && this.usePermission;
+    const hasAddressLimit = command.addressSpaceLimitMb !== undefined && this.useAddressLimit;
+    // A runtime that refuses the flag says "bad option"; one that reserves a large virtual-memory
+    // cage (an editor's Electron) dies opaquely under the address-space limit.
+    const blamesPermission = /permission|bad option/i.test(stderr);
+    if (hasPermission && (blamesPermission || !hasAddressLimit)) {
+      this.usePermission = false;
+      return { log: `runner did not start with ${command.permissionFlag} (${why}); running without the permission model` };
+    }
+    if (hasAddressLimit) {
+      this.useAddressLimit = false;
+      return { log: `runner did not start under an address-space limit (${why}); relying on the memory poll` };
+    }
+    if (this.failures >= MAX_START_FAILURES) return { giveUp: `the runner process could not start: ${why}` };
+    return undefined;
+  }
+}
+
+/** What isolation the runners really have, as reported from inside the latest runner. */
+export interface IsolationReport {
+  /** Process id of the runner that reported (for diagnostics). */
+  pid: number;
+  permissionFlag: string | undefined;
+  permissionActive: boolean;
+  addressSpaceLimitMb: number | undefined;
+  memoryLimitMb: number;
+  nodeVersion: string;
+  summary: string;
+}
+
+/** The isolation report of a runner from its hello (checked from inside) and its command line. */
+export function isolationReport(hello: HelloMessage, command: RunnerCommand, memoryLimitMb: number): IsolationReport {
+  const limit = command.addressSpaceLimitMb;
+  const parts = [hello.isolation, `heap limit ${memoryLimitMb} MiB`];
+  parts.push(limit ? `address space limit ${limit} MiB` : 'no address-space limit (prlimit not available)');
+  parts.push(`resident memory watched (limit ${memoryLimitMb + RESIDENT_HEADROOM_MB} MiB)`);
+  return {
+    pid: hello.pid,
+    permissionFlag: command.permissionFlag,
+    permissionActive: hello.permissionActive,
+    addressSpaceLimitMb: limit,
+    memoryLimitMb,
+    nodeVersion: hello.nodeVersion,
+    summary: parts.join('; '),
+  };
 }

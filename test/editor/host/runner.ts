@@ -2,7 +2,7 @@
 // VS Code for the browser (code-server from the npm registry) serves the workbench on
 // 127.0.0.1, Debian's Chromium drives it headless, and the installed .vsix is the extension
 // under test. Installs what is missing, packages, runs each suite, screenshots the editor, and
-// exits with the suites' code. The steps follow ../shared/recipes/editor-host.md.
+// exits with the suites' code. The steps are described in test/editor/README.md.
 
 import { format } from 'node:util';
 import { execFileSync, spawn, type ChildProcess } from 'node:child_process';
