@@ -193,6 +193,18 @@ describe('writing features: quick fixes', () => {
     assert.deepEqual(op.problems.map((p) => fixFromMessage(p.message)), [{ kind: 'create-function', name: 'shadeBackward' }]);
   });
 
+  it('annotates an exported const bound to an arrow function above its statement', () => {
+    const text = `${ORIGINAL}\nexport const dim = (level: number, lamps: Float64Array = new Float64Array(5)): Float64Array => lamps.map((v) => v * level);\n`;
+    const at = after(text, 'export const di');
+    const actions = codeActionsFor({ uri: URI, fileName: FILE, text, ops: factsOf(text).snapshot.ops, range: { start: at, end: at }, diagnostics: [] });
+    const annotate = actions.find((a) => a.title === "Annotate 'dim' as a gradient op");
+    assert.ok(annotate);
+    const fixed = applyAction(text, annotate);
+    // The default value tells the size: new Float64Array(5).
+    assert.ok(fixed.includes('/**\n * @backward dimBackward\n * @sample level num\n * @sample lamps f64[5]\n */\nexport const dim ='), fixed.slice(-400));
+    assert.deepEqual(discoverOps(FILE, fixed).ops.find((o) => o.forward === 'dim')!.params.map((p) => p.sample?.kind), ['random', 'random']);
+  });
+
   it('offers no annotation on a function that already is an op', () => {
     const facts = factsOf(ORIGINAL);
     const at = after(ORIGINAL, 'export function airf');
