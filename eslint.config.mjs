@@ -108,7 +108,7 @@ const CLIENT_LAYERING = {
 };
 
 export default tseslint.config(
-  { ignores: ['tmp/**', '**/*.mjs', 'dist/**', 'node_modules/**', 'test/corpus/**', 'test/fixtures/**', 'examples/**', '.editor-host/**', 'bench/results/**', '*.mjs', 'bin/**'] },
+  { ignores: ['tmp/**', '**/*.mjs', 'dist/**', 'node_modules/**', 'test/corpus/**', 'test/fixtures/**', 'test/outside/**', 'examples/**', '.editor-host/**', 'bench/results/**', '*.mjs', 'bin/**'] },
   ...tseslint.configs.recommended,
   {
     files: ['**/*.ts'],

@@ -14,9 +14,10 @@ import { regressionTestFor } from '../../server/src/lsp/regressionTest';
 import { FIXTURES } from './lspSession';
 
 /** Bundles the snippet with the module it imports from, runs it, and returns the error it threw (or undefined). */
-async function runSnippet(snippet: string, moduleFile: string, names: string[]): Promise<Error | undefined> {
+async function runSnippet(snippet: string, moduleFile: string, names: string[], extraImports: string[] = []): Promise<Error | undefined> {
   const contents = [
     "import assert from 'node:assert/strict';",
+    ...extraImports,
     `import { ${names.join(', ')} } from ${JSON.stringify(moduleFile)};`,
     'const it = (_name: string, body: () => void): void => body();',
     snippet,
@@ -24,6 +25,8 @@ async function runSnippet(snippet: string, moduleFile: string, names: string[]):
   const out = await esbuild.build({
     stdin: { contents, loader: 'ts', resolveDir: FIXTURES, sourcefile: 'snippet.ts' },
     bundle: true, platform: 'node', format: 'cjs', write: false, logLevel: 'silent',
+    // A fixed copy in a temporary folder still finds the repository's packages (@tensorflow/tfjs).
+    nodePaths: [join(FIXTURES, '..', '..', '..', 'node_modules')],
   });
   const file = join(mkdtempSync(join(tmpdir(), 'gp-snippet-')), 'snippet.cjs');
   writeFileSync(file, out.outputFiles[0]!.text);
@@ -39,6 +42,10 @@ async function runSnippet(snippet: string, moduleFile: string, names: string[]):
 /** A copy of a fixture with one text replaced (the fix), in a fresh folder. */
 function fixedCopy(name: string, from: string, to: string): string {
   const text = readFileSync(join(FIXTURES, name), 'utf8');
+  return writeFixed(name, text, from, to);
+}
+
+function writeFixed(name: string, text: string, from: string, to: string): string {
   assert.ok(text.includes(from), `the fix applies to ${name}`);
   const file = join(mkdtempSync(join(tmpdir(), 'gp-fixed-')), name);
   writeFileSync(file, text.replace(from, to));
@@ -50,12 +57,12 @@ describe('regression test snippet', function () {
   const checker = new Checker({ settings: DEFAULT_SETTINGS, workers: 1 });
   after(() => checker.dispose());
 
-  async function snippetFor(name: string, forward: string): Promise<string> {
+  async function snippetFor(name: string, forward: string, tolerance = DEFAULT_SETTINGS.toleranceF64): Promise<string> {
     const file = join(FIXTURES, name);
     const op = discoverOps(file, readFileSync(file, 'utf8')).ops.find((o) => o.forward === forward)!;
     const [result] = await checker.checkFile(file, { filter: forward });
     assert.equal(result?.verdict, 'mismatch', result?.message);
-    const outcome = regressionTestFor(op, result!, DEFAULT_SETTINGS.toleranceF64);
+    const outcome = regressionTestFor(op, result!, tolerance);
     assert.ok('snippet' in outcome, 'reason' in outcome ? outcome.reason : '');
     return outcome.snippet;
   }
@@ -80,5 +87,33 @@ describe('regression test snippet', function () {
     // d/ds (s²·x) = 2·s·x.
     const fixed = fixedCopy('gain.ts', 'd * x[i]! * this.scale[i]!', '2 * d * x[i]! * this.scale[i]!');
     assert.equal(await runSnippet(snippet, fixed, ['Gain']), undefined);
+  });
+
+  it('reproduces a tf.customGrad op\'s mismatch through the library gradient and passes once it is fixed', async () => {
+    const name = '../sandbox/tensor/customGrad.ts';
+    const snippet = await snippetFor(name, 'doubledVentLimit', DEFAULT_SETTINGS.toleranceF32);
+    assert.match(snippet, /tf\.grads\(f\)/);
+    const tf = ["import * as tf from '@tensorflow/tfjs';"];
+    const failure = await runSnippet(snippet, join(FIXTURES, name), ['doubledVentLimit'], tf);
+    assert.equal(failure?.name, 'AssertionError', String(failure));
+    assert.match(failure.message, /opening\[\d\]/);
+    // tanh' = 1 − tanh² (handbook identity): drop the doubling.
+    const text = readFileSync(join(FIXTURES, name), 'utf8');
+    const fixed = writeFixed('customGrad.ts', text, 'tf.mul(2, tf.mul(dy,', 'tf.mul(1, tf.mul(dy,');
+    assert.equal(await runSnippet(snippet, fixed, ['doubledVentLimit'], tf), undefined);
+  });
+
+  it('reproduces a hand-written tensor backward\'s mismatch with tensors in and out', async () => {
+    const name = '../sandbox/tensor/customGrad.ts';
+    const snippet = await snippetFor(name, 'shadeWarmth', DEFAULT_SETTINGS.toleranceF32);
+    const tf = ["import * as tf from '@tensorflow/tfjs';"];
+    const names = ['shadeWarmth', 'shadeWarmthBackward'];
+    const failure = await runSnippet(snippet, join(FIXTURES, name), names, tf);
+    assert.equal(failure?.name, 'AssertionError', String(failure));
+    assert.match(failure.message, /shade\[\d\]/);
+    // σ'(s) = σ(s)(1 − σ(s)) (handbook identity).
+    const text = readFileSync(join(FIXTURES, name), 'utf8');
+    const fixed = writeFixed('customGrad.ts', text, 'tf.mul(s, tf.add(1, s))', 'tf.mul(s, tf.sub(1, s))');
+    assert.equal(await runSnippet(snippet, fixed, names, tf), undefined);
   });
 });

@@ -1,5 +1,6 @@
 // The Checker: the one orchestration shared by the CLI, the language server and benchmarks.
 // discovery → bundle once per file → one sandbox job per op (in parallel across runners) → OpResult.
+import { setMaxListeners } from 'node:events';
 import { readFileSync } from 'node:fs';
 import { dirname, relative, resolve } from 'node:path';
 import { discoverOps, type DiscoveryResult } from '../discovery/index';
@@ -72,7 +73,7 @@ export function bindingsOf(op: OpDescriptor): string[] {
   } else {
     names.push(t.forwardName);
   }
-  if (!t.backwardIsMethod) names.push(t.backwardName);
+  if (!t.backwardIsMethod && !t.libraryGradient) names.push(t.backwardName);
   if (t.samplesFactory) names.push(t.samplesFactory);
   if (t.constructFactory) names.push(t.constructFactory);
   return names;
@@ -166,7 +167,8 @@ export class Checker {
     // One bundle per file, exposing every runnable op's bindings (not only the filtered ones),
     // so the cache serves every filter.
     const bindings = listing.ops.filter((op) => op.problems.length === 0).flatMap(bindingsOf);
-    const bundle = await this.bundler.bundle({ file: abs, text: source, bindings });
+    const tensorLibrary = listing.ops.find((op) => op.problems.length === 0 && op.target.tensorLibrary)?.target.tensorLibrary;
+    const bundle = await this.bundler.bundle({ file: abs, text: source, bindings, ...(tensorLibrary ? { tensorLibrary } : {}) });
     if (!bundle.ok) {
       const location = bundle.location;
       const problems = location && location.file === abs ? [{ line: location.line, column: location.column, message: bundle.message }] : undefined;
@@ -184,6 +186,8 @@ export class Checker {
 
     // The per-file cap and the caller's signal both stop what is still queued or running.
     const stop = new AbortController();
+    // Every queued op listens to it (one listener each): not a leak, whatever Node's default of 10 says.
+    setMaxListeners(runnable.length + 10, stop.signal);
     const fileLimitMs = settings.timeLimitMs * FILE_TIME_LIMIT_FACTOR;
     let stopReason = 'cancelled';
     // Where the module threw while loading, when that is a line of this file.

@@ -11,6 +11,7 @@ import { nonNumberReturn } from './returnType';
 import { parseSampleTag, type SampleTarget } from './sampleTag';
 import { nearestName } from '../text/nearestName';
 import { classifyTag, type OpTagName } from './tagNames';
+import { customGradSaveParam, libraryGradientTagNameProblem, markTensorParams, readLibraryGradientTag, tensorLibraryProblem, libraryOf, type SampleTagRef } from './tensorOps';
 import type { RawTag } from './tagText';
 
 export interface BuildContext {
@@ -42,6 +43,9 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     } else if (cls.kind === 'misspelled') {
       problems.push({ ...raw.nameSpan, message: `unknown tag @${raw.name}; did you mean @${cls.suggestion}?` });
       if (OP_MARKING_TAGS.includes(cls.suggestion)) marked = true;
+    } else {
+      const near = libraryGradientTagNameProblem(raw);
+      if (near) problems.push(near);
     }
   }
   if (!marked) return undefined;
@@ -59,8 +63,10 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   // Forward parameters: plain names only.
   const paramNames: string[] = [];
   const paramSpans = new Map<string, Span>();
+  const saveParam = customGradSaveParam(site, rawTags);
   for (const p of site.fn?.parameters ?? []) {
     if (ts.isIdentifier(p.name) && p.name.text === 'this') continue; // TypeScript's `this` type, not an argument
+    if (p === saveParam) continue; // customGrad's save function, passed by the library
     if (!ts.isIdentifier(p.name) || p.dotDotDotToken) {
       problems.push({ start: p.getStart(), end: p.getEnd(), message: `parameters must be plain names (found '${p.getText()}'): rest and destructured parameters cannot be sampled` });
       continue;
@@ -120,6 +126,13 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     ...paramNames.map((name) => withSample({ name, isField: false }, samples.get(name))),
     ...fieldOrder.map((name) => withSample({ name, isField: true }, samples.get(name))),
   ];
+  const sampleTagRefs: SampleTagRef[] = [];
+  for (const [raw, param] of sampleTargets) sampleTagRefs.push({ param, span: raw.span });
+  const hasTensors = markTensorParams(site, params, sampleTagRefs, problems);
+  if (hasTensors) {
+    const noLibrary = tensorLibraryProblem(site);
+    if (noLibrary) problems.push({ ...site.nameSpan, message: noLibrary });
+  }
 
   // @fixed (with @samples).
   const fixed: string[] = [];
@@ -161,13 +174,17 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   // @backward: name, resolution, argument list.
   const backTag = firstOf.get('backward');
   let parsedBack: ParsedBackward = { problems: [] };
-  if (backTag) {
+  const libraryForm = backTag ? readLibraryGradientTag(backTag.raw, site, (n) => ctx.bindings.topLevel.has(n)) : { kind: 'other' as const };
+  if (libraryForm.kind !== 'other') {
+    problems.push(...libraryForm.problems);
+  } else if (backTag) {
     parsedBack = parseBackwardTag(backTag.raw);
     problems.push(...parsedBack.problems);
   } else if (!problems.some((p) => /did you mean @backward\?/.test(p.message))) {
     const first = ours[0]?.raw.nameSpan ?? site.nameSpan;
     problems.push({ ...first, message: `${displayName(site)} has sampling tags but no @backward: add \`@backward NAME\` naming its gradient function` });
   }
+  const libraryGradient = libraryForm.kind === 'library';
   const backwardName = parsedBack.name ?? '';
   const resolved = parsedBack.name && parsedBack.nameSpan ? resolveBackward(parsedBack.name, parsedBack.nameSpan, site, ctx.bindings, problems) : undefined;
 
@@ -193,7 +210,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     endLine: end.line,
     endColumn: end.column,
     forward: displayName(site),
-    backward: backwardName,
+    backward: libraryGradient ? 'library-gradient' : backwardName,
     target: {
       kind: site.kind,
       forwardName: site.name,
@@ -209,6 +226,11 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   if (site.className !== undefined) op.target.className = site.className;
   if (samplesFactory) op.target.samplesFactory = samplesFactory;
   if (constructFactory) op.target.constructFactory = constructFactory;
+  if (libraryGradient) op.target.libraryGradient = true;
+  // Any op of a module that imports the library: tensor outputs are read back, and every call
+  // runs in the library's scope, so the tensors it makes are disposed.
+  const specifier = libraryOf(site).specifier;
+  if (specifier) op.target.tensorLibrary = specifier;
   if (tolerance !== undefined) op.tolerance = tolerance;
   if (seed !== undefined) op.seed = seed;
   if (resolved?.span) op.backwardLocation = { file: ctx.fileName, ...ctx.mapper.at(resolved.span.start) };

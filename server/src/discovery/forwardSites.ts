@@ -4,6 +4,7 @@
 import ts from 'typescript';
 import { unwrapExpression } from './moduleBindings';
 import type { Span } from './positions';
+import { customGradFunction, tensorLibraryImports, type TensorLibraryImports } from './tensorLibrary';
 
 export interface ForwardSite {
   kind: 'function' | 'method';
@@ -19,6 +20,11 @@ export interface ForwardSite {
   fn?: ts.SignatureDeclaration;
   /** Why the checker cannot run this declaration as it stands; becomes a problem on the op. */
   unsupported?: string;
+  /**
+   * A const bound to `tf.customGrad(fn)`: `fn` is the function above (its inputs are tensors,
+   * and its last parameter may be the save function); the engine calls the const itself.
+   */
+  customGrad?: boolean;
 }
 
 const NOT_TOP_LEVEL =
@@ -42,7 +48,7 @@ function plainName(name: ts.Node | undefined): string | undefined {
 }
 
 /** Sites of one top-level statement. */
-function statementSites(st: ts.Statement): ForwardSite[] {
+function statementSites(st: ts.Statement, lib: TensorLibraryImports): ForwardSite[] {
   if (ts.isFunctionDeclaration(st)) {
     const site: ForwardSite = {
       kind: 'function',
@@ -61,8 +67,12 @@ function statementSites(st: ts.Statement): ForwardSite[] {
       if (!ts.isIdentifier(d.name)) return [];
       const init = d.initializer && unwrapExpression(d.initializer);
       const site: ForwardSite = { kind: 'function', name: d.name.text, nameSpan: spanOf(d.name), docHost: d };
+      const customFn = init && customGradFunction(init, lib);
       if (init && isFunctionLike(init)) site.fn = init;
-      else site.unsupported = `'${d.name.text}' is not bound to a function: @backward goes on a function, a const bound to an arrow function or function expression, or a class method`;
+      else if (customFn) {
+        site.fn = customFn;
+        site.customGrad = true;
+      } else site.unsupported = `'${d.name.text}' is not bound to a function: @backward goes on a function, a const bound to an arrow function, a function expression or a \`tf.customGrad(...)\` call, or a class method`;
       return [site];
     });
   }
@@ -147,10 +157,11 @@ function containsOffset(sorted: readonly number[], start: number, end: number): 
  */
 export function findForwardSites(sf: ts.SourceFile): ForwardSite[] {
   const sites: ForwardSite[] = [];
+  const lib = tensorLibraryImports(sf);
   const atOffsets: number[] = [];
   for (let i = sf.text.indexOf('@'); i !== -1; i = sf.text.indexOf('@', i + 1)) atOffsets.push(i);
   for (const st of sf.statements) {
-    sites.push(...statementSites(st));
+    sites.push(...statementSites(st, lib));
     // Look inside for annotated declarations the checker cannot reach.
     if (ts.isClassDeclaration(st)) {
       for (const m of st.members) nestedSites(m, sites, atOffsets);

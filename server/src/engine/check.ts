@@ -108,6 +108,7 @@ export function runCheck(exposed: Record<string, unknown>, request: CheckRequest
         const note = `redrawn ${attempt}× after a non-differentiable point near ${elementName(first.slot, first.index)} = ${formatNumber(first.value)}`;
         result.message = result.message ? `${result.message}; ${note}` : note;
       }
+      if (op.target.libraryGradient) result.gradientSource = 'library';
       return finiteOnly(result);
     }
     const last = kinks[kinks.length - 1];

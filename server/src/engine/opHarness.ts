@@ -10,6 +10,7 @@ import { buildValue, describeOutputIndex, detectLayout, firstNonFinite, flattenI
 import type { ParamSlot } from './paramSlot';
 import type { RandomSource } from './random';
 import { drawSample, type Sample } from './sampling';
+import { TensorBridge } from './tensorBridge';
 import type { CallCounts, OpDescriptor } from './types';
 
 type AnyFunction = (...args: unknown[]) => unknown;
@@ -45,6 +46,8 @@ export class OpHarness {
   layout: OutputLayout | null = null;
   /** Whether the backward receives `$dy`; when not, the forward returns a number. */
   readonly takesUpstream: boolean;
+  /** Tensors in and out, and the library's gradient, for ops that work with TensorFlow.js. */
+  private readonly tensors: TensorBridge | null;
 
   constructor(
     private readonly op: OpDescriptor,
@@ -54,6 +57,7 @@ export class OpHarness {
     let upstream = false;
     for (let i = 0; i < op.backwardArgs.length; i++) if (op.backwardArgs[i].kind === 'upstream') upstream = true;
     this.takesUpstream = upstream;
+    this.tensors = TensorBridge.forOp(op, exposed);
     if (t.kind === 'method') {
       const className = t.className ?? '';
       const cls = lookup(exposed, className);
@@ -73,7 +77,8 @@ export class OpHarness {
       if (typeof fwd !== 'function') fail(`forward '${op.forward}' is not a function (got ${describeValue(fwd)})`);
       this.forwardFn = fwd as AnyFunction;
       this.classCtor = null;
-      const bwd = lookup(exposed, t.backwardName);
+      // The library's gradient of the forward stands in for a backward function.
+      const bwd = t.libraryGradient ? this.forwardFn : lookup(exposed, t.backwardName);
       if (typeof bwd !== 'function') fail(`backward '${op.backward}' is not a function (got ${describeValue(bwd)})`);
       this.backwardFn = bwd as AnyFunction;
     }
@@ -108,6 +113,7 @@ export class OpHarness {
       this.instance = inst as Record<string, unknown>;
     }
     this.sample = drawSample(this.op, rng, this.instance, this.samplesFn as ((r: () => number) => unknown) | null, maxElements);
+    if (this.tensors !== null && this.samplesFn !== null) this.tensors.adoptFactoryTensors(this.sample, this.op.fixed ?? []);
     return this.sample;
   }
 
@@ -144,8 +150,10 @@ export class OpHarness {
   forwardRaw(): unknown {
     this.calls.forward++;
     try {
+      if (this.tensors !== null) return this.tensors.callForward(this.forwardFn, this.instance ?? undefined, this.args);
       return reflectApply(this.forwardFn, this.instance ?? undefined, this.args);
     } catch (e) {
+      if (e instanceof CheckStop) throw e;
       return fail(`forward threw ${this.whereText()}: ${describeThrown(e)}`);
     }
   }
@@ -216,9 +224,22 @@ export class OpHarness {
     const list = this.backwardArgs(dy, y);
     this.calls.backward++;
     let result: unknown;
+    const thisArg = this.op.target.backwardIsMethod ? (this.instance ?? undefined) : undefined;
     try {
-      result = reflectApply(this.backwardFn, this.op.target.backwardIsMethod ? (this.instance ?? undefined) : undefined, list);
+      if (this.tensors !== null && this.op.target.libraryGradient) {
+        const names: string[] = [];
+        for (let p = 0; p < slots.length; p++) names[p] = slots[p].name;
+        // Without $dy the forward returns a number: its plain gradient is the one for dy = 1.
+        let upstream = dy;
+        if (upstream === null) {
+          upstream = new F64(y.length);
+          for (let j = 0; j < y.length; j++) upstream[j] = 1;
+        }
+        result = this.tensors.libraryGradient(this.forwardFn, this.args, names, upstream);
+      } else if (this.tensors !== null) result = this.tensors.callBackward(this.backwardFn, thisArg, list, this.op.backwardArgs);
+      else result = reflectApply(this.backwardFn, thisArg, list);
     } catch (e) {
+      if (e instanceof CheckStop) throw e;
       fail(`backward threw: ${describeThrown(e)}`);
     }
     try {
@@ -231,7 +252,7 @@ export class OpHarness {
       const j = firstNonFinite(dests[p]);
       if (j >= 0) {
         const where = slots[p].shape.length ? ` at index ${formatIndex(unravelSlot(slots[p], j))}` : '';
-        fail(`gradient of '${slots[p].name}' has ${nonFiniteName(dests[p][j])}${where}`);
+        fail(`gradient of '${slots[p].name}' has ${nonFiniteName(dests[p][j])}${where}${this.tensors !== null ? this.tensors.upstreamNote() : ''}`);
       }
     }
   }

@@ -58,6 +58,12 @@ export interface ParamDescriptor {
   isField: boolean;
   /** Absent when the op uses `@samples FACTORY`. */
   sample?: SampleSpec;
+  /**
+   * The declared type is a TensorFlow.js tensor (or the parameter is an input of a
+   * `customGrad` function): the forward receives a float32 tensor of the sampled shape, made
+   * with the module's own copy of the library.
+   */
+  tensor?: boolean;
 }
 
 /** One argument the backward receives, in order. */
@@ -81,7 +87,21 @@ export interface OpTarget {
   samplesFactory?: string;
   /** `@construct FACTORY`: top-level function returning the instance. */
   constructFactory?: string;
+  /**
+   * The TensorFlow.js module the file imports (`@tensorflow/tfjs`, ...), when the op passes
+   * tensors or asks for the library's gradient: the bundle exposes that module's namespace
+   * under TENSOR_LIBRARY_BINDING, so tensors are made with the user's own copy.
+   */
+  tensorLibrary?: string;
+  /**
+   * `@backward library-gradient`: no backward function; the library's own gradient call
+   * (`grads`) of the forward is the backward. `backwardName` is then ''.
+   */
+  libraryGradient?: boolean;
 }
+
+/** Key of the tensor library's namespace among the bindings the bundle exposes. */
+export const TENSOR_LIBRARY_BINDING = '__gradientProbeTensorLibrary';
 
 /**
  * Which derivative an op's check compares with the forward: a vector-Jacobian product
@@ -190,6 +210,11 @@ export interface CheckOutcome {
    * Capped in size; absent when too large.
    */
   inputs?: { args: unknown[]; fields: Record<string, unknown> };
+  /**
+   * 'library' when the backward compared with the finite differences was the tensor library's
+   * own gradient of the forward (`@backward library-gradient`); absent for a hand-written one.
+   */
+  gradientSource?: 'library';
 }
 
 /** One op's entry in the report (the `--json` `pairs` entries). */

@@ -19,6 +19,9 @@ export type SnippetOutcome = { snippet: string } | { reason: string };
 export function regressionTestFor(op: OpDescriptor, result: OpResult, tolerance: number): SnippetOutcome {
   if (result.verdict !== 'mismatch') return { reason: `${op.forward} is not a mismatch (verdict ${result.verdict}); there is no failing case to copy` };
   if (!result.inputs) return { reason: `the sample of ${op.forward} was too large to record, so it cannot be written into a test` };
+  // TensorFlow.js ops: tensors are made from the recorded arrays at every call, outputs read back.
+  const tensorLib = op.target.tensorLibrary;
+  const tensorOp = tensorLib !== undefined && (op.target.libraryGradient === true || op.params.some((p) => p.tensor));
   const param = result.params.filter((p) => p.verdict === 'mismatch').sort((a, b) => b.maxRelError - a.maxRelError)[0];
   if (!param || !param.worst) return { reason: `${op.forward}: no mismatching element was recorded` };
 
@@ -33,25 +36,49 @@ export function regressionTestFor(op: OpDescriptor, result: OpResult, tolerance:
 
   push(0, `// Regression test for ${op.forward}: Gradient Probe found its backward wrong at seed ${result.seed}`);
   push(0, `// (${param.name} at ${indexText(param.worst.index)}: backward ${param.worst.analytic}, numeric ${param.worst.numeric}).`);
-  push(0, `// Needs: import assert from 'node:assert/strict'; and ${importList(op).join(', ')} imported from the op's module.`);
+  const needs = tensorOp ? ` import * as tf from '${tensorLib}';` : '';
+  push(0, `// Needs: import assert from 'node:assert/strict';${needs} and ${importList(op).join(', ')} imported from the op's module.`);
   push(0, `it('${quote(op.forward)}: backward agrees with a central difference at the recorded sample (seed ${result.seed})', () => {`);
   push(1, `const args: any[] = [${result.inputs.args.map(literal).join(', ')}];`);
+  const call = (list: string): string => (isMethod ? `self.${op.target.forwardName}(...${list})` : `${op.target.forwardName}(...${list})`);
+  if (tensorOp) {
+    const shapes = op.params.filter((p) => !p.isField).map((p) => (!p.tensor ? 'null' : p.sample?.kind === 'random' ? JSON.stringify(p.sample.shape) : 'undefined'));
+    push(1, `// Tensor parameters get tensors of these shapes (null: not a tensor; undefined: the library infers it).`);
+    push(1, `const shapes: (number[] | null | undefined)[] = [${shapes.join(', ')}];`);
+    push(1, `const toArgs = (): any[] => args.map((v, i) => (shapes[i] === null ? v : tf.tensor(v, shapes[i])));`);
+    push(1, `const fromTensor = (v: any): any => (v && typeof v.dataSync === 'function' ? Float32Array.from(v.dataSync()) : Array.isArray(v) ? v.map(fromTensor) : v);`);
+  }
   if (isMethod) {
     const make = op.target.constructFactory ? `${op.target.constructFactory}()` : `new ${op.target.className}()`;
     push(1, `const self: any = ${make};`);
     for (const [field, value] of Object.entries(result.inputs.fields)) push(1, `self.${field} = ${literal(value)};`);
-    push(1, `const forward = (): any => self.${op.target.forwardName}(...args);`);
+  }
+  if (tensorOp) {
+    push(1, `const forward = (): any => tf.tidy(() => fromTensor(${call('toArgs()')}));`);
+    push(1, `const outShape: number[] | null = tf.tidy(() => { const o: any = ${call('toArgs()')}; return o && typeof o.dataSync === 'function' ? o.shape : null; });`);
+    push(1, `const asOutput = (v: any): any => (outShape ? tf.tensor(v, outShape) : v);`);
   } else {
-    push(1, `const forward = (): any => ${op.target.forwardName}(...args);`);
+    push(1, `const forward = (): any => ${call('args')};`);
   }
   push(1, `// Flattens a number, typed array, nested array or object of outputs into one list.`);
   push(1, `const flat = (v: any): number[] => typeof v === 'number' ? [v] : ArrayBuffer.isView(v) || Array.isArray(v) ? Array.from(v as ArrayLike<any>).flatMap(flat) : Object.keys(v).sort().flatMap((k) => flat(v[k]));`);
   push(1, `const onesLike = (v: any): any => typeof v === 'number' ? 1 : ArrayBuffer.isView(v) ? (v as any).map(() => 1) : Array.isArray(v) ? v.map(onesLike) : Object.fromEntries(Object.keys(v).map((k) => [k, onesLike(v[k])]));`);
   push(1, `const y = forward();`);
   push(1, `const dy = onesLike(y);`);
-  const backwardArgs = op.backwardArgs.map((a) => backwardArgText(a, plainParams));
   const callee = isMethod && op.target.backwardIsMethod ? `self.${op.target.backwardName}` : op.target.backwardName;
-  push(1, `const grads: any = ${callee}(${backwardArgs.join(', ')});`);
+  if (tensorOp && op.target.libraryGradient) {
+    const diff = differentiated.map((n) => plainParams.indexOf(n));
+    push(1, `// The library's own gradient of the forward (what \`@backward library-gradient\` checks), for upstream dy.`);
+    push(1, `const diff = ${JSON.stringify(diff)};`);
+    push(1, `const libraryGrads: any[] = tf.tidy(() => { const xs = toArgs(); const f = (...moved: any[]): any => { const a = toArgs(); diff.forEach((p, k) => { a[p] = moved[k]; }); return ${call('a')}; }; return fromTensor(tf.grads(f)(diff.map((p) => xs[p]), asOutput(dy))); });`);
+    push(1, `const grads: any = diff.length === 1 ? libraryGrads[0] : libraryGrads;`);
+  } else if (tensorOp) {
+    const backwardArgs = op.backwardArgs.map((a) => (a.kind === 'param' ? backwardArgText(a, plainParams).replace(/^args\[/, 't[') : `asOutput(${a.kind === 'output' ? 'y' : 'dy'})`));
+    push(1, `const grads: any = tf.tidy(() => { const t = toArgs(); return fromTensor(${callee}(${backwardArgs.join(', ')})); });`);
+  } else {
+    const backwardArgs = op.backwardArgs.map((a) => backwardArgText(a, plainParams));
+    push(1, `const grads: any = ${callee}(${backwardArgs.join(', ')});`);
+  }
   const pick = differentiated.length === 1 ? 'grads' : `(Array.isArray(grads) ? grads[${differentiated.indexOf(param.name)}] : grads[${JSON.stringify(param.name.replace(/^this\./, ''))}])`;
   push(1, `const analytic = flat(${pick})[${flatIndex(param)}];`);
   push(1, `// The worst element, reached through its multi-index ${indexText(param.worst.index)}.`);
@@ -75,6 +102,7 @@ export function regressionTestFor(op: OpDescriptor, result: OpResult, tolerance:
 
 function importList(op: OpDescriptor): string[] {
   if (op.target.kind === 'method') return [op.target.constructFactory ?? op.target.className ?? op.forward];
+  if (op.target.libraryGradient) return [op.target.forwardName];
   return [op.target.forwardName, op.target.backwardName];
 }
 

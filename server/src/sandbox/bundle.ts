@@ -7,6 +7,7 @@ import { builtinModules } from 'node:module';
 import { dirname, extname, isAbsolute, join, relative, resolve } from 'node:path';
 import * as esbuild from 'esbuild';
 import type * as esbuildTypes from 'esbuild';
+import { TENSOR_LIBRARY_BINDING } from '../engine/types';
 import { originalPlace, type SourcePlace } from './sourceMap';
 
 /** Bundles kept in memory; a workspace rarely has more files with ops open at once. */
@@ -31,6 +32,11 @@ export interface BundleRequest {
   text: string;
   /** Top-level names to expose: forward, class, backward, samples and construct factories. */
   bindings: string[];
+  /**
+   * A TensorFlow.js package the file imports: its namespace is imported too (resolved from the
+   * file's folder, so it is the user's own copy) and exposed as TENSOR_LIBRARY_BINDING.
+   */
+  tensorLibrary?: string;
 }
 
 export type BundleResult =
@@ -92,11 +98,22 @@ function sha256(...parts: string[]): string {
   return h.digest('hex');
 }
 
-/** The code appended to the entry: `globalThis.__gradientProbeExposed = { name: …, … }`. */
-export function exposeCode(bindings: string[]): string {
+/** Package names a tensor-library import may name (checked again here: it is spliced into code). */
+const TENSOR_LIBRARY_PACKAGE = /^@tensorflow\/tfjs(?:-core|-node|-node-gpu)?$/;
+
+/**
+ * The code appended to the entry: `globalThis.__gradientProbeExposed = { name: …, … }`, with
+ * the tensor library's namespace (an import, hoisted like every import) when asked for.
+ */
+export function exposeCode(bindings: string[], tensorLibrary?: string): string {
   const names = [...new Set(bindings)].filter((n) => IDENTIFIER.test(n)).sort();
   const fields = names.map((n) => `  ${JSON.stringify(n)}: typeof ${n} !== 'undefined' ? ${n} : undefined`);
-  return `\n;globalThis.__gradientProbeExposed = {\n${fields.join(',\n')}\n};\n`;
+  let head = '';
+  if (tensorLibrary !== undefined && TENSOR_LIBRARY_PACKAGE.test(tensorLibrary)) {
+    head = `\n;import * as ${TENSOR_LIBRARY_BINDING} from ${JSON.stringify(tensorLibrary)};`;
+    fields.push(`  ${JSON.stringify(TENSOR_LIBRARY_BINDING)}: ${TENSOR_LIBRARY_BINDING}`);
+  }
+  return `${head}\n;globalThis.__gradientProbeExposed = {\n${fields.join(',\n')}\n};\n`;
 }
 
 /** Looks places up in an entry's source map (parsed on each call: only failures ask). */
@@ -142,7 +159,7 @@ export class Bundler {
     const bindings = [...new Set(request.bindings)].sort();
     const bad = bindings.find((b) => !IDENTIFIER.test(b));
     if (bad !== undefined) return { ok: false, message: `"${bad}" is not a plain identifier` };
-    const requestKey = sha256(file, request.text, bindings.join(','));
+    const requestKey = sha256(file, request.text, bindings.join(','), request.tensorLibrary ?? '');
     const cached = this.cache.get(requestKey);
     if (cached && this.stillValid(cached)) {
       this.cache.delete(requestKey);
@@ -152,7 +169,7 @@ export class Bundler {
     }
     this.forget(requestKey);
     const started = performance.now();
-    const result = await this.build(file, request.text, bindings);
+    const result = await this.build(file, request.text, bindings, request.tensorLibrary);
     if (!result.ok) {
       this.stats.failures++;
       return result;
@@ -203,10 +220,10 @@ export class Bundler {
     return true;
   }
 
-  private async build(file: string, text: string, bindings: string[]): Promise<{ ok: true; entry: CacheEntry } | (BundleResult & { ok: false })> {
+  private async build(file: string, text: string, bindings: string[], tensorLibrary?: string): Promise<{ ok: true; entry: CacheEntry } | (BundleResult & { ok: false })> {
     const workDir = dirname(file);
     const loader = LOADERS[extname(file).toLowerCase()] ?? 'ts';
-    const entryContents = text + exposeCode(bindings);
+    const entryContents = text + exposeCode(bindings, tensorLibrary);
     const entryPlugin: esbuildTypes.Plugin = {
       name: 'gradient-probe-entry',
       setup(build) {

@@ -1,8 +1,10 @@
 // Source text of the script that prepares each fresh vm context before any user code runs:
 // it removes globals no op needs, seeds Math.random, fixes the clock, installs a console that
-// collects text, and defines the one driver the runner process calls (under one vm timeout).
+// collects text, gives TensorFlow.js a platform (tensorPlatform.ts), and defines the one driver the runner process calls (under one vm timeout).
 // Everything here is evaluated INSIDE the context, so every object it creates belongs to the
 // context: no host function ever becomes reachable from user code.
+
+import { TENSOR_LIBRARY_PLATFORM_SOURCE } from './tensorPlatform';
 
 /**
  * Built-ins handed to the engine and the user bundle as function parameters. Global lookups in a
@@ -147,6 +149,8 @@ export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, output
   Object.defineProperty(g, '__gradientProbeOutput', {
     value: function output() { return chunks.join(''); }, writable: false, configurable: false,
   });
+
+  ${TENSOR_LIBRARY_PLATFORM_SOURCE}
 
   // Captured now, before user code can replace any of them.
   const builtins = BUILTIN_NAMES.map((name) => (name === 'globalThis' ? g : g[name]));

@@ -7,6 +7,7 @@ import { cpSync, existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSy
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { screenshotFlag } from '../suite/screenshotSignal';
+import { linkRepositoryPackages } from './demoPackages';
 
 /** The part of @vscode/test-electron's API used here (loaded at run time, so the CI runner never needs it). */
 interface TestElectron {
@@ -38,6 +39,7 @@ export async function main(root: string): Promise<number> {
   for (const suite of suites) {
     const workspace = join(scratch, `workspace-${suite.name}`);
     cpSync(suite.workspace ?? demoWorkspace(root), workspace, { recursive: true });
+    linkRepositoryPackages(root, workspace);
     // No page to photograph here: tell the suites up front that their screenshots are "taken".
     for (const name of SCREENSHOT_NAMES) writeFileSync(screenshotFlag(workspace, name), 'not taken: desktop host\n');
     const code = await electron.runTests({

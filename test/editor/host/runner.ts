@@ -11,6 +11,7 @@ import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { screenshotFlag, screenshotRequest } from '../suite/screenshotSignal';
+import { linkRepositoryPackages } from './demoPackages';
 
 /** Last release of code-server that runs on Node 20 (VS Code 1.100.3; later ones need Node 22+). */
 const CODE_SERVER_VERSION = '4.100.3';
@@ -63,6 +64,7 @@ export async function main(root: string, only?: string): Promise<number> {
     // A fresh copy per run: the suites edit and save files, and trust is remembered per folder.
     const workspace = join(scratch, `workspace-${run.name}`);
     cpSync(run.workspace ? join(root, run.workspace) : demoWorkspace(root), workspace, { recursive: true });
+    linkRepositoryPackages(root, workspace);
     // Editor settings that keep the runs deterministic (no auto-save behind the suite's back,
     // no start page over the editor in the screenshot), plus the run's own.
     mkdirSync(join(dirs.userData, 'User'), { recursive: true });
