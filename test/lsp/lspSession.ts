@@ -46,6 +46,8 @@ export interface SessionOptions {
   /** What the server gets for `workspace/configuration` of section gradientProbe. */
   settings?: Record<string, unknown>;
   workspace?: string;
+  /** The folder `open`, `uri` and `text` take relative paths from (default: the LSP fixtures). */
+  filesRoot?: string;
 }
 
 export class LspSession {
@@ -104,11 +106,11 @@ export class LspSession {
   }
 
   uri(relativePath: string): string {
-    return pathToFileURL(join(this.options.workspace ?? FIXTURES, relativePath)).toString();
+    return pathToFileURL(join(this.options.filesRoot ?? FIXTURES, relativePath)).toString();
   }
 
   text(relativePath: string): string {
-    return readFileSync(join(this.options.workspace ?? FIXTURES, relativePath), 'utf8');
+    return readFileSync(join(this.options.filesRoot ?? FIXTURES, relativePath), 'utf8');
   }
 
   async open(relativePath: string): Promise<string> {

@@ -25,7 +25,7 @@ describe('writing features over LSP', function () {
   before(async () => {
     dir = mkdtempSync(join(tmpdir(), 'gp-writing-'));
     cpSync(join(FIXTURES, '..', 'lsp-writing'), dir, { recursive: true });
-    s = new LspSession({ trusted: true, workspace: dir, settings: { timeLimitMs: 5000 } });
+    s = new LspSession({ trusted: true, workspace: dir, filesRoot: dir, settings: { timeLimitMs: 5000 } });
     await s.initialize();
   });
   after(async () => {
