@@ -52,7 +52,7 @@ export class Heater extends Damper {
    * @backward stepBackward
    * @sample p num
    */
-  power(p: number): number { return p; }
+  power(p: number): number[][] { return [[p]]; }
   /**
    * @backward outsideBackward
    * @sample p num

@@ -82,7 +82,7 @@ export const HOSTILE_CASES: readonly HostileCase[] = [
   annotation('badTolerance', '@tolerance tight', /@tolerance: expected a positive relative tolerance.*found 'tight'/),
   annotation('badSeed', '@seed -3', /@seed: expected an integer from 0 to 4294967295.*found '-3'/),
   annotation('repeatedSeed', '@seed 2', /@seed is given twice/),
-  annotation('restParams', 'export function restParams', /parameters must be plain names \(found '\.\.\.more: number\[\]'\)/),
+  annotation('restParams', 'export function restParams', /a rest parameter \(found '\.\.\.more: number\[\]'\) cannot be sampled/),
   annotation('noUpstream', '@backward gateBackward(x)', /the list has no \$dy, but noUpstream returns 'Float64Array'/),
   annotation('asyncForward', 'export async function asyncForward', /asyncForward is async/),
   annotation('Sluice.staticForward', 'static staticForward', /'staticForward' is static/),

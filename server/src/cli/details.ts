@@ -14,6 +14,7 @@ export function detailLines(pair: OpResult, { withOutput = true }: { withOutput?
   const problems = pair.problems ?? [];
   const message = withoutRestatedProblem(pair.message, problems[0]?.message);
   if (message) out.push(...message.split('\n'));
+  if (pair.thrownAt) out.push(`thrown at ${pair.thrownAt.file}:${pair.thrownAt.line}:${pair.thrownAt.column}`);
   for (const problem of problems) out.push(`${pair.file}:${problem.line}:${problem.column}: ${problem.message}`);
   // The engine's message already states each failing parameter's worst element; without one,
   // each failing parameter gets its own line of evidence.
@@ -46,7 +47,8 @@ export function paramLine(param: ParamResult): string {
   if (!param.worst) return head;
   const w = param.worst;
   const where = w.index.length === 0 ? param.name : `${param.name}${formatIndex(w.index)}`;
-  return `${head}; at ${where} backward gives ${formatNumber(w.analytic)}, finite differences ${formatNumber(w.numeric)}`;
+  const own = w.relError !== undefined ? ` (relative error ${formatRelError(w.relError)})` : '';
+  return `${head}; at ${where}${own} backward gives ${formatNumber(w.analytic)}, finite differences ${formatNumber(w.numeric)}`;
 }
 
 function outputLines(output: string | undefined): string[] {

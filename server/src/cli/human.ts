@@ -81,7 +81,8 @@ function rowCells(pair: OpResult): string[] {
     shorten(pair.forward ?? '(file)', MAX_OP_WIDTH),
     pair.verdict === 'pass' || pair.verdict === 'inconclusive' ? pair.verdict : pair.verdict.toUpperCase(),
     param ? param.name : '-',
-    param ? formatRelError(param.maxRelError) : '-',
+    // The figure beside the worst index is that element's own (one rule: types.ts WorstElement).
+    param ? formatRelError(param.worst?.relError ?? param.maxRelError) : '-',
     param?.worst ? formatIndex(param.worst.index) : '-',
     formatTime(pair.elapsedMs),
   ];

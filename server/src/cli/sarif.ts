@@ -100,7 +100,7 @@ function result(
   const properties: Record<string, unknown> = { verdict: pair.verdict, seed: pair.seed };
   if (pair.forward !== null) properties['forward'] = pair.forward;
   if (pair.backward !== null) properties['backward'] = pair.backward;
-  return {
+  const out: Record<string, unknown> = {
     ruleId,
     ruleIndex,
     level: SARIF_RULES[ruleIndex]!.level,
@@ -108,6 +108,16 @@ function result(
     locations: [{ physicalLocation: { artifactLocation: artifactLocation(pair.file), region } }],
     properties,
   };
+  if (pair.thrownAt) {
+    // Where the op's own code threw (SARIF 2.1.0 §3.27.22 relatedLocations).
+    const at = pair.thrownAt;
+    out['relatedLocations'] = [{
+      id: 0,
+      message: { text: 'thrown here' },
+      physicalLocation: { artifactLocation: artifactLocation(at.file), region: { startLine: Math.max(1, at.line), startColumn: Math.max(1, at.column) } },
+    }];
+  }
+  return out;
 }
 
 /** Relative paths hang off the source root; absolute ones (another drive) become file URIs. */
@@ -120,7 +130,8 @@ function messageOf(pair: OpResult): string {
   const parts: string[] = [];
   const param = worstParam(pair);
   if (pair.verdict === 'mismatch' && param) {
-    let text = `${opName(pair)}: gradient of ${param.name} disagrees with finite differences (max relative error ${formatRelError(param.maxRelError)}`;
+    // With an element named, the figure is that element's own relative error (one rule: types.ts WorstElement).
+    let text = `${opName(pair)}: gradient of ${param.name} disagrees with finite differences (max relative error ${formatRelError(param.worst?.relError ?? param.maxRelError)}`;
     if (param.worst) text += ` at [${param.worst.index.join(', ')}]: backward ${param.worst.analytic}, numeric ${param.worst.numeric}`;
     parts.push(`${text}).`);
     parts.push(...param.hints.map((h) => `Hint: ${h}.`));

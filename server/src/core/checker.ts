@@ -1,12 +1,14 @@
 // The Checker: the one orchestration shared by the CLI, the language server and benchmarks.
 // discovery → bundle once per file → one sandbox job per op (in parallel across runners) → OpResult.
 import { setMaxListeners } from 'node:events';
-import { readFileSync } from 'node:fs';
+import { existsSync, readFileSync } from 'node:fs';
 import { dirname, relative, resolve } from 'node:path';
 import { discoverOps, type DiscoveryResult } from '../discovery/index';
 import type { CheckSettings } from '../engine/settings';
 import type { OpDescriptor, OpResult, Problem } from '../engine/types';
 import { Bundler, type BundleStats } from '../sandbox/bundle';
+import { UNAVAILABLE_BUILTIN_NAMESPACE } from '../sandbox/builtinStandIn';
+import { bundleFramesFrom } from '../sandbox/contextSetup';
 import type { SourcePlace } from '../sandbox/sourceMap';
 import { IsolatedRunner } from '../sandbox/isolated';
 import { emptyStats, type RunnerStats } from '../sandbox/jobTypes';
@@ -70,6 +72,8 @@ export function bindingsOf(op: OpDescriptor): string[] {
   const names: string[] = [];
   if (t.kind === 'method') {
     if (t.className) names.push(t.className);
+  } else if (t.objectName) {
+    names.push(t.objectName);
   } else {
     names.push(t.forwardName);
   }
@@ -88,7 +92,7 @@ export interface CheckerStats {
 
 export class Checker {
   private readonly settings: CheckSettings;
-  private readonly bundler = new Bundler();
+  private readonly bundler = new Bundler({ diskCache: true });
   private readonly pool: RunnerPool;
   private isolated: IsolatedRunner | undefined;
   private readonly runnerLog: ((line: string) => void) | undefined;
@@ -221,6 +225,14 @@ export class Checker {
               stop.abort();
             }
           }
+          let thrownAt: SourcePlace | undefined;
+          if ('outcome' in run && run.outcome.thrownFrames !== undefined) {
+            // The op's own code threw: name its place in the user's source, not the bundle's.
+            const place = thrownPlace(bundleFramesFrom(run.outcome.thrownFrames), bundle.originalPlace);
+            delete run.outcome.thrownFrames;
+            // Reported as a field (thrownAt), not in the message: the message stays the engine's own words.
+            if (place) thrownAt = place;
+          }
           const result =
             'outcome' in run
               ? resultFromOutcome(abs, op, run.outcome, run.elapsedMs, run.output)
@@ -229,6 +241,7 @@ export class Checker {
                   output: run.output,
                   problems: run.cause === 'load' || run.cause === 'cancelled' ? loadProblems : undefined,
                 });
+          if (thrownAt) result.thrownAt = { file: thrownAt.file, line: thrownAt.line, column: thrownAt.column };
           if (interpreted) result.isolation = 'interpreter';
           results[i] = emit(result);
         }),
@@ -252,18 +265,33 @@ export class Checker {
   }
 }
 
-/** The first bundle frame that maps into the checked file, else the first that maps anywhere. */
-function loadErrorPlace(
-  file: string,
-  frames: Array<{ line: number; column: number }>,
-  originalPlace: (line: number, column: number) => SourcePlace | undefined,
-): SourcePlace | undefined {
+type PlaceFinder = (line: number, column: number) => SourcePlace | undefined;
+
+/**
+ * The first bundle frame (innermost first) whose place `preferred` accepts, else the first that
+ * maps anywhere. Frames in a built-in's stand-in are skipped: the error is made there, the user
+ * called it elsewhere.
+ */
+function firstPlace(frames: Array<{ line: number; column: number }>, originalPlace: PlaceFinder, preferred: (place: SourcePlace) => boolean): SourcePlace | undefined {
   let first: SourcePlace | undefined;
   for (const frame of frames) {
     const place = originalPlace(frame.line, frame.column);
-    if (!place) continue;
-    if (place.file === file) return place;
+    if (!place || place.file.includes(UNAVAILABLE_BUILTIN_NAMESPACE)) continue;
+    if (preferred(place)) return place;
     first ??= place;
   }
   return first;
+}
+
+/**
+ * Where user code threw: the innermost frame in the user's own files (not a package under
+ * node_modules; a package's own source map can point outside it, at files that are not there).
+ */
+function thrownPlace(frames: Array<{ line: number; column: number }>, originalPlace: PlaceFinder): SourcePlace | undefined {
+  return firstPlace(frames, originalPlace, (place) => !/[\\/]node_modules[\\/]/.test(place.file) && existsSync(place.file));
+}
+
+/** Where the module threw while loading: the first frame in the checked file. */
+function loadErrorPlace(file: string, frames: Array<{ line: number; column: number }>, originalPlace: PlaceFinder): SourcePlace | undefined {
+  return firstPlace(frames, originalPlace, (place) => place.file === file);
 }

@@ -2,9 +2,10 @@
 // parses every tag, matches @sample tags to parameters, resolves the backward and factories in
 // the module, builds the backward's argument list, and records each mistake where it stands.
 import ts from 'typescript';
-import type { BackwardArg, OpDescriptor, ParamDescriptor, SampleSpec, TagLocation } from '../engine/types';
+import { DEFAULT_EXPORT_BINDING, type BackwardArg, type OpDescriptor, type ParamDescriptor, type SampleSpec, type TagLocation } from '../engine/types';
+import { backwardSignatureProblem } from './backwardSignature';
 import type { ForwardSite } from './forwardSites';
-import { findMethod, type Binding, type ModuleBindings } from './moduleBindings';
+import { findMethod, unwrapExpression, type Binding, type ModuleBindings } from './moduleBindings';
 import { parseBackwardTag, parseNameListTag, parseNameTag, parseSeedTag, parseToleranceTag, type ParsedBackward } from './otherTags';
 import type { PositionMapper, Span, SpanProblem } from './positions';
 import { nonNumberReturn } from './returnType';
@@ -51,6 +52,12 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   if (!marked) return undefined;
 
   if (site.unsupported) problems.push({ ...site.nameSpan, message: site.unsupported });
+  // The tags are misplaced as a whole: what they say does not matter here.
+  if (site.onlyProblem) {
+    // Broken specs are still named where they stand, so the tag is never silently skipped.
+    for (const t of ours) if (t.name === 'sample') problems.push(...parseSampleTag(t.raw).problems);
+    return misplacedOp(site, ctx, problems, ours);
+  }
 
   // Tags given more than once where one is meant.
   const firstOf = new Map<OpTagName, OurTag>();
@@ -60,19 +67,35 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   }
   const isMethod = site.kind === 'method';
 
-  // Forward parameters: plain names only.
+  // Forward parameters: plain names; a destructured one is known by its pattern; one with a
+  // default value need not be sampled (it is passed as undefined, so its default applies).
   const paramNames: string[] = [];
   const paramSpans = new Map<string, Span>();
+  const defaulted = new Set<string>();
+  const destructured = new Set<string>();
+  const usesFactory = rawTags.some((t) => t.name === 'samples');
   const saveParam = customGradSaveParam(site, rawTags);
   for (const p of site.fn?.parameters ?? []) {
     if (ts.isIdentifier(p.name) && p.name.text === 'this') continue; // TypeScript's `this` type, not an argument
     if (p === saveParam) continue; // customGrad's save function, passed by the library
-    if (!ts.isIdentifier(p.name) || p.dotDotDotToken) {
-      problems.push({ start: p.getStart(), end: p.getEnd(), message: `parameters must be plain names (found '${p.getText()}'): rest and destructured parameters cannot be sampled` });
+    if (p.dotDotDotToken) {
+      problems.push({ start: p.getStart(), end: p.getEnd(), message: `a rest parameter (found '${p.getText()}') cannot be sampled: list the parameters one by one, or pass an array parameter` });
       continue;
     }
-    paramNames.push(p.name.text);
-    paramSpans.set(p.name.text, { start: p.name.getStart(), end: p.name.getEnd() });
+    const name = ts.isIdentifier(p.name) ? p.name.text : p.name.getText().replace(/\s+/g, ' ');
+    if (!ts.isIdentifier(p.name)) {
+      destructured.add(name);
+      if (!p.initializer && !usesFactory) {
+        problems.push({
+          start: p.name.getStart(),
+          end: p.name.getEnd(),
+          message: `a destructured parameter ('${name}') has no name for @sample: give it a default value (\`${name}: T = DEFAULTS\`) so it need not be sampled, or name it (\`opts: T\`, destructured in the body) and add \`@sample opts = JSON\`, or supply the arguments with @samples FACTORY`,
+        });
+      }
+    }
+    if (p.initializer || p.questionToken) defaulted.add(name);
+    paramNames.push(name);
+    paramSpans.set(name, { start: p.name.getStart(), end: p.name.getEnd() });
   }
 
   // @samples and @construct factories.
@@ -119,11 +142,11 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   }
   if (!samplesTag) {
     for (const name of paramNames) {
-      if (!samples.has(name)) problems.push({ ...paramSpans.get(name)!, message: `parameter '${name}' has no @sample: add \`@sample ${name} SPEC\` (or use @samples FACTORY)` });
+      if (!samples.has(name) && !defaulted.has(name) && !destructured.has(name)) problems.push({ ...paramSpans.get(name)!, message: `parameter '${name}' has no @sample: add \`@sample ${name} SPEC\` (or use @samples FACTORY)` });
     }
   }
   const params: ParamDescriptor[] = [
-    ...paramNames.map((name) => withSample({ name, isField: false }, samples.get(name))),
+    ...paramNames.map((name) => withSample(defaulted.has(name) && !samples.has(name) ? { name, isField: false, hasDefault: true } : { name, isField: false }, samples.get(name))),
     ...fieldOrder.map((name) => withSample({ name, isField: true }, samples.get(name))),
   ];
   const sampleTagRefs: SampleTagRef[] = [];
@@ -192,6 +215,21 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     ? explicitBackwardArgs(parsedBack, site, paramNames, samples, problems)
     : defaultBackwardArgs(isMethod, paramNames);
 
+  // The backward's declaration against the call the check will make (only when the tag itself is sound).
+  if (backTag && resolved?.fn && !site.unsupported && parsedBack.problems.length === 0 && !problems.some((p) => p.start >= backTag.raw.span.start && p.end <= backTag.raw.span.end)) {
+    const mismatch = backwardSignatureProblem({
+      backwardName,
+      backward: resolved.fn,
+      forward: site.fn,
+      paramNames,
+      fieldNames: fieldOrder,
+      args: backwardArgs,
+      explicit: parsedBack.args !== undefined,
+      isMethod,
+    });
+    if (mismatch) problems.push({ ...backTag.raw.span, message: mismatch });
+  }
+
   const tags: TagLocation[] = ours.map((t) => {
     const start = ctx.mapper.at(t.raw.span.start);
     const end = ctx.mapper.at(t.raw.span.end);
@@ -201,19 +239,13 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     return loc;
   });
 
-  const start = ctx.mapper.at(site.nameSpan.start);
-  const end = ctx.mapper.at(site.nameSpan.end);
   const op: OpDescriptor = {
-    file: ctx.fileName,
-    line: start.line,
-    column: start.column,
-    endLine: end.line,
-    endColumn: end.column,
+    ...opPlace(site, ctx),
     forward: displayName(site),
     backward: libraryGradient ? 'library-gradient' : backwardName,
     target: {
       kind: site.kind,
-      forwardName: site.name,
+      forwardName: site.isDefaultExport ? DEFAULT_EXPORT_BINDING : site.name,
       backwardName,
       backwardIsMethod: resolved?.isMethod ?? false,
     },
@@ -224,6 +256,8 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     problems: problems.sort((a, b) => a.start - b.start).map((p) => ctx.mapper.problem(p)),
   };
   if (site.className !== undefined) op.target.className = site.className;
+  if (site.objectName !== undefined) op.target.objectName = site.objectName;
+  if (site.classNode && declaresPrivateMembers(site.classNode, ctx.bindings)) op.target.renewInstance = true;
   if (samplesFactory) op.target.samplesFactory = samplesFactory;
   if (constructFactory) op.target.constructFactory = constructFactory;
   if (libraryGradient) op.target.libraryGradient = true;
@@ -237,8 +271,48 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   return op;
 }
 
+/** An op whose tags stand where no op can be (on a class): its one problem, nothing parsed. */
+/** The op's file and the span of its forward's name (1-based). */
+function opPlace(site: ForwardSite, ctx: BuildContext): Pick<OpDescriptor, 'file' | 'line' | 'column' | 'endLine' | 'endColumn'> {
+  const start = ctx.mapper.at(site.nameSpan.start);
+  const end = ctx.mapper.at(site.nameSpan.end);
+  return { file: ctx.fileName, line: start.line, column: start.column, endLine: end.line, endColumn: end.column };
+}
+
+function misplacedOp(site: ForwardSite, ctx: BuildContext, problems: SpanProblem[], ours: OurTag[]): OpDescriptor {
+  const tags: TagLocation[] = ours.map((t) => {
+    const a = ctx.mapper.at(t.raw.span.start);
+    const b = ctx.mapper.at(t.raw.span.end);
+    return { tag: t.name, line: a.line, column: a.column, endLine: b.line, endColumn: b.column };
+  });
+  return {
+    ...opPlace(site, ctx),
+    forward: displayName(site),
+    backward: '',
+    target: { kind: site.kind, forwardName: site.name, backwardName: '', backwardIsMethod: false },
+    params: [],
+    backwardArgs: [],
+    fixed: [],
+    tags,
+    problems: problems.sort((a, b) => a.start - b.start).map((p) => ctx.mapper.problem(p)),
+  };
+}
+
+/** Whether the class or a same-file ancestor has `#private` members (state a snapshot cannot see). */
+function declaresPrivateMembers(cls: ts.ClassLikeDeclaration, bindings: ModuleBindings): boolean {
+  const seen = new Set<ts.ClassLikeDeclaration>();
+  for (let cur: ts.ClassLikeDeclaration | undefined = cls; cur && !seen.has(cur); ) {
+    seen.add(cur);
+    if (cur.members.some((m) => m.name !== undefined && ts.isPrivateIdentifier(m.name))) return true;
+    const ext: ts.ExpressionWithTypeArguments | undefined = cur.heritageClauses?.find((h) => h.token === ts.SyntaxKind.ExtendsKeyword)?.types[0];
+    cur = ext && ts.isIdentifier(ext.expression) ? bindings.classes.get(ext.expression.text) : undefined;
+  }
+  return false;
+}
+
 function displayName(site: ForwardSite): string {
   const name = site.name || '(anonymous)';
+  if (site.objectName !== undefined) return `${site.objectName}.${name}`;
   return site.kind === 'method' ? `${site.className || '(anonymous class)'}.${name}` : name;
 }
 
@@ -247,7 +321,7 @@ function suggest(name: string, candidates: readonly string[]): string {
   return near ? `; did you mean '${near}'?` : '';
 }
 
-function withSample(p: { name: string; isField: boolean }, spec: SampleSpec | undefined): ParamDescriptor {
+function withSample(p: { name: string; isField: boolean; hasDefault?: boolean }, spec: SampleSpec | undefined): ParamDescriptor {
   return spec ? { ...p, sample: spec } : p;
 }
 
@@ -301,14 +375,28 @@ function resolveBackward(
   site: ForwardSite,
   bindings: ModuleBindings,
   problems: SpanProblem[],
-): { isMethod: boolean; span?: Span } | undefined {
+): { isMethod: boolean; span?: Span; fn?: ts.SignatureDeclaration } | undefined {
   let unknownBase = false;
+  if (site.objectNode) {
+    // A function of the same object literal, called on the object (like a method).
+    for (const m of site.objectNode.properties) {
+      if (!(ts.isMethodDeclaration(m) || ts.isPropertyAssignment(m)) || !ts.isIdentifier(m.name) || m.name.text !== name) continue;
+      const fn = ts.isMethodDeclaration(m) ? m : unwrapExpression(m.initializer);
+      if (!(ts.isMethodDeclaration(fn) || ts.isArrowFunction(fn) || ts.isFunctionExpression(fn))) {
+        problems.push({ ...span, message: `backward '${site.objectName}.${name}' is not a function` });
+        return undefined;
+      }
+      const flavour = functionFlavour(fn);
+      if (flavour) problems.push({ ...span, message: `backward '${name}' is ${flavour}: it must return its result directly` });
+      return { isMethod: true, span: { start: m.name.getStart(), end: m.name.getEnd() }, fn };
+    }
+  }
   if (site.kind === 'method' && site.classNode) {
     const m = findMethod(site.classNode, name, bindings);
     if (m.found) {
       const flavour = m.fn ? functionFlavour(m.fn) : undefined;
       if (flavour) problems.push({ ...span, message: `backward '${name}' is ${flavour}: it must return its result directly` });
-      return { isMethod: true, span: m.span };
+      return { isMethod: true, span: m.span, fn: m.fn };
     }
     unknownBase = m.unknownBase;
   }
@@ -316,7 +404,7 @@ function resolveBackward(
   if (b) {
     const bad = bindingKindProblem(name, b, 'backward');
     if (bad) problems.push({ ...span, message: bad });
-    return { isMethod: false, span: b.span };
+    return { isMethod: false, span: b.span, fn: b.fn };
   }
   // The class extends one declared elsewhere: the backward may be inherited; the run will tell.
   if (unknownBase) return { isMethod: true };

@@ -20,6 +20,13 @@ export interface ForwardSite {
   fn?: ts.SignatureDeclaration;
   /** Why the checker cannot run this declaration as it stands; becomes a problem on the op. */
   unsupported?: string;
+  /** The tags cannot belong here at all: report `unsupported` alone, without reading them further. */
+  onlyProblem?: boolean;
+  /** The module's anonymous default export (reached as DEFAULT_EXPORT_BINDING). */
+  isDefaultExport?: boolean;
+  /** For a function held by a top-level object literal (`export const ops = { f(x) {} }`): the const's name. */
+  objectName?: string;
+  objectNode?: ts.ObjectLiteralExpression;
   /**
    * A const bound to `tf.customGrad(fn)`: `fn` is the function above (its inputs are tensors,
    * and its last parameter may be the save function); the engine calls the const itself.
@@ -57,9 +64,16 @@ function statementSites(st: ts.Statement, lib: TensorLibraryImports): ForwardSit
       docHost: st,
       fn: st,
     };
-    if (!st.name) site.unsupported = 'this function has no name: give it one so the checker can reach it';
+    const isDefault = hasModifier(st, ts.ModifierFlags.Default);
+    if (!st.name && isDefault) {
+      // `export default function (x) {}`: reached through the module's default export.
+      site.name = 'default';
+      site.isDefaultExport = true;
+      const keyword = st.modifiers?.find((m) => m.kind === ts.SyntaxKind.DefaultKeyword);
+      if (keyword) site.nameSpan = spanOf(keyword);
+    } else if (!st.name) site.unsupported = 'this function has no name: give it one so the checker can reach it';
     else if (!st.body) site.unsupported = `'${st.name.text}' has no body here (an overload signature or a declaration): put the tags on the implementation`;
-    if (!st.name) site.nameSpan = { start: st.getStart(), end: st.getStart() + (st.getText().startsWith('export') ? 'export'.length : 'function'.length) };
+    if (!st.name && !isDefault) site.nameSpan = { start: st.getStart(), end: st.getStart() + (st.getText().startsWith('export') ? 'export'.length : 'function'.length) };
     return [site];
   }
   if (ts.isVariableStatement(st)) {
@@ -72,18 +86,55 @@ function statementSites(st: ts.Statement, lib: TensorLibraryImports): ForwardSit
       else if (customFn) {
         site.fn = customFn;
         site.customGrad = true;
+      } else if (init && ts.isObjectLiteralExpression(init)) {
+        // An object of functions: its members are ops; tags on the const itself are misplaced.
+        const members = objectMemberSites(d.name.text, init);
+        return ts.getJSDocTags(d).length > 0 ? [{ ...site, unsupported: `'${d.name.text}' is an object: put @backward on the function inside it that is the forward` }, ...members] : members;
       } else site.unsupported = `'${d.name.text}' is not bound to a function: @backward goes on a function, a const bound to an arrow function, a function expression or a \`tf.customGrad(...)\` call, or a class method`;
       return [site];
     });
   }
   if (ts.isClassDeclaration(st)) {
     const className = st.name?.text ?? '';
-    return st.members.flatMap((m) => memberSite(m, className, st, st.name ? undefined : 'this class has no name: give it one so the checker can reach it'));
+    // Tags on the class itself (not on a method) were meant for one of its methods: say so.
+    const onClass: ForwardSite = {
+      kind: 'function',
+      name: className,
+      nameSpan: spanOf(st.name ?? st),
+      docHost: st,
+      unsupported: `the tags are on the class${className ? ` '${className}'` : ''}, not on a method: move the JSDoc block with @backward and @sample to the forward method the check should call`,
+      onlyProblem: true,
+    };
+    return [onClass, ...st.members.flatMap((m) => memberSite(m, className, st, st.name ? undefined : 'this class has no name: give it one so the checker can reach it'))];
   }
   if (ts.isExportAssignment(st)) {
-    return [{ kind: 'function', name: '', nameSpan: spanOf(st), docHost: st, unsupported: 'an anonymous default export cannot be reached: declare a named function and export that' }];
+    const init = unwrapExpression(st.expression);
+    // `export default (x) => ...` / `export default function (x) {...}` as an expression.
+    const defaultKeyword = st.getChildren().find((c) => c.kind === ts.SyntaxKind.DefaultKeyword);
+    const nameSpan = defaultKeyword ? spanOf(defaultKeyword) : spanOf(st);
+    if (!st.isExportEquals && isFunctionLike(init)) return [{ kind: 'function', name: 'default', nameSpan, docHost: st, fn: init, isDefaultExport: true }];
+    return [{ kind: 'function', name: '', nameSpan: spanOf(st), docHost: st, unsupported: 'this default export is not a function: @backward goes on a function' }];
   }
   return [];
+}
+
+/** Functions of a top-level object literal: `{ f(x) {}, g: (x) => x }`. */
+function objectMemberSites(objectName: string, obj: ts.ObjectLiteralExpression): ForwardSite[] {
+  const out: ForwardSite[] = [];
+  for (const m of obj.properties) {
+    if (!(ts.isMethodDeclaration(m) || ts.isPropertyAssignment(m))) continue;
+    const name = plainName(m.name) ?? m.name.getText();
+    const site: ForwardSite = { kind: 'function', name, nameSpan: spanOf(m.name), docHost: m, objectName, objectNode: obj };
+    if (ts.isMethodDeclaration(m)) site.fn = m;
+    else {
+      const init = unwrapExpression(m.initializer);
+      if (isFunctionLike(init)) site.fn = init;
+      else site.unsupported = `'${objectName}.${name}' is not a function: @backward goes on a function`;
+    }
+    if (!site.unsupported && !ts.isIdentifier(m.name)) site.unsupported = `'${name}' needs a plain name (not computed or quoted) so the checker can call it`;
+    out.push(site);
+  }
+  return out;
 }
 
 function memberSite(m: ts.ClassElement, className: string, cls: ts.ClassLikeDeclaration, classProblem?: string): ForwardSite[] {
@@ -118,7 +169,7 @@ function memberSite(m: ts.ClassElement, className: string, cls: ts.ClassLikeDecl
  * literals, class expressions). Only subtrees whose text holds an `@` can hold a tag, so the
  * walk skips the rest (`atOffsets`: sorted offsets of every `@` in the file).
  */
-function nestedSites(root: ts.Node, out: ForwardSite[], atOffsets: readonly number[]): void {
+function nestedSites(root: ts.Node, out: ForwardSite[], atOffsets: readonly number[], childrenOnly = false): void {
   const visit = (node: ts.Node): void => {
     if (!containsOffset(atOffsets, node.pos, node.end)) return;
     let name: string | undefined;
@@ -136,7 +187,9 @@ function nestedSites(root: ts.Node, out: ForwardSite[], atOffsets: readonly numb
     }
     ts.forEachChild(node, visit);
   };
-  ts.forEachChild(root, visit);
+  // `childrenOnly`: the root is a site already; only what is below it is nested.
+  if (childrenOnly && root) ts.forEachChild(root, (child) => (ts.isBlock(child) ? ts.forEachChild(child, visit) : undefined));
+  else ts.forEachChild(root, visit);
 }
 
 /** Whether some offset in the sorted list lies in [start, end). */
@@ -166,7 +219,18 @@ export function findForwardSites(sf: ts.SourceFile): ForwardSite[] {
     if (ts.isClassDeclaration(st)) {
       for (const m of st.members) nestedSites(m, sites, atOffsets);
     } else if (ts.isVariableStatement(st)) {
-      for (const d of st.declarationList.declarations) if (d.initializer) nestedSites(d.initializer, sites, atOffsets);
+      for (const d of st.declarationList.declarations) {
+        if (!d.initializer) continue;
+        const init = unwrapExpression(d.initializer);
+        // The direct members of a top-level object literal are sites; look inside their bodies.
+        if (ts.isIdentifier(d.name) && ts.isObjectLiteralExpression(init)) {
+          for (const m of init.properties) {
+            if (ts.isMethodDeclaration(m)) nestedSites(m, sites, atOffsets, true);
+            else if (ts.isPropertyAssignment(m)) nestedSites(m.initializer, sites, atOffsets);
+            else nestedSites(m, sites, atOffsets);
+          }
+        } else nestedSites(d.initializer, sites, atOffsets);
+      }
     } else nestedSites(st, sites, atOffsets);
   }
   return sites;

@@ -1,6 +1,7 @@
 // Parses the bodies of `@backward`, `@samples`, `@construct`, `@fixed`, `@tolerance` and
 // `@seed` (docs/annotations.md) into values with spans, or problems pointing inside the tag.
 import { TagCursor, type Token } from './lexer';
+import { privateFieldMessage } from './sampleTag';
 import type { Span, SpanProblem } from './positions';
 import type { RawTag } from './tagText';
 
@@ -88,6 +89,10 @@ function parseBackwardArg(c: TagCursor, problems: SpanProblem[]): WrittenBackwar
   if (t.text === 'this' && c.peek()?.text === '.') {
     c.next();
     const field = c.next();
+    if (field && field.text === '#') {
+      problems.push(c.problemAt(field, privateFieldMessage(c.peek()?.kind === 'word' ? c.peek()!.text : 'FIELD')));
+      return undefined;
+    }
     if (!field || field.kind !== 'word') {
       problems.push(c.problemAt(field ?? t, '@backward: expected `this.FIELD`'));
       return undefined;

@@ -37,6 +37,11 @@ export function parseSampleTag(tag: RawTag): ParsedSample {
   return { target, spec: problems.length ? undefined : spec, problems };
 }
 
+/** Why `this.#name` cannot be sampled, and what to write instead. */
+export function privateFieldMessage(name: string): string {
+  return `'this.#${name}' is a private (#) field: the checker cannot set or read it from outside the class; declare it \`private ${name}\` (TypeScript's private, a normal property at run time) to sample it, or build the instance with @construct and sample only the parameters`;
+}
+
 /** `x` or `this.FIELD`. */
 function parseSampleTarget(c: TagCursor, problems: SpanProblem[]): SampleTarget | undefined {
   const first = c.next();
@@ -51,6 +56,10 @@ function parseSampleTarget(c: TagCursor, problems: SpanProblem[]): SampleTarget 
   if (first.text === 'this') {
     const dot = c.eat('.');
     const field = c.peek();
+    if (dot && field && field.text === '#') {
+      problems.push(c.problemAt(field, privateFieldMessage(c.peek(1)?.kind === 'word' ? c.peek(1)!.text : 'FIELD')));
+      return undefined;
+    }
     if (!dot || !field || field.kind !== 'word') {
       problems.push(c.problemAt(field ?? first, '@sample: expected `this.FIELD`'));
       return undefined;

@@ -78,7 +78,25 @@ export function readDocTags(text: string, host: ts.Node): RawTag[] {
       const before = docText.match(FENCE);
       if (before && before.length % 2 === 1) continue;
     }
-    out.push(readRawTag(text, tag));
+    const raw = readRawTag(text, tag);
+    // A tag starts a JSDoc line, or follows another tag on its line (`/** @backward f @sample x num */`);
+    // `@word` inside a description's prose is text.
+    const prev = out[out.length - 1];
+    const followsTag = prev !== undefined && !text.slice(prev.nameSpan.start, raw.nameSpan.start).includes('\n');
+    if (!followsTag && !startsDocLine(text, raw.nameSpan.start)) continue;
+    out.push(raw);
   }
   return out;
+}
+
+/** Whether only the comment's `/**`, a leading `*` and blanks stand before `at` on its line. */
+function startsDocLine(text: string, at: number): boolean {
+  let i = at - 1;
+  while (i >= 0 && (text[i] === ' ' || text[i] === '\t')) i--;
+  if (i >= 0 && text[i] === '*') {
+    i--;
+    if (i >= 1 && text[i] === '*' && text[i - 1] === '/') return true; // `/** @tag`
+    while (i >= 0 && (text[i] === ' ' || text[i] === '\t')) i--;
+  }
+  return i < 0 || text[i] === '\n' || text[i] === '\r';
 }

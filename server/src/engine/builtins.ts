@@ -29,6 +29,7 @@ export const objectPrototype = Object.prototype;
 export const hasOwn = Object.prototype.hasOwnProperty;
 export const reflectApply = Reflect.apply;
 export const reflectConstruct = Reflect.construct;
+export const toStringTagKey = Symbol.toStringTag;
 export const toStringCall = String;
 const numberToPrecision = Number.prototype.toPrecision;
 const stringSlice = String.prototype.slice;

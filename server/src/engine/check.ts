@@ -8,9 +8,12 @@ import { GROUPED_WIDENINGS, chooseMethod, widened, type Structure } from './meth
 import { dotProductProbes, type DotProbeResult } from './dotProductCheck';
 import { estimateColumns } from './fullCheck';
 import { estimateGrouped } from './groupedCheck';
-import { paramHints, swapHints, type ParamEvidence } from './hints';
+import { float32OutputHint, paramHints, swapHints, type ParamEvidence } from './hints';
+import { bundleFramesOf } from './thrownPlace';
+import { blameOutput } from './outputBlame';
 import { ElementState, compareElements, floorsFor, type Comparison, type ElementEstimates } from './judge';
 import { elementLine } from './lines';
+import type { InstanceSnapshot } from './instanceState';
 import { elementName, unravelSlot, OpHarness } from './opHarness';
 import { describeOutputIndex, layoutPrecision } from './outputLayout';
 import type { ParamSlot } from './paramSlot';
@@ -82,6 +85,7 @@ function emptyOutcome(verdict: Verdict, seed: number, message: string, calls: { 
 export function runCheck(exposed: Record<string, unknown>, request: CheckRequest, clock: () => number): CheckOutcome {
   let seed = 0;
   let calls = { forward: 0, backward: 0 };
+  let harness: OpHarness | null = null;
   try {
     const op = request.op;
     const settings: CheckSettings = { ...DEFAULT_SETTINGS, ...(request.settings ?? {}) };
@@ -91,6 +95,7 @@ export function runCheck(exposed: Record<string, unknown>, request: CheckRequest
     const deadline = start + TIME_BUDGET_SHARE * settings.timeLimitMs;
     const outOfTime = (): boolean => clock() > deadline;
     const h = new OpHarness(op, exposed);
+    harness = h;
     calls = h.calls;
     const kinks: KinkReport[] = [];
     let lastParams: ParamResult[] = [];
@@ -123,7 +128,16 @@ export function runCheck(exposed: Record<string, unknown>, request: CheckRequest
     if (lastInputs !== undefined) outcome.inputs = lastInputs;
     return finiteOnly(outcome);
   } catch (e) {
-    if (e instanceof CheckStop) return finiteOnly(emptyOutcome(e.verdict, seed, e.message, calls));
+    if (e instanceof CheckStop) {
+      const stopped = emptyOutcome(e.verdict, seed, e.message, calls);
+      // The inputs of the attempt that stopped, so an exception reproduces like a mismatch.
+      if (harness !== null && harness.capturedInputs !== undefined) stopped.inputs = harness.capturedInputs;
+      if (e.thrown !== undefined) {
+        const frames = bundleFramesOf(e.thrown);
+        if (frames !== '') stopped.thrownFrames = frames;
+      }
+      return finiteOnly(stopped);
+    }
     return finiteOnly(emptyOutcome('error', seed, `internal error in the check engine: ${describeThrown(e)}`, calls));
   }
 }
@@ -140,6 +154,7 @@ function runAttempt(
   const stream = (purpose: number) => substream(seed, attempt * STREAM_STRIDE + purpose);
   const sample = h.prepare(stream(STREAM.inputs), settings.maxElements);
   const inputs = captureInputs(sample);
+  h.capturedInputs = inputs;
   const slots = sample.slots;
   if (slots.length === 0) fail('no parameter is differentiated: every input is fixed, a literal, an integer or not numbers');
 
@@ -207,13 +222,26 @@ function runAttempt(
     dotUs[p] = u;
   }
   const scratch = new F64(m);
+  let instanceState: InstanceSnapshot | null = null;
   const callBackward = (w: Float64Array, into: Float64Array[]): void => {
     // A method's backward may read state its forward cached, and the structure probes have run
-    // the forward at moved points since: run it at the sample point first, every time.
-    if (h.backwardNeedsFreshForward) h.forwardInto(scratch, true);
+    // the forward at moved points since: run it at the sample point once, keep the instance as
+    // it left it, and put that state back after every backward call (a layer's backward may
+    // accumulate into its fields: `this.gradW[k] += ...`).
+    if (h.renewsInstance) {
+      // State in `#private` fields cannot be snapshot: a fresh instance and forward per call.
+      h.prepareFreshInstanceForBackward(scratch);
+    } else if (h.backwardNeedsFreshForward && instanceState === null) {
+      h.forwardInto(scratch, true);
+      instanceState = h.snapshotInstance();
+    } else if (instanceState !== null) {
+      // Forward calls at moved points may have run since (a late call, e.g. for output hints).
+      instanceState.restore();
+    }
     h.backwardInto(h.takesUpstream ? w : null, y0, slots, into);
     const changed = guard.firstChange(h.inputValues());
     if (changed !== null) fail(`backward changed its input ${changed}`);
+    if (instanceState !== null) instanceState.restore();
   };
   for (let k = 0; k < K; k++) {
     const into: Float64Array[] = [];
@@ -267,9 +295,32 @@ function runAttempt(
     if (e !== null && checks[s].result.verdict === 'mismatch') mismatched[mismatched.length] = e;
   }
   const opHints = anyMismatch ? swapHints(mismatched) : [];
+  // Several named outputs: say which one's term is wrong, when one output accounts for it.
+  if (anyMismatch && layout.kind === 'object' && !outOfTime()) {
+    const gradientsFor = (w: Float64Array): Float64Array[] => {
+      const into: Float64Array[] = [];
+      for (let s = 0; s < slots.length; s++) into[s] = new F64(slots[s].size);
+      callBackward(w, into);
+      return into;
+    };
+    for (let s = 0; s < checks.length; s++) {
+      const c = checks[s];
+      if (c.result.verdict !== 'mismatch' || c.evidence === null || c.worstPos < 0) continue;
+      const blame = blameOutput(h, layout, slots[s], s, c.evidence.est.indices[c.worstPos], ws[c.evidence.cmp.worstProbe[c.worstPos]], tol, gradientsFor);
+      if (blame !== null) {
+        c.result.hints[c.result.hints.length] = blame;
+        c.note += ` — ${blame}`;
+      }
+    }
+  }
   for (let s = 0; s < checks.length; s++) addReportData(at, s, checks[s]);
 
   const verdict: Verdict = anyMismatch ? 'mismatch' : anyInconclusive ? 'inconclusive' : 'pass';
+  if (verdict !== 'pass' && precision === 'f64') {
+    // The check ran at float64 precision, yet the op may compute in float32: name the precision.
+    const f32 = float32OutputHint(y0);
+    if (f32 !== null) opHints[opHints.length] = f32;
+  }
   let message = '';
   const params: ParamResult[] = [];
   for (let s = 0; s < checks.length; s++) {
@@ -376,7 +427,8 @@ function summarise(
     // The worst element is a confirmed mismatch when there is one, then the largest relative error.
     const state = cmp.state[p];
     const priority = state === ElementState.mismatch ? 2 : state === ElementState.suspicious || state === ElementState.uncertain ? 1 : 0;
-    if (priority > worstPriority || (priority === worstPriority && cmp.rel[p] > maxRel)) {
+    // One rule for the worst element (types.ts WorstElement): the most serious state first, then the largest relative error.
+    if (priority > worstPriority || (priority === worstPriority && cmp.rel[p] > cmp.rel[worstPos])) {
       worstPos = p;
       worstPriority = max(worstPriority, priority);
     }
@@ -423,6 +475,7 @@ function summarise(
         index: unravelSlot(slot, est.indices[worstPos]),
         analytic: analytic[cmp.worstProbe[worstPos]][est.indices[worstPos]],
         numeric: est.numeric[cmp.worstProbe[worstPos]][worstPos],
+        relError: cmp.rel[worstPos],
       }
     : null;
   const result: ParamResult = {

@@ -7,6 +7,8 @@ export class CheckStop extends Error {
   constructor(
     readonly verdict: Extract<Verdict, 'error' | 'inconclusive'>,
     message: string,
+    /** What user code threw, when the stop is an exception of the op's own code. */
+    readonly thrown?: unknown,
   ) {
     super(message);
   }
@@ -15,6 +17,11 @@ export class CheckStop extends Error {
 /** Stops the check with verdict `error`. */
 export function fail(message: string): never {
   throw new CheckStop('error', message);
+}
+
+/** Stops the check with verdict `error` because user code threw `thrown` (its place is reported). */
+export function failThrown(message: string, thrown: unknown): never {
+  throw new CheckStop('error', message, thrown);
 }
 
 /** Stops the check with verdict `inconclusive`. */

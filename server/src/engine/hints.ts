@@ -3,7 +3,7 @@
 // negative inputs, wrong at one index) that is reported only when every compared element
 // with a clearly non-zero value agrees with it within HINT_TOLERANCE_FACTOR × the tolerance.
 
-import { abs, formatIndex, formatNumber, max, round } from './builtins';
+import { abs, formatIndex, formatNumber, fround, isInteger, max, round } from './builtins';
 import { ElementState, type Comparison, type ElementEstimates } from './judge';
 import { unravelSlot } from './opHarness';
 import type { ParamSlot } from './paramSlot';
@@ -203,4 +203,28 @@ function crossHolds(a: ParamEvidence, b: ParamEvidence): boolean {
     }
   }
   return support > 0;
+}
+
+/**
+ * Outputs at least this many of which are non-integers before the float32 test means anything
+ * (an integer-valued output is a float32 value whatever the precision). Our choice.
+ */
+const FLOAT32_EVIDENCE_VALUES = 4;
+
+/**
+ * A hint for an op sampled in float64 whose outputs are all float32 values (IEEE 754 binary32,
+ * unit roundoff 2^-24): it computes in float32 inside (a tensor library's default), so its
+ * finite differences carry float32 roundoff, not float64's 2^-53. Null when the outputs are not
+ * all float32 values, or too few are non-integers to tell.
+ */
+export function float32OutputHint(y: Float64Array): string | null {
+  let fractional = 0;
+  for (let j = 0; j < y.length; j++) {
+    const v = y[j];
+    if (fround(v) !== v) return null;
+    if (!isInteger(v)) fractional++;
+  }
+  if (fractional < FLOAT32_EVIDENCE_VALUES && fractional < y.length) return null;
+  if (fractional === 0) return null;
+  return 'the inputs are sampled as float64, but every output value is a float32 number: the forward computes in float32 inside (as tensor libraries do by default), so differences carry float32 roundoff (2^-24, not 2^-53); sample the inputs as f32 (`@sample x f32[...]`) to check with float32 tolerances, or make the forward compute in float64';
 }

@@ -8,6 +8,8 @@ type Snap =
   | { kind: 'prim'; value: unknown }
   | { kind: 'view'; data: Float64Array | null; length: number }
   | { kind: 'array'; items: Snap[] }
+  /** A plain array holding only numbers (a row of a nested `number[][]`): copied flat, one object per row. */
+  | { kind: 'numbers'; data: Float64Array }
   | { kind: 'object'; keys: string[]; items: Snap[] }
   | { kind: 'opaque' };
 
@@ -26,6 +28,13 @@ function snap(v: unknown, depth: number): Snap {
   }
   if (depth >= MAX_DEPTH) return { kind: 'opaque' };
   if (isArray(v)) {
+    let allNumbers = true;
+    for (let i = 0; i < v.length && allNumbers; i++) if (typeof v[i] !== 'number') allNumbers = false;
+    if (allNumbers) {
+      const data = new F64(v.length);
+      for (let i = 0; i < v.length; i++) data[i] = v[i] as number;
+      return { kind: 'numbers', data };
+    }
     const items: Snap[] = [];
     for (let i = 0; i < v.length; i++) items[i] = snap(v[i], depth + 1);
     return { kind: 'array', items };
@@ -57,6 +66,17 @@ function diff(s: Snap, v: unknown, path: number[]): string | null {
         if (!same(data[i], arr[i])) {
           path[path.length] = i;
           return `at ${formatIndex(path)} from ${show(data[i])} to ${show(arr[i])}`;
+        }
+      }
+      return null;
+    }
+    case 'numbers': {
+      if (!isArray(v) || v.length !== s.data.length) return `${path.length ? `at ${formatIndex(path)} ` : ''}its length changed`;
+      const data = s.data;
+      for (let i = 0; i < data.length; i++) {
+        if (!same(data[i], v[i])) {
+          path[path.length] = i;
+          return `at ${formatIndex(path)} from ${show(data[i])} to ${show(v[i])}`;
         }
       }
       return null;

@@ -3,15 +3,16 @@
 // every failure of user code into a message naming the part of the op at fault.
 
 import { F64, describeThrown, describeValue, formatIndex, formatNumber, positionOf, reflectApply, reflectConstruct, sliceText } from './builtins';
-import { CheckStop, fail } from './failure';
+import { CheckStop, fail, failThrown } from './failure';
 import { readGradients } from './gradients';
 import { InputGuard } from './inputGuard';
+import { InstanceSnapshot } from './instanceState';
 import { buildValue, describeOutputIndex, detectLayout, firstNonFinite, flattenInto, nonFiniteName, type OutputLayout } from './outputLayout';
 import type { ParamSlot } from './paramSlot';
 import type { RandomSource } from './random';
 import { drawSample, type Sample } from './sampling';
 import { TensorBridge } from './tensorBridge';
-import type { CallCounts, OpDescriptor } from './types';
+import type { CallCounts, CheckOutcome, OpDescriptor } from './types';
 
 type AnyFunction = (...args: unknown[]) => unknown;
 
@@ -41,7 +42,13 @@ export class OpHarness {
   private readonly constructFn: AnyFunction | null;
   private readonly samplesFn: AnyFunction | null;
   private instance: Record<string, unknown> | null = null;
+  /** A fresh instance for the next backward call (prepareFreshInstanceForBackward), or null. */
+  private backwardThis: Record<string, unknown> | null = null;
+  /** The object literal holding the op's functions (`this` for their calls), or null. */
+  private holder: Record<string, unknown> | null = null;
   private sample: Sample | null = null;
+  /** The inputs of the current attempt as captured for the report (set by the check). */
+  capturedInputs: CheckOutcome['inputs'];
   /** Output shape, fixed by the first forward call. */
   layout: OutputLayout | null = null;
   /** Whether the backward receives `$dy`; when not, the forward returns a number. */
@@ -72,6 +79,18 @@ export class OpHarness {
         fail(`backward '${op.backward}' is not ${t.backwardIsMethod ? `a method of class '${className}'` : 'a function of the module'} (got ${describeValue(bwd)})`);
       }
       this.backwardFn = bwd as AnyFunction;
+    } else if (t.objectName !== undefined) {
+      // A function of a top-level object literal: called on the object, as `ops.f(x)` would be.
+      const holder = lookup(exposed, t.objectName);
+      if (holder === null || typeof holder !== 'object') fail(`'${t.objectName}' is not an object in the module (got ${describeValue(holder)})`);
+      this.holder = holder as Record<string, unknown>;
+      const fwd = this.holder[t.forwardName];
+      if (typeof fwd !== 'function') fail(`forward '${op.forward}' is not a function (got ${describeValue(fwd)})`);
+      this.forwardFn = fwd as AnyFunction;
+      this.classCtor = null;
+      const bwd = t.backwardIsMethod ? this.holder[t.backwardName] : lookup(exposed, t.backwardName);
+      if (typeof bwd !== 'function') fail(`backward '${op.backward}' is not a function (got ${describeValue(bwd)})`);
+      this.backwardFn = bwd as AnyFunction;
     } else {
       const fwd = lookup(exposed, t.forwardName);
       if (typeof fwd !== 'function') fail(`forward '${op.forward}' is not a function (got ${describeValue(fwd)})`);
@@ -99,22 +118,51 @@ export class OpHarness {
   /** Creates the instance (methods) and draws the inputs of one attempt. */
   prepare(rng: RandomSource, maxElements: number): Sample {
     this.layout = null;
-    if (this.classCtor !== null) {
-      let inst: unknown;
-      const className = this.op.target.className ?? '';
-      try {
-        inst = this.constructFn !== null ? reflectApply(this.constructFn, undefined, []) : reflectConstruct(this.classCtor, []);
-      } catch (e) {
-        fail(this.constructFn !== null ? `@construct ${this.op.target.constructFactory} threw ${describeThrown(e)}` : `new ${className}() threw ${describeThrown(e)}`);
-      }
-      if (inst === null || typeof inst !== 'object') {
-        fail(`${this.constructFn !== null ? `@construct ${this.op.target.constructFactory}` : `new ${className}()`} gave ${describeValue(inst)}, expected an instance`);
-      }
-      this.instance = inst as Record<string, unknown>;
-    }
+    if (this.classCtor !== null) this.instance = this.construct(this.classCtor);
     this.sample = drawSample(this.op, rng, this.instance, this.samplesFn as ((r: () => number) => unknown) | null, maxElements);
     if (this.tensors !== null && this.samplesFn !== null) this.tensors.adoptFactoryTensors(this.sample, this.op.fixed ?? []);
     return this.sample;
+  }
+
+  /** A new instance from @construct or `new Class()`. */
+  private construct(cls: AnyFunction): Record<string, unknown> {
+    let inst: unknown;
+    const className = this.op.target.className ?? '';
+    try {
+      inst = this.constructFn !== null ? reflectApply(this.constructFn, undefined, []) : reflectConstruct(cls, []);
+    } catch (e) {
+      failThrown(this.constructFn !== null ? `@construct ${this.op.target.constructFactory} threw ${describeThrown(e)}` : `new ${className}() threw ${describeThrown(e)}`, e);
+    }
+    if (inst === null || typeof inst !== 'object') {
+      fail(`${this.constructFn !== null ? `@construct ${this.op.target.constructFactory}` : `new ${className}()`} gave ${describeValue(inst)}, expected an instance`);
+    }
+    return inst as Record<string, unknown>;
+  }
+
+  /** Whether each backward call gets a fresh instance (state in `#private` fields cannot be snapshot). */
+  get renewsInstance(): boolean {
+    return this.classCtor !== null && this.op.target.renewInstance === true;
+  }
+
+  /**
+   * For the next backward call only: a fresh instance with the sampled field values (the same
+   * objects) on which the forward has run at the sample point, so the backward sees exactly the
+   * state a forward leaves, also in `#private` fields.
+   */
+  prepareFreshInstanceForBackward(scratch: Float64Array): void {
+    const inst = this.construct(this.classCtor as AnyFunction);
+    const s = this.sample as Sample;
+    const current = this.instance as Record<string, unknown>;
+    for (let i = 0; i < s.fields.length; i++) inst[s.fields[i].field] = current[s.fields[i].field];
+    this.calls.forward++;
+    let raw: unknown;
+    try {
+      raw = this.tensors !== null ? this.tensors.callForward(this.forwardFn, inst, this.args) : reflectApply(this.forwardFn, inst, this.args);
+    } catch (e) {
+      failThrown(`forward threw ${this.whereText()}: ${describeThrown(e)}`, e);
+    }
+    flattenInto(raw, this.layout as OutputLayout, scratch);
+    this.backwardThis = inst;
   }
 
   private get args(): unknown[] {
@@ -150,11 +198,11 @@ export class OpHarness {
   forwardRaw(): unknown {
     this.calls.forward++;
     try {
-      if (this.tensors !== null) return this.tensors.callForward(this.forwardFn, this.instance ?? undefined, this.args);
-      return reflectApply(this.forwardFn, this.instance ?? undefined, this.args);
+      if (this.tensors !== null) return this.tensors.callForward(this.forwardFn, this.instance ?? this.holder ?? undefined, this.args);
+      return reflectApply(this.forwardFn, this.instance ?? this.holder ?? undefined, this.args);
     } catch (e) {
       if (e instanceof CheckStop) throw e;
-      return fail(`forward threw ${this.whereText()}: ${describeThrown(e)}`);
+      return failThrown(`forward threw ${this.whereText()}: ${describeThrown(e)}`, e);
     }
   }
 
@@ -169,7 +217,7 @@ export class OpHarness {
         this.layout = detectLayout(raw);
       } catch (e) {
         if (e instanceof CheckStop) throw e;
-        fail(`reading the forward output threw ${describeThrown(e)}`);
+        failThrown(`reading the forward output threw ${describeThrown(e)}`, e);
       }
       if (this.layout.size === 0) fail('forward output is empty');
     }
@@ -178,7 +226,7 @@ export class OpHarness {
       flattenInto(raw, this.layout, out);
     } catch (e) {
       if (e instanceof CheckStop) throw e;
-      fail(`reading the forward output threw ${describeThrown(e)}`);
+      failThrown(`reading the forward output threw ${describeThrown(e)}`, e);
     }
     if (requireFinite) {
       const j = firstNonFinite(out);
@@ -222,9 +270,22 @@ export class OpHarness {
    */
   backwardInto(dy: Float64Array | null, y: Float64Array, slots: ParamSlot[], dests: Float64Array[]): void {
     const list = this.backwardArgs(dy, y);
+    // `$dy` and `$y` are built fresh for each call; a backward that changes them in place
+    // (and perhaps returns them) is reported like one that changes `x` or `this.w`.
+    const madeNames: string[] = [];
+    const madeValues: unknown[] = [];
+    for (let i = 0; i < this.op.backwardArgs.length; i++) {
+      const a = this.op.backwardArgs[i];
+      if (a.kind === 'upstream' || a.kind === 'output') {
+        madeNames[madeNames.length] = a.kind === 'upstream' ? '$dy' : '$y';
+        madeValues[madeValues.length] = list[i];
+      }
+    }
+    const madeGuard = madeNames.length > 0 ? new InputGuard(madeNames, madeValues) : null;
     this.calls.backward++;
     let result: unknown;
-    const thisArg = this.op.target.backwardIsMethod ? (this.instance ?? undefined) : undefined;
+    const thisArg = this.op.target.backwardIsMethod ? (this.backwardThis ?? this.instance ?? this.holder ?? undefined) : undefined;
+    this.backwardThis = null;
     try {
       if (this.tensors !== null && this.op.target.libraryGradient) {
         const names: string[] = [];
@@ -240,13 +301,17 @@ export class OpHarness {
       else result = reflectApply(this.backwardFn, thisArg, list);
     } catch (e) {
       if (e instanceof CheckStop) throw e;
-      fail(`backward threw: ${describeThrown(e)}`);
+      failThrown(`backward threw: ${describeThrown(e)}`, e);
+    }
+    if (madeGuard !== null) {
+      const changed = madeGuard.firstChange(madeValues);
+      if (changed !== null) fail(`backward changed its input ${changed} (the upstream gradient and the output are the check's, not the backward's to reuse: return a new array)`);
     }
     try {
       readGradients(result, slots, dests);
     } catch (e) {
       if (e instanceof CheckStop) throw e;
-      fail(`reading what the backward returned threw ${describeThrown(e)}`);
+      failThrown(`reading what the backward returned threw ${describeThrown(e)}`, e);
     }
     for (let p = 0; p < slots.length; p++) {
       const j = firstNonFinite(dests[p]);
@@ -255,6 +320,11 @@ export class OpHarness {
         fail(`gradient of '${slots[p].name}' has ${nonFiniteName(dests[p][j])}${where}${this.tensors !== null ? this.tensors.upstreamNote() : ''}`);
       }
     }
+  }
+
+  /** The instance's state now (after a forward at the sample point), to restore before backward calls. */
+  snapshotInstance(): InstanceSnapshot | null {
+    return this.instance === null ? null : new InstanceSnapshot(this.instance);
   }
 
   /** Whether the backward runs on the instance after the forward (it may read cached state). */

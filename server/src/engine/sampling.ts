@@ -3,7 +3,7 @@
 // in a ParamSlot.
 
 import { F32, F64, I32, abs, contains, describeThrown, sliceText, describeValue, formatNumber, isArray, isFiniteNumber, isInteger, max, min, parseJson, reflectApply, stringifyJson } from './builtins';
-import { fail } from './failure';
+import { fail, failThrown } from './failure';
 import { nestedShape } from './outputLayout';
 import { ParamSlot, nestedLeaves, precisionOf } from './paramSlot';
 import { avoidMargin, roundTo, type Precision } from './precision';
@@ -168,7 +168,7 @@ export function drawSample(
     try {
       produced = reflectApply(samplesFactory, undefined, [random]);
     } catch (e) {
-      fail(`@samples ${op.target.samplesFactory}: threw ${describeThrown(e)}`);
+      failThrown(`@samples ${op.target.samplesFactory}: threw ${describeThrown(e)}`, e);
     }
     if (!isArray(produced)) fail(`@samples ${op.target.samplesFactory}: returned ${describeValue(produced)}, expected the argument list (an array)`);
     const list = produced as unknown[];
@@ -190,6 +190,10 @@ export function drawSample(
     for (let i = 0; i < positional.length; i++) {
       const p = positional[i];
       argNames[i] = p.name;
+      if (p.sample === undefined && p.hasDefault === true) {
+        args[i] = undefined; // the forward's default value applies
+        continue;
+      }
       if (p.sample === undefined) fail(`parameter '${p.name}' has no @sample`);
       args[i] = drawValue(p.name, p.sample, rng, maxElements);
       const spec = p.sample;

@@ -56,8 +56,13 @@ export interface ParamDescriptor {
   /** Parameter name, or `this.FIELD` for a field of the instance. */
   name: string;
   isField: boolean;
-  /** Absent when the op uses `@samples FACTORY`. */
+  /** Absent when the op uses `@samples FACTORY`, or for a parameter with a default value. */
   sample?: SampleSpec;
+  /**
+   * The parameter has a default value (or is optional) and no `@sample`: it is passed as
+   * `undefined`, so its default applies, and it is not differentiated.
+   */
+  hasDefault?: boolean;
   /**
    * The declared type is a TensorFlow.js tensor (or the parameter is an input of a
    * `customGrad` function): the forward receives a float32 tensor of the sampled shape, made
@@ -72,6 +77,12 @@ export type BackwardArg =
   | { kind: 'output' } // `$y`: the forward's output at the sample point
   | { kind: 'upstream' }; // `$dy`: the upstream gradient
 
+/**
+ * The binding under which the sandbox exposes a module's anonymous default export
+ * (`export default function (x) {}`): OpTarget.forwardName of such an op.
+ */
+export const DEFAULT_EXPORT_BINDING = '__gradientProbeDefault';
+
 /** How the sandbox finds an op's functions in the module it evaluated. */
 export interface OpTarget {
   kind: 'function' | 'method';
@@ -79,10 +90,21 @@ export interface OpTarget {
   forwardName: string;
   /** The class binding, for methods. */
   className?: string;
+  /**
+   * For a function held by a top-level object literal (`export const ops = { f(x) {} }`): the
+   * object's binding. The forward is `object[forwardName]`, called with `this` = the object, and
+   * `backwardIsMethod` means the backward is another function of the same object.
+   */
+  objectName?: string;
   /** Top-level binding, or a method of the same class when the forward is a method. */
   backwardName: string;
   /** Whether the backward is a method of the class (called on the same instance). */
   backwardIsMethod: boolean;
+  /**
+   * The class (or a same-file ancestor) declares `#private` members, whose state the engine
+   * cannot snapshot: each backward call gets a fresh instance on which the forward ran.
+   */
+  renewInstance?: boolean;
   /** `@samples FACTORY`: exported/top-level function `(random) => unknown[]`. */
   samplesFactory?: string;
   /** `@construct FACTORY`: top-level function returning the instance. */
@@ -153,6 +175,13 @@ export interface WorstElement {
   index: number[];
   analytic: number;
   numeric: number;
+  /**
+   * This element's own relative error. The worst element is the one the verdict rests on: the
+   * confirmed mismatch with the largest relative error, else the element with the largest one.
+   * Every message that names an element names this one with this figure (`maxRelError` may be
+   * larger: it also counts elements whose estimate was not trusted and random directions).
+   */
+  relError?: number;
 }
 
 /** Error against step size for the worst element: the data of the report's log-log plot. */
@@ -215,6 +244,19 @@ export interface CheckOutcome {
    * own gradient of the forward (`@backward library-gradient`); absent for a hand-written one.
    */
   gradientSource?: 'library';
+  /**
+   * When the op's own code threw: "line:column,..." of the bundle script's stack frames (the
+   * engine's raw positions); the host maps them to `thrownAt` and drops this field.
+   */
+  thrownFrames?: string;
+}
+
+/** A place in a user's source file (1-based), e.g. where an exception was thrown. */
+export interface SourcePlaceRef {
+  /** Relative to the current folder (CLI) with `/` separators, or absolute (server). */
+  file: string;
+  line: number;
+  column: number;
 }
 
 /** One op's entry in the report (the `--json` `pairs` entries). */
@@ -230,6 +272,8 @@ export interface OpResult extends CheckOutcome {
   problems?: Problem[];
   /** Text the op printed with `console`. */
   output?: string;
+  /** Where the op's own code threw (mapped through the bundle's source map), when it did. */
+  thrownAt?: SourcePlaceRef;
   /**
    * 'interpreter' when the op ran in the isolated mode (a WebAssembly JavaScript interpreter,
    * slower, for small ops); absent when it ran in the normal runner process.

@@ -78,6 +78,15 @@ function resultDiagnostic(op: OpDescriptor, result: OpResult, facts: DocumentFac
       message: `backward ${op.backward}: the hand-written gradient`,
     });
   }
+  if (result.thrownAt) {
+    // Where the op's own code threw (the bundle's stack mapped to the user's source).
+    const at = result.thrownAt;
+    const here = at.file === snapshot.fsPath;
+    related.push({
+      location: { uri: here ? snapshot.uri : pathToFileURL(at.file).toString(), range: toRange(at, undefined, here ? snapshot.lines : []) },
+      message: 'thrown here',
+    });
+  }
   const param = worstParam(result);
   const sampleTag = param ? op.tags.find((t) => t.tag === 'sample' && t.param === param.name) : undefined;
   if (sampleTag) {

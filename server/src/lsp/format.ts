@@ -81,7 +81,7 @@ export function verdictSentence(result: OpResult): string {
       return p ? `gradient agrees; worst ${p.name} at ${sci(p.maxRelError)} relative` : 'gradient agrees';
     case 'mismatch':
       return p && p.worst
-        ? `gradient of ${p.name} is wrong: max relative error ${sci(p.maxRelError)} at ${indexText(p.worst.index)} (backward ${figure(p.worst.analytic)}, numeric ${figure(p.worst.numeric)})`
+        ? `gradient of ${p.name} is wrong: max relative error ${sci(p.worst.relError ?? p.maxRelError)} at ${indexText(p.worst.index)} (backward ${figure(p.worst.analytic)}, numeric ${figure(p.worst.numeric)})`
         : `gradient is wrong: ${oneLine(result.message)}`;
     case 'inconclusive':
       return `inconclusive: ${oneLine(result.message || 'the numeric estimate cannot be trusted here')}`;

@@ -2,7 +2,7 @@
 // that rebuilds the recorded sample, calls the backward with an all-ones upstream gradient and
 // compares the worst element with a central difference, so the bug stays caught after it is fixed.
 
-import type { BackwardArg, OpDescriptor, OpResult, ParamResult } from '../engine/types';
+import { DEFAULT_EXPORT_BINDING, type BackwardArg, type OpDescriptor, type OpResult, type ParamResult } from '../engine/types';
 import { indexText } from './format';
 
 /**
@@ -40,7 +40,9 @@ export function regressionTestFor(op: OpDescriptor, result: OpResult, tolerance:
   push(0, `// Needs: import assert from 'node:assert/strict';${needs} and ${importList(op).join(', ')} imported from the op's module.`);
   push(0, `it('${quote(op.forward)}: backward agrees with a central difference at the recorded sample (seed ${result.seed})', () => {`);
   push(1, `const args: any[] = [${result.inputs.args.map(literal).join(', ')}];`);
-  const call = (list: string): string => (isMethod ? `self.${op.target.forwardName}(...${list})` : `${op.target.forwardName}(...${list})`);
+  // A function of an object literal is called on the object (OpTarget.objectName).
+  const callHolder = isMethod ? 'self.' : op.target.objectName !== undefined ? `${op.target.objectName}.` : '';
+  const call = (list: string): string => `${callHolder}${op.target.forwardName}(...${list})`;
   if (tensorOp) {
     const shapes = op.params.filter((p) => !p.isField).map((p) => (!p.tensor ? 'null' : p.sample?.kind === 'random' ? JSON.stringify(p.sample.shape) : 'undefined'));
     push(1, `// Tensor parameters get tensors of these shapes (null: not a tensor; undefined: the library infers it).`);
@@ -65,7 +67,11 @@ export function regressionTestFor(op: OpDescriptor, result: OpResult, tolerance:
   push(1, `const onesLike = (v: any): any => typeof v === 'number' ? 1 : ArrayBuffer.isView(v) ? (v as any).map(() => 1) : Array.isArray(v) ? v.map(onesLike) : Object.fromEntries(Object.keys(v).map((k) => [k, onesLike(v[k])]));`);
   push(1, `const y = forward();`);
   push(1, `const dy = onesLike(y);`);
-  const callee = isMethod && op.target.backwardIsMethod ? `self.${op.target.backwardName}` : op.target.backwardName;
+  const callee = isMethod && op.target.backwardIsMethod
+    ? `self.${op.target.backwardName}`
+    : op.target.objectName !== undefined && op.target.backwardIsMethod
+      ? `${op.target.objectName}.${op.target.backwardName}`
+      : op.target.backwardName;
   if (tensorOp && op.target.libraryGradient) {
     const diff = differentiated.map((n) => plainParams.indexOf(n));
     push(1, `// The library's own gradient of the forward (what \`@backward library-gradient\` checks), for upstream dy.`);
@@ -103,6 +109,9 @@ export function regressionTestFor(op: OpDescriptor, result: OpResult, tolerance:
 function importList(op: OpDescriptor): string[] {
   if (op.target.kind === 'method') return [op.target.constructFactory ?? op.target.className ?? op.forward];
   if (op.target.libraryGradient) return [op.target.forwardName];
+  if (op.target.objectName !== undefined) return op.target.backwardIsMethod ? [op.target.objectName] : [op.target.objectName, op.target.backwardName];
+  // An anonymous default export: `import name from` the module, under the name the snippet uses.
+  if (op.target.forwardName === DEFAULT_EXPORT_BINDING) return [`the default export (as ${DEFAULT_EXPORT_BINDING})`, op.target.backwardName];
   return [op.target.forwardName, op.target.backwardName];
 }
 

@@ -7,7 +7,9 @@ import { builtinModules } from 'node:module';
 import { dirname, extname, isAbsolute, join, relative, resolve } from 'node:path';
 import * as esbuild from 'esbuild';
 import type * as esbuildTypes from 'esbuild';
-import { TENSOR_LIBRARY_BINDING } from '../engine/types';
+import { DEFAULT_EXPORT_BINDING, TENSOR_LIBRARY_BINDING } from '../engine/types';
+import { UNAVAILABLE_BUILTIN_NAMESPACE, unavailableModuleCode } from './builtinStandIn';
+import { bundleCacheDir, readStoredBundle, writeStoredBundle } from './bundleDiskCache';
 import { originalPlace, type SourcePlace } from './sourceMap';
 
 /** Bundles kept in memory; a workspace rarely has more files with ops open at once. */
@@ -21,6 +23,12 @@ const MAX_CACHED_CHARS = 32 * 1024 * 1024;
 
 /** esbuild namespace of the empty stand-ins for Node built-ins imported by packages. */
 const EMPTY_NAMESPACE = 'gradient-probe-empty';
+
+/**
+ * esbuild namespace of the stand-ins for Node built-ins imported by the user's own files. The
+ * name shows in stack positions mapped back through the source map (sandbox/builtinStandIn.ts).
+ */
+const UNAVAILABLE_NAMESPACE = UNAVAILABLE_BUILTIN_NAMESPACE;
 
 /** A binding name we may splice into code: a plain identifier, nothing else. */
 const IDENTIFIER = /^[A-Za-z_$][A-Za-z0-9_$]*$/;
@@ -63,6 +71,8 @@ export interface BundleStats {
   /** Requests answered from the cache after re-validating every input. */
   cacheHits: number;
   failures: number;
+  /** Requests answered from the disk cache (after re-validating every input). */
+  diskHits: number;
 }
 
 interface InputRecord {
@@ -105,7 +115,7 @@ const TENSOR_LIBRARY_PACKAGE = /^@tensorflow\/tfjs(?:-core|-node|-node-gpu)?$/;
  * The code appended to the entry: `globalThis.__gradientProbeExposed = { name: …, … }`, with
  * the tensor library's namespace (an import, hoisted like every import) when asked for.
  */
-export function exposeCode(bindings: string[], tensorLibrary?: string): string {
+export function exposeCode(bindings: string[], tensorLibrary?: string, file?: string): string {
   const names = [...new Set(bindings)].filter((n) => IDENTIFIER.test(n)).sort();
   const fields = names.map((n) => `  ${JSON.stringify(n)}: typeof ${n} !== 'undefined' ? ${n} : undefined`);
   let head = '';
@@ -113,6 +123,9 @@ export function exposeCode(bindings: string[], tensorLibrary?: string): string {
     head = `\n;import * as ${TENSOR_LIBRARY_BINDING} from ${JSON.stringify(tensorLibrary)};`;
     fields.push(`  ${JSON.stringify(TENSOR_LIBRARY_BINDING)}: ${TENSOR_LIBRARY_BINDING}`);
   }
+  // An anonymous default export has no name in its module: a self-import gives it one (the
+  // bundler resolves it to the same module, so nothing runs twice).
+  if (file !== undefined && names.includes(DEFAULT_EXPORT_BINDING)) head += `\nimport ${DEFAULT_EXPORT_BINDING} from ${JSON.stringify(file)};`;
   return `${head}\n;globalThis.__gradientProbeExposed = {\n${fields.join(',\n')}\n};\n`;
 }
 
@@ -148,10 +161,29 @@ function describeFailure(entry: string, workDir: string, errors: esbuildTypes.Me
   return { ok: false, message: `${text} (${where})${more}`, location: { file, line, column } };
 }
 
+export interface BundlerOptions {
+  /**
+   * Keep bundles on disk between runs (bundleDiskCache.ts says where). Off by default so a
+   * test's counts stay its own; the Checker turns it on.
+   */
+  diskCache?: boolean;
+  /**
+   * Only bundles that took at least this long to build go to disk (default
+   * DISK_WORTHY_BUILD_MS): an editor buffer re-bundled on every edit writes nothing, a file
+   * importing a large package is kept.
+   */
+  diskCacheMinBuildMs?: number;
+}
+
+/** Build time from which a bundle is worth keeping on disk (our choice: well above a small file's ~20 ms). */
+const DISK_WORTHY_BUILD_MS = 150;
+
 export class Bundler {
-  readonly stats: BundleStats = { builds: 0, cacheHits: 0, failures: 0 };
+  readonly stats: BundleStats = { builds: 0, cacheHits: 0, failures: 0, diskHits: 0 };
   private readonly cache = new Map<string, CacheEntry>();
   private cachedChars = 0;
+
+  constructor(private readonly options: BundlerOptions = {}) {}
 
   /** Bundles a file for the sandbox; never rejects. */
   async bundle(request: BundleRequest): Promise<BundleResult> {
@@ -168,6 +200,13 @@ export class Bundler {
       return { ok: true, code: cached.code, key: cached.key, cached: true, buildMs: 0, originalPlace: placeFinder(cached), inputs: inputPaths(cached) };
     }
     this.forget(requestKey);
+    const diskDir = this.options.diskCache ? bundleCacheDir() : undefined;
+    const stored = diskDir ? readStoredBundle(diskDir, requestKey) : undefined;
+    if (stored && this.stillValid(stored)) {
+      this.stats.diskHits++;
+      this.remember(requestKey, stored);
+      return { ok: true, code: stored.code, key: stored.key, cached: true, buildMs: 0, originalPlace: placeFinder(stored), inputs: inputPaths(stored) };
+    }
     const started = performance.now();
     const result = await this.build(file, request.text, bindings, request.tensorLibrary);
     if (!result.ok) {
@@ -175,15 +214,21 @@ export class Bundler {
       return result;
     }
     this.stats.builds++;
-    this.cache.set(requestKey, result.entry);
-    this.cachedChars += result.entry.code.length;
+    this.remember(requestKey, result.entry);
+    const buildMs = performance.now() - started;
+    if (diskDir && buildMs >= (this.options.diskCacheMinBuildMs ?? DISK_WORTHY_BUILD_MS)) writeStoredBundle(diskDir, requestKey, result.entry);
+    return { ok: true, code: result.entry.code, key: result.entry.key, cached: false, buildMs, originalPlace: placeFinder(result.entry), inputs: inputPaths(result.entry) };
+  }
+
+  private remember(requestKey: string, entry: CacheEntry): void {
+    this.cache.set(requestKey, entry);
+    this.cachedChars += entry.code.length;
     // Oldest first; the newest entry always stays, however large.
     while (this.cache.size > 1 && (this.cache.size > MAX_CACHED_BUNDLES || this.cachedChars > MAX_CACHED_CHARS)) {
       const oldest = this.cache.keys().next().value;
       if (oldest === undefined) break;
       this.forget(oldest);
     }
-    return { ok: true, code: result.entry.code, key: result.entry.key, cached: false, buildMs: performance.now() - started, originalPlace: placeFinder(result.entry), inputs: inputPaths(result.entry) };
   }
 
   /** Forgets every cached bundle. */
@@ -223,7 +268,7 @@ export class Bundler {
   private async build(file: string, text: string, bindings: string[], tensorLibrary?: string): Promise<{ ok: true; entry: CacheEntry } | (BundleResult & { ok: false })> {
     const workDir = dirname(file);
     const loader = LOADERS[extname(file).toLowerCase()] ?? 'ts';
-    const entryContents = text + exposeCode(bindings, tensorLibrary);
+    const entryContents = text + exposeCode(bindings, tensorLibrary, file);
     const entryPlugin: esbuildTypes.Plugin = {
       name: 'gradient-probe-entry',
       setup(build) {
@@ -238,6 +283,18 @@ export class Bundler {
           isBuiltinModule(args.path) && /[\\/]node_modules[\\/]/.test(args.importer) ? { path: args.path, namespace: EMPTY_NAMESPACE } : undefined,
         );
         build.onLoad({ filter: /.*/, namespace: EMPTY_NAMESPACE }, () => ({ contents: 'module.exports = {};', loader: 'js' }));
+        // The user's own files get a stand-in whose members throw when used, naming the module
+        // and the member: a logging helper that imports `node:path` but is never called during
+        // the check does not make the file uncheckable.
+        build.onResolve({ filter: /^[a-z_:][a-z0-9_/:.-]*$/ }, (args) =>
+          isBuiltinModule(args.path) && !/[\\/]node_modules[\\/]/.test(args.importer)
+            ? { path: `${args.path}|${relative(workDir, args.importer) || args.importer}`, namespace: UNAVAILABLE_NAMESPACE }
+            : undefined,
+        );
+        build.onLoad({ filter: /.*/, namespace: UNAVAILABLE_NAMESPACE }, (args) => {
+          const bar = args.path.indexOf('|');
+          return { contents: unavailableModuleCode(args.path.slice(0, bar), args.path.slice(bar + 1)), loader: 'js' };
+        });
         // The entry's text comes from the caller (an unsaved buffer), also when another
         // module imports it back (an import cycle).
         build.onLoad({ filter: /.*/, namespace: 'file' }, (args) =>
