@@ -59,7 +59,7 @@ const MAY_IMPORT = {
   engine: [],
   text: [],
   discovery: ['engine', 'text'],
-  sandbox: ['engine'],
+  sandbox: ['engine', 'discovery'], // discovery: the parser-safe text for coverage mapping (coverageBlocks.ts)
   core: ['engine', 'discovery', 'sandbox'],
   project: ['engine', 'text'],
   cli: ['engine', 'core', 'project', 'lsp', 'text'],

@@ -5,6 +5,7 @@
 // Pure (no editor API) so it can be tested outside the editor.
 
 import type { OpResult, ParamResult, StepScan, WorstElement } from '../../server/src/engine/types';
+import { coverageSection } from './reportCoverage';
 
 export interface ReportPageInput {
   result: OpResult;
@@ -50,10 +51,11 @@ export function reportPage(input: ReportPageInput): string {
 </head>
 <body>
 <h1>${esc(result.forward ?? 'op')} <span class="verdict ${esc(result.verdict)}">${esc(result.verdict)}</span></h1>
-<p class="meta">${esc(input.fileLabel)}:${result.line} · backward ${esc(result.backward ?? '—')} · seed ${result.seed} · ${result.elapsedMs.toFixed(1)} ms · ${result.calls.forward} forward / ${result.calls.backward} backward calls</p>
+<p class="meta">${esc(input.fileLabel)}:${result.line} · ${result.kind ?? 'backward'} ${esc(result.backward ?? '—')} · seed ${result.seed} · ${result.elapsedMs.toFixed(1)} ms · ${result.calls.forward} forward / ${result.calls.backward} backward calls</p>
 ${result.message ? `<p class="message">${esc(result.message)}</p>` : ''}
 ${hints}
 ${sections || '<p>No differentiated parameters.</p>'}
+${coverageSection(result, esc)}
 <p class="legend">How to read the step plot: for a correct backward the error first falls as the step shrinks (truncation, ∝ h²) and rises again once rounding dominates (∝ 1/h), a V with its floor near the dtype's roundoff (Nocedal &amp; Wright, Numerical Optimization, 2nd ed., §8.1). A wrong backward leaves a flat floor: the numbers disagree at every step. The dashed curve is the finite difference's own error against the refined estimate — what a correct backward would show — and the line marks the tolerance: a pass needs the refined comparison below it.</p>
 </body>
 </html>`;
@@ -240,4 +242,5 @@ line.floor { stroke: var(--vscode-charts-purple, var(--vscode-descriptionForegro
 .swatch.reference { border-top-style: dashed; border-color: var(--vscode-charts-green, var(--vscode-editor-foreground)); }
 .swatch.tolerance { border-color: var(--vscode-charts-red, var(--vscode-errorForeground)); }
 .swatch.floor { border-top-style: dotted; border-color: var(--vscode-charts-purple, var(--vscode-descriptionForeground)); }
+.gaps .where { font-family: var(--vscode-editor-font-family); } .gaps .reach { color: var(--vscode-descriptionForeground); }
 `;

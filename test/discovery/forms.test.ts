@@ -137,7 +137,7 @@ describe('discovery: forward forms', () => {
   });
 
   it('exports our tag names', () => {
-    assert.deepEqual([...OP_TAG_NAMES].sort(), ['backward', 'construct', 'fixed', 'sample', 'samples', 'seed', 'tolerance']);
+    assert.deepEqual([...OP_TAG_NAMES].sort(), ['backward', 'construct', 'fixed', 'hessian', 'jacobian', 'sample', 'samples', 'seed', 'tangent', 'tolerance']);
   });
 });
 

@@ -9,7 +9,7 @@ import type { CodeLens, Hover, MarkupContent } from 'vscode-languageserver-proto
 import { Methods, type CheckOpsResult, type CheckWorkspaceResult, type OpReportResult } from '../../server/src/lsp/protocol';
 import { LspSession, lsp } from '../lsp/lspSession';
 import { expectedLine, HOSTILE_CASES } from './cases';
-import { copyHostileWorkspace, runnerProcesses, type HostileCopy } from './workspace';
+import { copyHostileWorkspace, coverageRunnerProcesses, runnerProcesses, type HostileCopy } from './workspace';
 
 const { CodeLensRequest, DidChangeTextDocumentNotification, DidOpenTextDocumentNotification, HoverRequest } = lsp;
 
@@ -106,6 +106,9 @@ describe('hostile workspace through the language server (trusted)', function () 
     // The pool holds at most two runners (min(2, cores)); dead ones are gone, not piling up.
     const runners = runnerProcesses(s.serverChildren());
     assert.ok(runners.length >= 1 && runners.length <= 2, `runner processes: ${runners.length}`);
+    // The coverage pass has its own pool of the same size, bounded the same way.
+    const coverageRunners = coverageRunnerProcesses(s.serverChildren());
+    assert.ok(coverageRunners.length <= 2, `coverage runner processes: ${coverageRunners.length}`);
   });
 });
 

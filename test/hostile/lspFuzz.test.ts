@@ -10,7 +10,7 @@ import { pathToFileURL } from 'node:url';
 import fc from 'fast-check';
 import type { CodeLens } from 'vscode-languageserver-protocol/lib/node/main';
 import { LspSession, lsp } from '../lsp/lspSession';
-import { copyHostileWorkspace, runnerProcesses, type HostileCopy } from './workspace';
+import { copyHostileWorkspace, coverageRunnerProcesses, runnerProcesses, type HostileCopy } from './workspace';
 
 const { CodeLensRequest, DidChangeTextDocumentNotification, DidOpenTextDocumentNotification, DidSaveTextDocumentNotification, HoverRequest } = lsp;
 
@@ -57,6 +57,8 @@ describe('language server under 1,000 random edits (fast-check, seed 6601)', fun
     let version = 1;
     await s.connection.sendNotification(DidOpenTextDocumentNotification.type, { textDocument: { uri, languageId: 'typescript', version, text } });
     let mostRunners = 0;
+    // The coverage pass's own pool (same size), counted apart.
+    let mostCoverageRunners = 0;
     const edits = fc.sample(edit, { seed: 6601, numRuns: EDITS });
     assert.equal(edits.length, EDITS);
     for (let k = 0; k < edits.length; k++) {
@@ -80,6 +82,7 @@ describe('language server under 1,000 random edits (fast-check, seed 6601)', fun
         // Let the check start, so the next edit has a run to cancel.
         await new Promise((r) => setTimeout(r, 60));
         mostRunners = Math.max(mostRunners, runnerProcesses(s.serverChildren()).length);
+        mostCoverageRunners = Math.max(mostCoverageRunners, coverageRunnerProcesses(s.serverChildren()).length);
       }
     }
     assert.equal(s.child.exitCode, null, 'the server is running');
@@ -95,10 +98,11 @@ describe('language server under 1,000 random edits (fast-check, seed 6601)', fun
         return `${pid} gone`;
       }
     }).join('\n');
-    await s.waitFor('the runners to settle', () => runnerProcesses(s.serverChildren()).length <= MAX_RUNNERS_AFTER || undefined, 30_000).catch((err: Error) => {
+    await s.waitFor('the runners to settle', () => (runnerProcesses(s.serverChildren()).length <= MAX_RUNNERS_AFTER && coverageRunnerProcesses(s.serverChildren()).length <= MAX_RUNNERS_AFTER) || undefined, 30_000).catch((err: Error) => {
       throw new Error(`${err.message.slice(0, 300)}\nchildren:\n${describeChildren()}`);
     });
     assert.ok(mostRunners <= MAX_RUNNERS_DURING, `at most ${mostRunners} runner processes at a save`);
+    assert.ok(mostCoverageRunners <= MAX_RUNNERS_DURING, `at most ${mostCoverageRunners} coverage runner processes at a save`);
     assert.doesNotMatch(s.logs.join(''), /unexpected (error|rejection)/, 'no handler failed');
     // The server still checks: replace the text with the original file and save.
     version++;

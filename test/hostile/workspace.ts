@@ -4,6 +4,7 @@
 import { cpSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { COVERAGE_RUNNER_ARG } from '../../server/src/sandbox/jobTypes';
 import { ROOT, runCli as runCliIn, type CliRun } from '../helpers/cli';
 
 export { BIN, ROOT, type CliRun } from '../helpers/cli';
@@ -63,7 +64,20 @@ export function lineOf(text: string, needle: string): number {
 export function runnerProcesses(pids: number[]): number[] {
   return pids.filter((pid) => {
     try {
-      return /sandbox-child\.js|isolated-worker\.js/.test(readFileSync(`/proc/${pid}/cmdline`, 'utf8'));
+      const cmdline = readFileSync(`/proc/${pid}/cmdline`, 'utf8');
+      // Coverage runners are a pool of their own (coverageRunnerProcesses).
+      return /sandbox-child\.js|isolated-worker\.js/.test(cmdline) && !cmdline.includes(COVERAGE_RUNNER_ARG);
+    } catch {
+      return false; // it ended while we looked
+    }
+  });
+}
+
+/** The coverage runners among `pids` (started with the coverage argument, see sandbox/coverageSession.ts). */
+export function coverageRunnerProcesses(pids: number[]): number[] {
+  return pids.filter((pid) => {
+    try {
+      return readFileSync(`/proc/${pid}/cmdline`, 'utf8').split('\0').includes(COVERAGE_RUNNER_ARG);
     } catch {
       return false; // it ended while we looked
     }

@@ -20,6 +20,10 @@ export interface CheckOptions {
   /** Settings given as flags; they win over the configuration file. */
   overrides: Partial<CheckSettings>;
   failOnInconclusive: boolean;
+  /** Exit 1 when code of a backward never ran during its check (coverage). */
+  failOnUnreached?: boolean;
+  /** Skip the coverage pass (on by default: a second run of each check in coverage runners). */
+  noCoverage?: boolean;
   /** Run ops in the isolated interpreter instead of the runner process (settings.isolation). */
   isolated?: boolean;
   onlyProblems: boolean;
@@ -66,6 +70,8 @@ export const CHECK_FLAGS: readonly FlagSpec[] = [
   { name: '--config', value: 'FILE', description: 'read this configuration file instead of searching for gradient-probe.json', apply: (o, v) => { o.config = v; } },
   { name: '--isolated', description: 'run ops in the isolated interpreter (WebAssembly, no Node API; 35-50x slower, for small ops)', apply: (o) => { o.isolated = true; } },
   { name: '--fail-on-inconclusive', description: 'exit 1 when an op is inconclusive, too', apply: (o) => { o.failOnInconclusive = true; } },
+  { name: '--fail-on-unreached', description: 'exit 1 when code of a backward (or a helper it calls) never ran during its check', apply: (o) => { o.failOnUnreached = true; } },
+  { name: '--no-coverage', description: 'skip the coverage pass (a second run of each check that records which code ran)', apply: (o) => { o.noCoverage = true; } },
   { name: '--only-problems', description: 'list only ops that did not pass (the summary still counts all)', apply: (o) => { o.onlyProblems = true; } },
   { name: '--color', value: 'WHEN', description: 'colour the table: auto (a terminal without NO_COLOR), always or never', apply: (o, v) => { o.color = parseColorMode(v); } },
   { name: '--no-color', description: 'same as --color never', apply: (o) => { o.color = 'never'; } },

@@ -10,6 +10,7 @@ import type { OpResult, Report } from '../engine/types';
 import { ConfigError, loadConfigFile, loadProjectConfig, type ProjectConfig } from '../project/config';
 import { findSourceFiles, SourcePathError } from '../project/files';
 import type { CheckOptions } from './args';
+import { backwardHasGaps } from './coverageLines';
 import { formatHuman } from './human';
 import { formatJunit } from './junit';
 import { buildReport, exitCodeFor, reportPath } from './report';
@@ -75,6 +76,7 @@ export async function runCheckCommand(options: CheckOptions, io: CliIo, toolVers
     io.stdout.write(formatHuman(report, { color, onlyProblems: options.onlyProblems, fileCount: files.length, elapsedMs }));
   }
   if (!written) return EXIT_USAGE;
+  if (options.failOnUnreached && report.pairs.some(backwardHasGaps)) return EXIT_FAILED;
   return exitCodeFor(report, options.failOnInconclusive);
 }
 
@@ -101,7 +103,8 @@ function configSearchStart(paths: readonly string[], cwd: string): string {
  * (the report sorts them).
  */
 async function checkAll(files: readonly string[], settings: CheckSettings, options: CheckOptions, io: CliIo): Promise<OpResult[]> {
-  const checkerOptions: ConstructorParameters<typeof Checker>[0] = { settings };
+  // Coverage is on unless asked off; the isolated interpreter does not record it (checker.ts).
+  const checkerOptions: ConstructorParameters<typeof Checker>[0] = { settings, coverage: options.noCoverage !== true };
   if (options.workers !== undefined) checkerOptions.workers = options.workers;
   const checker = new Checker(checkerOptions);
   const results: OpResult[] = [];

@@ -2,6 +2,7 @@
 // details under the rows that did not pass, and the summary line last. Plain text; colour optional.
 
 import type { OpResult, Report, Verdict } from '../engine/types';
+import { coverageLines, uncollectedNote } from './coverageLines';
 import { detailLines } from './details';
 import { formatIndex, formatRelError, formatTime, shorten } from './format';
 import { VERDICTS, worstParam } from './report';
@@ -57,9 +58,13 @@ export function formatHuman(report: Report, options: HumanOptions): string {
       lines.push(text.slice(0, at) + paint.verdict(pair.verdict, cells[2]!) + text.slice(at + cells[2]!.length));
       // Messages, problems and hints stay at full strength; the seed and captured output recede.
       for (const detail of detailLines(pair)) lines.push(indent + (SECONDARY_DETAIL.test(detail) ? paint.dim(detail) : detail));
+      // Coverage gaps recede too: they say what the check did not test, not that the op is wrong.
+      for (const detail of coverageLines(pair)) lines.push(indent + paint.dim(detail));
     });
     lines.push('');
   }
+  const note = uncollectedNote(report);
+  if (note) lines.push(paint.dim(note));
   lines.push(summaryLine(report, options));
   return lines.join('\n') + '\n';
 }

@@ -10,9 +10,22 @@ export const VERDICTS: readonly Verdict[] = ['pass', 'mismatch', 'inconclusive',
 
 /** Builds the report: `file` relative to `cwd` with `/`, pairs ordered by file, line, name. */
 export function buildReport(results: readonly OpResult[], cwd: string): Report {
-  const pairs = results.map((r) => inReadingOrder({ ...r, file: reportPath(r.file, cwd), ...(r.thrownAt ? { thrownAt: { ...r.thrownAt, file: reportPath(r.thrownAt.file, cwd) } } : {}) }));
+  const pairs = results.map((r) => inReadingOrder({
+    ...r,
+    file: reportPath(r.file, cwd),
+    ...(r.thrownAt ? { thrownAt: { ...r.thrownAt, file: reportPath(r.thrownAt.file, cwd) } } : {}),
+    ...coverageWithPaths(r, cwd),
+  }));
   pairs.sort((a, b) => compare(a.file, b.file) || a.line - b.line || compare(a.forward ?? '', b.forward ?? ''));
   return { version: 1, pairs, summary: summarize(pairs) };
+}
+
+/** The op's coverage with its gaps' files relative to `cwd`, like the op's own file. */
+function coverageWithPaths(r: OpResult, cwd: string): Pick<OpResult, 'coverage'> {
+  const c = r.coverage;
+  if (!c) return {};
+  if (!c.collected) return { coverage: c };
+  return { coverage: { ...c, gaps: c.gaps.map((g) => ({ ...g, file: reportPath(g.file, cwd) })) } };
 }
 
 /** Keys a reader looks for first (the interface's example order); the rest follow as they came. */

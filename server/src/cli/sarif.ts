@@ -3,6 +3,7 @@
 
 import { pathToFileURL } from 'node:url';
 import type { OpResult, Report } from '../engine/types';
+import { gapSentence } from './coverageLines';
 import { formatRelError } from './format';
 import { worstParam } from './report';
 
@@ -36,6 +37,11 @@ export const SARIF_RULES: readonly RuleSpec[] = [
     id: 'check-inconclusive', name: 'CheckInconclusive', level: 'warning',
     short: 'Finite differences cannot be trusted here',
     full: 'The finite-difference estimate is unreliable at the sample point (a kink that resampling did not escape, or a forward that is not deterministic).',
+  },
+  {
+    id: 'unreached-code', name: 'UnreachedCode', level: 'note',
+    short: 'Code the check never ran',
+    full: 'Code of the forward or the backward (or of a helper they call) that none of the sampled inputs reached during the check, so the check says nothing about it.',
   },
 ];
 
@@ -74,7 +80,7 @@ export function sarifLog(report: Report, options: SarifOptions): Record<string, 
         },
         originalUriBaseIds: { [SOURCE_ROOT_ID]: { uri: rootUri } },
         columnKind: 'utf16CodeUnits',
-        results: report.pairs.flatMap(resultsOf),
+        results: report.pairs.flatMap((pair) => [...resultsOf(pair), ...gapResults(pair)]),
       },
     ],
   };
@@ -90,6 +96,18 @@ function resultsOf(pair: OpResult): Record<string, unknown>[] {
   return [result(ruleId, messageOf(pair), pair, pair.line, columnOf(pair))];
 }
 
+/** One note per code gap, at the gap's own place. */
+function gapResults(pair: OpResult): Record<string, unknown>[] {
+  const c = pair.coverage;
+  if (!c || !c.collected) return [];
+  return c.gaps.map((gap) => {
+    const text = `${opName(pair)}: ${gapSentence(gap)}.${gap.reach ? ` It ${gap.reach}.` : ''}`;
+    const r = result('unreached-code', text, { ...pair, file: gap.file }, gap.startLine, gap.startColumn, gap.endLine, gap.endColumn);
+    (r['properties'] as Record<string, unknown>)['side'] = gap.side;
+    return r;
+  });
+}
+
 function result(
   ruleId: string, text: string, pair: OpResult, line: number, column: number, endLine?: number, endColumn?: number,
 ): Record<string, unknown> {
@@ -100,6 +118,7 @@ function result(
   const properties: Record<string, unknown> = { verdict: pair.verdict, seed: pair.seed };
   if (pair.forward !== null) properties['forward'] = pair.forward;
   if (pair.backward !== null) properties['backward'] = pair.backward;
+  if (pair.kind !== undefined) properties['kind'] = pair.kind;
   const out: Record<string, unknown> = {
     ruleId,
     ruleIndex,
@@ -129,7 +148,11 @@ function artifactLocation(file: string): Record<string, string> {
 function messageOf(pair: OpResult): string {
   const parts: string[] = [];
   const param = worstParam(pair);
-  if (pair.verdict === 'mismatch' && param) {
+  if (pair.verdict === 'mismatch' && param && pair.kind !== undefined && pair.kind !== 'backward') {
+    // The message of a Jacobian, tangent or Hessian names the wrong entry or output.
+    parts.push(`${opName(pair)}: the ${pair.kind} disagrees with finite differences (max relative error ${formatRelError(param.maxRelError)}).`);
+    parts.push(...param.hints.map((h) => `Hint: ${h}.`));
+  } else if (pair.verdict === 'mismatch' && param) {
     // With an element named, the figure is that element's own relative error (one rule: types.ts WorstElement).
     let text = `${opName(pair)}: gradient of ${param.name} disagrees with finite differences (max relative error ${formatRelError(param.worst?.relError ?? param.maxRelError)}`;
     if (param.worst) text += ` at [${param.worst.index.join(', ')}]: backward ${param.worst.analytic}, numeric ${param.worst.numeric}`;

@@ -5,13 +5,14 @@ import { existsSync, readFileSync } from 'node:fs';
 import { dirname, relative, resolve } from 'node:path';
 import { discoverOps, type DiscoveryResult } from '../discovery/index';
 import type { CheckSettings } from '../engine/settings';
-import type { OpDescriptor, OpResult, Problem } from '../engine/types';
+import type { CheckOutcome, OpCoverage, OpDescriptor, OpResult, Problem } from '../engine/types';
 import { Bundler, type BundleStats } from '../sandbox/bundle';
 import { UNAVAILABLE_BUILTIN_NAMESPACE } from '../sandbox/builtinStandIn';
 import { bundleFramesFrom } from '../sandbox/contextSetup';
-import type { SourcePlace } from '../sandbox/sourceMap';
+import { opCoverage } from '../sandbox/coverageMap';
+import type { MappedSegment, SourcePlace } from '../sandbox/sourceMap';
 import { IsolatedRunner } from '../sandbox/isolated';
-import { emptyStats, type RunnerStats } from '../sandbox/jobTypes';
+import { emptyStats, type RunnerStats, type RunResult } from '../sandbox/jobTypes';
 import { RunnerPool, type IsolationReport, type PoolStats, type RunnerPoolOptions } from '../sandbox/pool';
 import { errorResult, resultFromOutcome, summarizeProblems } from './opResult';
 
@@ -28,7 +29,16 @@ export interface CheckerOptions {
   workers?: number;
   /** Where the built runner and engine are, and a log sink (defaults suit dist/). */
   runner?: Omit<RunnerPoolOptions, 'size'>;
+  /**
+   * Also record which code of each op's forward and backward its check ran (OpResult.coverage):
+   * a second, separate run of the same check in coverage runners (sandbox/coverageSession.ts),
+   * after the verdict's run gave a verdict. Default false.
+   */
+  coverage?: boolean;
 }
+
+/** Why an op run in the isolated interpreter has no coverage. */
+export const INTERPRETER_NO_COVERAGE = 'not collected: the op ran in the isolated interpreter, which does not record coverage';
 
 export interface CheckFileOptions {
   /** The file's text (an unsaved editor buffer); default: read from disk. */
@@ -42,6 +52,14 @@ export interface CheckFileOptions {
   settings?: CheckSettings;
   /** Called with the bundle's input files (absolute paths) once the file is bundled. */
   onBundle?: (inputs: string[]) => void;
+  /**
+   * With coverage on: when given, onResult gets each op's result as soon as its verdict is
+   * known, and this gets the same op's result again once its coverage is there (the returned
+   * results carry it too). Without it, onResult waits for the coverage.
+   */
+  onCoverage?: (result: OpResult) => void;
+  /** Collect coverage in this call (default true; only a Checker made with `coverage` can). */
+  coverage?: boolean;
 }
 
 /** The ops of a file without running anything (code lenses, hovers, the tests view). */
@@ -78,6 +96,8 @@ export function bindingsOf(op: OpDescriptor): string[] {
     names.push(t.forwardName);
   }
   if (!t.backwardIsMethod && !t.libraryGradient) names.push(t.backwardName);
+  // A @hessian op also calls the forward's @backward (its reference when that passes).
+  if (op.gradient && !op.gradient.backwardIsMethod && !names.includes(op.gradient.backwardName)) names.push(op.gradient.backwardName);
   if (t.samplesFactory) names.push(t.samplesFactory);
   if (t.constructFactory) names.push(t.constructFactory);
   return names;
@@ -96,11 +116,20 @@ export class Checker {
   private readonly pool: RunnerPool;
   private isolated: IsolatedRunner | undefined;
   private readonly runnerLog: ((line: string) => void) | undefined;
+  /** Runners of the coverage pass, started on first use (only when coverage is asked for). */
+  private coveragePool: RunnerPool | undefined;
+  private readonly coverageOptions: RunnerPoolOptions | undefined;
 
   constructor(opts: CheckerOptions) {
     this.settings = opts.settings;
     this.pool = new RunnerPool({ ...opts.runner, size: opts.workers });
     this.runnerLog = opts.runner?.log;
+    if (opts.coverage) this.coverageOptions = { ...opts.runner, size: opts.workers, coverage: true };
+  }
+
+  /** Counters of the coverage pass's runners (undefined before it first ran). */
+  get coverageStats(): PoolStats | undefined {
+    return this.coveragePool?.stats;
   }
 
   /** Counters of runner reuse (both kinds of runner) and bundle caching (for tests and benchmarks). */
@@ -196,6 +225,11 @@ export class Checker {
     let stopReason = 'cancelled';
     // Where the module threw while loading, when that is a line of this file.
     let loadProblems: Problem[] | undefined;
+    // Each op's coverage run has its own stop; one listener stops them all with the file.
+    const coverageStops = new Set<AbortController>();
+    // One listener per queued op (the pool's) plus these few, by design: not a leak.
+    setMaxListeners(runnable.length + 4, stop.signal);
+    stop.signal.addEventListener('abort', () => { for (const c of coverageStops) c.abort(); }, { once: true });
     const onCallerAbort = (): void => stop.abort();
     opts.signal?.addEventListener('abort', onCallerAbort, { once: true });
     if (opts.signal?.aborted) stop.abort();
@@ -211,7 +245,16 @@ export class Checker {
           // Isolated mode: the op runs in the WebAssembly interpreter instead of a runner process.
           const interpreted = settings.isolation === 'interpreter';
           const runner = interpreted ? this.interpreter() : this.pool;
-          const run = await runner.run({ bundleKey: bundle.key, bundleCode: bundle.code, op, settings, signal: stop.signal });
+          const job = { bundleKey: bundle.key, bundleCode: bundle.code, op, settings };
+          const run = await runner.run({ ...job, signal: stop.signal });
+          // The coverage run repeats the job in its own runners once the verdict's run gave a
+          // verdict: an op that failed (a hang, an allocation bomb) never runs twice, and no
+          // coverage run competes with the verdict's run of the same op.
+          const coverageStop = new AbortController();
+          const wantCoverage = !interpreted && this.coverageOptions !== undefined && opts.coverage !== false
+            && !stop.signal.aborted && 'outcome' in run && run.outcome.verdict !== 'error';
+          if (wantCoverage) coverageStops.add(coverageStop);
+          const coverageRun = wantCoverage ? this.coverageRunners().run({ ...job, signal: coverageStop.signal }) : undefined;
           if ('error' in run && run.cause === 'load') {
             const place = loadErrorPlace(abs, run.bundleFrames ?? [], bundle.originalPlace);
             if (place) {
@@ -243,7 +286,29 @@ export class Checker {
                 });
           if (thrownAt) result.thrownAt = { file: thrownAt.file, line: thrownAt.line, column: thrownAt.column };
           if (interpreted) result.isolation = 'interpreter';
-          results[i] = emit(result);
+          if (interpreted && this.coverageOptions && opts.coverage !== false && result.verdict !== 'error') {
+            result.coverage = { collected: false, reason: INTERPRETER_NO_COVERAGE };
+          }
+          const early = coverageRun !== undefined && opts.onCoverage !== undefined;
+          if (!coverageRun || early) results[i] = emit(result);
+          if (coverageRun) {
+            const coverageResult = await coverageRun;
+            coverageStops.delete(coverageStop);
+            const covered: OpResult = { ...result };
+            if ('outcome' in run && run.outcome.verdict !== 'error') {
+              covered.coverage = coverageOf(op, run.outcome, coverageResult, source, bundle.code, bundle.segments);
+            }
+            if (early) {
+              results[i] = covered;
+              try {
+                if (covered.coverage) opts.onCoverage?.(covered);
+              } catch {
+                // As with onResult: a failing listener costs no other op its result.
+              }
+            } else {
+              results[i] = emit(covered);
+            }
+          }
         }),
       );
     } finally {
@@ -255,13 +320,37 @@ export class Checker {
 
   /** Kills the runner processes (and the interpreter's worker); the Checker cannot run checks afterwards. */
   async dispose(): Promise<void> {
-    await Promise.all([this.pool.dispose(), this.isolated?.dispose()]);
+    await Promise.all([this.pool.dispose(), this.isolated?.dispose(), this.coveragePool?.dispose()]);
+  }
+
+  private coverageRunners(): RunnerPool {
+    this.coveragePool ??= new RunnerPool(this.coverageOptions);
+    return this.coveragePool;
   }
 
   /** The isolated mode's runner, started on first use. */
   private interpreter(): IsolatedRunner {
     this.isolated ??= new IsolatedRunner({ log: this.runnerLog });
     return this.isolated;
+  }
+}
+
+/**
+ * The op's coverage from the coverage pass. It describes the verdict's check only when the pass
+ * repeated that check: same verdict and the same number of forward and backward calls (the
+ * engine's time budget could make a slower run do less). Otherwise no coverage is claimed.
+ */
+export function coverageOf(
+  op: OpDescriptor, outcome: CheckOutcome, run: RunResult, checkedText: string, bundleCode: string, segments: () => MappedSegment[],
+): OpCoverage {
+  if (!('outcome' in run)) return { collected: false, reason: `not collected: the coverage run failed (${run.error})` };
+  if (!run.coverage) return { collected: false, reason: 'not collected: the coverage runner returned no coverage' };
+  const same = run.outcome.verdict === outcome.verdict && run.outcome.calls.forward === outcome.calls.forward && run.outcome.calls.backward === outcome.calls.backward;
+  if (!same) return { collected: false, reason: 'not collected: the coverage run did not repeat the check exactly (different calls), so its coverage would not describe this check' };
+  try {
+    return opCoverage({ op, checkedText, bundleCode, segments: segments(), blocks: run.coverage });
+  } catch (e) {
+    return { collected: false, reason: `not collected: ${(e as Error).message}` };
   }
 }
 

@@ -14,6 +14,7 @@ export function resultFromOutcome(file: string, op: OpDescriptor, outcome: Check
     backward: op.backward,
     elapsedMs,
   };
+  if (op.kind !== undefined) result.kind = op.kind;
   if (output) result.output = output;
   return result;
 }
@@ -39,6 +40,7 @@ export function errorResult(
     backward: op?.backward ?? null,
     elapsedMs: extra.elapsedMs ?? 0,
   };
+  if (op?.kind !== undefined) result.kind = op.kind;
   if (extra.problems && extra.problems.length > 0) result.problems = extra.problems;
   if (extra.output) result.output = extra.output;
   return result;

@@ -4,6 +4,7 @@
 import ts from 'typescript';
 import { DEFAULT_EXPORT_BINDING, type BackwardArg, type OpDescriptor, type ParamDescriptor, type SampleSpec, type TagLocation } from '../engine/types';
 import { backwardSignatureProblem } from './backwardSignature';
+import { DERIVATIVE_KINDS, defaultDerivativeArgs, explicitDerivativeArgs, parseDerivativeTag, type DerivativeKind } from './derivativeTags';
 import type { ForwardSite } from './forwardSites';
 import { findMethod, unwrapExpression, type Binding, type ModuleBindings } from './moduleBindings';
 import { parseBackwardTag, parseNameListTag, parseNameTag, parseSeedTag, parseToleranceTag, type ParsedBackward } from './otherTags';
@@ -22,17 +23,21 @@ export interface BuildContext {
 }
 
 /** Tags that make a declaration an op, or show that one was meant (then reported as incomplete). */
-const OP_MARKING_TAGS: readonly OpTagName[] = ['backward', 'sample', 'samples'];
+const OP_MARKING_TAGS: readonly OpTagName[] = ['backward', 'sample', 'samples', ...DERIVATIVE_KINDS];
 /** Tags an op may carry once. */
-const SINGLE_TAGS: readonly OpTagName[] = ['backward', 'samples', 'construct', 'tolerance', 'seed'];
+const SINGLE_TAGS: readonly OpTagName[] = ['backward', 'samples', 'construct', 'tolerance', 'seed', ...DERIVATIVE_KINDS];
 
 interface OurTag {
   name: OpTagName;
   raw: RawTag;
 }
 
-/** Builds the op of a declaration, or returns undefined when its JSDoc does not mark one. */
-export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext): OpDescriptor | undefined {
+/**
+ * Builds the ops of a declaration: one per derivative tag (`@backward`, `@jacobian`, `@tangent`,
+ * `@hessian`), or one op carrying the problems when none is usable; [] when its JSDoc does not
+ * mark an op.
+ */
+export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext): OpDescriptor[] {
   const problems: SpanProblem[] = [];
   const ours: OurTag[] = [];
   let marked = false;
@@ -49,14 +54,14 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
       if (near) problems.push(near);
     }
   }
-  if (!marked) return undefined;
+  if (!marked) return [];
 
   if (site.unsupported) problems.push({ ...site.nameSpan, message: site.unsupported });
   // The tags are misplaced as a whole: what they say does not matter here.
   if (site.onlyProblem) {
     // Broken specs are still named where they stand, so the tag is never silently skipped.
     for (const t of ours) if (t.name === 'sample') problems.push(...parseSampleTag(t.raw).problems);
-    return misplacedOp(site, ctx, problems, ours);
+    return [misplacedOp(site, ctx, problems, ours)];
   }
 
   // Tags given more than once where one is meant.
@@ -194,6 +199,11 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   const fnFlags = site.fn ? functionFlavour(site.fn) : undefined;
   if (fnFlags) problems.push({ ...site.nameSpan, message: `${displayName(site)} is ${fnFlags}: checks call the forward synchronously and need a plain return value` });
 
+  // Problems so far concern every derivative of this forward; the rest only the @backward op
+  // (a copy: the @backward op's list is sorted in place below).
+  const sharedProblems = [...problems];
+  const derivativeTags = DERIVATIVE_KINDS.flatMap((k) => (firstOf.has(k) ? [{ kind: k, tag: firstOf.get(k)! }] : []));
+
   // @backward: name, resolution, argument list.
   const backTag = firstOf.get('backward');
   let parsedBack: ParsedBackward = { problems: [] };
@@ -203,7 +213,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   } else if (backTag) {
     parsedBack = parseBackwardTag(backTag.raw);
     problems.push(...parsedBack.problems);
-  } else if (!problems.some((p) => /did you mean @backward\?/.test(p.message))) {
+  } else if (derivativeTags.length === 0 && !problems.some((p) => /did you mean @(backward|jacobian|tangent|hessian)\?/.test(p.message))) {
     const first = ours[0]?.raw.nameSpan ?? site.nameSpan;
     problems.push({ ...first, message: `${displayName(site)} has sampling tags but no @backward: add \`@backward NAME\` naming its gradient function` });
   }
@@ -268,8 +278,49 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   if (tolerance !== undefined) op.tolerance = tolerance;
   if (seed !== undefined) op.seed = seed;
   if (resolved?.span) op.backwardLocation = { file: ctx.fileName, ...ctx.mapper.at(resolved.span.start) };
-  return op;
+  if (derivativeTags.length === 0) return [op];
+
+  // One op per further derivative tag: the shared set-up, its own function and argument list.
+  const shared = sharedProblems;
+  const backwardOk = backTag !== undefined && problems.length === sharedProblems.length;
+  const ops: OpDescriptor[] = backTag ? [op] : [];
+  const sampledFields = new Set(fieldOrder);
+  for (const { kind, tag } of derivativeTags) {
+    const own: SpanProblem[] = [];
+    const parsed = parseDerivativeTag(tag.raw, kind);
+    own.push(...parsed.problems);
+    const fnName = parsed.name ?? '';
+    const where = parsed.name && parsed.nameSpan ? resolveBackward(parsed.name, parsed.nameSpan, site, ctx.bindings, own, kind) : undefined;
+    const args = parsed.args
+      ? explicitDerivativeArgs(kind, parsed, { isMethod, forwardName: displayName(site), paramNames, sampledFields, suggest: (n) => suggest(n, paramNames) }, own)
+      : defaultDerivativeArgs(kind, paramNames, params, fixed, samplesFactory !== undefined);
+    if (kind === 'hessian') {
+      const returns = nonNumberReturn(site.fn?.type);
+      if (returns) own.push({ ...(parsed.nameSpan ?? tag.raw.nameSpan), message: `@hessian: ${displayName(site)} returns ${returns}; a Hessian needs a forward that returns a number (use @jacobian for a vector output)` });
+    }
+    const variant: OpDescriptor = {
+      ...op,
+      kind,
+      // The kind is part of the display name, so every surface that names ops (report, editor
+      // results, filters, corpus labels) tells this op from the forward's other derivatives.
+      forward: `${op.forward} @${kind}`,
+      backward: fnName,
+      target: { ...op.target, backwardName: fnName, backwardIsMethod: where?.isMethod ?? false },
+      backwardArgs: args,
+      problems: [...shared, ...own].sort((a, b) => a.start - b.start).map((p) => ctx.mapper.problem(p)),
+    };
+    delete variant.backwardLocation;
+    if (where?.span) variant.backwardLocation = { file: ctx.fileName, ...ctx.mapper.at(where.span.start) };
+    if (kind === 'hessian' && backwardOk) {
+      variant.gradient = { name: backwardName, backwardName, backwardIsMethod: resolved?.isMethod ?? false, args: backwardArgs };
+    }
+    ops.push(variant);
+  }
+  return ops;
 }
+
+/** Kinds named in messages as the role of the function a tag names. */
+type Role = 'backward' | DerivativeKind;
 
 /** An op whose tags stand where no op can be (on a class): its one problem, nothing parsed. */
 /** The op's file and the span of its forward's name (1-based). */
@@ -375,6 +426,7 @@ function resolveBackward(
   site: ForwardSite,
   bindings: ModuleBindings,
   problems: SpanProblem[],
+  role: Role = 'backward',
 ): { isMethod: boolean; span?: Span; fn?: ts.SignatureDeclaration } | undefined {
   let unknownBase = false;
   if (site.objectNode) {
@@ -395,14 +447,14 @@ function resolveBackward(
     const m = findMethod(site.classNode, name, bindings);
     if (m.found) {
       const flavour = m.fn ? functionFlavour(m.fn) : undefined;
-      if (flavour) problems.push({ ...span, message: `backward '${name}' is ${flavour}: it must return its result directly` });
+      if (flavour) problems.push({ ...span, message: `${role} '${name}' is ${flavour}: it must return its result directly` });
       return { isMethod: true, span: m.span, fn: m.fn };
     }
     unknownBase = m.unknownBase;
   }
   const b = bindings.topLevel.get(name);
   if (b) {
-    const bad = bindingKindProblem(name, b, 'backward');
+    const bad = bindingKindProblem(name, b, role);
     if (bad) problems.push({ ...span, message: bad });
     return { isMethod: false, span: b.span, fn: b.fn };
   }
@@ -410,7 +462,7 @@ function resolveBackward(
   if (unknownBase) return { isMethod: true };
   const where = site.kind === 'method' ? `a method of ${site.className || 'the class'}, a top-level function of this module or an import` : 'a top-level function of this module or an import';
   const candidates = [...bindings.topLevel.keys(), ...(site.classNode ? site.classNode.members.flatMap((m) => (m.name && ts.isIdentifier(m.name) ? [m.name.text] : [])) : [])];
-  problems.push({ ...span, message: `backward '${name}' not found: it must be ${where}${suggest(name, candidates)}` });
+  problems.push({ ...span, message: `${role} '${name}' not found: it must be ${where}${suggest(name, candidates)}` });
   return undefined;
 }
 

@@ -53,8 +53,7 @@ function discover(fileName: string, text: string): DiscoveryResult {
   for (const site of findForwardSites(sf)) {
     const tags = readDocTags(text, site.docHost);
     if (tags.length === 0) continue;
-    const op = buildOp(site, tags, { fileName, bindings, mapper });
-    if (op) ops.push(op);
+    ops.push(...buildOp(site, tags, { fileName, bindings, mapper }));
   }
   ops.sort((a, b) => a.line - b.line || a.column - b.column);
   return { ops, fileProblems };

@@ -3,7 +3,7 @@
 import { editDistance } from '../text/nearestName';
 
 /** Every tag Gradient Probe reads (docs/annotations.md). */
-export const OP_TAG_NAMES = ['backward', 'sample', 'samples', 'fixed', 'construct', 'tolerance', 'seed'] as const;
+export const OP_TAG_NAMES = ['backward', 'sample', 'samples', 'fixed', 'construct', 'tolerance', 'seed', 'jacobian', 'tangent', 'hessian'] as const;
 export type OpTagName = (typeof OP_TAG_NAMES)[number];
 
 /**

@@ -23,6 +23,7 @@ import { refineSuspicious, type KinkReport, type RefineSummary } from './refine'
 import { ERROR_MAP_MAX_ELEMENTS, captureInputs, finiteOnly, stepScan } from './reportData';
 import { DEFAULT_SETTINGS, type CheckSettings } from './settings';
 import type { CheckMethod, CheckOutcome, OpDescriptor, ParamResult, Verdict } from './types';
+import { runDerivativeKind } from './kindCheck';
 
 export interface CheckRequest {
   op: OpDescriptor;
@@ -93,6 +94,9 @@ export function runCheck(exposed: Record<string, unknown>, request: CheckRequest
     if (op.problems && op.problems.length > 0) return emptyOutcome('error', seed, op.problems[0].message, calls);
     const start = clock();
     const deadline = start + TIME_BUDGET_SHARE * settings.timeLimitMs;
+    if (op.kind !== undefined && op.kind !== 'backward') {
+      return runDerivativeKind(exposed, op, settings, seed, deadline, clock, (o, st) => runCheck(exposed, { op: o, settings: st }, clock));
+    }
     const outOfTime = (): boolean => clock() > deadline;
     const h = new OpHarness(op, exposed);
     harness = h;

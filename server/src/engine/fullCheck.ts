@@ -5,7 +5,7 @@
 import { F64 } from './builtins';
 import { giveUp } from './failure';
 import type { ElementEstimates } from './judge';
-import type { OpHarness } from './opHarness';
+import type { ForwardMap } from './opHarness';
 import type { ParamSlot } from './paramSlot';
 import { ROUNDOFF_ULPS, centralStep } from './precision';
 
@@ -19,7 +19,7 @@ import { ROUNDOFF_ULPS, centralStep } from './precision';
  * them would let a million untouched outputs hide a real error in the one that moved.
  */
 export function estimateColumns(
-  h: OpHarness,
+  h: ForwardMap,
   slot: ParamSlot,
   indices: ArrayLike<number>,
   ws: Float64Array[],

@@ -3,7 +3,7 @@
 // differences onto upstream vectors that every difference quotient of the engine uses.
 
 import { F64, abs, max, min } from './builtins';
-import type { OpHarness } from './opHarness';
+import type { ForwardMap } from './opHarness';
 import type { ParamSlot } from './paramSlot';
 import { centralStep, relativeStep } from './precision';
 import { RIDDERS_INITIAL_STEP } from './ridders';
@@ -42,7 +42,7 @@ function isFiniteVector(v: Float64Array): boolean {
 const MIN_REFINE_STEPS = 4;
 
 /** The line through element i of a slot: x(t) = x + t·e_i. */
-export function elementLine(h: OpHarness, slot: ParamSlot, i: number): Line {
+export function elementLine(h: ForwardMap, slot: ParamSlot, i: number): Line {
   const x0 = slot.get(i);
   const hc = centralStep(slot.precision, x0);
   const barrier = distanceToBarrier(slot, x0);
@@ -76,7 +76,7 @@ export function elementLine(h: OpHarness, slot: ParamSlot, i: number): Line {
  * The line through a whole slot along direction d scaled per element by max(1, |x_i|), so the
  * step is relative for every element: x_i(t) = x_i + t·d_i·max(1, |x_i|).
  */
-export function directionLine(h: OpHarness, slot: ParamSlot, d: Float64Array): Line & { scaled: Float64Array } {
+export function directionLine(h: ForwardMap, slot: ParamSlot, d: Float64Array): Line & { scaled: Float64Array } {
   const n = slot.size;
   const x0 = slot.snapshot();
   const scaled = new F64(n);

@@ -12,7 +12,7 @@ import type { ParamSlot } from './paramSlot';
 import type { RandomSource } from './random';
 import { drawSample, type Sample } from './sampling';
 import { TensorBridge } from './tensorBridge';
-import type { CallCounts, CheckOutcome, OpDescriptor } from './types';
+import type { BackwardArg, CallCounts, CheckOutcome, OpDescriptor } from './types';
 
 type AnyFunction = (...args: unknown[]) => unknown;
 
@@ -76,7 +76,7 @@ export class OpHarness {
       this.forwardFn = fwd as AnyFunction;
       const bwd = t.backwardIsMethod ? (proto ? proto[t.backwardName] : undefined) : lookup(exposed, t.backwardName);
       if (typeof bwd !== 'function') {
-        fail(`backward '${op.backward}' is not ${t.backwardIsMethod ? `a method of class '${className}'` : 'a function of the module'} (got ${describeValue(bwd)})`);
+        fail(`${op.kind ?? 'backward'} '${op.backward}' is not ${t.backwardIsMethod ? `a method of class '${className}'` : 'a function of the module'} (got ${describeValue(bwd)})`);
       }
       this.backwardFn = bwd as AnyFunction;
     } else if (t.objectName !== undefined) {
@@ -89,7 +89,7 @@ export class OpHarness {
       this.forwardFn = fwd as AnyFunction;
       this.classCtor = null;
       const bwd = t.backwardIsMethod ? this.holder[t.backwardName] : lookup(exposed, t.backwardName);
-      if (typeof bwd !== 'function') fail(`backward '${op.backward}' is not a function (got ${describeValue(bwd)})`);
+      if (typeof bwd !== 'function') fail(`${op.kind ?? 'backward'} '${op.backward}' is not a function (got ${describeValue(bwd)})`);
       this.backwardFn = bwd as AnyFunction;
     } else {
       const fwd = lookup(exposed, t.forwardName);
@@ -98,7 +98,7 @@ export class OpHarness {
       this.classCtor = null;
       // The library's gradient of the forward stands in for a backward function.
       const bwd = t.libraryGradient ? this.forwardFn : lookup(exposed, t.backwardName);
-      if (typeof bwd !== 'function') fail(`backward '${op.backward}' is not a function (got ${describeValue(bwd)})`);
+      if (typeof bwd !== 'function') fail(`${op.kind ?? 'backward'} '${op.backward}' is not a function (got ${describeValue(bwd)})`);
       this.backwardFn = bwd as AnyFunction;
     }
     this.constructFn = null;
@@ -122,6 +122,16 @@ export class OpHarness {
     this.sample = drawSample(this.op, rng, this.instance, this.samplesFn as ((r: () => number) => unknown) | null, maxElements);
     if (this.tensors !== null && this.samplesFn !== null) this.tensors.adoptFactoryTensors(this.sample, this.op.fixed ?? []);
     return this.sample;
+  }
+
+  /**
+   * Uses another harness's drawn inputs, instance and output layout, so a second function of
+   * the same forward (the @backward of a @hessian op) is called at the very same point.
+   */
+  adoptSample(other: OpHarness): void {
+    this.sample = other.sample;
+    this.instance = other.instance;
+    this.layout = other.layout;
   }
 
   /** A new instance from @construct or `new Class()`. */
@@ -236,7 +246,7 @@ export class OpHarness {
   }
 
   /** Backward's argument list for an upstream gradient (flat, output-shaped) at output y. */
-  private backwardArgs(dy: Float64Array | null, y: Float64Array): unknown[] {
+  private backwardArgs(dy: Float64Array | null, y: Float64Array, placeholder?: (a: BackwardArg) => unknown): unknown[] {
     const s = this.sample as Sample;
     const list: unknown[] = [];
     const layout = this.layout as OutputLayout;
@@ -244,6 +254,7 @@ export class OpHarness {
       const a = this.op.backwardArgs[i];
       if (a.kind === 'upstream') list[i] = buildValue(layout, dy as Float64Array);
       else if (a.kind === 'output') list[i] = buildValue(layout, y);
+      else if (a.kind === 'tangent' || a.kind === 'vector') list[i] = placeholder ? placeholder(a) : undefined;
       else {
         const name = a.name;
         const pos = positionOf(s.argNames, name);
@@ -322,6 +333,20 @@ export class OpHarness {
     }
   }
 
+  /**
+   * Calls the op's derivative function (`@jacobian`, `@tangent`, `@hessian`) at the sample point
+   * with output y; `placeholder` gives the values of `$dNAME` and `$v`. Returns what it returned.
+   */
+  derivativeRaw(y: Float64Array, placeholder: (a: BackwardArg) => unknown): unknown {
+    const list = this.backwardArgs(null, y, placeholder);
+    this.calls.backward++;
+    try {
+      return reflectApply(this.backwardFn, this.op.target.backwardIsMethod ? (this.instance ?? this.holder ?? undefined) : undefined, list);
+    } catch (e) {
+      return fail(`${this.op.kind ?? 'backward'} threw: ${describeThrown(e)}`);
+    }
+  }
+
   /** The instance's state now (after a forward at the sample point), to restore before backward calls. */
   snapshotInstance(): InstanceSnapshot | null {
     return this.instance === null ? null : new InstanceSnapshot(this.instance);
@@ -332,6 +357,13 @@ export class OpHarness {
     return this.op.target.kind === 'method';
   }
 }
+
+/**
+ * What finite differences need of a harness: a vector-valued map evaluated at the current
+ * inputs, its output size, and where the inputs are moved (for messages). An OpHarness is one;
+ * so is the gradient of a @hessian op (engine/gradientMap.ts).
+ */
+export type ForwardMap = Pick<OpHarness, 'forwardInto' | 'perturbation' | 'layout'>;
 
 /** Multi-index of element i of a slot. */
 export function unravelSlot(slot: ParamSlot, i: number): number[] {

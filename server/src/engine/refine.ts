@@ -7,7 +7,7 @@ import { ElementState, excessOf, relativeError, type Comparison, type ElementEst
 import { estimateColumns } from './fullCheck';
 import { findKink } from './kinkTest';
 import { centralOnLine, elementLine } from './lines';
-import { elementName, type OpHarness } from './opHarness';
+import { elementName, type ForwardMap } from './opHarness';
 import type { ParamSlot } from './paramSlot';
 import { ROUNDOFF_ULPS } from './precision';
 import { RIDDERS_MIN_INITIAL_CENTRAL_STEPS, riddersAdaptive } from './ridders';
@@ -45,7 +45,7 @@ export interface RefineSummary {
  * stopping at the first confirmed mismatch. Updates est, cmp in place.
  */
 export function refineSuspicious(
-  h: OpHarness,
+  h: ForwardMap,
   slot: ParamSlot,
   analytic: Float64Array[],
   est: ElementEstimates,

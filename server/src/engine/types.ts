@@ -75,7 +75,9 @@ export interface ParamDescriptor {
 export type BackwardArg =
   | { kind: 'param'; name: string } // a forward parameter (or `this.FIELD`), by name
   | { kind: 'output' } // `$y`: the forward's output at the sample point
-  | { kind: 'upstream' }; // `$dy`: the upstream gradient
+  | { kind: 'upstream' } // `$dy`: the upstream gradient
+  | { kind: 'tangent'; name: string } // `$dNAME` (@tangent): the tangent of parameter NAME
+  | { kind: 'vector' }; // `$v` (@hessian): the vector of a Hessian-vector product
 
 /**
  * The binding under which the sandbox exposes a module's anonymous default export
@@ -144,7 +146,11 @@ export interface OpDescriptor {
   column: number;
   endLine: number;
   endColumn: number;
-  /** Display name: `softplus`, or `Class.method` for a method. */
+  /**
+   * Display name: `softplus`, or `Class.method` for a method; for the kinds other than
+   * 'backward' followed by the tag (`reach @jacobian`), so each derivative of one forward has a
+   * name of its own on every surface.
+   */
   forward: string;
   /** Name of the backward as written in `@backward`. */
   backward: string;
@@ -163,6 +169,12 @@ export interface OpDescriptor {
   tags: TagLocation[];
   /** Where the backward is declared, when discovery could resolve it in this file. */
   backwardLocation?: SourcePosition & { file: string };
+  /**
+   * For a `@hessian` op whose forward also has a `@backward` without problems: that backward
+   * (name, binding, argument list). The Hessian is then checked against central differences of
+   * this gradient when the gradient itself passes its check.
+   */
+  gradient?: { name: string; backwardName: string; backwardIsMethod: boolean; args: BackwardArg[] };
   /** Annotation mistakes; non-empty means the op is reported as `error` without running. */
   problems: Problem[];
 }
@@ -195,7 +207,10 @@ export interface StepScan {
 export type CheckMethod =
   | 'full' // one central difference per element
   | 'grouped' // structurally orthogonal elements share perturbations (Curtis, Powell & Reid 1974)
-  | 'dot-product'; // adjoint dot-product probes plus a random subset of full columns
+  | 'dot-product' // adjoint dot-product probes plus a random subset of full columns
+  | 'directional' // @tangent: central differences along random tangent directions
+  | 'gradient-differences' // @hessian: central differences of the op's passing @backward
+  | 'second-differences'; // @hessian: second differences of the forward (step u^(1/4))
 
 /** Per-parameter result. */
 export interface ParamResult {
@@ -279,7 +294,45 @@ export interface OpResult extends CheckOutcome {
    * slower, for small ops); absent when it ran in the normal runner process.
    */
   isolation?: 'interpreter';
+  /** Which code of the forward and the backward the check ran (absent when coverage was not asked for). */
+  coverage?: OpCoverage;
 }
+
+/** Blocks of one side of an op (its function and the helpers it calls in the user's files) that ran during the check. */
+export interface BlockShare {
+  run: number;
+  total: number;
+}
+
+/** Code of an op's forward or backward (or a helper they call) that never ran during the check. */
+export interface CoverageGap {
+  /** Absolute (server) or relative to the current folder (CLI report), like OpResult.file. */
+  file: string;
+  /** 1-based; the end column is the column just after the gap's last character. */
+  startLine: number;
+  startColumn: number;
+  endLine: number;
+  endColumn: number;
+  /** The function the gap is in, as written (`Class.method` for a method). */
+  function: string;
+  /** Whose code it is: the forward's, the backward's, or a helper's that both call. */
+  side: 'forward' | 'backward' | 'both';
+  /** What code it is, e.g. "else of `x > 100`", "after the return on line 12", "never called". */
+  what: string;
+  /**
+   * When the gap sits behind a comparison of a sampled parameter with a number: which values it
+   * needs and what the @sample range allows (read from the condition, never guessed).
+   */
+  reach?: string;
+}
+
+/**
+ * Which code of the op ran during its check: V8 block coverage from a separate coverage pass,
+ * mapped back to the user's TypeScript (server/src/sandbox/coverage*.ts).
+ */
+export type OpCoverage =
+  | { collected: true; forward: BlockShare; backward: BlockShare; gaps: CoverageGap[] }
+  | { collected: false; reason: string };
 
 export interface ReportSummary {
   pass: number;

@@ -52,6 +52,8 @@ export interface CheckRequest {
   force?: boolean;
   /** Cancels this run (a client's cancellation); newer edits cancel it too. */
   signal?: AbortSignal;
+  /** Record which code each check ran (gradientProbe.showUnreached); default true. */
+  coverage?: boolean;
 }
 
 export class CheckService {
@@ -137,7 +139,7 @@ export class CheckService {
   async check(request: CheckRequest): Promise<OpResult[]> {
     // Untrusted: only the isolated interpreter may run code (the session decides when).
     if (!this.trusted && request.settings.isolation !== 'interpreter') throw new CheckRefused('the workspace is not trusted, so no code from it runs');
-    const key = `${hashText(request.text)}|${settingsKey(request.settings)}`;
+    const key = `${hashText(request.text)}|${settingsKey(request.settings)}|${request.coverage === false ? 'no-coverage' : 'coverage'}`;
     // Unique names: a client may name an op twice (a file and its op both selected).
     const wanted = [...new Set(request.forwards ?? request.knownForwards)];
     const stored = this.results.get(request.uri);
@@ -189,6 +191,14 @@ export class CheckService {
         settings: request.settings,
         onResult: accept,
         onBundle,
+        coverage: request.coverage !== false,
+        // Verdicts show at once; an op's coverage (hints, hover line) follows when its run ends.
+        onCoverage: (result) => {
+          if (controller.signal.aborted) return;
+          // The same run's result with its coverage: the same number, so it is not recorded twice.
+          this.store(request.uri, result.forward ?? '', key, result, inputs, true);
+          this.onChange(request.uri);
+        },
         ...(filter !== undefined ? { filter } : {}),
       });
       // Results not seen through onResult (a Checker that reports only at the end).
@@ -222,15 +232,18 @@ export class CheckService {
   private getChecker(): Checker {
     if (!this.checker) {
       // Per-call settings go with each checkFile; these are only the pool's starting point.
-      this.checker = new Checker({ settings: DEFAULT_SETTINGS, ...(this.workers !== undefined ? { workers: this.workers } : {}) });
+      // Coverage runners start on first use; gradientProbe.showUnreached off means none (CheckRequest.coverage).
+      this.checker = new Checker({ settings: DEFAULT_SETTINGS, coverage: true, ...(this.workers !== undefined ? { workers: this.workers } : {}) });
     }
     return this.checker;
   }
 
-  private store(uri: string, forward: string, key: string, result: OpResult, inputs: ReadonlyMap<string, string>): void {
+  /** `sameRun`: the result of a run already stored (now with its coverage) keeps its number. */
+  private store(uri: string, forward: string, key: string, result: OpResult, inputs: ReadonlyMap<string, string>, sameRun = false): void {
     let perDoc = this.results.get(uri);
     if (!perDoc) this.results.set(uri, (perDoc = new Map()));
-    perDoc.set(forward, { key, result, inputs, seq: ++this.storedCount });
+    const previous = perDoc.get(forward)?.seq;
+    perDoc.set(forward, { key, result, inputs, seq: sameRun && previous !== undefined ? previous : ++this.storedCount });
   }
 
   private markRunning(uri: string, forwards: string[], delta: number): void {

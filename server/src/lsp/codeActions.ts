@@ -130,15 +130,26 @@ export function stubText(sm: SiteModel, op: OpDescriptor, name: string, indent: 
   const params = op.backwardArgs.map((a) => {
     if (a.kind === 'output') return `y: ${outputType}`;
     if (a.kind === 'upstream') return `dy: ${outputType}`;
+    // @hessian's `$v` spans every differentiated input; @tangent's `$dNAME` is shaped like NAME.
+    if (a.kind === 'vector') return 'v: Float64Array';
     const p = all.find((q) => q.name === a.name);
-    return `${a.name.replace(/^this\./, '')}: ${typeText(p)}`;
+    const local = a.name.replace(/^this\./, '');
+    return a.kind === 'tangent' ? `d${local}: ${typeText(p)}` : `${local}: ${typeText(p)}`;
   });
   const differentiated = op.params.filter((p) => {
     if (op.target.samplesFactory) return !op.fixed.includes(p.name);
     return p.sample?.kind === 'random' && !p.sample.fixed && !(p.sample.dtype === 'int' || p.sample.dtype === 'i32');
   });
   const fieldsOf = differentiated.map((p) => `${p.name.replace(/^this\./, '')}: ${typeText(all.find((q) => q.name === p.name))}`);
-  const returnType = differentiated.length === 1 && !differentiated[0]!.isField ? typeText(all.find((q) => q.name === differentiated[0]!.name)) : `{ ${fieldsOf.join('; ')} }`;
+  const kind = op.kind ?? 'backward';
+  // A backward returns one gradient per parameter, shaped like it; a Jacobian one row-major
+  // matrix per parameter; a Hessian one matrix (or H·v); a tangent is shaped like the output.
+  const perParam = kind === 'jacobian' ? differentiated.map((p) => `${p.name.replace(/^this\./, '')}: Float64Array`) : fieldsOf;
+  const single = differentiated.length === 1 && !differentiated[0]!.isField;
+  const returnType = kind === 'tangent' ? outputType
+    : kind === 'hessian' ? 'Float64Array'
+    : single ? (kind === 'jacobian' ? 'Float64Array' : typeText(all.find((q) => q.name === differentiated[0]!.name)))
+    : `{ ${perParam.join('; ')} }`;
   const head = sm.site.kind === 'method' ? '' : isExported(sm) ? 'export function ' : 'function ';
   return [
     `${indent}${head}${name}(${params.join(', ')}): ${returnType} {`,

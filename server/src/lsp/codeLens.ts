@@ -37,14 +37,17 @@ export function codeLensesFor(facts: DocumentFacts): CodeLens[] {
       continue;
     }
     const p = worstParam(result);
+    // Several derivatives of one forward share its line: each lens names its own kind.
+    // The verdict words of the CLI; a derivative other than the backward is named before them.
+    const kindWord = op.kind !== undefined && op.kind !== 'backward' ? `${op.kind} ` : '';
     // Checks in the isolated interpreter say so: they are slower and limited to small ops.
     const time = `${millis(result.elapsedMs)}${result.isolation === 'interpreter' ? ' · isolated interpreter' : ''}`;
     switch (result.verdict) {
       case 'pass':
-        lenses.push(recheck(`✓ pass${p ? ` · worst ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
+        lenses.push(recheck(`✓ ${kindWord}pass${p ? ` · worst ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
         break;
       case 'mismatch':
-        lenses.push(recheck(`✗ mismatch${p ? ` · ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
+        lenses.push(recheck(`✗ ${kindWord}mismatch${p ? ` · ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
         break;
       case 'inconclusive':
         lenses.push(recheck(`? inconclusive · ${oneLine(result.message, 60)} · ${time}`));
@@ -61,7 +64,8 @@ export function codeLensesFor(facts: DocumentFacts): CodeLens[] {
     const at = opNameRange(op, snapshot.lines).start;
     lenses.push({
       range: toRange(loc, undefined, snapshot.lines),
-      command: { title: `${op.kind && op.kind !== 'backward' ? op.kind : 'backward'} of ${op.forward}`, command: ClientCommands.goToOp, arguments: [snapshot.uri, at.line, at.character] },
+      // The forward's own name: an op's display name also carries its kind (`reach @jacobian`).
+      command: { title: `${op.kind ?? 'backward'} of ${op.forward.replace(/ @\w+$/, '')}`, command: ClientCommands.goToOp, arguments: [snapshot.uri, at.line, at.character] },
     });
   }
   return lenses;

@@ -5,6 +5,7 @@
 import { pathToFileURL } from 'node:url';
 import { DiagnosticSeverity, type Diagnostic, type DiagnosticRelatedInformation } from 'vscode-languageserver';
 import type { OpDescriptor, OpResult, Problem } from '../engine/types';
+import { UNREACHED_CODE, unreachedDiagnostics } from './coverageMarks';
 import type { DocumentFacts } from './documentFacts';
 import { opNameRange, problemRange, toRange, verdictSentence, worstParam } from './format';
 import { fixOf } from './problemFixes';
@@ -20,6 +21,7 @@ export const DiagnosticCodes = {
   annotation: 'annotation',
   untrusted: 'untrusted-workspace',
   config: 'project-config',
+  unreached: UNREACHED_CODE,
 } as const;
 
 export function diagnosticsFor(facts: DocumentFacts): Diagnostic[] {
@@ -59,7 +61,9 @@ export function diagnosticsFor(facts: DocumentFacts): Diagnostic[] {
       continue;
     }
     const result = facts.latest(op.forward);
-    if (!result || result.verdict === 'pass') continue;
+    if (!result) continue;
+    if (facts.showUnreached !== false) out.push(...unreachedDiagnostics(result, snapshot.fsPath, DIAGNOSTIC_SOURCE));
+    if (result.verdict === 'pass') continue;
     out.push(resultDiagnostic(op, result, facts));
   }
   return out;
@@ -75,7 +79,7 @@ function resultDiagnostic(op: OpDescriptor, result: OpResult, facts: DocumentFac
     const lines = loc.file === snapshot.fsPath ? snapshot.lines : [];
     related.push({
       location: { uri: loc.file === snapshot.fsPath ? snapshot.uri : pathToFileURL(loc.file).toString(), range: toRange(loc, undefined, lines) },
-      message: `backward ${op.backward}: the hand-written gradient`,
+      message: op.kind !== undefined && op.kind !== 'backward' ? `${op.kind} ${op.backward}: the hand-written derivative` : `backward ${op.backward}: the hand-written gradient`,
     });
   }
   if (result.thrownAt) {

@@ -20,6 +20,8 @@ export interface DocumentFacts {
   isolated: boolean;
   /** A broken project file: nothing runs. */
   configError?: { message: string; file?: string };
+  /** Mark unreached code of checked backwards (gradientProbe.showUnreached); absent means yes. */
+  showUnreached?: boolean;
   latest(forward: string): OpResult | undefined;
   /** The number of the latest result (new results get higher numbers), when known. */
   resultSeq?(forward: string): number | undefined;

@@ -80,6 +80,8 @@ export function verdictSentence(result: OpResult): string {
     case 'pass':
       return p ? `gradient agrees; worst ${p.name} at ${sci(p.maxRelError)} relative` : 'gradient agrees';
     case 'mismatch':
+      // A Jacobian, tangent or Hessian names its wrong entry or output in the message.
+      if (result.kind !== undefined && result.kind !== 'backward') return `${result.kind} is wrong: ${oneLine(result.message)}`;
       return p && p.worst
         ? `gradient of ${p.name} is wrong: max relative error ${sci(p.worst.relError ?? p.maxRelError)} at ${indexText(p.worst.index)} (backward ${figure(p.worst.analytic)}, numeric ${figure(p.worst.numeric)})`
         : `gradient is wrong: ${oneLine(result.message)}`;

@@ -4,19 +4,24 @@
 
 import { MarkupKind, type Hover, type Position } from 'vscode-languageserver';
 import type { OpDescriptor, ParamResult } from '../engine/types';
+import { coverageHoverLine } from './coverageMarks';
 import type { DocumentFacts } from './documentFacts';
 import { contains, figure, indexText, millis, opNameRange, sci, shapeText, toRange } from './format';
 
 export function hoverAt(facts: DocumentFacts, position: Position): Hover | null {
   const { snapshot } = facts;
+  // One forward may carry several derivatives (@backward, @jacobian, @tangent, @hessian): each
+  // is an op at the same name and tags, and the hover shows them all, one section each.
+  const siblings = (op: OpDescriptor): OpDescriptor[] => snapshot.ops.filter((o) => o.line === op.line && o.column === op.column);
+  const joined = (ops: OpDescriptor[], onlyParam?: string): string => ops.map((o) => opMarkdown(o, facts, onlyParam)).join('\n\n---\n\n');
   for (const op of snapshot.ops) {
     const nameRange = opNameRange(op, snapshot.lines);
-    if (contains(nameRange, position)) return { range: nameRange, contents: { kind: MarkupKind.Markdown, value: opMarkdown(op, facts) } };
+    if (contains(nameRange, position)) return { range: nameRange, contents: { kind: MarkupKind.Markdown, value: joined(siblings(op)) } };
     for (const tag of op.tags) {
       if (tag.tag !== 'sample') continue;
       const range = toRange(tag, { line: tag.endLine, column: tag.endColumn }, snapshot.lines);
       if (contains(range, position)) {
-        return { range, contents: { kind: MarkupKind.Markdown, value: opMarkdown(op, facts, tag.param) } };
+        return { range, contents: { kind: MarkupKind.Markdown, value: joined(siblings(op), tag.param) } };
       }
     }
   }
@@ -25,7 +30,7 @@ export function hoverAt(facts: DocumentFacts, position: Position): Hover | null 
 
 /** The hover text; `onlyParam` narrows the table to the parameter a `@sample` tag draws. */
 export function opMarkdown(op: OpDescriptor, facts: DocumentFacts, onlyParam?: string): string {
-  const head = `**${escape(op.forward)}** → backward \`${op.backward}\``;
+  const head = `**${escape(op.forward)}** → ${op.kind ?? 'backward'} \`${op.backward}\``;
   if (op.problems.length > 0) {
     return [head, '', 'Annotation errors (nothing runs until they are fixed):', '', ...op.problems.map((p) => `- line ${p.line}: ${escape(p.message)}`)].join('\n');
   }
@@ -52,6 +57,8 @@ export function opMarkdown(op: OpDescriptor, facts: DocumentFacts, onlyParam?: s
   }
   const hints = [...(onlyParam === undefined ? result.hints : []), ...params.flatMap((p) => p.hints.map((h) => `${p.name}: ${h}`))];
   if (hints.length > 0) lines.push('Hints:', '', ...hints.map((h) => `- ${escape(h)}`), '');
+  const coverage = coverageHoverLine(result);
+  if (coverage) lines.push(escape(coverage), '');
   lines.push(`Reproduce with seed ${result.seed}${op.seed !== undefined ? ' (the op’s @seed)' : ''}.`);
   return lines.join('\n');
 }

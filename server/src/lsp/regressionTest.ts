@@ -4,6 +4,7 @@
 
 import { DEFAULT_EXPORT_BINDING, type BackwardArg, type OpDescriptor, type OpResult, type ParamResult } from '../engine/types';
 import { indexText } from './format';
+import { regressionTestForKind } from './regressionTestKinds';
 
 /**
  * Relative step of the snippet's central difference: the cube root of the dtype's machine
@@ -18,6 +19,7 @@ export type SnippetOutcome = { snippet: string } | { reason: string };
 /** `tolerance` is the relative tolerance the check used for this op. */
 export function regressionTestFor(op: OpDescriptor, result: OpResult, tolerance: number): SnippetOutcome {
   if (result.verdict !== 'mismatch') return { reason: `${op.forward} is not a mismatch (verdict ${result.verdict}); there is no failing case to copy` };
+  if (op.kind !== undefined && op.kind !== 'backward') return regressionTestForKind(op, result, tolerance);
   if (!result.inputs) return { reason: `the sample of ${op.forward} was too large to record, so it cannot be written into a test` };
   // TensorFlow.js ops: tensors are made from the recorded arrays at every call, outputs read back.
   const tensorLib = op.target.tensorLibrary;
@@ -118,6 +120,7 @@ function importList(op: OpDescriptor): string[] {
 function backwardArgText(arg: BackwardArg, plainParams: string[]): string {
   if (arg.kind === 'output') return 'y';
   if (arg.kind === 'upstream') return 'dy';
+  if (arg.kind === 'tangent' || arg.kind === 'vector') return 'undefined';
   if (arg.name.startsWith('this.')) return `self.${arg.name.slice(5)}`;
   return `args[${plainParams.indexOf(arg.name)}]`;
 }
@@ -140,7 +143,7 @@ function elementAccess(holder: string, p: ParamResult): { read: string; write: s
 }
 
 /** A recorded input as TypeScript source: typed arrays come as `{ dtype, data }`. */
-function literal(value: unknown): string {
+export function literal(value: unknown): string {
   if (typeof value === 'number') return numberText(value);
   if (Array.isArray(value)) return `[${value.map(literal).join(', ')}]`;
   if (value && typeof value === 'object') {
@@ -167,7 +170,7 @@ function numberText(n: number): string {
   return Object.is(n, -0) ? '-0' : String(n);
 }
 
-function quote(text: string): string {
+export function quote(text: string): string {
   return text.replace(/\\/g, '\\\\').replace(/'/g, "\\'");
 }
 

@@ -109,6 +109,7 @@ export class Session {
       snapshot,
       trusted: this.checks.isTrusted,
       isolated: !this.checks.isTrusted && settings.isolatedWhenUntrusted,
+      showUnreached: settings.showUnreached,
       ...(settings.configError ? { configError: settings.configError } : {}),
       latest: (forward) => this.checks.latest(fsPath, forward),
       resultSeq: (forward) => this.checks.latestSeq(fsPath, forward),
@@ -136,6 +137,7 @@ export class Session {
       // Untrusted with the user's opt-in: the isolated interpreter, never the runner processes.
       settings: isolated ? { ...settings.settings, isolation: 'interpreter' } : settings.settings,
       knownForwards: runnable,
+      coverage: settings.showUnreached,
       ...(opts.forwards ? { forwards: opts.forwards.filter((f) => runnable.includes(f)) } : {}),
       ...(opts.force !== undefined ? { force: opts.force } : {}),
       ...(opts.signal ? { signal: opts.signal } : {}),

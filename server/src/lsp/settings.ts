@@ -22,6 +22,8 @@ export interface EditorOnlySettings {
    * slower) instead of running nothing. A user-level opt-in: the workspace cannot set it.
    */
   isolatedWhenUntrusted: boolean;
+  /** Record coverage and mark code of a checked backward that its check never ran, as hint-level diagnostics; off: no coverage run. */
+  showUnreached: boolean;
 }
 
 export const EDITOR_ONLY_DEFAULTS: EditorOnlySettings = {
@@ -30,10 +32,11 @@ export const EDITOR_ONLY_DEFAULTS: EditorOnlySettings = {
   // (common practice for "after typing stops" features, not from a handbook).
   typingPauseMs: 800,
   isolatedWhenUntrusted: false,
+  showUnreached: true,
 };
 
 /** The editor-only keys, as they appear under `gradientProbe.`. */
-export const EDITOR_ONLY_KEYS = ['checkWhen', 'typingPauseMs', 'isolatedWhenUntrusted'] as const;
+export const EDITOR_ONLY_KEYS = ['checkWhen', 'typingPauseMs', 'isolatedWhenUntrusted', 'showUnreached'] as const;
 
 /** Bounds of `typingPauseMs`: below 100 ms a check would start mid-word; 60 s is plenty. */
 export const TYPING_PAUSE_RANGE = { minimum: 100, maximum: 60_000 } as const;
@@ -92,6 +95,11 @@ export function readEditorSettings(raw: unknown): EditorSettings {
     if (typeof section.isolatedWhenUntrusted === 'boolean') isolatedWhenUntrusted = section.isolatedWhenUntrusted;
     else problems.push(`gradientProbe.isolatedWhenUntrusted must be true or false; using ${isolatedWhenUntrusted}`);
   }
+  let showUnreached = EDITOR_ONLY_DEFAULTS.showUnreached;
+  if (section.showUnreached !== undefined) {
+    if (typeof section.showUnreached === 'boolean') showUnreached = section.showUnreached;
+    else problems.push(`gradientProbe.showUnreached must be true or false; using ${showUnreached}`);
+  }
   // Each check key is validated alone by the project's own reader, so one bad value drops
   // only itself and the message names it.
   const values: ConfigValues = { settings: {} };
@@ -108,7 +116,7 @@ export function readEditorSettings(raw: unknown): EditorSettings {
       problems.push(`user setting gradientProbe.${key} ignored: ${detail}`);
     }
   }
-  return { checkWhen, typingPauseMs, isolatedWhenUntrusted, values, problems };
+  return { checkWhen, typingPauseMs, isolatedWhenUntrusted, showUnreached, values, problems };
 }
 
 /**
@@ -120,6 +128,7 @@ export function resolveEffectiveSettings(editor: EditorSettings, dir: string): E
     checkWhen: editor.checkWhen,
     typingPauseMs: editor.typingPauseMs,
     isolatedWhenUntrusted: editor.isolatedWhenUntrusted,
+    showUnreached: editor.showUnreached,
     settings: { ...DEFAULT_SETTINGS, ...editor.values.settings },
     include: editor.values.include ?? [...DEFAULT_FILE_GLOBS.include],
     exclude: editor.values.exclude ?? [...DEFAULT_FILE_GLOBS.exclude],

@@ -10,7 +10,7 @@ import type * as esbuildTypes from 'esbuild';
 import { DEFAULT_EXPORT_BINDING, TENSOR_LIBRARY_BINDING } from '../engine/types';
 import { UNAVAILABLE_BUILTIN_NAMESPACE, unavailableModuleCode } from './builtinStandIn';
 import { bundleCacheDir, readStoredBundle, writeStoredBundle } from './bundleDiskCache';
-import { originalPlace, type SourcePlace } from './sourceMap';
+import { mappedSegments, originalPlace, type MappedSegment, type SourcePlace } from './sourceMap';
 
 /** Bundles kept in memory; a workspace rarely has more files with ops open at once. */
 const MAX_CACHED_BUNDLES = 128;
@@ -62,6 +62,8 @@ export type BundleResult =
        * to any of them can change the op's result.
        */
       inputs: string[];
+      /** Every mapping of the bundle's source map (decoded on first call, kept with the bundle; for coverage). */
+      segments: () => MappedSegment[];
     }
   | { ok: false; message: string; location?: { file: string; line: number; column: number } };
 
@@ -127,6 +129,18 @@ export function exposeCode(bindings: string[], tensorLibrary?: string, file?: st
   // bundler resolves it to the same module, so nothing runs twice).
   if (file !== undefined && names.includes(DEFAULT_EXPORT_BINDING)) head += `\nimport ${DEFAULT_EXPORT_BINDING} from ${JSON.stringify(file)};`;
   return `${head}\n;globalThis.__gradientProbeExposed = {\n${fields.join(',\n')}\n};\n`;
+}
+
+/** Decoded mappings per cache entry (not part of the entry: the disk cache stores entries). */
+const decodedSegments = new WeakMap<CacheEntry, MappedSegment[]>();
+
+/** All mappings of an entry's source map, decoded once and kept while the entry lives. */
+function segmentsOf(entry: CacheEntry): () => MappedSegment[] {
+  return () => {
+    let segments = decodedSegments.get(entry);
+    if (!segments) decodedSegments.set(entry, (segments = entry.sourceMap ? mappedSegments(entry.sourceMap, entry.mapDir) : []));
+    return segments;
+  };
 }
 
 /** Looks places up in an entry's source map (parsed on each call: only failures ask). */
@@ -197,7 +211,7 @@ export class Bundler {
       this.cache.delete(requestKey);
       this.cache.set(requestKey, cached);
       this.stats.cacheHits++;
-      return { ok: true, code: cached.code, key: cached.key, cached: true, buildMs: 0, originalPlace: placeFinder(cached), inputs: inputPaths(cached) };
+      return { ok: true, code: cached.code, key: cached.key, cached: true, buildMs: 0, originalPlace: placeFinder(cached), inputs: inputPaths(cached), segments: segmentsOf(cached) };
     }
     this.forget(requestKey);
     const diskDir = this.options.diskCache ? bundleCacheDir() : undefined;
@@ -205,7 +219,7 @@ export class Bundler {
     if (stored && this.stillValid(stored)) {
       this.stats.diskHits++;
       this.remember(requestKey, stored);
-      return { ok: true, code: stored.code, key: stored.key, cached: true, buildMs: 0, originalPlace: placeFinder(stored), inputs: inputPaths(stored) };
+      return { ok: true, code: stored.code, key: stored.key, cached: true, buildMs: 0, originalPlace: placeFinder(stored), inputs: inputPaths(stored), segments: segmentsOf(stored) };
     }
     const started = performance.now();
     const result = await this.build(file, request.text, bindings, request.tensorLibrary);
@@ -217,7 +231,7 @@ export class Bundler {
     this.remember(requestKey, result.entry);
     const buildMs = performance.now() - started;
     if (diskDir && buildMs >= (this.options.diskCacheMinBuildMs ?? DISK_WORTHY_BUILD_MS)) writeStoredBundle(diskDir, requestKey, result.entry);
-    return { ok: true, code: result.entry.code, key: result.entry.key, cached: false, buildMs, originalPlace: placeFinder(result.entry), inputs: inputPaths(result.entry) };
+    return { ok: true, code: result.entry.code, key: result.entry.key, cached: false, buildMs, originalPlace: placeFinder(result.entry), inputs: inputPaths(result.entry), segments: segmentsOf(result.entry) };
   }
 
   private remember(requestKey: string, entry: CacheEntry): void {

@@ -5,6 +5,7 @@
 import * as vm from 'node:vm';
 import type { ChildMessage, HelloMessage, JobMessage, ParentMessage } from './protocol';
 import { CONTEXT_SETUP_SOURCE, FIXED_DATE_MS, bundleFramesFrom, wrapWithBuiltins } from './contextSetup';
+import { COVERAGE_RUNNER_ARG, CoverageSession } from './coverageSession';
 
 /** Compiled bundles kept per process; the parent resends a bundle this child evicted. */
 const MAX_CACHED_BUNDLES = 32;
@@ -18,6 +19,13 @@ const outputScript = new vm.Script('__gradientProbeOutput()', { filename: 'gradi
 const phaseScript = new vm.Script('__gradientProbePhase()', { filename: 'gradient-probe-phase.js' });
 let engineScript: vm.Script | undefined;
 const bundleScripts = new Map<string, vm.Script>();
+/** Length of each cached bundle's code, for coverage offsets. */
+const bundleLengths = new Map<string, number>();
+
+/** Set in a coverage runner only (started with COVERAGE_RUNNER_ARG, see coverageSession.ts). */
+const coverage = process.argv.includes(COVERAGE_RUNNER_ARG) ? new CoverageSession() : undefined;
+/** Characters wrapWithBuiltins puts in front of the code. */
+const WRAPPER_PREFIX_LENGTH = wrapWithBuiltins('').indexOf('{\n') + 2;
 
 function send(message: ChildMessage): void {
   process.send?.(message);
@@ -51,10 +59,12 @@ function compileBundle(job: JobMessage): vm.Script | undefined {
   if (job.bundleCode === undefined) return undefined;
   const script = new vm.Script(wrapWithBuiltins(job.bundleCode), { filename: 'user-bundle.js', importModuleDynamically: refuseDynamicImport });
   bundleScripts.set(job.bundleKey, script);
+  bundleLengths.set(job.bundleKey, job.bundleCode.length);
   while (bundleScripts.size > MAX_CACHED_BUNDLES) {
     const oldest = bundleScripts.keys().next().value;
     if (oldest === undefined) break;
     bundleScripts.delete(oldest);
+    bundleLengths.delete(oldest);
   }
   return script;
 }
@@ -138,6 +148,8 @@ function runJob(job: JobMessage): void {
     microtaskMode: 'afterEvaluate',
   });
   let tagged: unknown;
+  // Counters start at zero for every job, so nothing of an earlier op is counted for this one.
+  coverage?.reset();
   try {
     const setup: unknown = setupScript.runInContext(context);
     if (typeof setup !== 'function') throw new Error('context setup did not evaluate to a function');
@@ -174,9 +186,11 @@ function runJob(job: JobMessage): void {
   }
   const body = tagged.slice(1);
   switch (tagged[0]) {
-    case 'R':
-      send({ type: 'result', id: job.id, ok: true, outcomeJson: body, output, elapsedMs: elapsed() });
+    case 'R': {
+      const blocks = coverage?.take(WRAPPER_PREFIX_LENGTH, bundleLengths.get(job.bundleKey) ?? 0);
+      send({ type: 'result', id: job.id, ok: true, outcomeJson: body, output, elapsedMs: elapsed(), ...(blocks ? { coverage: blocks } : {}) });
       return;
+    }
     case 'L': {
       const bar = body.indexOf('|');
       const bundleFrames = bundleFramesFrom(body.slice(0, Math.max(0, bar)));

@@ -51,9 +51,21 @@ export interface BundleFrame {
  */
 export type RunFailureCause = 'timeout' | 'crash' | 'memory' | 'cancelled' | 'load' | 'runner' | 'closed';
 
+/**
+ * V8 block coverage of the bundle during one job (coverage runners only, sandbox/coverageSession.ts):
+ * per function, its ranges as [start, end, count] with offsets into the bundle's code; nested
+ * ranges override.
+ */
+export interface BlockCoverage {
+  functions: Array<{ name: string; ranges: Array<[number, number, number]> }>;
+}
+
+/** The argument after the runner script that makes a runner collect coverage. */
+export const COVERAGE_RUNNER_ARG = '--gradient-probe-coverage';
+
 /** What a caller of a runner gets for one job. */
 export type RunResult =
-  | { outcome: CheckOutcome; output: string; elapsedMs: number }
+  | { outcome: CheckOutcome; output: string; elapsedMs: number; coverage?: BlockCoverage }
   | {
       error: string;
       output?: string;
@@ -68,7 +80,7 @@ export type RunFailure = Extract<RunResult, { error: string }>;
 
 /** What a runner (the process runner or the isolated interpreter) sends back for one job. */
 export type RunnerReply = (
-  | { ok: true; outcomeJson: string }
+  | { ok: true; outcomeJson: string; coverage?: BlockCoverage }
   | {
       ok: false;
       error: string;

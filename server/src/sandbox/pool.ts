@@ -34,6 +34,8 @@ export interface RunnerPoolOptions {
   engineScript?: string;
   /** Receives one line per noteworthy event (runner replaced, permission flag refused). */
   log?: (line: string) => void;
+  /** Runners that collect V8 block coverage for the separate coverage run (RunnerStartPolicy). */
+  coverage?: boolean;
 }
 
 interface Runner {
@@ -61,7 +63,7 @@ export class RunnerPool {
   private readonly log: (line: string) => void;
   private readonly childScriptOption?: string;
   private readonly engine: EngineCode;
-  private readonly startPolicy = new RunnerStartPolicy();
+  private readonly startPolicy: RunnerStartPolicy;
   private lastHello?: { hello: HelloMessage; command: RunnerCommand; memoryLimitMb: number };
 
   constructor(opts: RunnerPoolOptions = {}) {
@@ -69,6 +71,7 @@ export class RunnerPool {
     this.childScriptOption = opts.childScript;
     this.engine = new EngineCode(opts.engineScript);
     this.log = opts.log ?? (() => undefined);
+    this.startPolicy = new RunnerStartPolicy({ coverage: opts.coverage === true });
     this.queue = new JobQueue(this.stats, (job) => this.cancelRunning(job));
   }
 

@@ -26,6 +26,7 @@ export function runResultFromReply(reply: RunnerReply): RunResult {
   const { output, elapsedMs } = reply;
   if (reply.ok) {
     const outcome = parseOutcome(reply.outcomeJson);
+    if (outcome && reply.coverage) return { outcome, output, elapsedMs, coverage: reply.coverage };
     return outcome
       ? { outcome, output, elapsedMs }
       : { error: 'the check returned malformed data', output, elapsedMs, cause: 'runner' };

@@ -4,6 +4,7 @@
 // when a runner will not start under them; the isolation a started runner really has.
 import { existsSync } from 'node:fs';
 import { RESIDENT_HEADROOM_MB } from './memoryWatch';
+import { COVERAGE_RUNNER_ARG } from './jobTypes';
 import type { HelloMessage } from './protocol';
 import { tellingLine } from './supervisedProcess';
 
@@ -51,6 +52,8 @@ export interface RunnerCommandOptions {
   usePermission: boolean;
   /** Use prlimit when it exists (false after it failed to start a runner). */
   useAddressLimit: boolean;
+  /** Arguments for the runner script itself (after it on the command line). */
+  extraArgs?: string[];
 }
 
 export interface RunnerCommand {
@@ -80,7 +83,7 @@ export function runnerCommand(opts: RunnerCommandOptions): RunnerCommand {
   // The heap limit makes a runaway op die with a clear V8 "heap out of memory" instead of
   // swapping the machine; off-heap buffers are caught by the address-space limit and the
   // parent's memory poll.
-  nodeArgs.push(`--max-old-space-size=${Math.max(16, Math.floor(opts.memoryLimitMb))}`, '--no-warnings', opts.childScript);
+  nodeArgs.push(`--max-old-space-size=${Math.max(16, Math.floor(opts.memoryLimitMb))}`, '--no-warnings', opts.childScript, ...(opts.extraArgs ?? []));
   const env = runnerEnvironment();
   const limitAddress = opts.useAddressLimit && process.platform === 'linux' && existsSync(PRLIMIT_PATH);
   if (limitAddress) {
@@ -105,12 +108,23 @@ const MAX_START_FAILURES = 3;
  * up one at a time when a runner dies before it is ready, the one the error names first.
  */
 export class RunnerStartPolicy {
-  private usePermission = true;
+  private usePermission: boolean;
   private useAddressLimit = true;
   private failures = 0;
+  private readonly extraArgs: string[] | undefined;
+
+  /**
+   * `coverage`: runners that collect V8 block coverage (coverageSession.ts). Node 20's permission
+   * model denies the inspector, so they start without it and serve only the separate coverage
+   * run, never a verdict.
+   */
+  constructor(opts: { coverage?: boolean } = {}) {
+    this.usePermission = opts.coverage !== true;
+    this.extraArgs = opts.coverage === true ? [COVERAGE_RUNNER_ARG] : undefined;
+  }
 
   command(childScript: string, memoryLimitMb: number): RunnerCommand {
-    return runnerCommand({ childScript, memoryLimitMb, usePermission: this.usePermission, useAddressLimit: this.useAddressLimit });
+    return runnerCommand({ childScript, memoryLimitMb, usePermission: this.usePermission, useAddressLimit: this.useAddressLimit, extraArgs: this.extraArgs });
   }
 
   started(): void {

@@ -86,3 +86,47 @@ export function originalPlace(mapJson: string, mapDir: string, line: number, col
   const path = root + name;
   return { file: isAbsolute(path) ? path : resolve(mapDir, path), line: found[1] + 1, column: found[2] + 1 };
 }
+
+/** One mapping of a source map: a place in the bundle and the original place it came from. */
+export interface MappedSegment {
+  /** 1-based line and 0-based column in the bundle. */
+  genLine: number;
+  genColumn: number;
+  /** Absolute path, 1-based line and column of the original. */
+  place: SourcePlace;
+}
+
+/** Every mapping of a source map that names an original place, in bundle order (coverage mapping reads them all). */
+export function mappedSegments(mapJson: string, mapDir: string): MappedSegment[] {
+  let map: RawSourceMap;
+  try {
+    map = JSON.parse(mapJson) as RawSourceMap;
+  } catch {
+    return [];
+  }
+  if (typeof map.mappings !== 'string' || !Array.isArray(map.sources)) return [];
+  const root = typeof map.sourceRoot === 'string' ? map.sourceRoot : '';
+  const files = map.sources.map((name: unknown) => {
+    if (typeof name !== 'string') return undefined;
+    const path = root + name;
+    return isAbsolute(path) ? path : resolve(mapDir, path);
+  });
+  const out: MappedSegment[] = [];
+  let source = 0;
+  let origLine = 0;
+  let origColumn = 0;
+  const lines = map.mappings.split(';');
+  for (let i = 0; i < lines.length; i++) {
+    let genColumn = 0;
+    for (const seg of decodeSegments(lines[i] ?? '')) {
+      genColumn += seg[0] ?? 0;
+      if (seg.length < 4) continue;
+      source += seg[1] ?? 0;
+      origLine += seg[2] ?? 0;
+      origColumn += seg[3] ?? 0;
+      const file = files[source];
+      if (file !== undefined) out.push({ genLine: i + 1, genColumn, place: { file, line: origLine + 1, column: origColumn + 1 } });
+    }
+  }
+  return out;
+}

@@ -12,7 +12,9 @@ import {
 } from './helpers';
 
 /** The lens title of a finished verdict (see server/src/lsp/codeLens.ts). */
-const VERDICT_LENS = /^(✓ pass|✗ mismatch|\? inconclusive|! error)/;
+const VERDICT_LENS = /^(✓ ((jacobian|tangent|hessian) )?pass|✗ ((jacobian|tangent|hessian) )?mismatch|\? inconclusive|! error)/;
+/** A mismatch lens of any derivative kind. */
+const MISMATCH_LENS = /^✗ ((jacobian|tangent|hessian) )?mismatch/;
 
 function bugMarkers(text: string): number {
   return text.split('// DEMO BUG:').length - 1;
@@ -63,11 +65,12 @@ export function run(): Promise<void> {
             const d = probeDiagnostics(uri, 'gradient-mismatch');
             return d.length === expected ? d : undefined;
           }, 15_000);
-          assert.equal(titles.filter((t) => t.startsWith('✗ mismatch')).length, expected, titles.join(' | '));
+          assert.equal(titles.filter((t) => MISMATCH_LENS.test(t)).length, expected, titles.join(' | '));
           for (const d of mismatches) {
             assert.equal(d.severity, vscode.DiagnosticSeverity.Error);
-            assert.match(d.message, /max relative error \d\.\de[-+]\d+ at /);
-            assert.ok((d.relatedInformation ?? []).some((r) => r.message.startsWith('backward ')), 'related information names the backward');
+            // A Jacobian, tangent or Hessian names its wrong entry or output instead of an index.
+            assert.match(d.message, /max relative error \d\.\de[-+]\d+ at |(jacobian|tangent|hessian) is wrong: /);
+            assert.ok((d.relatedInformation ?? []).some((r) => /^(backward|jacobian|tangent|hessian) /.test(r.message)), 'related information names the derivative function');
           }
         }
         const runners = childrenOf(serverPid()!);
@@ -130,6 +133,19 @@ export function run(): Promise<void> {
         assert.match(snippet, new RegExp(`^it\\('${op.forward.replace('.', '\\.')}: backward agrees with a central difference`, 'm'));
         assert.equal(await vscode.commands.executeCommand('gradientProbe.openReport', buggy.toString(), op.forward), true);
         await requestScreenshot('report');
+      });
+
+      it('shows each derivative kind of the tracker demo as its own lens, and the Hessian bug on its entry', async () => {
+        const uri = (await annotatedFiles()).find((u) => u.fsPath.endsWith('tracker.ts'))!;
+        assert.ok(uri, 'the demo has src/tracker.ts');
+        const titles = await waitFor('verdict lenses for tracker.ts', async () => {
+          const t = (await lensTitles(uri)).filter((x) => VERDICT_LENS.test(x));
+          return t.length === 4 ? t : undefined;
+        });
+        assert.deepEqual(titles.map((t) => t.split(' · ')[0]), ['✓ jacobian pass', '✓ tangent pass', '✓ pass', '✗ hessian mismatch']);
+        const diag = probeDiagnostics(uri, 'gradient-mismatch');
+        assert.equal(diag.length, 1);
+        assert.match(diag[0]!.message, /^aimingCost @hessian: hessian is wrong: H\[1, 0\] \(angles\[1\], angles\[0\]\)/);
       });
 
       it('leaves no op marked as checking once the work is done', async () => {

@@ -1,0 +1,167 @@
+// What every derivative kind (@jacobian, @tangent, @hessian) does before it compares anything:
+// draw the inputs, call the forward at the sample point twice (shape, finiteness,
+// determinism, input mutation), choose precision and tolerance; and the attempt loop that
+// redraws the inputs after a kink, as runCheck does for @backward ops.
+
+import { F64, abs, describeThrown, formatNumber, max, min } from './builtins';
+import { CheckStop, fail, giveUp } from './failure';
+import type { InputGuard } from './inputGuard';
+import { elementName, type OpHarness } from './opHarness';
+import { describeOutputIndex, layoutPrecision, type OutputLayout } from './outputLayout';
+import type { ParamSlot } from './paramSlot';
+import { unitRoundoff, type Precision } from './precision';
+import { STREAM_STRIDE, substream, type RandomSource } from './random';
+import type { KinkReport } from './refine';
+import { captureInputs, finiteOnly } from './reportData';
+import type { CheckSettings } from './settings';
+import type { CheckOutcome, OpDescriptor, ParamResult, Verdict } from './types';
+
+/** The sample point of one attempt and what was learnt there. */
+export interface Baseline {
+  slots: ParamSlot[];
+  y0: Float64Array;
+  layout: OutputLayout;
+  guard: InputGuard;
+  precision: Precision;
+  uOut: number;
+  tol: number;
+  inputs: CheckOutcome['inputs'];
+  /** Time of one forward call, in milliseconds. */
+  forwardMs: number;
+}
+
+/** Draws the inputs of one attempt and runs the forward's baseline calls. */
+export function takeBaseline(h: OpHarness, op: OpDescriptor, settings: CheckSettings, rng: RandomSource, clock: () => number): Baseline {
+  const sample = h.prepare(rng, settings.maxElements);
+  const inputs = captureInputs(sample);
+  const slots = sample.slots;
+  if (slots.length === 0) fail('no parameter is differentiated: every input is fixed, a literal, an integer or not numbers');
+  const guard = h.guardInputs();
+  const t0 = clock();
+  const y0 = h.forwardInto(null, true);
+  const changed = guard.firstChange(h.inputValues());
+  if (changed !== null) fail(`forward changed its input ${changed}`);
+  const layout = h.layout as OutputLayout;
+  if (layout.size > settings.maxElements) fail(`forward output has ${layout.size} elements, more than the limit of ${settings.maxElements}`);
+  const t1 = clock();
+  const y1 = h.forwardInto(null, true);
+  const forwardMs = max(0, min(clock() - t1, t1 - t0));
+  for (let j = 0; j < y0.length; j++) {
+    if (y0[j] !== y1[j]) {
+      giveUp(`forward is not deterministic: two calls at the same input differ at ${describeOutputIndex(layout, j)} (${formatNumber(y0[j], 17)} then ${formatNumber(y1[j], 17)})`);
+    }
+  }
+  let precision: Precision = layoutPrecision(layout);
+  for (let s = 0; s < slots.length; s++) if (slots[s].precision === 'f32') precision = 'f32';
+  const tol = typeof op.tolerance === 'number' && op.tolerance > 0 ? op.tolerance : precision === 'f32' ? settings.toleranceF32 : settings.toleranceF64;
+  return { slots, y0, layout, guard, precision, uOut: unitRoundoff(precision), tol, inputs, forwardMs };
+}
+
+/** Fails when the derivative function changed an input (it must only read them). */
+export function checkUnchanged(h: OpHarness, base: Baseline, what: string): void {
+  const changed = base.guard.firstChange(h.inputValues());
+  if (changed !== null) fail(`${what} changed its input ${changed}`);
+}
+
+/**
+ * Runs a reader over what a derivative function returned: a getter or proxy of user code that
+ * throws while being read is the function's fault, named as such, not an engine failure.
+ */
+export function readingResult<T>(what: string, read: () => T): T {
+  try {
+    return read();
+  } catch (e) {
+    if (e instanceof CheckStop) throw e;
+    return fail(`reading what ${what} returned threw ${describeThrown(e)}`);
+  }
+}
+
+/** The m unit vectors of the output space: comparing with them reads a matrix entry by entry. */
+export function unitVectors(m: number): Float64Array[] {
+  const ws: Float64Array[] = [];
+  for (let k = 0; k < m; k++) {
+    const w = new F64(m);
+    w[k] = 1;
+    ws[k] = w;
+  }
+  return ws;
+}
+
+/** What one attempt ends with: an outcome, or a kink that asks for a redraw. */
+export type AttemptResult = CheckOutcome | { kink: KinkReport; params: ParamResult[]; inputs: CheckOutcome['inputs'] };
+
+export interface AttemptContext {
+  h: OpHarness;
+  op: OpDescriptor;
+  settings: CheckSettings;
+  seed: number;
+  attempt: number;
+  /** A random stream of this attempt for a purpose (see STREAM). */
+  stream: (purpose: number) => RandomSource;
+  outOfTime: () => boolean;
+  clock: () => number;
+}
+
+function emptyOutcome(verdict: Verdict, seed: number, message: string, calls: { forward: number; backward: number }): CheckOutcome {
+  return { verdict, seed, message, hints: [], params: [], calls: { forward: calls.forward, backward: calls.backward } };
+}
+
+/**
+ * Runs attempts until one ends without a kink (at most settings.kinkResamples redraws), the
+ * same policy as runCheck: a kink is never a mismatch. Never throws.
+ */
+export function runAttempts(
+  h: OpHarness,
+  op: OpDescriptor,
+  settings: CheckSettings,
+  seed: number,
+  deadline: number,
+  clock: () => number,
+  attemptFn: (ctx: AttemptContext) => AttemptResult,
+): CheckOutcome {
+  const outOfTime = (): boolean => clock() > deadline;
+  const kinks: KinkReport[] = [];
+  let lastParams: ParamResult[] = [];
+  let lastInputs: CheckOutcome['inputs'];
+  try {
+    for (let attempt = 0; attempt <= settings.kinkResamples; attempt++) {
+      const stream = (purpose: number): RandomSource => substream(seed, attempt * STREAM_STRIDE + purpose);
+      const result = attemptFn({ h, op, settings, seed, attempt, stream, outOfTime, clock });
+      if ('kink' in result) {
+        kinks[kinks.length] = result.kink;
+        lastParams = result.params;
+        lastInputs = result.inputs;
+        continue;
+      }
+      if (attempt > 0) {
+        const first = kinks[0];
+        const note = `redrawn ${attempt}× after a non-differentiable point near ${elementName(first.slot, first.index)} = ${formatNumber(first.value)}`;
+        result.message = result.message ? `${result.message}; ${note}` : note;
+      }
+      return finiteOnly(result);
+    }
+    const last = kinks[kinks.length - 1];
+    const outcome = emptyOutcome(
+      'inconclusive',
+      seed,
+      `non-differentiable point near ${elementName(last.slot, last.index)} = ${formatNumber(last.value)}${last.jump !== 0 ? ` (slopes on either side differ by ${formatNumber(abs(last.jump), 3)})` : ''}; ${settings.kinkResamples} redraw${settings.kinkResamples === 1 ? '' : 's'} met one too — add \`avoid\` points to the @sample`,
+      h.calls,
+    );
+    outcome.params = lastParams;
+    if (lastInputs !== undefined) outcome.inputs = lastInputs;
+    return finiteOnly(outcome);
+  } catch (e) {
+    if (e instanceof CheckStop) return finiteOnly(emptyOutcome(e.verdict, seed, e.message, h.calls));
+    return finiteOnly(emptyOutcome('error', seed, `internal error in the check engine: ${describeThrown(e)}`, h.calls));
+  }
+}
+
+/** The verdict of several parameter results: any mismatch, else any inconclusive, else pass. */
+export function combinedVerdict(params: ParamResult[]): Verdict {
+  let v: Verdict = 'pass';
+  for (let s = 0; s < params.length; s++) {
+    if (params[s].verdict === 'mismatch') return 'mismatch';
+    if (params[s].verdict === 'inconclusive' || params[s].verdict === 'error') v = 'inconclusive';
+  }
+  return v;
+}
