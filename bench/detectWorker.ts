@@ -2,7 +2,7 @@
 // backward (a few elements of one gradient scaled by 1 + r, placed anew by every seed), checked
 // with the default settings through the Checker for consecutive seeds. Prints one JSON line
 // (DetectionMeasurement) on stdout.
-// Usage: node dist/bench/detectWorker.js KIND ELEMENTS BUG_COUNT BUG_RELATIVE TRIALS FIRST_SEED
+// Usage: node dist/bench/detectWorker.js KIND ELEMENTS BUG_COUNT BUG_RELATIVE TRIALS FIRST_SEED [BUG_PARAM]
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -36,8 +36,8 @@ function flatIndex(index: number[], shape: number[]): number {
 }
 
 async function main(): Promise<void> {
-  const [kind, elementsText, countText, relText, trialsText, seedText] = process.argv.slice(2);
-  const bug = { count: Number(countText), relative: Number(relText) };
+  const [kind, elementsText, countText, relText, trialsText, seedText, bugParam] = process.argv.slice(2);
+  const bug = { count: Number(countText), relative: Number(relText), ...(bugParam ? { param: bugParam } : {}) };
   const op = benchOp(kind as OpKind, Number(elementsText), bug);
   const trials = Number(trialsText);
   const firstSeed = Number(seedText);
@@ -70,7 +70,7 @@ async function main(): Promise<void> {
       }
     }
     const m: DetectionMeasurement = {
-      kind: op.kind, forward: op.forward, elements: op.elements, bugCount: bug.count, bugRelative: bug.relative,
+      kind: op.kind, forward: op.forward, elements: op.elements, bugParam: op.bugParam, bugCount: bug.count, bugRelative: bug.relative,
       trials, firstSeed, caught, located, missed, lowerBound95: clopperPearsonLower(caught, trials, 0.05),
       medianMs: median(times), maxMs: Math.max(...times), methods: [...methods],
     };

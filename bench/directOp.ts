@@ -80,6 +80,19 @@ export function directOp(op: BenchOp, loaded: LoadedModule, seed: number): Direc
         },
       };
     }
+    case 'softmaxVector': {
+      const f = fn(e, 'softmaxAll');
+      const b = fn(e, 'softmaxAllBackward');
+      let y: Float64Array | null = null;
+      return {
+        params, outputs: op.outputs,
+        forward: () => f(params[0]) as Float64Array,
+        backward: (dy) => {
+          y ??= f(params[0]) as Float64Array;
+          return [b(params[0], y, dy) as Float64Array];
+        },
+      };
+    }
     case 'conv1d': {
       const f = fn(e, 'conv1d');
       const b = fn(e, 'conv1dBackward');

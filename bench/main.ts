@@ -4,14 +4,17 @@
 // and every goal's figure with met / not met, and writes the same figures to
 // bench/results/latest.json. Flags: --quick (fewer sizes and trials), --skip=ops,detection,latency,workspace,memory,
 // --print=FILE (print the table of a saved run, measuring nothing), --settings=JSON (fields laid over the
-// defaults for every check, e.g. '{"stepScans":"mismatch"}'; such a run is never the figure of record).
+// defaults for every check, e.g. '{"stepScans":"mismatch"}'; such a run is never the figure of record),
+// --kinds=matmul,softmaxVector and --sizes=1000000 (only those op families and sizes, in the op
+// table and the seeded-bug trials), --trials=N (at most N trials per seeded-bug row), --out=NAME
+// (file name under bench/results/ for a partial run). Any filter makes a partial run.
 import { execFile, execFileSync } from 'node:child_process';
-import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { availableParallelism, cpus, loadavg, platform, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { DEFAULT_SETTINGS } from '../server/src/engine/settings';
 import { measureLatency } from './lspLatency';
-import { OP_KINDS } from './opSources';
+import { DENSE_KINDS, OP_KINDS } from './opSources';
 import { formatReport } from './report';
 import type { BenchReport, DetectionMeasurement, OpMeasurement } from './results';
 import { evaluateGoals } from './goals';
@@ -28,8 +31,8 @@ interface Plan {
   warmup: (size: number) => number;
   /** Time the hand-written loop may run before its total is extrapolated, in ms. */
   handBudgetMs: number;
-  /** Seeded-bug trials: [kind, elements, bug count, trials]. */
-  detection: [string, number, number, number][];
+  /** Seeded-bug trials: [kind, elements, bug count, trials, parameter with the bug (default: the op's)]. */
+  detection: [string, number, number, number, string?][];
   saves: number;
   throughputRuns: number;
   memoryChecks: number;
@@ -49,10 +52,18 @@ function plan(quick: boolean): Plan {
       // Elsewhere at 1,000,000 fewer trials: each costs seconds (y = Wx's alone needs
       // 4,000 forward calls of a million multiply-adds, past the time limit on this machine).
       const goalRun = kind === 'elementwise' && count === 1;
-      const bigTrials = goalRun ? 300 : kind === 'matmul' ? 3 : 10;
+      // y = W x's single-bug goal runs have their own rows below (bug in W, bug in x).
+      if (kind === 'matmul' && count === 1) continue;
+      const bigTrials = goalRun ? 300 : 10;
       detection.push([kind, 1_000_000, count, quick ? Math.min(bigTrials, goalRun ? 30 : 3) : bigTrials]);
     }
   }
+  // The dense families — y = W x with the bug in W or in x, 300 trials each for the
+  // p ≥ 0.99 bound; a softmax over one vector of 100,000 and 1,000,000.
+  detection.push(['matmul', 1_000_000, 1, quick ? 30 : 300, 'weight']);
+  detection.push(['matmul', 1_000_000, 1, quick ? 30 : 300, 'x']);
+  detection.push(['softmaxVector', 100_000, 1, quick ? 10 : 50]);
+  detection.push(['softmaxVector', 1_000_000, 1, quick ? 5 : 20]);
   return {
     sizes: quick ? [10, 1000, 100_000, 1_000_000] : [10, 100, 1000, 10_000, 100_000, 1_000_000],
     reps: (n) => (n >= 1_000_000 ? (quick ? 2 : 3) : n >= 100_000 ? (quick ? 3 : 5) : quick ? 9 : 15),
@@ -114,6 +125,19 @@ async function main(): Promise<void> {
   const quick = process.argv.includes('--quick');
   const skip = new Set((process.argv.find((a) => a.startsWith('--skip='))?.slice(7) ?? '').split(',').filter(Boolean));
   const p = plan(quick);
+  const listArg = (name: string): string[] | null => {
+    const v = process.argv.find((a) => a.startsWith(`--${name}=`))?.slice(name.length + 3);
+    return v ? v.split(',').filter(Boolean) : null;
+  };
+  const kinds = listArg('kinds');
+  const sizes = listArg('sizes')?.map(Number) ?? null;
+  const maxTrials = Number(listArg('trials')?.[0] ?? Infinity);
+  const filters: Record<string, string> = {};
+  if (kinds) filters.kinds = kinds.join(',');
+  if (sizes) filters.sizes = sizes.join(',');
+  if (maxTrials < Infinity) filters.trials = String(maxTrials);
+  const wantKind = (k: string): boolean => kinds === null || kinds.includes(k);
+  const wantSize = (n: number): boolean => sizes === null || sizes.includes(n);
   const overrides = process.argv.find((a) => a.startsWith('--settings='))?.slice(11);
   const report: BenchReport = {
     version: 1, startedAt: new Date().toISOString(), machine: machine(), settings: { ...DEFAULT_SETTINGS, ...(overrides ? (JSON.parse(overrides) as object) : {}) }, source: source(), ops: [], detection: [], latency: [],
@@ -123,8 +147,10 @@ async function main(): Promise<void> {
   log(`bench: ${report.machine.cpu}, ${report.machine.cores} cores, ${report.machine.memory}, node ${report.machine.node}, load ${report.machine.loadBefore.map((l) => l.toFixed(2)).join(' ')}${quick ? ' (quick)' : ''}`);
 
   if (!skip.has('ops')) {
-    for (const kind of OP_KINDS) {
+    for (const kind of [...OP_KINDS, ...DENSE_KINDS]) {
+      if (!wantKind(kind)) continue;
       for (const size of p.sizes) {
+        if (!wantSize(size)) continue;
         log(`  op ${kind} ${size}…`);
         const line = await runWorker('opWorker.js', [kind, String(size), String(p.reps(size)), String(p.handBudgetMs), overrides ?? '{}', String(p.warmup(size))]);
         report.ops.push(JSON.parse(line) as OpMeasurement);
@@ -133,9 +159,11 @@ async function main(): Promise<void> {
   }
   if (!skip.has('detection')) {
     if (overrides) log('  (seeded-bug trials, latency, workspace and memory always use the default settings)');
-    for (const [kind, size, count, trials] of p.detection) {
-      log(`  seeded bugs ${kind} ${size} ×${count}, ${trials} trials…`);
-      const line = await runWorker('detectWorker.js', [kind, String(size), String(count), String(BUG_RELATIVE), String(trials), String(FIRST_TRIAL_SEED)]);
+    for (const [kind, size, count, planned, param] of p.detection) {
+      if (!wantKind(kind) || !wantSize(size)) continue;
+      const trials = Math.min(planned, maxTrials);
+      log(`  seeded bugs ${kind} ${size} ×${count}${param ? ` in ${param}` : ''}, ${trials} trials…`);
+      const line = await runWorker('detectWorker.js', [kind, String(size), String(count), String(BUG_RELATIVE), String(trials), String(FIRST_TRIAL_SEED), ...(param ? [param] : [])]);
       report.detection.push(JSON.parse(line) as DetectionMeasurement);
     }
   }
@@ -159,10 +187,19 @@ async function main(): Promise<void> {
   }
   report.machine.loadAfter = loadavg();
   report.goals = evaluateGoals(report);
+  if (Object.keys(filters).length > 0) report.filters = filters;
+  // The run of record before this one, judged by today's rules, printed beside the new figures.
+  const previousFile = join(OUT_DIR, 'latest.json');
+  if (existsSync(previousFile)) {
+    const prev = JSON.parse(readFileSync(previousFile, 'utf8')) as BenchReport;
+    report.previous = { startedAt: prev.startedAt, commit: prev.source.commit, goals: evaluateGoals(prev) };
+  }
   process.stdout.write(formatReport(report));
   mkdirSync(OUT_DIR, { recursive: true });
   // Only a full run is the figure of record; a quick or partial run goes beside it.
-  const name = quick || skip.size > 0 || overrides ? 'partial.json' : 'latest.json';
+  const partial = quick || skip.size > 0 || overrides || Object.keys(filters).length > 0;
+  const out = listArg('out')?.[0];
+  const name = partial ? (out ? `${out.replace(/[^\w.-]/g, '_').replace(/\.json$/, '')}.json` : 'partial.json') : 'latest.json';
   writeFileSync(join(OUT_DIR, name), `${JSON.stringify(report, null, 1)}\n`);
   log(`figures written to bench/results/${name}`);
 }

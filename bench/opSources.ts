@@ -4,9 +4,15 @@
 // and runner check them.
 
 /** The op families the benchmark measures. */
-export type OpKind = 'elementwise' | 'matmul' | 'softmax' | 'conv1d' | 'layer';
+export type OpKind = 'elementwise' | 'matmul' | 'softmax' | 'conv1d' | 'layer' | 'softmaxVector';
 
+/** The families of the op table, the seeded-bug trials and the generated workspace. */
 export const OP_KINDS: readonly OpKind[] = ['elementwise', 'matmul', 'softmax', 'conv1d', 'layer'];
+/**
+ * Families measured in the op table and the seeded-bug trials only (README, "How a check works"): a softmax over one
+ * long vector, whose Jacobian couples every element with every other.
+ */
+export const DENSE_KINDS: readonly OpKind[] = ['softmaxVector'];
 
 /** Classes per row of the row softmax: a batch of 10-class logits. */
 export const SOFTMAX_CLASSES = 10;
@@ -21,6 +27,8 @@ export const CONV_TAPS = 5;
 export interface SeededBug {
   count: number;
   relative: number;
+  /** The parameter whose gradient is wrong (default: the op's bugParam). y = W x takes 'x' too. */
+  param?: string;
 }
 
 /** One parameter as the benchmark's own loops see it. */
@@ -69,6 +77,8 @@ export function benchOp(kind: OpKind, target: number, bug?: SeededBug): BenchOp 
       return conv1d(Math.max(1, target - CONV_TAPS), bug);
     case 'layer':
       return layer(Math.max(1, Math.round(target / 3)), bug);
+    case 'softmaxVector':
+      return softmaxVector(Math.max(2, target), bug);
   }
 }
 
@@ -128,7 +138,8 @@ ${b.apply('g')}  return g;
 
 function matmul(c: number, bug?: SeededBug): BenchOp {
   const r = c;
-  const b = bugCode(r * c, bug);
+  const inX = bug?.param === 'x';
+  const b = bugCode(inX ? c : r * c, bug);
   const text = `// Benchmark op: y = W x with W ${r}×${c} (W's Jacobian couples each row with one output).
 ${b.decl}
 /**
@@ -163,7 +174,7 @@ export function matVecBackward(weight: Float64Array, x: Float64Array, dy: Float6
       dx[j] += weight[base + j] * d;
     }
   }
-${b.apply('dWeight')}  return { weight: dWeight, x: dx };
+${b.apply(inX ? 'dx' : 'dWeight')}  return { weight: dWeight, x: dx };
 }
 `;
   return {
@@ -172,7 +183,7 @@ ${b.apply('dWeight')}  return { weight: dWeight, x: dx };
       { name: 'weight', elements: r * c, optimalColours: c },
       { name: 'x', elements: c, optimalColours: c },
     ],
-    elements: r * c + c, outputs: r, bugParam: 'weight', shape: `W ${r}×${c}, x ${c}`, isMethod: false,
+    elements: r * c + c, outputs: r, bugParam: inX ? 'x' : 'weight', shape: `W ${r}×${c}, x ${c}`, isMethod: false,
   };
 }
 
@@ -325,5 +336,44 @@ ${b.apply('dGain')}    return { x: dx, gain: dGain, shift: dShift };
       { name: 'this.shift', elements: n, optimalColours: 1 },
     ],
     elements: 3 * n, outputs: n, bugParam: 'this.gain', shape: `x, gain, shift ${fmt(n)} each`, isMethod: true,
+  };
+}
+
+function softmaxVector(n: number, bug?: SeededBug): BenchOp {
+  const b = bugCode(n, bug);
+  const text = `// Benchmark op: softmax over one vector of ${fmt(n)} logits (a dense Jacobian: every output moves with every logit).
+${b.decl}
+/**
+ * Softmax of the whole vector.
+ * @backward softmaxAllBackward(z, $y, $dy)
+ * @sample z f64[${n}] in [-2, 2]
+ */
+export function softmaxAll(z: Float64Array): Float64Array {
+  let top = -Infinity;
+  for (let i = 0; i < z.length; i++) top = Math.max(top, z[i]);
+  const y = new Float64Array(z.length);
+  let sum = 0;
+  for (let i = 0; i < z.length; i++) {
+    const e = Math.exp(z[i] - top);
+    y[i] = e;
+    sum += e;
+  }
+  for (let i = 0; i < z.length; i++) y[i] /= sum;
+  return y;
+}
+
+export function softmaxAllBackward(z: Float64Array, y: Float64Array, dy: Float64Array): Float64Array {
+  let dot = 0;
+  for (let i = 0; i < z.length; i++) dot += dy[i] * y[i];
+  const g = new Float64Array(z.length);
+  for (let i = 0; i < z.length; i++) g[i] = y[i] * (dy[i] - dot);
+${b.apply('g')}  return g;
+}
+`;
+  return {
+    kind: 'softmaxVector', forward: 'softmaxAll', fileName: `softmax_vector_${n}.ts`, text,
+    // The exact scheme: no two elements are structurally orthogonal, one column per element.
+    params: [{ name: 'z', elements: n, optimalColours: n }],
+    elements: n, outputs: n, bugParam: 'z', shape: `z ${fmt(n)}`, isMethod: false,
   };
 }

@@ -7,6 +7,7 @@ import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { bindingsOf, Checker, listOps } from '../server/src/core/checker';
+import { ROOT_PROBES } from '../server/src/engine/splitSearch';
 import { DEFAULT_SETTINGS, type CheckSettings } from '../server/src/engine/settings';
 import type { OpResult } from '../server/src/engine/types';
 import { Bundler } from '../server/src/sandbox/bundle';
@@ -23,7 +24,7 @@ const INPUT_SEED = 20240917;
 /**
  * Calls the method the check picked needs at least, per interface of each method: one baseline
  * forward; per parameter, 2 forwards per element (full), per colour class of the cheapest exact
- * grouping (grouped), or per dot-product probe and subset element (dot-product); one backward
+ * grouping (grouped), or 4 per root probe (dot-product: two central differences); one backward
  * per upstream probe (and per dot-product probe). A method op re-runs its forward before each
  * backward after the first, because its backward reads what the forward cached.
  */
@@ -38,8 +39,10 @@ export function floorBudget(op: BenchOp, result: OpResult, s: CheckSettings): Ca
     if (method === 'full') forwards += 2 * p.elements;
     else if (method === 'grouped') forwards += 2 * p.optimalColours;
     else {
+      // Probes: ROOT_PROBES probes of two central differences each at least (Ridders needs two
+      // steps for an error estimate).
       dot = true;
-      forwards += 2 * (s.dotProductProbes + Math.min(p.elements, s.subsetElements));
+      forwards += 4 * ROOT_PROBES;
     }
   }
   if (dot) backwards += s.dotProductProbes;

@@ -123,8 +123,20 @@ export function formatReport(r: BenchReport): string {
   }
   if (r.goals.length) {
     out.push('');
-    out.push('Goals');
-    out.push(table(['goal', 'met', 'figure'], r.goals.map((g) => [g.goal, g.met === null ? 'n/a' : g.met ? 'met' : 'NOT MET', g.figure]), 3));
+    const verdict = (g: { met: boolean | null } | undefined): string => (g === undefined ? 'not measured' : g.met === null ? 'n/a' : g.met ? 'met' : 'NOT MET');
+    if (r.filters) out.push(`(partial run: ${Object.entries(r.filters).map(([k, v]) => `--${k}=${v}`).join(' ')})`);
+    if (r.previous) {
+      // The run of record before this one, judged by the same rules, beside each goal.
+      const prev = r.previous;
+      out.push(`Goals (previous = the run of record of ${prev.startedAt}, commit ${prev.commit}, judged by the same rules)`);
+      out.push(table(['goal', 'met', 'figure', 'previous', 'previous figure'], r.goals.map((g) => {
+        const p = prev.goals.find((q) => q.goal === g.goal);
+        return [g.goal, verdict(g), g.figure, verdict(p), p?.figure ?? ''];
+      }), 5));
+    } else {
+      out.push('Goals');
+      out.push(table(['goal', 'met', 'figure'], r.goals.map((g) => [g.goal, verdict(g), g.figure]), 3));
+    }
   }
   return `${out.join('\n')}\n`;
 }

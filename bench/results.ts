@@ -39,6 +39,8 @@ export interface DetectionMeasurement {
   kind: string;
   forward: string;
   elements: number;
+  /** The parameter whose gradient carries the bug (absent in runs recorded before it was recorded: the op's default). */
+  bugParam?: string;
   bugCount: number;
   bugRelative: number;
   trials: number;
@@ -116,4 +118,8 @@ export interface BenchReport {
   throughput: ThroughputMeasurement | null;
   memory: MemoryMeasurement | null;
   goals: GoalLine[];
+  /** The run of record before this one (bench/results/latest.json), judged by the same rules, for the goals table. */
+  previous?: { startedAt: string; commit: string; goals: GoalLine[] };
+  /** Filters of a partial run (--kinds, --sizes, --trials), recorded so the file says what it holds. */
+  filters?: Record<string, string>;
 }

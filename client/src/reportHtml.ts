@@ -89,6 +89,7 @@ function figuresTable(p: ParamResult): string {
     ['elements checked', `${p.checkedElements} of ${p.elements}`],
     ['max abs error', sci(p.maxAbsError)],
     ['max rel error', sci(p.maxRelError)],
+    ['detection floor (p ≥ 0.99)', typeof p.detectionFloor === 'number' ? sci(p.detectionFloor) : '—'],
     ['worst element', p.worst ? (p.worst.index.length ? `[${p.worst.index.join(', ')}]` : 'scalar') : '—'],
     ['backward there', p.worst ? String(p.worst.analytic) : '—'],
     ['numeric there', p.worst ? String(p.worst.numeric) : '—'],

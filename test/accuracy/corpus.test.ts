@@ -15,6 +15,7 @@ import * as normalize from '../corpus/normalize';
 import * as scaled from '../corpus/scaled';
 import * as float32 from '../corpus/float32';
 import * as outputs from '../corpus/outputs';
+import * as precision from '../corpus/precision';
 
 /** Share of bug ops that must be called mismatch (test/corpus/README.md). */
 const REQUIRED_BUG_RECALL = 0.95;
@@ -103,6 +104,13 @@ describe('accuracy corpus through the command line', function () {
     assert.equal(errors.length, 0, `kink ops that could not be checked:\n${formatTable(errors)}`);
   });
 
+  it('gets the three precision traps right: each correct op passes and each buggy twin is a mismatch (test/corpus/precision.ts)', function () {
+    // Labels of test/corpus/precision.ts; each follows from a handbook derivative named there.
+    const traps = ops.filter((o) => o.file === 'precision.ts');
+    assert.equal(traps.length, 6, formatTable(traps));
+    for (const o of traps) assert.equal(o.verdict, o.label === 'bug' ? 'mismatch' : 'pass', formatTable(traps));
+  });
+
   it('calls every broken op error, with a message', function () {
     const broken = ofClass('broken');
     const wrong = broken.filter((o) => o.verdict !== 'error' || o.message.trim() === '');
@@ -118,6 +126,7 @@ describe('accuracy corpus through the command line', function () {
         'scaled.ts': scaled,
         'float32.ts': float32,
         'outputs.ts': outputs,
+        'precision.ts': precision,
       };
       const lines: string[] = [];
       let loopMisses = 0;

@@ -77,6 +77,16 @@ describe('gradient-probe command (spawned)', function () {
       for (const name of ['glazeResponse', 'coolingCurve', 'thermocouple']) assert.equal(pairNamed(report, name).verdict, 'pass', name);
     });
 
+    it('states a detection floor on every checked parameter: the tolerance itself when every element was compared (docs/report-format.md, detectionFloor)', () => {
+      for (const name of ['glazeResponse', 'coolingCurve', 'thermocouple', 'fuelLog']) {
+        for (const p of pairNamed(report, name).params) {
+          // Small ops compare every element, so the floor is the float64 tolerance (engine/settings.ts).
+          if (p.checkedElements === p.elements) assert.equal(p.detectionFloor, 1e-6, `${name} ${p.name}`);
+          else assert.ok(typeof p.detectionFloor === 'number' && p.detectionFloor >= 1e-6, `${name} ${p.name}`);
+        }
+      }
+    });
+
     it('reports the halved derivative of ln x as a mismatch with the evidence', () => {
       const fuel = pairNamed(report, 'fuelLog');
       assert.equal(fuel.verdict, 'mismatch');

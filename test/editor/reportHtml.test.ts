@@ -56,6 +56,13 @@ describe('report page', function () {
     assert.match(html, /var\(--vscode-editor-foreground\)/);
   });
 
+  it('states each parameter\'s detection floor beside its figures (README, "What a pass does and does not prove")', () => {
+    const html = reportPage({ result: pass, fileLabel: 'pass.ts', nonce: 'n0nce', cspSource: 'vscode-webview:' });
+    const floor = pass.params[0]!.detectionFloor;
+    assert.equal(typeof floor, 'number');
+    assert.match(html, new RegExp(`<th>detection floor \\(p ≥ 0\\.99\\)</th><td>${floor!.toExponential(2).replace('+', '\\+')}`));
+  });
+
   it('plots every recorded step error at its place on log–log axes', () => {
     const scan = pass.params[0]!.stepScan as StepScan;
     const svg = stepPlot(scan, 'x');

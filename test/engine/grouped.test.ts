@@ -50,6 +50,36 @@ function conv(n: number, wrongAt: number | null) {
   });
 }
 
+/**
+ * Softmax over each row of `width` logits: a block-diagonal Jacobian, y_i(δ_ij − y_j) inside a
+ * row (the softmax Jacobian, from memory), zero across rows. `wrongAt` scales one gradient entry.
+ */
+function rowSoftmax(rows: number, width: number, wrongAt: number | null) {
+  return functionOp({
+    forward: (z: Float64Array) => {
+      const y = new Float64Array(z.length);
+      for (let b = 0; b < z.length; b += width) {
+        let sum = 0;
+        for (let j = 0; j < width; j++) sum += (y[b + j] = Math.exp(z[b + j]));
+        for (let j = 0; j < width; j++) y[b + j] /= sum;
+      }
+      return y;
+    },
+    backward: (z: Float64Array, y: Float64Array, dy: Float64Array) => {
+      const g = new Float64Array(z.length);
+      for (let b = 0; b < z.length; b += width) {
+        let dot = 0;
+        for (let j = 0; j < width; j++) dot += dy[b + j] * y[b + j];
+        for (let j = 0; j < width; j++) g[b + j] = y[b + j] * (dy[b + j] - dot);
+      }
+      if (wrongAt !== null) g[wrongAt] *= 1 + 1e-4;
+      return g;
+    },
+    params: [['z', spec('f64', [rows, width], [-2, 2])]],
+    backwardArgs: ['z', '$y', '$dy'],
+  });
+}
+
 describe('engine: grouped check (Curtis, Powell & Reid 1974)', () => {
   it('1,000,000-element elementwise op: pass, every element checked, few forward calls', () => {
     const t0 = performance.now();
@@ -138,7 +168,23 @@ describe('engine: grouped check (Curtis, Powell & Reid 1974)', () => {
     assert.equal(o.params[0].checkedElements, n);
   });
 
-  it('a backward that misses a coupling the structure probes did not see is still a mismatch (a dot-product probe sends it back to full columns)', () => {
+  it('a softmax over rows of 10 uses 10 colour classes (one per column of the block), not the band model\'s 19', () => {
+    const o = check(rowSoftmax(300, 10, null), { stepScans: 'none' });
+    assert.equal(o.verdict, 'pass', show(o));
+    assert.equal(o.params[0].method, 'grouped');
+    assert.equal(o.params[0].checkedElements, 3000);
+    // 2 baseline calls, 1 joint structure probe, 2 per colour class, 2 for the random-direction
+    // safety probe: 25 with 10 classes; the band model's 19 classes would need 43.
+    assert.equal(o.calls.forward, 2 + 1 + 2 * 10 + 2, show(o));
+  });
+
+  it('a softmax over rows of 10 with one wrong entry is a mismatch at that entry (block colouring)', () => {
+    const o = check(rowSoftmax(300, 10, 1234), { stepScans: 'none' });
+    assert.equal(o.verdict, 'mismatch', show(o));
+    assert.deepEqual(o.params[0].worst?.index, [123, 4]);
+  });
+
+  it('a backward that misses a coupling the structure probes did not see is still a mismatch (a dot-product probe sends it back to probes split down to elements)', () => {
     // y_j = x_j² except y_500, which also depends on x_7 — and the backward forgets that term.
     const n = 1000;
     const built = functionOp({
@@ -152,7 +198,8 @@ describe('engine: grouped check (Curtis, Powell & Reid 1974)', () => {
     });
     const o = check(built);
     assert.equal(o.verdict, 'mismatch', show(o));
-    assert.equal(o.params[0].method, 'full');
+    // 1,000 columns cost more than probing: the probes, split down to x[7], find it.
+    assert.equal(o.params[0].method, 'dot-product');
     assert.deepEqual(o.params[0].worst?.index, [7]);
   });
 });

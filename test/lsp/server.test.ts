@@ -91,6 +91,8 @@ describe('language server over LSP (trusted workspace)', function () {
     const hover = hoverText(await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: positionOf(text, 'softplus(') }));
     assert.match(hover, /\*\*softplus\*\* → backward `softplusBackward` — \*\*pass\*\* · seed 1234/);
     assert.match(hover, /\| x \| f64\[8\] \| pass \| /);
+    // Every element compared: the detection floor is the float64 tolerance (engine/settings.ts).
+    assert.match(hover, /Detection floor \(smallest single-element relative error caught, p ≥ 0\.99\): x 1(\.0+)?e-6/);
     // The @sample tag's hover narrows the table to the parameter it draws.
     const tagHover = hoverText(await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: positionOf(text, '@sample x') }));
     assert.match(tagHover, /\| x \| f64\[8\] \|/);

@@ -43,7 +43,9 @@ function withoutRestatedProblem(message: string, firstProblem: string | undefine
 
 /** One parameter's evidence: errors and the worst element's two values. */
 export function paramLine(param: ParamResult): string {
-  const head = `${param.name} (${param.verdict}): max rel error ${formatRelError(param.maxRelError)}, max abs error ${formatNumber(param.maxAbsError)}`;
+  // The detection floor: the smallest single-element relative error this check catches (p ≥ 0.99).
+  const floor = typeof param.detectionFloor === 'number' ? `, detection floor ${formatRelError(param.detectionFloor)}` : '';
+  const head = `${param.name} (${param.verdict}): max rel error ${formatRelError(param.maxRelError)}, max abs error ${formatNumber(param.maxAbsError)}${floor}`;
   if (!param.worst) return head;
   const w = param.worst;
   const where = w.index.length === 0 ? param.name : `${param.name}${formatIndex(w.index)}`;

@@ -4,7 +4,7 @@
 
 import { F64, I32, abs, describeThrown, formatNumber, max, min } from './builtins';
 import { CheckStop, fail, giveUp } from './failure';
-import { GROUPED_WIDENINGS, chooseMethod, widened, type Structure } from './methodChoice';
+import { GROUPED_WIDENINGS, PROBE_SWITCH_CALLS, chooseMethod, widened, type Structure } from './methodChoice';
 import { dotProductProbes, type DotProbeResult } from './dotProductCheck';
 import { estimateColumns } from './fullCheck';
 import { estimateGrouped } from './groupedCheck';
@@ -18,8 +18,9 @@ import { elementName, unravelSlot, OpHarness } from './opHarness';
 import { describeOutputIndex, layoutPrecision } from './outputLayout';
 import type { ParamSlot } from './paramSlot';
 import { relativeFloorFactor, unitRoundoff, type Precision } from './precision';
-import { STREAM, STREAM_STRIDE, distinctIndices, fillSigned, substream } from './random';
+import { STREAM, STREAM_STRIDE, fillSigned, substream, type RandomSource } from './random';
 import { refineSuspicious, type KinkReport, type RefineSummary } from './refine';
+import { ROOT_PROBES, describeSearch, splitSearch } from './splitSearch';
 import { ERROR_MAP_MAX_ELEMENTS, captureInputs, finiteOnly, stepScan } from './reportData';
 import { DEFAULT_SETTINGS, type CheckSettings } from './settings';
 import type { CheckMethod, CheckOutcome, OpDescriptor, ParamResult, Verdict } from './types';
@@ -182,11 +183,16 @@ function runAttempt(
     fail(`the backward takes no $dy, so the forward must return a number; it returned ${layout.size} values`);
   }
 
-  // Precision and tolerance: float32 anywhere in the parameters or the output rounds every value.
-  let precision: Precision = layoutPrecision(layout);
-  for (let s = 0; s < slots.length; s++) if (slots[s].precision === 'f32') precision = 'f32';
+  // Precision: the outputs' roundoff comes from the outputs' declared type (a Float32Array is
+  // float32; a float32 parameter summed into a plain number gives float64 outputs), a
+  // parameter's from the parameter. The tolerance is float32's when either is float32. An op
+  // sampled float64 whose forward rounds to float32 inside is held to float64's tolerance, and
+  // the precision hint (hints.ts) tells its author why it cannot meet it.
+  const precision: Precision = layoutPrecision(layout);
+  let anyF32 = precision === 'f32';
+  for (let s = 0; s < slots.length; s++) if (slots[s].precision === 'f32') anyF32 = true;
   const uOut = unitRoundoff(precision);
-  const tol = typeof op.tolerance === 'number' && op.tolerance > 0 ? op.tolerance : precision === 'f32' ? settings.toleranceF32 : settings.toleranceF64;
+  const tol = typeof op.tolerance === 'number' && op.tolerance > 0 ? op.tolerance : anyF32 ? settings.toleranceF32 : settings.toleranceF64;
 
   // Upstream vectors: uniform in [-1, 1] (K of them), or the plain gradient when there is no $dy.
   const m = y0.length;
@@ -350,8 +356,8 @@ function checkParam(at: Attempt, s: number): ParamCheck {
   const analytic = at.analytic[s];
   const n = slot.size;
   let est: ElementEstimates | null = null;
-  let dot: DotProbeResult[] = [];
-  let complete = true;
+  const dot: DotProbeResult[] = [];
+  const complete = true;
   let method = at.methods[s];
   if (method === 'grouped') {
     // An output moved outside the hypothesised bands: widen them, and after GROUPED_WIDENINGS
@@ -361,50 +367,98 @@ function checkParam(at: Attempt, s: number): ParamCheck {
       est = estimateGrouped(at.h, slot, st, at.ws, at.uOut, at.outOfTime);
       st = est === null && widening < GROUPED_WIDENINGS ? widened(st) : null;
     }
-    if (est === null) method = n > at.settings.largeParamElements ? 'dot-product' : 'full';
+    if (est === null) method = n > at.settings.largeParamElements || 2 * n > PROBE_SWITCH_CALLS ? 'dot-product' : 'full';
   }
   // Each parameter draws its directions and its subset from streams of its own.
   const dirRandom = substream(at.seed, at.attempt * STREAM_STRIDE + STREAM.directions, s);
-  const subsetRandom = substream(at.seed, at.attempt * STREAM_STRIDE + STREAM.subset, s);
-  let structureNote = '';
   if (est !== null) {
     // Grouped estimates rest on the structure guess: a coupling the probes did not see would be
     // credited to the wrong element, or lost, and a backward that misses the same coupling would
     // agree with them. One dot-product probe along a random direction (2 forward calls, reusing
     // the first upstream probe's backward) looks at the whole parameter. It cannot tell a missed
     // coupling from a kink met along the direction (a subgradient is not linear in the
-    // direction), so its failure is never a verdict by itself: a parameter small enough is
-    // checked again column by column, a larger one is inconclusive.
+    // direction), so its failure is never a verdict by itself: the parameter is checked again
+    // column by column, or, when that costs more than probing, by probes split down to elements.
     const safety = dotProductProbes(at.h, slot, [at.ws[0]], [analytic[0]], at.y0, at.uOut, at.tol, dirRandom);
     if (safety[0].state === 'mismatch' || safety[0].state === 'uncertain') {
-      if (n <= at.settings.largeParamElements) {
-        est = null;
-        method = 'full';
-      } else {
-        structureNote = `'${slot.name}': the grouped estimates disagree with a check along a random direction (relative error ${formatNumber(safety[0].relError, 3)}): a coupling between elements that the structure probes did not see, or kinks`;
-      }
+      // Checked again without the structure: column by column, or by probes and splitting.
+      est = null;
+      method = n > at.settings.largeParamElements || 2 * n > PROBE_SWITCH_CALLS ? 'dot-product' : 'full';
     }
   }
   if (est !== null) {
     // grouped estimates stand
   } else if (method === 'dot-product') {
-    dot = dotProductProbes(at.h, slot, at.dotUs, at.dotGrads[s], at.y0, at.uOut, at.tol, dirRandom);
-    const subset = distinctIndices(subsetRandom, n, min(n, at.settings.subsetElements));
-    est = estimateColumns(at.h, slot, subset, at.ws, at.uOut, at.outOfTime);
-    complete = subset.length === n;
+    return probeParam(at, s, dirRandom);
   } else {
     const all = new I32(n);
     for (let i = 0; i < n; i++) all[i] = i;
     est = estimateColumns(at.h, slot, all, at.ws, at.uOut, at.outOfTime);
   }
-  const floorPrecision: Precision = slot.precision === 'f32' || at.precision === 'f32' ? 'f32' : 'f64';
-  const floors = floorsFor(analytic, est, relativeFloorFactor(floorPrecision));
+  const floors = floorsFor(analytic, est, relativeFloorFactor(floorPrecisionOf(at, slot)));
   const cmp = compareElements(analytic, est, at.tol, floors);
   const refine = refineSuspicious(at.h, slot, analytic, est, cmp, at.ws, at.y0, at.uOut, at.tol, at.outOfTime, method === 'grouped');
-  const result = summarise(at, s, method, est, cmp, refine, dot, complete);
-  if (structureNote !== '' && result.result.verdict === 'pass') {
-    result.result.verdict = 'inconclusive';
-    result.note = structureNote;
+  const result = summarise(at, s, method, analytic, est, cmp, refine, dot, complete);
+  // Every element compared against the tolerance: the smallest error caught is the tolerance itself.
+  result.result.detectionFloor = at.tol;
+  return result;
+}
+
+/** The precision behind the zero level of a parameter's gradient: float32 when it or the output is. */
+function floorPrecisionOf(at: Attempt, slot: ParamSlot): Precision {
+  return slot.precision === 'f32' || at.precision === 'f32' ? 'f32' : 'f64';
+}
+
+/**
+ * A parameter whose exact grouping costs more forward calls than probing: dot-product probes
+ * judged against their own error, split down to single elements (splitSearch.ts). Only single
+ * elements, compared against the tolerance with their refined estimates, make a verdict.
+ */
+function probeParam(at: Attempt, s: number, random: RandomSource): ParamCheck {
+  const slot = at.slots[s];
+  // The probes' own upstream vectors when the method was chosen up front; the K upstream
+  // vectors when grouping was given up on the way.
+  const us = at.dotUs.length > 0 ? at.dotUs : at.ws;
+  const grads = at.dotUs.length > 0 ? at.dotGrads[s] : at.analytic[s];
+  const factor = relativeFloorFactor(floorPrecisionOf(at, slot));
+  const floorLevel = new F64(grads.length);
+  for (let p = 0; p < grads.length; p++) {
+    let g = 0;
+    const a = grads[p];
+    for (let i = 0; i < a.length; i++) g = max(g, abs(a[i]));
+    floorLevel[p] = factor * g;
+  }
+  const uGrad = unitRoundoff(floorPrecisionOf(at, slot));
+  const search = splitSearch(
+    { h: at.h, slot, y0: at.y0, uOut: at.uOut, uGrad, tol: at.tol, floorOf: (p) => floorLevel[p], outOfTime: at.outOfTime },
+    us,
+    grads,
+    random,
+  );
+  const refine: RefineSummary = {
+    confirmed: search.mismatchPos >= 0 ? 1 : 0,
+    uncertain: search.uncertain,
+    unrefined: 0,
+    kink: search.kink,
+    uncertainNote: search.uncertainNote,
+  };
+  const result = summarise(at, s, 'dot-product', grads, search.est, search.cmp, refine, [], false);
+  const r = result.result;
+  // Infinite when the root probes could not all run (time): no floor to state.
+  if (search.detectionFloor < Infinity) r.detectionFloor = search.detectionFloor;
+  // The probes' worst relative discrepancy (against their threshold's scale) joins the figures.
+  for (let q = 0; q < search.rootProbes.length; q++) {
+    const rp = search.rootProbes[q];
+    const scale = max(abs(rp.analytic), abs(rp.numeric), rp.threshold / at.tol);
+    if (scale > 0) r.maxRelError = max(r.maxRelError, abs(rp.analytic - rp.numeric) / scale);
+  }
+  if (r.verdict === 'pass' && search.rootProbes.length < ROOT_PROBES) {
+    // The time limit came before every root probe ran: no floor to stand on, so no pass.
+    r.verdict = 'inconclusive';
+    result.note = `check of '${slot.name}' stopped at the time limit after ${search.rootProbes.length} of ${ROOT_PROBES} dot-product probes`;
+  } else if (r.verdict === 'pass' && search.unexplored > 0 && search.kink === null) {
+    r.verdict = 'inconclusive';
+    result.note = describeSearch(slot, search);
   }
   return result;
 }
@@ -413,6 +467,7 @@ function summarise(
   at: Attempt,
   s: number,
   method: CheckMethod,
+  analytic: Float64Array[],
   est: ElementEstimates,
   cmp: Comparison,
   refine: RefineSummary,
@@ -420,7 +475,6 @@ function summarise(
   complete: boolean,
 ): ParamCheck {
   const slot = at.slots[s];
-  const analytic = at.analytic[s];
   let maxAbs = 0;
   let maxRel = 0;
   let worstPos = -1;
@@ -456,7 +510,13 @@ function summarise(
       const p = worstPos;
       const k = cmp.worstProbe[p];
       const i = est.indices[p];
-      note = `gradient of '${slot.name}' disagrees at ${elementName(slot, i)}: backward ${formatNumber(analytic[k][i])}, finite differences ${formatNumber(est.numeric[k][p])} (relative error ${formatNumber(cmp.rel[p], 3)})`;
+      // The relative error of the two numbers shown, so the message agrees with itself.
+      const a = analytic[k][i];
+      const nv = est.numeric[k][p];
+      const shown = abs(a - nv) / max(abs(a), abs(nv), cmp.floors[k], 1e-300);
+      cmp.rel[p] = shown;
+      maxRel = max(maxRel, shown);
+      note = `gradient of '${slot.name}' disagrees at ${elementName(slot, i)}: backward ${formatNumber(a)}, finite differences ${formatNumber(nv)} (relative error ${formatNumber(shown, 3)})`;
     } else {
       note = `gradient of '${slot.name}' fails the dot-product test in ${dotMismatch} of ${dot.length} random directions (worst relative error ${formatNumber(maxRelOf(dot), 3)})`;
     }
@@ -523,7 +583,9 @@ function addReportData(at: Attempt, s: number, c: ParamCheck): void {
   const i = ev.est.indices[pos];
   const k = ev.cmp.worstProbe[pos];
   const line = elementLine(at.h, slot, i);
-  r.stepScan = stepScan(line, at.ws[k], at.analytic[s][k][i], max(1, abs(slot.get(i))));
+  // Probed parameters compared their elements under the probes' upstream vectors.
+  const ws = r.method === 'dot-product' && at.dotUs.length > 0 ? at.dotUs : at.ws;
+  r.stepScan = stepScan(line, ws[k], ev.analytic[k][i], max(1, abs(slot.get(i))));
 }
 
 /** A copy of a list without Array.prototype.slice (user code may have replaced it). */

@@ -1,7 +1,10 @@
-// The adjoint dot-product test for large parameters: for random u (output space) and v
-// (parameter space), ⟨u, J v⟩ from one central difference along v must equal ⟨Jᵀu, v⟩ from the
-// backward called with upstream gradient u (Griewank & Walther, Evaluating Derivatives,
-// 2nd ed., SIAM 2008: the identity ⟨ȳ, ẏ⟩ = ⟨x̄, ẋ⟩ between tangent and adjoint modes).
+// One adjoint dot-product probe along a random direction over a whole parameter, judged against
+// the user's tolerance: the safety check of grouped estimates (check.ts), which looks for a
+// coupling the structure probes did not see. For random u (output space) and v (parameter
+// space), ⟨u, J v⟩ from one central difference along v must equal ⟨Jᵀu, v⟩ from the backward
+// called with upstream gradient u (Griewank & Walther, Evaluating Derivatives, 2nd ed., SIAM
+// 2008: the identity ⟨ȳ, ẏ⟩ = ⟨x̄, ẋ⟩ between tangent and adjoint modes). Probes that must see a
+// single wrong element among millions are splitSearch.ts's, judged against their own error.
 
 import { F64, abs, formatNumber, max, min } from './builtins';
 import { fail } from './failure';

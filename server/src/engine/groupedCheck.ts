@@ -99,9 +99,11 @@ export function estimateGrouped(
     for (let j = 0; j < m; j++) if (plus[j] !== minus[j]) movedTotal++;
     let movedInBands = 0;
     for (let i = g; i < n; i += st.colours) {
+      // Block model: element i owns its block's outputs; band model: the band around its anchor.
+      const B = st.block ?? 0;
       const a = anchorOf(i, n, m);
-      const jLo = max(0, a + st.lo);
-      const jHi = min(m - 1, a + st.hi);
+      const jLo = B > 0 ? B * ((i / B) | 0) : max(0, a + st.lo);
+      const jHi = B > 0 ? jLo + B - 1 : min(m - 1, a + st.hi);
       const d = denom[i];
       for (let k = 0; k < K; k++) {
         const w = ws[k];

@@ -38,6 +38,12 @@ export interface KinkScan {
    * cross a kink farther away (or a region the one-sided quotients could not tell from one).
    */
   smoothBelow: number;
+  /**
+   * Per upstream vector, Σ_j |w_j|·|y_j| over the outputs that moved at any ladder step: the
+   * magnitude behind the roundoff of a difference along this line (outputs that never move
+   * carry none into it).
+   */
+  moved: Float64Array;
 }
 
 /** Steps from the refinement step down to the central step, each 1/8 of the previous. */
@@ -59,7 +65,16 @@ export function kinkLadder(line: Line): number[] {
  * J moves a central difference by at most |J| from either one-sided slope, so a kink smaller
  * than half the discrepancy cannot be its cause.
  */
-export function findKink(line: Line, y0: Float64Array, ws: Float64Array[], u: number, tol: number, floors: Float64Array, discrepancy: Float64Array): KinkScan {
+export function findKink(
+  line: Line,
+  y0: Float64Array,
+  ws: Float64Array[],
+  u: number,
+  tol: number,
+  floors: Float64Array,
+  discrepancy: Float64Array,
+  floorStepOf: (moved: Float64Array) => number = () => line.centralStep,
+): KinkScan {
   const K = ws.length;
   const steps = kinkLadder(line);
   const plus = new F64(y0.length);
@@ -72,6 +87,11 @@ export function findKink(line: Line, y0: Float64Array, ws: Float64Array[], u: nu
   let prevStep = 0;
   let lastFlagged = -1;
   let finding: KinkFinding | null = null;
+  const moved = new F64(K);
+  const ladderLength = steps.length;
+  // The finding of the last step before the ladder was extended, kept when a smaller step
+  // turns out too noisy to say anything.
+  let pending: KinkFinding | null = null;
   for (let q = 0; q < steps.length; q++) {
     const s = steps[q];
     const sp = line.evalAt(s, plus);
@@ -85,14 +105,17 @@ export function findKink(line: Line, y0: Float64Array, ws: Float64Array[], u: nu
     projectDifference(ws, y0, minus, md);
     projectMagnitude(ws, plus, y0, pm);
     projectMagnitude(ws, y0, minus, mm);
+    for (let k = 0; k < K; k++) moved[k] = max(moved[k], pm[k] / 2, mm[k] / 2);
     const gap = new F64(K);
     let flagged: KinkFinding | null = null;
+    let informative = false;
     for (let k = 0; k < K; k++) {
       const dPlus = pd[k] / sp;
       const dMinus = md[k] / -sm;
       gap[k] = dPlus - dMinus;
       if (prevGap === null) continue;
       const noise = (ROUNDOFF_ULPS * u * (pm[k] + mm[k])) / s;
+      if (KINK_NOISE_FACTOR * noise < tol * max(abs(dPlus), abs(dMinus), floors[k])) informative = true;
       const ratio = s / prevStep;
       const significant = abs(gap[k]) > KINK_NOISE_FACTOR * noise && abs(gap[k]) > tol * max(abs(dPlus), abs(dMinus), floors[k]);
       // Smooth: the gap shrinks by \`ratio\`; a kink keeps it (ratio 1). Split the difference geometrically.
@@ -101,11 +124,25 @@ export function findKink(line: Line, y0: Float64Array, ws: Float64Array[], u: nu
         if (q === steps.length - 1 && abs(gap[k]) >= 0.5 * discrepancy[k] && finding === null) finding = { step: s, jump: gap[k] };
       }
     }
+    if (q >= ladderLength && !informative) {
+      // Below the roundoff's reach: this step says nothing; the larger step's finding stands.
+      finding = pending;
+      break;
+    }
     if (flagged !== null) lastFlagged = q;
     prevGap = gap;
     prevStep = s;
+    // A function that changes over a scale much smaller than max(1, |x|) looks like a kink at the
+    // central step: go on down the ladder, to the smallest step the roundoff allows, as long as
+    // the smallest step still shows a signature. A kink keeps it at every step; a smooth
+    // function's gap starts shrinking with the step once the step is below its scale.
+    if (q === steps.length - 1 && flagged !== null && s * KINK_LADDER_RATIO >= floorStepOf(moved)) {
+      steps[steps.length] = s * KINK_LADDER_RATIO;
+      pending = finding;
+      finding = null;
+    }
   }
   // Below the last flagged pair's smaller step the kink (if any) lies between that step and the next.
   const smoothBelow = lastFlagged < 0 ? steps[0] : steps[min(lastFlagged + 1, steps.length - 1)];
-  return { kink: finding, smoothBelow };
+  return { kink: finding, smoothBelow, moved };
 }

@@ -159,3 +159,73 @@ export function centralOnLine(line: Line, ws: Float64Array[], t: number, plus: F
   for (let k = 0; k < out.length; k++) out[k] /= denom;
   return out;
 }
+
+/** Per-element figures of a slot that every range line reuses (computed once per parameter). */
+export interface SlotGeometry {
+  /** The values at the sample point. */
+  x0: Float64Array;
+  /**
+   * Element i's displacement per unit t: max(1, |x_i|), shrunk for an element near a barrier
+   * (range end or avoid point) so that it stays inside up to t = RIDDERS_INITIAL_STEP. One
+   * element near the edge of the sampled range must not force a million-element probe to tiny
+   * steps, where roundoff swamps it; any direction serves the adjoint identity.
+   */
+  scale: Float64Array;
+}
+
+export function slotGeometry(slot: ParamSlot): SlotGeometry {
+  const n = slot.size;
+  const x0 = slot.snapshot();
+  const scale = new F64(n);
+  const barriers = slot.avoid.length > 0 || (slot.range !== null && slot.range[0] < slot.range[1]);
+  // Never below MIN_REFINE_STEPS central steps at the initial step, as for single elements.
+  const least = (MIN_REFINE_STEPS * relativeStep(slot.precision)) / RIDDERS_INITIAL_STEP;
+  for (let i = 0; i < n; i++) {
+    const x = x0[i];
+    const c = x > 1 ? x : x < -1 ? -x : 1;
+    scale[i] = barriers ? max(least * c, min(c, (0.9 * distanceToBarrier(slot, x)) / RIDDERS_INITIAL_STEP)) : c;
+  }
+  return { x0, scale };
+}
+
+/**
+ * The line through the elements start … start + count − 1 of a slot along signs s_q (±1), each
+ * scaled by the geometry's scale (max(1, |x_i|) away from barriers): x_i(t) = x_i + t·s_q·scale_i,
+ * every other element fixed. A
+ * contiguous range moves with plain indexed loops, so a probe of a million elements costs
+ * little beyond its forward calls.
+ */
+export function rangeLine(h: ForwardMap, slot: ParamSlot, geo: SlotGeometry, start: number, count: number, signs: Float64Array): Line {
+  // The geometry's scales keep every element inside up to the initial step (see SlotGeometry).
+  const hc = relativeStep(slot.precision);
+  const maxStep = RIDDERS_INITIAL_STEP;
+  const typed = slot.typed;
+  const x0 = geo.x0;
+  // Each element's displacement per unit t, once, so a move is one multiply-add per element.
+  const dir = new F64(count);
+  for (let q = 0; q < count; q++) dir[q] = signs[q] * geo.scale[start + q];
+  return {
+    slot,
+    element: count === 1 ? start : -1,
+    centralStep: hc,
+    maxStep,
+    refineStep: min(RIDDERS_INITIAL_STEP, maxStep),
+    evalAt(t: number, out: Float64Array): number {
+      const p = h.perturbation;
+      p.slot = slot;
+      p.several = count > 1;
+      if (count === 1) p.index = start;
+      if (typed !== null) for (let q = 0; q < count; q++) typed[start + q] = x0[start + q] + t * dir[q];
+      else for (let q = 0; q < count; q++) slot.set(start + q, x0[start + q] + t * dir[q]);
+      if (count === 1) p.value = slot.get(start);
+      try {
+        h.forwardInto(out, false);
+      } finally {
+        if (typed !== null) for (let q = 0; q < count; q++) typed[start + q] = x0[start + q];
+        else for (let q = 0; q < count; q++) slot.set(start + q, x0[start + q]);
+        p.slot = null;
+      }
+      return isFiniteVector(out) ? t : NaN;
+    },
+  };
+}

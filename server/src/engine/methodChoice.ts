@@ -21,6 +21,12 @@ export interface Structure {
   hi: number;
   /** Number of colour classes (forward pairs needed). */
   colours: number;
+  /**
+   * Block size when the Jacobian is block diagonal with square blocks of this size (a softmax
+   * over rows): element i moves exactly outputs of block floor(i/block), so `block` colours
+   * suffice where the band model needs 2·block − 1. 0 for the band model.
+   */
+  block?: number;
   n: number;
   m: number;
 }
@@ -39,6 +45,20 @@ export const GROUPED_WIDENINGS = 2;
 export const STRUCTURE_MIN_ELEMENTS = 12;
 /** Grouping is used only when it needs at most this share of the full check's columns. */
 export const GROUPED_MAX_SHARE = 0.5;
+
+/**
+ * Exact schemes that need more forward calls than this give way to dot-product probes with
+ * splitting (splitSearch.ts): ROOT_PROBES probes cost about 6–10 forward calls each, and locating
+ * one wrong element about two probes per halving. Our choice, from the benchmark: a dense
+ * 1000×1000 W needs 2,000 calls grouped, a passing probe check about 60.
+ */
+export const PROBE_SWITCH_CALLS = 256;
+/**
+ * When a joint probe of STRUCTURE_SPACED_PROBES + 2 elements moves every one of at least this
+ * many outputs, the Jacobian is taken as dense and no single probes are spent on a band (our
+ * choice: with fewer outputs the single probes are cheap anyway).
+ */
+export const DENSE_MIN_OUTPUTS = 64;
 
 export function anchorOf(i: number, n: number, m: number): number {
   return floor((i * m) / n);
@@ -75,7 +95,7 @@ export function colourCount(n: number, m: number, width: number, maxColours: num
  * when it is narrower than a quarter of the distance between probe anchors, so the clusters of
  * moved outputs cannot have been confused; otherwise null (and the elements are probed singly).
  */
-export function probeBandJointly(h: OpHarness, slot: ParamSlot, y0: Float64Array): { lo: number; hi: number } | null {
+export function probeBandJointly(h: OpHarness, slot: ParamSlot, y0: Float64Array): { lo: number; hi: number; block?: number; dense?: boolean } | null {
   const n = slot.size;
   const m = y0.length;
   const count = STRUCTURE_SPACED_PROBES + 2;
@@ -104,14 +124,53 @@ export function probeBandJointly(h: OpHarness, slot: ParamSlot, y0: Float64Array
   let lo = Infinity;
   let hi = -Infinity;
   let q = 0;
+  let moved = 0;
   for (let j = 0; j < m; j++) {
     if (out[j] === y0[j]) continue;
+    moved++;
     while (q + 1 < count && abs(anchors[q + 1] - j) < abs(anchors[q] - j)) q++;
     lo = min(lo, j - anchors[q]);
     hi = max(hi, j - anchors[q]);
   }
+  // Every output moved: a dense Jacobian (a softmax over everything), no band to find.
+  if (moved === m && m >= DENSE_MIN_OUTPUTS) return { lo: -m, hi: m, dense: true };
   if (!(lo <= hi)) return null;
-  return hi - lo + 1 <= spacing / 4 ? { lo, hi } : null;
+  if (!(hi - lo + 1 <= spacing / 4)) return null;
+  return { lo, hi, block: blockOf(out, y0, probes, anchors, n, m) };
+}
+
+/**
+ * Block size B when every probe's moved outputs fill exactly its own block
+ * [B·floor(i/B), B·floor(i/B) + B) with B dividing n = m; 0 otherwise. Outputs are credited to
+ * the probe with the nearest anchor, as in probeBandJointly.
+ */
+function blockOf(out: Float64Array, y0: Float64Array, probes: number[], anchors: number[], n: number, m: number): number {
+  if (n !== m) return 0;
+  const count = probes.length;
+  const los: number[] = [];
+  const his: number[] = [];
+  for (let q = 0; q < count; q++) {
+    los[q] = Infinity;
+    his[q] = -Infinity;
+  }
+  let q = 0;
+  for (let j = 0; j < m; j++) {
+    if (out[j] === y0[j]) continue;
+    while (q + 1 < count && abs(anchors[q + 1] - j) < abs(anchors[q] - j)) q++;
+    los[q] = min(los[q], j);
+    his[q] = max(his[q], j);
+  }
+  const B = his[0] - los[0] + 1;
+  if (!(B >= 2) || n % B !== 0) return 0;
+  for (let p = 0; p < count; p++) {
+    const start = B * floor(probes[p] / B);
+    // Every output of the block moved, none outside it.
+    if (los[p] !== start || his[p] !== start + B - 1) return 0;
+    let moved = 0;
+    for (let j = start; j < start + B; j++) if (out[j] !== y0[j]) moved++;
+    if (moved !== B) return 0;
+  }
+  return B;
 }
 
 /**
@@ -158,6 +217,8 @@ export function probeBand(h: OpHarness, slot: ParamSlot, y0: Float64Array, rando
 
 /** The band widened by half its width on each side, or null when grouping would no longer pay. */
 export function widened(st: Structure): Structure | null {
+  // A block model that failed is not widened: the band model of the same op covers it.
+  if (st.block) return bandOf(st);
   const grow = max(1, ceil((st.hi - st.lo + 1) / 2));
   const lo = st.lo - grow;
   const hi = st.hi + grow;
@@ -174,11 +235,24 @@ export function chooseMethod(
 ): { method: CheckMethod; structure: Structure | null } {
   const n = slot.size;
   const m = y0.length;
-  const fallback: CheckMethod = n > settings.largeParamElements ? 'dot-product' : 'full';
+  // Above the large-parameter limit, or when one column per element costs more than probing.
+  const fallback: CheckMethod = n > settings.largeParamElements || 2 * n > PROBE_SWITCH_CALLS ? 'dot-product' : 'full';
   if (n < STRUCTURE_MIN_ELEMENTS) return { method: 'full', structure: null };
-  const band = probeBandJointly(h, slot, y0) ?? probeBand(h, slot, y0, random) ?? { lo: 0, hi: 0 };
+  const band: { lo: number; hi: number; block?: number; dense?: boolean } = probeBandJointly(h, slot, y0) ?? probeBand(h, slot, y0, random) ?? { lo: 0, hi: 0 };
+  if (band.dense) return { method: fallback, structure: null };
+  if (band.block && 2 * band.block <= PROBE_SWITCH_CALLS) {
+    return { method: 'grouped', structure: { lo: band.lo, hi: band.hi, colours: band.block, n, m, block: band.block } };
+  }
   const width = band.hi - band.lo + 1;
   const colours = colourCount(n, m, width, floor(n * GROUPED_MAX_SHARE));
   if (colours === 0) return { method: fallback, structure: null };
+  // Grouping that needs more calls than the probes gives way to them, as does a full check.
+  if (2 * colours > PROBE_SWITCH_CALLS) return { method: 'dot-product', structure: null };
   return { method: 'grouped', structure: { lo: band.lo, hi: band.hi, colours, n, m } };
+}
+
+/** The band model of a failed block model (same band, its own colour count), or null. */
+function bandOf(st: Structure): Structure | null {
+  const colours = colourCount(st.n, st.m, st.hi - st.lo + 1, floor(st.n * GROUPED_MAX_SHARE));
+  return colours === 0 || 2 * colours > PROBE_SWITCH_CALLS ? null : { lo: st.lo, hi: st.hi, colours, n: st.n, m: st.m };
 }

@@ -33,7 +33,12 @@ export interface RiddersResult {
  * `central(h)` returns the central difference of every projection at step h, or null when the
  * forward was not finite there (the step then shrinks).
  */
-export function ridders(central: (h: number) => Float64Array | null, h0: number, count: number): RiddersResult {
+export function ridders(
+  central: (h: number) => Float64Array | null,
+  h0: number,
+  count: number,
+  settled?: (value: number, error: number, p: number) => boolean,
+): RiddersResult {
   const value = new F64(count);
   const error = new F64(count);
   for (let p = 0; p < count; p++) error[p] = Infinity;
@@ -80,7 +85,10 @@ export function ridders(central: (h: number) => Float64Array | null, h0: number,
           }
         }
         // Higher order is worse by a significant factor: quit early (Numerical Recipes §5.7).
+        // Also quit once the estimate is as good as the caller needs: more columns cost forward
+        // calls and can only lower an error that is already small enough.
         if (abs(t[i * RIDDERS_NTAB + i] - t[(i - 1) * RIDDERS_NTAB + i - 1]) >= RIDDERS_SAFE * error[p]) done[p] = true;
+        else if (settled !== undefined && settled(value[p], error[p], p)) done[p] = true;
         else allDone = false;
       }
       if (allDone) break;
@@ -124,7 +132,7 @@ export function riddersAdaptive(
   const initialStep = new F64(count);
   for (let p = 0; p < count; p++) error[p] = Infinity;
   for (let h = h0; ; h *= RIDDERS_RETRY_RATIO) {
-    const r = ridders(central, h, count);
+    const r = ridders(central, h, count, settled);
     let all = true;
     for (let p = 0; p < count; p++) {
       if (r.error[p] < error[p]) {

@@ -25,13 +25,17 @@ export interface CheckSettings {
    * in reductions (common practice, not from a handbook).
    */
   toleranceF32: number;
-  /** Parameters with more elements than this get the dot-product test plus a subset. */
+  /**
+   * Parameters with more elements than this and no structure that grouping can use get
+   * dot-product probes split down to single elements (splitSearch.ts); below it too when one
+   * column per element would cost more forward calls than the probes (methodChoice.ts).
+   */
   largeParamElements: number;
   /** Random upstream gradients per op (one backward call each). */
   upstreamProbes: number;
-  /** Dot-product probes per large parameter (two forwards and a backward each). */
+  /** Upstream gradients of the dot-product probes (one backward call each); the probes take turns with them. */
   dotProductProbes: number;
-  /** Elements of a large parameter also checked column by column. */
+  /** No longer used: probes split down to single elements replaced the random subset. Kept so older configuration files load. */
   subsetElements: number;
   /** How often a point with a kink is redrawn before the op is called inconclusive. */
   kinkResamples: number;

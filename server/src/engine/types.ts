@@ -207,7 +207,7 @@ export interface StepScan {
 export type CheckMethod =
   | 'full' // one central difference per element
   | 'grouped' // structurally orthogonal elements share perturbations (Curtis, Powell & Reid 1974)
-  | 'dot-product' // adjoint dot-product probes plus a random subset of full columns
+  | 'dot-product' // adjoint dot-product probes judged against their own error, split down to single elements
   | 'directional' // @tangent: central differences along random tangent directions
   | 'gradient-differences' // @hessian: central differences of the op's passing @backward
   | 'second-differences'; // @hessian: second differences of the forward (step u^(1/4))
@@ -228,6 +228,13 @@ export interface ParamResult {
   checkedElements: number;
   /** Evidence-backed hints about this parameter's mismatch. */
   hints: string[];
+  /**
+   * Smallest relative error in a single element that this check would have caught with
+   * probability at least 0.99 (the tolerance itself when every element was compared; for
+   * probed parameters, from the probes' measured error and the gradient's root-mean-square
+   * size: an element of about that size). Absent when no check of the elements ran.
+   */
+  detectionFloor?: number;
   /** Error against step size at the worst element (for the report). */
   stepScan?: StepScan;
   /** Per-element relative error for 2-D parameters up to a size cap, row-major (for the report). */

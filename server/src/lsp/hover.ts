@@ -55,6 +55,9 @@ export function opMarkdown(op: OpDescriptor, facts: DocumentFacts, onlyParam?: s
   } else if (onlyParam !== undefined) {
     lines.push(`\`${escape(onlyParam)}\` is not differentiated (fixed or a literal).`, '');
   }
+  // Detection floor: the smallest relative error in one element the check catches with p ≥ 0.99.
+  const floors = params.filter((p) => typeof p.detectionFloor === 'number').map((p) => `${escape(p.name)} ${sci(p.detectionFloor as number)}`);
+  if (floors.length > 0) lines.push(`Detection floor (smallest single-element relative error caught, p ≥ 0.99): ${floors.join(', ')}`, '');
   const hints = [...(onlyParam === undefined ? result.hints : []), ...params.flatMap((p) => p.hints.map((h) => `${p.name}: ${h}`))];
   if (hints.length > 0) lines.push('Hints:', '', ...hints.map((h) => `- ${escape(h)}`), '');
   const coverage = coverageHoverLine(result);
