@@ -61,9 +61,9 @@ ${coverageSection(result, esc)}
 </html>`;
 }
 
-/** The detection floor of a parameter, when the engine reports one (a field added after version 1). */
+/** The detection floor of a parameter, when the engine reports a usable one (relative, like the tolerance). */
 function detectionFloorOf(p: ParamResult): number | undefined {
-  const v = (p as ParamResult & { detectionFloor?: unknown }).detectionFloor;
+  const v = p.detectionFloor;
   return typeof v === 'number' && Number.isFinite(v) && v > 0 ? v : undefined;
 }
 
@@ -94,8 +94,6 @@ function figuresTable(p: ParamResult): string {
     ['backward there', p.worst ? String(p.worst.analytic) : '—'],
     ['numeric there', p.worst ? String(p.worst.numeric) : '—'],
   ];
-  const floor = detectionFloorOf(p);
-  if (floor !== undefined) rows.push(['detection floor', `${sci(floor)} relative`]);
   return `<table class="figures">${rows.map(([k, v]) => `<tr><th>${esc(k)}</th><td>${esc(v)}</td></tr>`).join('')}</table>`;
 }
 

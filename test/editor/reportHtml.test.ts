@@ -152,8 +152,13 @@ describe('report page: tolerance, reference curve, legend and detection floor', 
     const p = { ...mismatch.params[0]!, detectionFloor: 3e-9 };
     const html = reportPage({ result: { ...mismatch, params: [p] }, fileLabel: 'm.ts', nonce: 'n', cspSource: 's', tolerance: 1e-6 });
     assert.match(html, /<line class="floor"/);
-    assert.match(html, /<th>detection floor<\/th><td>3\.00e-9 relative<\/td>/);
-    const without = reportPage({ result: mismatch, fileLabel: 'm.ts', nonce: 'n', cspSource: 's', tolerance: 1e-6 });
-    assert.doesNotMatch(without, /class="floor"|detection floor/);
+    assert.match(html, /detection floor 3\.00e-9 × \|value\|/);
+    const noFloor = mismatch.params.map((q) => {
+      const copy = { ...q };
+      delete copy.detectionFloor;
+      return copy;
+    });
+    const without = reportPage({ result: { ...mismatch, params: noFloor }, fileLabel: 'm.ts', nonce: 'n', cspSource: 's', tolerance: 1e-6 });
+    assert.doesNotMatch(without, /class="floor"|swatch floor/);
   });
 });
