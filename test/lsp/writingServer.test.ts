@@ -97,7 +97,7 @@ describe('writing features over LSP', function () {
     const uri = s.uri('vents.ts');
     // The edits of the tests above cancelled the check of the opening; a save checks again.
     await s.save(uri);
-    await s.waitFor('airflow to pass', () => s.opState(uri, 'airflow') === 'pass');
+    await s.waitFor('airflow to pass', () => s.opState(uri, 'airflow') === 'pass', 90_000);
     const runsBefore = s.logs.join('').split('check vents.ts [').length;
     const firstSeq = s.opStates.get(uri)!.ops.find((o) => o.forward === 'airflow')!.seq!;
     // The helper now scales by 4 while the backward still says 3: the op must turn into a mismatch.
@@ -106,13 +106,13 @@ describe('writing features over LSP', function () {
     writeFileSync(join(dir, 'scale.ts'), changed);
     await s.replaceText(scaleUri, changed);
     await s.save(scaleUri);
-    await s.waitFor('airflow to mismatch after scale.ts was saved', () => s.opState(uri, 'airflow') === 'mismatch');
+    await s.waitFor('airflow to mismatch after scale.ts was saved', () => s.opState(uri, 'airflow') === 'mismatch', 90_000);
     assert.ok(s.diagnostics.get(uri)?.some((d) => d.code === 'gradient-mismatch' && String(d.message).startsWith('airflow:')));
     // Changed back by another program (the file is not open in the editor any more).
     writeFileSync(join(dir, 'scale.ts'), s.text('scale.ts').replace('VENT_FACTOR = 4', 'VENT_FACTOR = 3'));
     await s.connection.sendNotification(lsp.DidCloseTextDocumentNotification.type, { textDocument: { uri: scaleUri } });
     await s.connection.sendNotification(DidChangeWatchedFilesNotification.type, { changes: [{ uri: scaleUri, type: FileChangeType.Changed }] });
-    await s.waitFor('airflow to pass again', () => s.opState(uri, 'airflow') === 'pass');
+    await s.waitFor('airflow to pass again', () => s.opState(uri, 'airflow') === 'pass', 90_000);
     // Each new result carries a higher number and its duration (the Testing view records each once).
     const states = s.opStates.get(uri)!.ops.find((o) => o.forward === 'airflow')!;
     assert.ok(typeof states.seq === 'number' && typeof states.elapsedMs === 'number' && states.elapsedMs > 0, JSON.stringify(states));
