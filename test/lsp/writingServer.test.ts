@@ -18,7 +18,7 @@ function positionAfter(text: string, needle: string): { line: number; character:
 }
 
 describe('writing features over LSP', function () {
-  this.timeout(90_000);
+  this.timeout(300_000);
   let dir: string;
   let s: LspSession;
 
