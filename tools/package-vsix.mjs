@@ -5,7 +5,7 @@
 // It first checks that the manifest is complete, and stops with the list of what is missing.
 import * as esbuild from 'esbuild';
 import { execFileSync } from 'node:child_process';
-import { copyFileSync, cpSync, existsSync, mkdirSync, readFileSync, rmSync, statSync } from 'node:fs';
+import { copyFileSync, cpSync, existsSync, mkdirSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 
@@ -22,9 +22,15 @@ mkdirSync(join(stage, 'dist'), { recursive: true });
 
 checkManifest(pkg);
 
-for (const file of ['package.json', 'LICENSE', '.vscodeignore']) {
+for (const file of ['LICENSE', '.vscodeignore']) {
   if (existsSync(join(root, file))) copyFileSync(join(root, file), join(stage, file));
 }
+// The manifest without `files` (the npm package's allow-list): vsce refuses it beside
+// .vscodeignore, which is the extension's own allow-list.
+const { files: _npmFiles, ...manifest } = pkg;
+writeFileSync(join(stage, 'package.json'), `${JSON.stringify(manifest, null, 2)}\n`);
+// The JSON schema of gradient-probe.json (contributes.jsonValidation points at it).
+cpSync(join(root, 'schemas'), join(stage, 'schemas'), { recursive: true });
 // The marketplace page: a short README and the CHANGELOG (the repository README is for developers
 // and CLI users), the icon, and the screenshots the README shows, taken by the editor tests.
 copyFileSync(join(root, 'client/marketplace/README.md'), join(stage, 'README.md'));

@@ -27,16 +27,18 @@ describe('command-line parsing', () => {
       'src', '--json', '--sarif', 'out/r.sarif', '--junit=out/r.xml', '--filter', 'Dense', '--seed', '42',
       '--tolerance', '1e-7', '--tolerance-f32=2e-3', '--time-limit', '1500', '--memory-limit', '256', '--workers', '3',
       '--config', 'ci.json', '--fail-on-inconclusive', '--only-problems', '--color', 'always', 'lib/x.ts',
+      '--shard', '2/5', '--changed-since=origin/main', '--allow-unfinished',
     );
     assert.deepEqual(o, {
       paths: ['src', 'lib/x.ts'], json: true, sarif: 'out/r.sarif', junit: 'out/r.xml', filter: 'Dense', config: 'ci.json',
-      workers: 3, failOnInconclusive: true, onlyProblems: true, color: 'always',
+      workers: 3, failOnInconclusive: true, onlyProblems: true, color: 'always', allowUnfinished: true,
+      shard: { index: 2, count: 5 }, changedSince: 'origin/main',
       overrides: { seed: 42, toleranceF64: 1e-7, toleranceF32: 2e-3, timeLimitMs: 1500, memoryLimitMb: 256 },
     });
   });
 
   it('has plain defaults', () => {
-    assert.deepEqual(check(), { paths: [], json: false, overrides: {}, failOnInconclusive: false, onlyProblems: false, color: 'auto' });
+    assert.deepEqual(check(), { paths: [], json: false, overrides: {}, failOnInconclusive: false, onlyProblems: false, color: 'auto', allowUnfinished: false });
     assert.equal(check('--no-color').color, 'never');
   });
 
@@ -51,6 +53,16 @@ describe('command-line parsing', () => {
     assert.deepEqual(parseArgs(['check', 'src', '--help']), { kind: 'help', command: 'check' });
     assert.deepEqual(parseArgs(['lsp', '--stdio']), { kind: 'lsp', transportArgs: ['--stdio'] });
     assert.deepEqual(parseArgs(['lsp', '--socket=7001']), { kind: 'lsp', transportArgs: ['--socket=7001'] });
+    assert.deepEqual(parseArgs(['help', 'merge']), { kind: 'help', command: 'merge' });
+  });
+
+  it('reads merge: report files and only the output flags', () => {
+    const command = parseArgs(['merge', 'a.json', 'b.json', '--junit', 'all.xml', '--allow-unfinished']);
+    assert.equal(command.kind, 'merge');
+    const o = (command as { options: CheckOptions }).options;
+    assert.deepEqual([o.paths, o.junit, o.allowUnfinished], [['a.json', 'b.json'], 'all.xml', true]);
+    assert.match(usageError(['merge']).message, /merge needs the report files/);
+    assert.match(usageError(['merge', 'a.json', '--seed', '3']).message, /unknown flag --seed \(it belongs to check; merge only joins reports\)/);
   });
 
   const mistakes: { argv: string[]; flag: string | undefined; message: RegExp }[] = [
@@ -58,6 +70,9 @@ describe('command-line parsing', () => {
     { argv: ['chek'], flag: 'chek', message: /unknown command "chek" \(did you mean "check"\?\)/ },
     { argv: ['check', '--tolerence', '1e-6'], flag: '--tolerence', message: /unknown flag --tolerence \(did you mean --tolerance\?\)/ },
     { argv: ['check', '--verbose'], flag: '--verbose', message: /^unknown flag --verbose$/ },
+    { argv: ['check', '--shard', '5/4'], flag: '--shard', message: /--shard must be K\/N with 1 ≤ K ≤ N .*got "5\/4"/ },
+    { argv: ['check', '--shard', '0/2'], flag: '--shard', message: /--shard must be K\/N/ },
+    { argv: ['check', '--shard', 'two'], flag: '--shard', message: /--shard must be K\/N/ },
     { argv: ['check', '--seed'], flag: '--seed', message: /--seed needs a value \(N\)/ },
     { argv: ['check', '--sarif', '--json'], flag: '--sarif', message: /--sarif needs a value \(FILE\)/ },
     { argv: ['check', '--filter='], flag: '--filter', message: /--filter needs a value/ },

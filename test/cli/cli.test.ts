@@ -182,8 +182,8 @@ describe('gradient-probe command (spawned)', function () {
     assert.equal(fuel.code, 1);
     assert.deepEqual((JSON.parse(fuel.stdout) as Report).pairs.map((p) => p.forward), ['fuelLog']);
     const none = await runCli(['check', `${FIXTURES}/basic/passing.ts`, '--json', '--filter', 'glazr']);
-    assert.equal(none.code, 0);
-    assert.match(none.stderr, /no op's forward name contains "glazr"/);
+    assert.equal(none.code, 2, 'a filter that matches nothing checked nothing: the run fails');
+    assert.match(none.stderr, /--filter "glazr" matches no op's forward name/);
     const glaze = await runCli(['check', `${FIXTURES}/basic`, '--json', '--filter', 'glaze']);
     assert.equal(glaze.code, 0, glaze.stdout);
     assert.deepEqual((JSON.parse(glaze.stdout) as Report).pairs.map((p) => p.forward), ['glazeResponse']);
@@ -276,12 +276,13 @@ describe('gradient-probe command (spawned)', function () {
     assert.match(latch.message, /time|limit/i);
   });
 
-  it('reports an empty folder as no ops, exit 0', async () => {
+  it('reports an empty folder as no ops, and fails the run with the reason', async () => {
     const empty = tempDir();
     const run = await runCli(['check', '--json'], { cwd: empty });
-    assert.equal(run.code, 0, run.stderr);
-    assert.deepEqual(JSON.parse(run.stdout), { version: 1, pairs: [], summary: { pass: 0, mismatch: 0, inconclusive: 0, error: 0 } });
-    assert.match(run.stderr, /no TypeScript sources found/);
+    assert.equal(run.code, 2, run.stderr);
+    const report = JSON.parse(run.stdout) as Report;
+    assert.deepEqual({ ...report, run: undefined }, { version: 1, pairs: [], summary: { pass: 0, mismatch: 0, inconclusive: 0, error: 0 }, run: undefined });
+    assert.match(run.stderr, /nothing was checked: no TypeScript sources .* under the current folder/);
   });
 
   it('prints help and the package version', async () => {

@@ -66,8 +66,19 @@ describe('report assembly', () => {
     assert.equal(exitCodeFor(report), 1);
     const mild = buildReport([RESULTS[0]!, RESULTS[2]!], CWD);
     assert.equal(exitCodeFor(mild), 0);
-    assert.equal(exitCodeFor(mild, true), 1);
+    assert.equal(exitCodeFor(mild, { failOnInconclusive: true }), 1);
     assert.equal(exitCodeFor(buildReport([], CWD)), 0);
+  });
+
+  it('exits 1 for an op the time limit stopped before every element was compared, unless allowed', () => {
+    const stopped = {
+      ...RESULTS[0]!,
+      stoppedAtTimeLimit: { param: 'x', stage: 'elements' as const, done: 640, total: 10_000, timeLimitMs: 500 },
+    };
+    const unfinished = buildReport([RESULTS[2]!, stopped], CWD);
+    assert.equal(exitCodeFor(unfinished), 1);
+    assert.equal(exitCodeFor(unfinished, { allowUnfinished: true }), 0);
+    assert.equal(exitCodeFor(unfinished, { allowUnfinished: true, failOnInconclusive: true }), 1);
   });
 
   it('names the parameter that explains the verdict', () => {
@@ -172,6 +183,17 @@ describe('SARIF output', () => {
     assert.deepEqual(problem!.locations[0]!.physicalLocation.artifactLocation, { uri: 'src/b%20%26%20%3Cc%3E.ts', uriBaseId: '%SRCROOT%' });
     assert.match(mismatch!.message.text, /^Dense\.forward: gradient of weight disagrees with finite differences \(max relative error 5\.0e-1 at \[2, 3\]/);
     assert.match(mismatch!.message.text, /Hint: gradient is the transpose of the numeric one\./);
+  });
+
+  it('reports an op the time limit stopped as an error of its own rule, not a warning', () => {
+    const stopped = { ...RESULTS[0]!, stoppedAtTimeLimit: { param: 'x', stage: 'elements' as const, done: 64, total: 900, timeLimitMs: 500 } };
+    const unfinished = JSON.parse(formatSarif(buildReport([stopped], CWD), { toolVersion: '9.8.7', rootDir: CWD }));
+    assert.deepEqual(sarifViolations(unfinished), []);
+    assert.deepEqual(unfinished.runs[0].results.map((r: { ruleId: string; level: string }) => [r.ruleId, r.level]), [['check-unfinished', 'error']]);
+    // JUnit follows the same policy as the exit code: a failure, or skipped with --allow-unfinished.
+    const junit = parseXml(formatJunit(buildReport([stopped], CWD)));
+    assert.equal(junit.attributes['failures'], '1');
+    assert.equal(parseXml(formatJunit(buildReport([stopped], CWD), { allowUnfinished: true })).attributes['skipped'], '1');
   });
 
   it('the structure check itself catches a broken log', () => {

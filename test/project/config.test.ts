@@ -100,6 +100,61 @@ describe('project configuration', () => {
     assert.equal(loadProjectConfig(deep).settings.seed, 2);
   });
 
+  it('stops the search at the nearest package root (a folder with package.json) too', () => {
+    const outer = repo();
+    writeConfig(outer, { seed: 1 });
+    const project = join(outer, 'user-project');
+    mkdirSync(join(project, 'src'), { recursive: true });
+    writeFileSync(join(project, 'package.json'), '{"name": "user-project"}');
+    assert.equal(findConfigFile(join(project, 'src')), undefined, "a parent folder's file does not reach into a package of its own");
+    const own = writeConfig(project, { seed: 3 });
+    assert.equal(findConfigFile(join(project, 'src')), own, 'the package root itself is still searched');
+  });
+
+  it('reads JSON with comments and trailing commas, as editors write it', () => {
+    const root = repo();
+    writeConfig(root, [
+      '// Quillmere Glasshouse checks',
+      '{',
+      '  "seed": 11, /* fixed for CI */',
+      '  "tolerance": { "f64": 2e-7, },',
+      '  "exclude": ["gen/**", "a//b/**",],',
+      '}',
+    ].join('\n'));
+    const config = loadProjectConfig(root);
+    assert.equal(config.settings.seed, 11);
+    assert.equal(config.settings.toleranceF64, 2e-7);
+    assert.deepEqual(config.exclude, ['gen/**', 'a//b/**'], 'a "//" inside a string is no comment');
+  });
+
+  it('still points a syntax error after a comment at its own line and column', () => {
+    const root = repo();
+    writeConfig(root, '{\n  /* one */ "seed": 3,\n  oops\n}\n');
+    assert.match(configErrorOf(() => loadProjectConfig(root)).message, /gradient-probe\.json:3:3: not valid JSON/);
+  });
+
+  it('accepts the dotted spelling of a nested key, and refuses both spellings at once', () => {
+    const root = repo();
+    writeConfig(root, { 'tolerance.f64': 3e-7, tolerance: { f32: 2e-3 } });
+    const config = loadProjectConfig(root);
+    assert.equal(config.settings.toleranceF64, 3e-7);
+    assert.equal(config.settings.toleranceF32, 2e-3);
+    writeConfig(root, { 'tolerance.f64': 3e-7, tolerance: { f64: 2e-7 } });
+    const err = configErrorOf(() => loadProjectConfig(root));
+    assert.match(err.message, /"tolerance\.f64" is given twice/);
+    assert.equal(err.field, 'tolerance.f64');
+  });
+
+  it('reports every problem of a file at once, one line each, naming the file', () => {
+    const root = repo();
+    const file = writeConfig(root, { seed: -1, tolerance: { f64: 'abc', f16: 1 }, colour: 'red', exclude: [''] });
+    const err = configErrorOf(() => loadProjectConfig(root));
+    const lines = err.message.split('\n');
+    assert.equal(lines.length, 5, err.message);
+    for (const line of lines) assert.ok(line.startsWith(`${file}: `) || line.startsWith(`${CONFIG_FILE_NAME}: `), line);
+    assert.deepEqual(err.problems.map((p) => p.field).sort(), ['colour', 'exclude[0]', 'seed', 'tolerance.f16', 'tolerance.f64']);
+  });
+
   it('tells which keys a file sets, without defaults, for the editor\'s merge', () => {
     const root = repo();
     const file = writeConfig(root, { tolerance: { f32: 4e-3 }, exclude: ['gen/**'] });
@@ -209,7 +264,7 @@ describe('project configuration', () => {
       }
       assert.deepEqual(Object.keys(schema.properties).sort(), [
         '$schema', 'dotProductProbes', 'exclude', 'include', 'kinkResamples', 'largeParamElements', 'maxElements',
-        'memoryLimitMb', 'seed', 'subsetElements', 'timeLimitMs', 'tolerance', 'upstreamProbes',
+        'memoryLimitMb', 'seed', 'subsetElements', 'timeLimitMs', 'tolerance', 'tolerance.f32', 'tolerance.f64', 'upstreamProbes',
       ]);
     });
 

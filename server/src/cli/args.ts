@@ -28,12 +28,26 @@ export interface CheckOptions {
   isolated?: boolean;
   onlyProblems: boolean;
   color: ColorMode;
+  /** `--allow-unfinished`: an op the time limit stopped early does not fail the run. */
+  allowUnfinished: boolean;
+  /** `--shard K/N`: check only part K (1-based) of N of the ops. */
+  shard?: Shard;
+  /** `--changed-since REF`: check only ops whose bundle inputs changed since this git revision. */
+  changedSince?: string;
+}
+
+/** Part `index` (1-based) of `count` equal-chance parts of the ops. */
+export interface Shard {
+  index: number;
+  count: number;
 }
 
 export type CliCommand =
   | { kind: 'check'; options: CheckOptions }
+  /** `merge REPORT.json ...`: the report files are `options.paths`; only output flags apply. */
+  | { kind: 'merge'; options: CheckOptions }
   | { kind: 'lsp'; transportArgs: string[] }
-  | { kind: 'help'; command?: 'check' | 'lsp' }
+  | { kind: 'help'; command?: 'check' | 'lsp' | 'merge' }
   | { kind: 'version' };
 
 /** A mistake in the command line; `flag` is the flag or argument it concerns. */
@@ -69,7 +83,10 @@ export const CHECK_FLAGS: readonly FlagSpec[] = [
   { name: '--workers', value: 'N', description: 'runner processes working in parallel (default: chosen from the cores)', apply: (o, v) => { o.workers = parseWorkers(v); } },
   { name: '--config', value: 'FILE', description: 'read this configuration file instead of searching for gradient-probe.json', apply: (o, v) => { o.config = v; } },
   { name: '--isolated', description: 'run ops in the isolated interpreter (WebAssembly, no Node API; 35-50x slower, for small ops)', apply: (o) => { o.isolated = true; } },
+  { name: '--shard', value: 'K/N', description: 'check only part K of N of the ops (stable by file and forward name); N jobs together check each op once', apply: (o, v) => { o.shard = parseShard(v); } },
+  { name: '--changed-since', value: 'REF', description: 'check only ops whose file or imported files changed since git revision REF; says how many were skipped', apply: (o, v) => { o.changedSince = v; } },
   { name: '--fail-on-inconclusive', description: 'exit 1 when an op is inconclusive, too', apply: (o) => { o.failOnInconclusive = true; } },
+  { name: '--allow-unfinished', description: 'exit 0 although the time limit stopped an op\'s check before every element was compared', apply: (o) => { o.allowUnfinished = true; } },
   { name: '--fail-on-unreached', description: 'exit 1 when code of a backward (or a helper it calls) never ran during its check', apply: (o) => { o.failOnUnreached = true; } },
   { name: '--no-coverage', description: 'skip the coverage pass (a second run of each check that records which code ran)', apply: (o) => { o.noCoverage = true; } },
   { name: '--only-problems', description: 'list only ops that did not pass (the summary still counts all)', apply: (o) => { o.onlyProblems = true; } },
@@ -88,18 +105,35 @@ export function parseArgs(argv: readonly string[]): CliCommand {
   if (command === undefined) throw new UsageError('no command given (try "gradient-probe check")');
   if (command === '--help' || command === '-h' || command === 'help') {
     const topic = rest[0];
-    return topic === 'check' || topic === 'lsp' ? { kind: 'help', command: topic } : { kind: 'help' };
+    return topic === 'check' || topic === 'lsp' || topic === 'merge' ? { kind: 'help', command: topic } : { kind: 'help' };
   }
   if (command === '--version' || command === '-v') return { kind: 'version' };
   if (command === 'check') return parseCheck(rest);
+  if (command === 'merge') return parseMerge(rest);
   if (command === 'lsp') return parseLsp(rest);
-  const guess = nearestName(command, ['check', 'lsp', 'help']);
+  const guess = nearestName(command, ['check', 'merge', 'lsp', 'help']);
   throw new UsageError(`unknown command "${command}"${guess ? ` (did you mean "${guess}"?)` : ''}`, command);
 }
 
+/** Flags of `merge`: how to write the joined report and which results fail it. */
+export const MERGE_FLAGS: readonly FlagSpec[] = CHECK_FLAGS.filter((f) =>
+  ['--json', '--sarif', '--junit', '--fail-on-inconclusive', '--allow-unfinished', '--only-problems', '--color', '--no-color'].includes(f.name));
+
+function parseMerge(args: readonly string[]): CliCommand {
+  const parsed = parseFlags(args, MERGE_FLAGS, 'merge');
+  if (parsed === 'help') return { kind: 'help', command: 'merge' };
+  if (parsed.paths.length === 0) throw new UsageError('merge needs the report files to join (written by check --json)', 'merge');
+  return { kind: 'merge', options: parsed };
+}
+
 function parseCheck(args: readonly string[]): CliCommand {
+  const parsed = parseFlags(args, CHECK_FLAGS, 'check');
+  return parsed === 'help' ? { kind: 'help', command: 'check' } : { kind: 'check', options: parsed };
+}
+
+function parseFlags(args: readonly string[], flags: readonly FlagSpec[], command: string): CheckOptions | 'help' {
   const options: CheckOptions = {
-    paths: [], json: false, overrides: {}, failOnInconclusive: false, onlyProblems: false, color: 'auto',
+    paths: [], json: false, overrides: {}, failOnInconclusive: false, onlyProblems: false, color: 'auto', allowUnfinished: false,
   };
   const seen = new Set<string>();
   let flagsEnded = false;
@@ -113,13 +147,14 @@ function parseCheck(args: readonly string[]): CliCommand {
       flagsEnded = true;
       continue;
     }
-    if (arg === '--help' || arg === '-h') return { kind: 'help', command: 'check' };
+    if (arg === '--help' || arg === '-h') return 'help';
     const eq = arg.indexOf('=');
     const name = eq > 0 ? arg.slice(0, eq) : arg;
-    const spec = CHECK_FLAGS.find((f) => f.name === name);
+    const spec = flags.find((f) => f.name === name);
     if (!spec) {
-      const guess = nearestName(name, CHECK_FLAGS.map((f) => f.name));
-      throw new UsageError(`unknown flag ${name}${guess ? ` (did you mean ${guess}?)` : ''}`, name);
+      const guess = nearestName(name, flags.map((f) => f.name));
+      const elsewhere = command === 'merge' && CHECK_FLAGS.some((f) => f.name === name) ? ' (it belongs to check; merge only joins reports)' : '';
+      throw new UsageError(`unknown flag ${name}${guess ? ` (did you mean ${guess}?)` : elsewhere}`, name);
     }
     if (seen.has(name)) throw new UsageError(`${name} is given more than once`, name);
     seen.add(name);
@@ -140,7 +175,7 @@ function parseCheck(args: readonly string[]): CliCommand {
     }
     spec.apply(options, value);
   }
-  return { kind: 'check', options };
+  return options;
 }
 
 function parseLsp(args: readonly string[]): CliCommand {
@@ -166,6 +201,17 @@ function parseWorkers(text: string): number {
     throw new UsageError(`--workers must be an integer from 1 to ${MAX_WORKERS}, got ${JSON.stringify(text)}`, '--workers');
   }
   return n;
+}
+
+/** `K/N` with 1 ≤ K ≤ N: the CI matrix's job number and size. */
+function parseShard(text: string): Shard {
+  const m = /^(\d+)\/(\d+)$/.exec(text.trim());
+  const index = m ? Number(m[1]) : NaN;
+  const count = m ? Number(m[2]) : NaN;
+  if (!m || !Number.isSafeInteger(count) || count < 1 || index < 1 || index > count) {
+    throw new UsageError(`--shard must be K/N with 1 ≤ K ≤ N (this job's number and the number of jobs), got ${JSON.stringify(text)}`, '--shard');
+  }
+  return { index, count };
 }
 
 function parseColorMode(text: string): ColorMode {

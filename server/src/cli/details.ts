@@ -1,7 +1,7 @@
 // The explanation of an op that did not pass, as plain lines: message, annotation problems
 // with file:line:column, per-parameter evidence and hints, seed, captured console output.
 
-import type { OpResult, ParamResult } from '../engine/types';
+import type { OpResult, ParamResult, TimeLimitStop } from '../engine/types';
 import { formatIndex, formatNumber, formatRelError, stripControl } from './format';
 
 /** Lines of captured console output shown before the rest is cut. */
@@ -25,6 +25,8 @@ export function detailLines(pair: OpResult, { withOutput = true }: { withOutput?
     for (const hint of param.hints) out.push(`${perParamLines ? '  ' : ''}hint: ${hint}`);
   }
   for (const hint of pair.hints) out.push(`hint: ${hint}`);
+  const stop = pair.stoppedAtTimeLimit;
+  if (stop !== undefined) out.push(timeLimitLine(stop));
   // An annotation error never ran, so its seed explains nothing.
   if (problems.length === 0) out.push(`seed ${pair.seed}`);
   if (withOutput) out.push(...outputLines(pair.output));
@@ -60,4 +62,10 @@ function outputLines(output: string | undefined): string[] {
   const out = ['console output:', ...lines.slice(0, MAX_OUTPUT_LINES).map((l) => `  | ${stripControl(l)}`)];
   if (lines.length > MAX_OUTPUT_LINES) out.push(`  | ... ${lines.length - MAX_OUTPUT_LINES} more lines (in the --json report)`);
   return out;
+}
+
+/** How far a check got before its time limit, and which limit to raise. */
+export function timeLimitLine(stop: TimeLimitStop): string {
+  return `not finished: the time limit of ${stop.timeLimitMs} ms stopped the check of '${stop.param}' after ${stop.done} of ${stop.total} ${stop.stage}; `
+    + 'an unfinished check fails the run (unless --allow-unfinished): raise the limit with --time-limit MS or "timeLimitMs" in gradient-probe.json';
 }

@@ -1,12 +1,13 @@
 // The text of `gradient-probe --help`, `check --help` and `lsp --help`, built from the flag
 // table so the help and the parser cannot drift apart.
 
-import { CHECK_FLAGS } from './args';
+import { CHECK_FLAGS, MERGE_FLAGS } from './args';
 
 const PURPOSE = 'gradient-probe: compares hand-written gradients (backward functions) with finite differences';
 
 const COMMANDS = [
   ['check [PATH ...] [FLAGS]', 'check the annotated ops in PATHs (files or folders; default: this folder)'],
+  ['merge REPORT.json ... [FLAGS]', 'join the --json reports of check --shard runs into one report and exit code'],
   ['lsp --stdio', 'run the language server on standard input/output'],
   ['--help, help [COMMAND]', 'show this text, or the flags of one command'],
   ['--version', 'print the version'],
@@ -40,17 +41,39 @@ export function checkHelp(): string {
     ...table(flags),
     '',
     'Settings come from the built-in defaults, then gradient-probe.json (searched for in the',
-    'first PATH\'s folder and upwards, up to the repository root), then these flags.',
+    'first PATH\'s folder and upwards, up to the nearest package or repository root; JSON with',
+    'comments), then these flags. The report names the configuration file it used.',
     '',
     'Exit status:',
     ...table([
-      ['0', 'no op is mismatch or error'],
-      ['1', 'an op is mismatch or error (or inconclusive with --fail-on-inconclusive)'],
-      ['2', 'the command line or the configuration is wrong (the message names the flag or key)'],
+      ['0', 'no op is mismatch or error (a genuine inconclusive is counted, not failed)'],
+      ['1', 'an op is mismatch or error, or the time limit stopped its check before every element was'],
+      ['', 'compared (unless --allow-unfinished), or it is inconclusive with --fail-on-inconclusive'],
+      ['2', 'the command line or the configuration is wrong (the message names the flag or key), or'],
+      ['', 'nothing was checked (no sources, no annotated op, all excluded, --filter matched none)'],
     ]),
     '',
     'The checked code runs on this machine, as under a test runner: check only code you trust.',
     'Limits on time and memory catch mistakes such as endless loops; they are no security wall.',
+    '',
+  ].join('\n');
+}
+
+/** Help for `merge`. */
+export function mergeHelp(): string {
+  const flags = MERGE_FLAGS.map((f) => [f.value ? `${f.name} ${f.value}` : f.name, f.description] as const);
+  return [
+    'gradient-probe merge REPORT.json ... [FLAGS]',
+    '',
+    'Joins the --json reports of the jobs of one sharded run (check --shard K/N, one job per K)',
+    'into one report, written like check writes it, with one exit code. Refuses reports of',
+    'different versions, seeds, settings, configuration files or filters, a shard given twice',
+    'or missing, and reports that overlap.',
+    '',
+    'Flags:',
+    ...table(flags),
+    '',
+    'Exit status as for check; 2 also when the reports cannot be joined (the message says why).',
     '',
   ].join('\n');
 }

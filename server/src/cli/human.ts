@@ -5,7 +5,7 @@ import type { OpResult, Report, Verdict } from '../engine/types';
 import { coverageLines, uncollectedNote } from './coverageLines';
 import { detailLines } from './details';
 import { formatIndex, formatRelError, formatTime, shorten } from './format';
-import { VERDICTS, worstParam } from './report';
+import { isUnfinished, VERDICTS, worstParam } from './report';
 
 export interface HumanOptions {
   /** ANSI colours (the caller decides: a terminal, NO_COLOR unset). */
@@ -16,6 +16,8 @@ export interface HumanOptions {
   fileCount?: number;
   /** Wall-clock time of the whole run, for the summary. */
   elapsedMs?: number;
+  /** Lines printed just above the summary: the configuration file used, the run's part of the ops. */
+  notes?: string[];
 }
 
 /** Widest op name before it is shortened with an ellipsis, in characters. */
@@ -65,6 +67,7 @@ export function formatHuman(report: Report, options: HumanOptions): string {
   }
   const note = uncollectedNote(report);
   if (note) lines.push(paint.dim(note));
+  for (const note of options.notes ?? []) lines.push(paint.dim(note));
   lines.push(summaryLine(report, options));
   return lines.join('\n') + '\n';
 }
@@ -75,7 +78,9 @@ export function summaryLine(report: Report, options: Pick<HumanOptions, 'fileCou
   const where = options.fileCount === undefined ? '' : ` in ${options.fileCount} ${options.fileCount === 1 ? 'file' : 'files'}`;
   const time = options.elapsedMs === undefined ? '' : ` (${formatTime(options.elapsedMs)})`;
   if (n === 0) return `no annotated ops found${where}${time}`;
-  const counts = VERDICTS.map((v) => `${report.summary[v]} ${v}`).join(', ');
+  const unfinished = report.pairs.filter(isUnfinished).length;
+  // An op the time limit stopped is inconclusive but fails the run: the summary says how many.
+  const counts = VERDICTS.map((v) => `${report.summary[v]} ${v}${v === 'inconclusive' && unfinished > 0 ? ` (${unfinished} stopped at the time limit)` : ''}`).join(', ');
   return `${n} ${n === 1 ? 'op' : 'ops'}${where}: ${counts}${time}`;
 }
 

@@ -3,13 +3,11 @@
 
 import type { OpResult, Report } from '../engine/types';
 import { detailLines } from './details';
-import { worstParam } from './report';
+import { isFailing, worstParam, type FailPolicy } from './report';
 import { formatRelError } from './format';
 
-export interface JunitOptions {
-  /** Count inconclusive ops as failures (matches the CLI's --fail-on-inconclusive). */
-  failOnInconclusive?: boolean;
-}
+/** Which inconclusive ops count as failures: the CLI's own policy (--fail-on-inconclusive, --allow-unfinished). */
+export type JunitOptions = FailPolicy;
 
 /** The JUnit XML document. */
 export function formatJunit(report: Report, options: JunitOptions = {}): string {
@@ -60,7 +58,7 @@ function outcomeKind(pair: OpResult, options: JunitOptions): OutcomeKind {
     case 'pass': return 'pass';
     case 'mismatch': return 'failure';
     case 'error': return 'error';
-    case 'inconclusive': return options.failOnInconclusive ? 'failure' : 'skipped';
+    case 'inconclusive': return isFailing(pair, options) ? 'failure' : 'skipped';
   }
 }
 

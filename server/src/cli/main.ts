@@ -4,8 +4,9 @@
 import packageJson from '../../../package.json';
 import { parseArgs, UsageError, type CliCommand } from './args';
 import { EXIT_FAILED, EXIT_OK, EXIT_USAGE, runCheckCommand } from './check';
-import { checkHelp, generalHelp, lspHelp } from './help';
+import { checkHelp, generalHelp, lspHelp, mergeHelp } from './help';
 import { startLanguageServer } from './lsp';
+import { runMergeCommand } from './merge';
 
 const VERSION: string = packageJson.version;
 
@@ -20,7 +21,7 @@ async function main(argv: string[]): Promise<number | 'serving'> {
   }
   switch (command.kind) {
     case 'help':
-      process.stdout.write(command.command === 'check' ? checkHelp() : command.command === 'lsp' ? lspHelp() : generalHelp());
+      process.stdout.write(command.command === 'check' ? checkHelp() : command.command === 'lsp' ? lspHelp() : command.command === 'merge' ? mergeHelp() : generalHelp());
       return EXIT_OK;
     case 'version':
       process.stdout.write(`${VERSION}\n`);
@@ -31,6 +32,8 @@ async function main(argv: string[]): Promise<number | 'serving'> {
       process.stderr.write(`gradient-probe: ${failure}\n`);
       return EXIT_FAILED;
     }
+    case 'merge':
+      return runMergeCommand(command.options, { cwd: process.cwd(), env: process.env, stdout: process.stdout, stderr: process.stderr }, VERSION);
     case 'check': {
       const interrupt = new AbortController();
       let interrupts = 0;

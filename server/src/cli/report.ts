@@ -45,14 +45,33 @@ export function summarize(pairs: readonly Pick<OpResult, 'verdict'>[]): ReportSu
   return summary;
 }
 
-/** Whether a verdict makes the run fail (`inconclusive` only when asked). */
-export function isFailing(verdict: Verdict, failOnInconclusive = false): boolean {
-  return verdict === 'mismatch' || verdict === 'error' || (failOnInconclusive && verdict === 'inconclusive');
+/** Which results fail a run besides `mismatch` and `error` (the CLI's flags). */
+export interface FailPolicy {
+  /** `--fail-on-inconclusive`: every inconclusive op fails the run. */
+  failOnInconclusive?: boolean;
+  /**
+   * `--allow-unfinished`: an op whose check the time limit stopped before it compared every
+   * element stays inconclusive without failing the run. By default it fails the run: its
+   * unchecked elements may hold the bug.
+   */
+  allowUnfinished?: boolean;
+}
+
+/** Whether a result makes the run fail. */
+export function isFailing(pair: Pick<OpResult, 'verdict' | 'stoppedAtTimeLimit'>, policy: FailPolicy = {}): boolean {
+  if (pair.verdict === 'mismatch' || pair.verdict === 'error') return true;
+  if (pair.verdict !== 'inconclusive') return false;
+  return policy.failOnInconclusive === true || (isUnfinished(pair) && policy.allowUnfinished !== true);
+}
+
+/** Whether the time limit stopped the op's check before it compared every element. */
+export function isUnfinished(pair: Pick<OpResult, 'verdict' | 'stoppedAtTimeLimit'>): boolean {
+  return pair.verdict === 'inconclusive' && pair.stoppedAtTimeLimit !== undefined;
 }
 
 /** 0 when no op failed, 1 when any did (the interface's exit codes; 2 is decided by the caller). */
-export function exitCodeFor(report: Report, failOnInconclusive = false): 0 | 1 {
-  return report.pairs.some((p) => isFailing(p.verdict, failOnInconclusive)) ? 1 : 0;
+export function exitCodeFor(report: Report, policy: FailPolicy = {}): 0 | 1 {
+  return report.pairs.some((p) => isFailing(p, policy)) ? 1 : 0;
 }
 
 /**

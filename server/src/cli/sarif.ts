@@ -5,7 +5,7 @@ import { pathToFileURL } from 'node:url';
 import type { OpResult, Report } from '../engine/types';
 import { gapSentence } from './coverageLines';
 import { formatRelError } from './format';
-import { worstParam } from './report';
+import { isUnfinished, worstParam } from './report';
 
 /** SARIF 2.1.0's published JSON schema, as the standard's `$schema` property names it. */
 export const SARIF_SCHEMA_URI = 'https://json.schemastore.org/sarif-2.1.0.json';
@@ -37,6 +37,11 @@ export const SARIF_RULES: readonly RuleSpec[] = [
     id: 'check-inconclusive', name: 'CheckInconclusive', level: 'warning',
     short: 'Finite differences cannot be trusted here',
     full: 'The finite-difference estimate is unreliable at the sample point (a kink that resampling did not escape, or a forward that is not deterministic).',
+  },
+  {
+    id: 'check-unfinished', name: 'CheckUnfinished', level: 'error',
+    short: 'Time limit stopped the check before every element was compared',
+    full: 'The check ran out of its time limit part way; the elements it did not compare may hold a wrong gradient. Raise the time limit (--time-limit, timeLimitMs).',
   },
   {
     id: 'unreached-code', name: 'UnreachedCode', level: 'note',
@@ -92,7 +97,7 @@ function resultsOf(pair: OpResult): Record<string, unknown>[] {
   if (pair.verdict === 'error' && problems.length > 0) {
     return problems.map((p) => result('annotation-problem', `${opName(pair)}: ${p.message}`, pair, p.line, p.column, p.endLine, p.endColumn));
   }
-  const ruleId = pair.verdict === 'mismatch' ? 'gradient-mismatch' : pair.verdict === 'error' ? 'check-error' : 'check-inconclusive';
+  const ruleId = pair.verdict === 'mismatch' ? 'gradient-mismatch' : pair.verdict === 'error' ? 'check-error' : isUnfinished(pair) ? 'check-unfinished' : 'check-inconclusive';
   return [result(ruleId, messageOf(pair), pair, pair.line, columnOf(pair))];
 }
 

@@ -52,6 +52,16 @@ export interface CheckFileOptions {
   settings?: CheckSettings;
   /** Called with the bundle's input files (absolute paths) once the file is bundled. */
   onBundle?: (inputs: string[]) => void;
+  /** Only ops this accepts are checked, after `filter` (the CLI's --shard); the others are left out. */
+  select?: (op: OpDescriptor) => boolean;
+  /**
+   * Given the files the ops' bundle is built from (the checked file first, then what it imports,
+   * from the bundler's own list), whether the ops must be checked (the CLI's --changed-since);
+   * false leaves every op of the file out. Without a bundle (it failed) the ops are checked.
+   */
+  inputsChanged?: (inputs: readonly string[]) => boolean;
+  /** Told how many ops `filter`, `select` or `inputsChanged` left out, and which of them did. */
+  onSkipped?: (count: number, by: 'filter' | 'select' | 'unchanged') => void;
   /**
    * With coverage on: when given, onResult gets each op's result as soon as its verdict is
    * known, and this gets the same op's result again once its coverage is there (the returned
@@ -174,13 +184,28 @@ export class Checker {
     const source = text;
     const listing = listOps(abs, source);
     const filter = opts.filter;
-    const ops = filter ? listing.ops.filter((op) => op.forward.includes(filter)) : listing.ops;
+    const select = opts.select;
+    const skipped = (count: number, by: 'filter' | 'select' | 'unchanged'): void => {
+      if (count > 0) opts.onSkipped?.(count, by);
+    };
+    const filtered = filter ? listing.ops.filter((op) => op.forward.includes(filter)) : listing.ops;
+    skipped(listing.ops.length - filtered.length, 'filter');
+    const ops = select ? filtered.filter(select) : filtered;
+    skipped(filtered.length - ops.length, 'select');
+    // Ops that fail before bundling are unchanged when their own file is.
+    if (opts.inputsChanged && ops.length > 0 && (listing.fileProblems.length > 0 || ops.every((op) => op.problems.length > 0))) {
+      if (!opts.inputsChanged([abs])) {
+        skipped(ops.length, 'unchanged');
+        return [];
+      }
+    }
 
     if (listing.fileProblems.length > 0) {
       const message = `the file has a syntax error, so none of its ops can run: ${summarizeProblems(listing.fileProblems)}`;
       if (ops.length === 0) {
-        // Report the broken file only when it looks like it holds ops (or a filter found none).
-        if (filter || !source.includes('@backward')) return [];
+        // Report the broken file only when it looks like it holds ops and none was left out on purpose.
+        if (filter || listing.ops.length > 0 || !source.includes('@backward')) return [];
+        if (opts.inputsChanged && !opts.inputsChanged([abs])) return [];
         return [emit(errorResult(abs, null, settings, message, { line: listing.fileProblems[0]?.line, problems: listing.fileProblems }))];
       }
       return ops.map((op) => emit(errorResult(abs, op, settings, message, { problems: [...listing.fileProblems, ...op.problems] })));
@@ -202,6 +227,10 @@ export class Checker {
     const bindings = listing.ops.filter((op) => op.problems.length === 0).flatMap(bindingsOf);
     const tensorLibrary = listing.ops.find((op) => op.problems.length === 0 && op.target.tensorLibrary)?.target.tensorLibrary;
     const bundle = await this.bundler.bundle({ file: abs, text: source, bindings, ...(tensorLibrary ? { tensorLibrary } : {}) });
+    if (bundle.ok && opts.inputsChanged && !opts.inputsChanged([abs, ...bundle.inputs])) {
+      skipped(ops.length, 'unchanged');
+      return [];
+    }
     if (!bundle.ok) {
       const location = bundle.location;
       const problems = location && location.file === abs ? [{ line: location.line, column: location.column, message: bundle.message }] : undefined;

@@ -23,7 +23,7 @@ import { refineSuspicious, type KinkReport, type RefineSummary } from './refine'
 import { ROOT_PROBES, describeSearch, splitSearch } from './splitSearch';
 import { ERROR_MAP_MAX_ELEMENTS, captureInputs, finiteOnly, stepScan } from './reportData';
 import { DEFAULT_SETTINGS, type CheckSettings } from './settings';
-import type { CheckMethod, CheckOutcome, OpDescriptor, ParamResult, Verdict } from './types';
+import type { CheckMethod, CheckOutcome, OpDescriptor, ParamResult, TimeLimitStop, Verdict } from './types';
 import { runDerivativeKind } from './kindCheck';
 
 export interface CheckRequest {
@@ -52,6 +52,8 @@ interface ParamCheck {
   note: string;
   /** Position (in the estimates) of the worst element, -1 when none was compared. */
   worstPos: number;
+  /** Set when the time limit left suspicious elements of this parameter unrefined. */
+  timeStop?: Omit<TimeLimitStop, 'timeLimitMs'>;
 }
 
 interface Attempt {
@@ -87,11 +89,13 @@ function emptyOutcome(verdict: Verdict, seed: number, message: string, calls: { 
 export function runCheck(exposed: Record<string, unknown>, request: CheckRequest, clock: () => number): CheckOutcome {
   let seed = 0;
   let calls = { forward: 0, backward: 0 };
+  let timeLimitMs = DEFAULT_SETTINGS.timeLimitMs;
   let harness: OpHarness | null = null;
   try {
     const op = request.op;
     const settings: CheckSettings = { ...DEFAULT_SETTINGS, ...(request.settings ?? {}) };
     seed = typeof op.seed === 'number' ? op.seed : settings.seed;
+    timeLimitMs = settings.timeLimitMs;
     if (op.problems && op.problems.length > 0) return emptyOutcome('error', seed, op.problems[0].message, calls);
     const start = clock();
     const deadline = start + TIME_BUDGET_SHARE * settings.timeLimitMs;
@@ -135,6 +139,7 @@ export function runCheck(exposed: Record<string, unknown>, request: CheckRequest
   } catch (e) {
     if (e instanceof CheckStop) {
       const stopped = emptyOutcome(e.verdict, seed, e.message, calls);
+      if (e.timeLimit !== undefined) stopped.stoppedAtTimeLimit = { ...e.timeLimit, timeLimitMs };
       // The inputs of the attempt that stopped, so an exception reproduces like a mismatch.
       if (harness !== null && harness.capturedInputs !== undefined) stopped.inputs = harness.capturedInputs;
       if (e.thrown !== undefined) {
@@ -347,6 +352,10 @@ function runAttempt(
     calls: { forward: h.calls.forward, backward: h.calls.backward },
   };
   if (inputs !== undefined) outcome.inputs = inputs;
+  for (let s = 0; s < checks.length; s++) {
+    const stop = checks[s].timeStop;
+    if (stop !== undefined && outcome.stoppedAtTimeLimit === undefined) outcome.stoppedAtTimeLimit = { ...stop, timeLimitMs: settings.timeLimitMs };
+  }
   return outcome;
 }
 
@@ -556,7 +565,11 @@ function summarise(
     hints: [],
   };
   const evidence: ParamEvidence = { slot, analytic, est, cmp, tol: at.tol, complete: complete && est.indices.length === slot.size };
-  return { result, evidence, kink, note, worstPos };
+  const check: ParamCheck = { result, evidence, kink, note, worstPos };
+  if (refine.stoppedAt !== undefined && verdict === 'inconclusive') {
+    check.timeStop = { param: slot.name, stage: 'suspicious elements refined', done: refine.stoppedAt.done, total: refine.stoppedAt.total };
+  }
+  return check;
 }
 
 function maxRelOf(dot: DotProbeResult[]): number {

@@ -1,7 +1,7 @@
 // The one way a check stops early: a verdict (`error` or `inconclusive`) with a message naming
 // the part of the op at fault. runCheck catches it and turns it into the outcome.
 
-import type { Verdict } from './types';
+import type { TimeLimitStop, Verdict } from './types';
 
 export class CheckStop extends Error {
   constructor(
@@ -9,6 +9,8 @@ export class CheckStop extends Error {
     message: string,
     /** What user code threw, when the stop is an exception of the op's own code. */
     readonly thrown?: unknown,
+    /** Set when the time limit stopped the check: how far it got (the limit is added by runCheck). */
+    readonly timeLimit?: Omit<TimeLimitStop, 'timeLimitMs'>,
   ) {
     super(message);
   }
@@ -27,4 +29,9 @@ export function failThrown(message: string, thrown: unknown): never {
 /** Stops the check with verdict `inconclusive`. */
 export function giveUp(message: string): never {
   throw new CheckStop('inconclusive', message);
+}
+
+/** Stops the check with verdict `inconclusive` because its time limit ran out, saying how far it got. */
+export function stopAtTimeLimit(message: string, progress: Omit<TimeLimitStop, 'timeLimitMs'>): never {
+  throw new CheckStop('inconclusive', message, undefined, progress);
 }

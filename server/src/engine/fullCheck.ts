@@ -3,7 +3,7 @@
 // of all probes at once (2 forwards per element serve all K probes).
 
 import { F64 } from './builtins';
-import { giveUp } from './failure';
+import { stopAtTimeLimit } from './failure';
 import type { ElementEstimates } from './judge';
 import type { ForwardMap } from './opHarness';
 import type { ParamSlot } from './paramSlot';
@@ -42,7 +42,9 @@ export function estimateColumns(
   const pert = h.perturbation;
   for (let p = 0; p < count; p++) {
     // Reading the clock costs far less than a forward call, but not nothing: every 64 elements.
-    if ((p & 63) === 63 && outOfTime()) giveUp(`check of '${slot.name}' stopped at the time limit after ${p} of ${count} elements`);
+    if ((p & 63) === 63 && outOfTime()) {
+      stopAtTimeLimit(`check of '${slot.name}' stopped at the time limit after ${p} of ${count} elements`, { param: slot.name, stage: 'elements', done: p, total: count });
+    }
     const i = indices[p];
     const x0 = slot.get(i);
     const step = centralStep(slot.precision, x0);

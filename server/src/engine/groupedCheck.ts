@@ -4,7 +4,7 @@
 // 13 (1974) 117–119). An elementwise op's whole diagonal comes from one pair of forward calls.
 
 import { F64, I32, abs, max, min } from './builtins';
-import { giveUp } from './failure';
+import { stopAtTimeLimit } from './failure';
 import type { ElementEstimates } from './judge';
 import { anchorOf, type Structure } from './methodChoice';
 import type { OpHarness } from './opHarness';
@@ -43,7 +43,11 @@ export function estimateGrouped(
   const typed = slot.typed;
   const pert = h.perturbation;
   for (let g = 0; g < st.colours; g++) {
-    if (outOfTime()) giveUp(`check of '${slot.name}' stopped at the time limit after ${g} of ${st.colours} grouped perturbations`);
+    if (outOfTime()) {
+      stopAtTimeLimit(`check of '${slot.name}' stopped at the time limit after ${g} of ${st.colours} grouped perturbations`, {
+        param: slot.name, stage: 'grouped perturbations', done: g, total: st.colours,
+      });
+    }
     pert.slot = slot;
     pert.several = true;
     try {

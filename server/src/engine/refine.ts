@@ -55,6 +55,8 @@ export interface RefineSummary {
   kink: KinkReport | null;
   /** Message for the first uncertain element. */
   uncertainNote: string;
+  /** Set when the time limit (not a verdict or the cap) left elements unrefined: refined so far, of all suspicious. */
+  stoppedAt?: { done: number; total: number };
 }
 
 /**
@@ -128,6 +130,7 @@ export function refineSuspicious(
   for (let q = 0; q < order.length; q++) {
     if (summary.confirmed > 0 || refined >= MAX_REFINED_ELEMENTS || outOfTime()) {
       summary.unrefined = order.length - q;
+      if (summary.confirmed === 0 && refined < MAX_REFINED_ELEMENTS) summary.stoppedAt = { done: q, total: order.length };
       break;
     }
     const p = order[q];

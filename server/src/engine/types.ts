@@ -271,6 +271,23 @@ export interface CheckOutcome {
    * engine's raw positions); the host maps them to `thrownAt` and drops this field.
    */
   thrownFrames?: string;
+  /**
+   * Set when the check stopped at its time limit before it compared every element (or refined
+   * every suspicious one): how far it got. Not a pass; the CLI fails the run on it by default.
+   */
+  stoppedAtTimeLimit?: TimeLimitStop;
+}
+
+/** How far a check got when its time limit stopped it (CheckOutcome.stoppedAtTimeLimit). */
+export interface TimeLimitStop {
+  /** The parameter being checked when time ran out. */
+  param: string;
+  /** What `done` and `total` count. */
+  stage: 'elements' | 'grouped perturbations' | 'suspicious elements refined';
+  done: number;
+  total: number;
+  /** The op's time limit (settings.timeLimitMs), in milliseconds. */
+  timeLimitMs: number;
 }
 
 /** A place in a user's source file (1-based), e.g. where an exception was thrown. */
@@ -353,4 +370,24 @@ export interface Report {
   version: 1;
   pairs: OpResult[];
   summary: ReportSummary;
+  /** How the run was made (added for `gradient-probe merge`, which refuses to join unlike runs). */
+  run?: ReportRun;
+}
+
+/** The record of one `check` run in its report: what a merge must find equal, and the run's part. */
+export interface ReportRun {
+  /** Version of gradient-probe that wrote the report. */
+  tool: string;
+  /** The settings every op was checked with (an op's own @seed and @tolerance still win). */
+  settings: Record<string, unknown>;
+  /** The configuration file read (relative path with `/`), or null when none was found. */
+  config: string | null;
+  /** `--filter TEXT`, when given. */
+  filter?: string;
+  /** Source files the run covered. */
+  files: number;
+  /** `--shard K/N`: this run checked part K (1-based) of N. */
+  shard?: { index: number; count: number };
+  /** `--changed-since REF`: the revision, and how many ops were skipped as unchanged. */
+  changedSince?: { ref: string; skipped: number };
 }

@@ -5,7 +5,7 @@
 import { readFileSync } from 'node:fs';
 import { DEFAULT_SETTINGS, type CheckSettings } from '../engine/settings';
 import {
-  ConfigError, DEFAULT_FILE_GLOBS, findConfigFile, loadConfigFile, readConfigValues, type ConfigValues,
+  ConfigError, DEFAULT_FILE_GLOBS, findConfigFile, loadConfigFile, parseConfigText, readConfigValues, type ConfigValues,
 } from '../project/config';
 
 /** When the server checks a document by itself (commands and lenses always work). */
@@ -141,7 +141,7 @@ export function resolveEffectiveSettings(editor: EditorSettings, dir: string): E
     // loadConfigFile gives the CLI's exact messages for a broken file; the second read below
     // learns which keys the file sets, so user settings fill in only where it is silent.
     loadConfigFile(file);
-    const fileValues = readConfigValues(JSON.parse(stripBom(readFileSync(file, 'utf8'))), file, file);
+    const fileValues = readConfigValues(parseConfigText(readFileSync(file, 'utf8'), file, file), file, file);
     return {
       ...base,
       settings: { ...base.settings, ...fileValues.settings },
@@ -204,10 +204,6 @@ function nest(dotted: string, value: unknown): Record<string, unknown> {
   let out: unknown = value;
   for (let i = parts.length - 1; i >= 0; i--) out = { [parts[i]!]: out };
   return out as Record<string, unknown>;
-}
-
-function stripBom(text: string): string {
-  return text.charCodeAt(0) === 0xfeff ? text.slice(1) : text;
 }
 
 function isObject(value: unknown): value is Record<string, unknown> {

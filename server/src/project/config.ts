@@ -6,6 +6,7 @@ import { dirname, join, resolve } from 'node:path';
 import { DEFAULT_SETTINGS, type CheckSettings } from '../engine/settings';
 import { CONFIG_FIELDS, FILE_GLOB_KEYS, describeValue, fieldForSetting, type ConfigField } from './configFields';
 import { nearestName } from '../text/nearestName';
+import { blankJsoncExtras } from './jsonc';
 import { relativeInside } from './paths';
 
 /** The name of the project configuration file. */
@@ -32,15 +33,27 @@ export interface ProjectConfig {
   file?: string;
 }
 
-/** A bad configuration value or file. `field` is the dotted key ("tolerance.f64"). */
+/** One problem of a configuration: its message (without the source) and the dotted field. */
+export interface ConfigProblem {
+  message: string;
+  field?: string;
+}
+
+/**
+ * A bad configuration value or file. The message has one line per problem, each starting with
+ * the source (the file); `field` is the first problem's dotted key ("tolerance.f64").
+ */
 export class ConfigError extends Error {
   field?: string;
   file?: string;
-  constructor(message: string, details: { field?: string; file?: string } = {}) {
+  /** Every problem found, in file order; the message lists them all. */
+  problems: ConfigProblem[];
+  constructor(message: string, details: { field?: string; file?: string; problems?: ConfigProblem[] } = {}) {
     super(message);
     this.name = 'ConfigError';
     if (details.field !== undefined) this.field = details.field;
     if (details.file !== undefined) this.file = details.file;
+    this.problems = details.problems ?? [{ message, ...(details.field !== undefined ? { field: details.field } : {}) }];
   }
 }
 
@@ -53,37 +66,60 @@ export interface ConfigValues {
 
 /**
  * Validates raw configuration values of any source (the parsed file, the editor's user
- * settings) in the file's shape and returns them normalised. Throws ConfigError whose message
- * starts with `source` and names the dotted field.
+ * settings) in the file's shape and returns them normalised. A nested key may also be written
+ * dotted (`"tolerance.f64": 1e-7` means `"tolerance": { "f64": 1e-7 }`). Throws one ConfigError
+ * listing every problem, each line starting with `source` and naming the dotted field.
  */
 export function readConfigValues(raw: unknown, source: string, file?: string): ConfigValues {
-  const fail = (message: string, field?: string): never => {
-    const details: { field?: string; file?: string } = {};
-    if (field !== undefined) details.field = field;
-    if (file !== undefined) details.file = file;
-    throw new ConfigError(`${source}: ${message}`, details);
+  const problems: ConfigProblem[] = [];
+  const report = (message: string, field?: string): void => {
+    problems.push(field !== undefined ? { message, field } : { message });
   };
-  if (!isPlainObject(raw)) fail(`must hold a JSON object, got ${describeValue(raw)}`);
   const values: ConfigValues = { settings: {} };
-  checkKeys(raw as Record<string, unknown>, '', fail);
-  for (const field of CONFIG_FIELDS) {
-    const value = lookup(raw as Record<string, unknown>, field.path);
-    if (value === undefined) continue;
-    const expected = field.check(value);
-    if (expected !== undefined) fail(`"${field.path}" must be ${expected}, got ${describeValue(value)}`, field.path);
-    (values.settings as Record<string, unknown>)[field.setting] = value;
-  }
-  for (const key of FILE_GLOB_KEYS) {
-    const value = (raw as Record<string, unknown>)[key];
-    if (value === undefined) continue;
-    if (!Array.isArray(value)) fail(`"${key}" must be an array of glob strings, got ${describeValue(value)}`, key);
-    const globs = value as unknown[];
-    globs.forEach((glob, i) => {
-      if (typeof glob !== 'string' || glob.trim() === '') {
-        fail(`"${key}[${i}]" must be a non-empty glob string, got ${describeValue(glob)}`, `${key}[${i}]`);
+  if (!isPlainObject(raw)) {
+    report(`must hold a JSON object, got ${describeValue(raw)}`);
+  } else {
+    const obj = raw as Record<string, unknown>;
+    checkKeys(obj, '', report);
+    for (const field of CONFIG_FIELDS) {
+      const nested = lookup(obj, field.path);
+      const dotted = field.path.includes('.') ? obj[field.path] : undefined;
+      if (nested !== undefined && dotted !== undefined) {
+        report(`"${field.path}" is given twice (nested and dotted); keep one`, field.path);
+        continue;
       }
-    });
-    values[key] = (globs as string[]).map((g) => g.trim());
+      const value = nested !== undefined ? nested : dotted;
+      if (value === undefined) continue;
+      const expected = field.check(value);
+      if (expected !== undefined) {
+        report(`"${field.path}" must be ${expected}, got ${describeValue(value)}`, field.path);
+        continue;
+      }
+      (values.settings as Record<string, unknown>)[field.setting] = value;
+    }
+    for (const key of FILE_GLOB_KEYS) {
+      const value = obj[key];
+      if (value === undefined) continue;
+      if (!Array.isArray(value)) {
+        report(`"${key}" must be an array of glob strings, got ${describeValue(value)}`, key);
+        continue;
+      }
+      const globs = value as unknown[];
+      let ok = true;
+      globs.forEach((glob, i) => {
+        if (typeof glob !== 'string' || glob.trim() === '') {
+          report(`"${key}[${i}]" must be a non-empty glob string, got ${describeValue(glob)}`, `${key}[${i}]`);
+          ok = false;
+        }
+      });
+      if (ok) values[key] = (globs as string[]).map((g) => g.trim());
+    }
+  }
+  if (problems.length > 0) {
+    const details: { field?: string; file?: string; problems: ConfigProblem[] } = { problems };
+    if (problems[0]!.field !== undefined) details.field = problems[0]!.field;
+    if (file !== undefined) details.file = file;
+    throw new ConfigError(problems.map((p) => `${source}: ${p.message}`).join('\n'), details);
   }
   return values;
 }
@@ -98,8 +134,9 @@ export function checkSettingValue(key: keyof CheckSettings, value: unknown): str
 }
 
 /**
- * Finds `gradient-probe.json` in `dir` or its parents (stopping after a folder that holds `.git`,
- * or at the filesystem root), validates it, and merges DEFAULT_SETTINGS ← file ← overrides.
+ * Finds `gradient-probe.json` in `dir` or its parents (stopping after a folder that holds
+ * package.json or `.git`, or at the filesystem root), validates it, and merges
+ * DEFAULT_SETTINGS ← file ← overrides.
  */
 export function loadProjectConfig(dir: string, overrides: Partial<CheckSettings> = {}): ProjectConfig {
   const file = findConfigFile(dir);
@@ -130,14 +167,17 @@ export function readConfigFile(file: string): ConfigValues {
   return readConfigValues(parseJsonText(text, label, abs), label, abs);
 }
 
-/** The configuration file that applies to `dir`, or undefined. */
+/**
+ * The configuration file that applies to `dir`, or undefined. The search goes upwards and stops
+ * after the nearest package root (a folder with package.json) or repository root (with .git).
+ */
 export function findConfigFile(dir: string): string | undefined {
   let current = resolve(dir);
   for (;;) {
     const candidate = join(current, CONFIG_FILE_NAME);
     if (existsSync(candidate)) return candidate;
-    // A repository root bounds the search: a file above it belongs to something else.
-    if (existsSync(join(current, '.git'))) return undefined;
+    // A package or repository root bounds the search: a file above it belongs to something else.
+    if (existsSync(join(current, 'package.json')) || existsSync(join(current, '.git'))) return undefined;
     const parent = dirname(current);
     if (parent === current) return undefined;
     current = parent;
@@ -171,23 +211,25 @@ function validateOverrides(overrides: Partial<CheckSettings>): Partial<CheckSett
   return out;
 }
 
-/** Rejects keys the file format does not know, with a "did you mean" when one is close. */
-function checkKeys(obj: Record<string, unknown>, prefix: string, fail: (message: string, field?: string) => never): void {
+/** Reports keys the file format does not know, with a "did you mean" when one is close. */
+function checkKeys(obj: Record<string, unknown>, prefix: string, report: (message: string, field?: string) => void): void {
   const known = knownKeysUnder(prefix);
   for (const key of Object.keys(obj)) {
     const path = prefix + key;
     if (!known.has(key)) {
       const guess = nearestName(key, [...known]);
-      fail(`unknown key "${path}"${guess ? ` (did you mean "${prefix}${guess}"?)` : ''}`, path);
+      report(`unknown key "${path}"${guess ? ` (did you mean "${prefix}${guess}"?)` : ''}`, path);
+      continue;
     }
     const isGroup = CONFIG_FIELDS.some((f) => f.path.startsWith(path + '.'));
     if (isGroup) {
       const value = obj[key];
       if (!isPlainObject(value)) {
         const members = CONFIG_FIELDS.filter((f) => f.path.startsWith(path + '.')).map((f) => f.path.slice(path.length + 1));
-        fail(`"${path}" must be an object with keys ${members.map((m) => `"${m}"`).join(', ')}, got ${describeValue(value)}`, path);
+        report(`"${path}" must be an object with keys ${members.map((m) => `"${m}"`).join(', ')}, got ${describeValue(value)}`, path);
+        continue;
       }
-      checkKeys(value as Record<string, unknown>, path + '.', fail);
+      checkKeys(value as Record<string, unknown>, path + '.', report);
     }
   }
 }
@@ -196,6 +238,8 @@ function knownKeysUnder(prefix: string): Set<string> {
   const keys = new Set<string>();
   for (const field of CONFIG_FIELDS as readonly ConfigField[]) {
     if (field.path.startsWith(prefix)) keys.add(field.path.slice(prefix.length).split('.')[0]!);
+    // The dotted spelling of a nested key ("tolerance.f64") is accepted at the top level too.
+    if (prefix === '' && field.path.includes('.')) keys.add(field.path);
   }
   if (prefix === '') {
     for (const key of FILE_GLOB_KEYS) keys.add(key);
@@ -213,10 +257,17 @@ function lookup(obj: Record<string, unknown>, path: string): unknown {
   return value;
 }
 
-/** JSON.parse with the syntax error's line and column in the message. */
+/**
+ * The text of a configuration file parsed as JSON with comments and trailing commas (as editors
+ * write settings files); throws ConfigError with the syntax error's line and column.
+ */
+export function parseConfigText(text: string, label: string, file: string): unknown {
+  return parseJsonText(text, label, file);
+}
+
 function parseJsonText(text: string, label: string, file: string): unknown {
   try {
-    return JSON.parse(text.charCodeAt(0) === 0xfeff ? text.slice(1) : text);
+    return JSON.parse(blankJsoncExtras(text.charCodeAt(0) === 0xfeff ? text.slice(1) : text));
   } catch (err) {
     const message = err instanceof Error ? err.message : String(err);
     const at = /at position (\d+)/.exec(message);

@@ -21,11 +21,12 @@ function globList(description: string, defaults: readonly string[]): JsonSchema 
   return { type: 'array', description, items: { type: 'string', minLength: 1 }, default: [...defaults] };
 }
 
-/** Builds the schema; nested keys ("tolerance.f64") become nested objects. */
+/** Builds the schema; nested keys ("tolerance.f64") become nested objects, and are also accepted dotted. */
 export function projectConfigSchema(): JsonSchema {
   const properties: Record<string, JsonSchema> = {
     $schema: { type: 'string', description: 'Where editors find this schema; ignored by the checker.' },
   };
+  const dotted: Record<string, JsonSchema> = {};
   for (const field of CONFIG_FIELDS) {
     const parts = field.path.split('.');
     if (parts.length === 1) {
@@ -35,7 +36,10 @@ export function projectConfigSchema(): JsonSchema {
     const [group, key] = parts as [string, string];
     const groupSchema = (properties[group] ??= { type: 'object', additionalProperties: false, properties: {} });
     (groupSchema['properties'] as Record<string, JsonSchema>)[key] = fieldSchema(field);
+    // The reader accepts the dotted spelling too ("tolerance.f64": 1e-7), so editors must not flag it.
+    dotted[field.path] = { ...fieldSchema(field), description: `${field.description} (Dotted spelling of "${group}": { "${key}": … }.)` };
   }
+  Object.assign(properties, dotted);
   properties['include'] = globList('Globs, relative to this file\'s folder, that a source file must match; empty means every TypeScript source.', DEFAULT_FILE_GLOBS.include);
   properties['exclude'] = globList('Globs, relative to this file\'s folder, of source files to leave out.', DEFAULT_FILE_GLOBS.exclude);
   return {

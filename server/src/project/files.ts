@@ -24,6 +24,21 @@ export class SourcePathError extends Error {
   }
 }
 
+/** What the globs left out, so an empty walk can say why (filled by findSourceFiles when given). */
+export interface WalkStats {
+  /** Sources found under folders before the include/exclude globs. */
+  seen: number;
+  /** Sources left out because they match no include glob. */
+  notIncluded: number;
+  /** Per exclude glob, the sources and folders it left out. */
+  excluded: Map<string, { files: number; folders: number }>;
+}
+
+/** Empty walk statistics to pass to findSourceFiles. */
+export function newWalkStats(): WalkStats {
+  return { seen: 0, notIncluded: 0, excluded: new Map() };
+}
+
 /** Whether a file name is a TypeScript source we check. */
 export function isSourceFileName(name: string): boolean {
   const lower = name.toLowerCase();
@@ -36,12 +51,21 @@ export function isSourceFileName(name: string): boolean {
  * user asked for it); files found in folders pass the skip list, `.gitignore` and the
  * include/exclude globs, which are relative to the configuration file's folder (else `cwd`).
  */
-export function findSourceFiles(paths: string[], config: ProjectConfig, cwd: string): string[] {
+export function findSourceFiles(paths: string[], config: ProjectConfig, cwd: string, tally: WalkStats = newWalkStats()): string[] {
   const roots = (paths.length > 0 ? paths : ['.']).map((p) => resolve(cwd, p));
   const globBase = config.file ? dirname(config.file) : resolve(cwd);
   const globs = {
     include: config.include.length > 0 ? picomatch(config.include, { dot: true }) : undefined,
     exclude: config.exclude.length > 0 ? picomatch(config.exclude, { dot: true }) : undefined,
+  };
+  // One matcher per exclude glob, so the statistics can name the glob that left a file out.
+  const excludeEach = config.exclude.map((glob) => [glob, picomatch(glob, { dot: true })] as const);
+  const countExcluded = (rel: string, kind: 'files' | 'folders'): void => {
+    const hit = excludeEach.find(([, match]) => match(rel));
+    if (!hit) return;
+    const entry = tally.excluded.get(hit[0]) ?? { files: 0, folders: 0 };
+    entry[kind]++;
+    tally.excluded.set(hit[0], entry);
   };
   const found = new Set<string>();
 
@@ -62,15 +86,24 @@ export function findSourceFiles(paths: string[], config: ProjectConfig, cwd: str
     const ignoreFiles = ancestorGitignores(root);
     walk(root, ignoreFiles, (file) => {
       const rel = relativeInside(globBase, file);
+      tally.seen++;
       // Globs describe the project's own files; a file outside the project is not theirs to judge.
       if (rel !== undefined) {
-        if (globs.include && !globs.include(rel)) return;
-        if (globs.exclude && globs.exclude(rel)) return;
+        if (globs.include && !globs.include(rel)) {
+          tally.notIncluded++;
+          return;
+        }
+        if (globs.exclude && globs.exclude(rel)) {
+          countExcluded(rel, 'files');
+          return;
+        }
       }
       found.add(file);
     }, (folder) => {
       const rel = relativeInside(globBase, folder);
-      return rel !== undefined && globs.exclude !== undefined && globs.exclude(rel);
+      const excluded = rel !== undefined && globs.exclude !== undefined && globs.exclude(rel);
+      if (excluded) countExcluded(rel, 'folders');
+      return excluded;
     });
   }
   return [...found].sort((a, b) => (a < b ? -1 : a > b ? 1 : 0));

@@ -1,0 +1,46 @@
+// The engine's time budget: a check the time limit stops before it compared every element is
+// inconclusive and says how far it got in a structured field (CheckOutcome.stoppedAtTimeLimit),
+// which the CLI turns into a failed run. The clock is a counter here, so nothing depends on speed.
+
+import assert from 'node:assert/strict';
+import { runCheck } from '../../server/src/engine/check';
+import { DEFAULT_SETTINGS } from '../../server/src/engine/settings';
+import { functionOp, show, spec } from './opBuilder';
+
+// Σ x_i³: a number-valued forward couples every element to the one output, so the full method
+// perturbs each of the 120 elements in turn (d/dx x³ = 3x², Abramowitz & Stegun 3.3.1 power rule).
+const cubeSum = functionOp({
+  forward: (x: Float64Array) => {
+    let s = 0;
+    for (let i = 0; i < x.length; i++) s += x[i]! ** 3;
+    return s;
+  },
+  backward: (x: Float64Array) => x.map((v) => 3 * v * v),
+  params: [['x', spec('f64', [120])]],
+  backwardArgs: ['x'],
+});
+
+describe('engine: the time limit', () => {
+  it('stops a check that runs out of time, inconclusive, with how far it got', () => {
+    // Each clock read advances 10 ms; the engine reads it every 64 elements, and a 50 ms limit
+    // (80 % of it for the engine: 40 ms) runs out a few reads in, before element 120.
+    let now = 0;
+    const o = runCheck(cubeSum.exposed, { op: cubeSum.op, settings: { ...DEFAULT_SETTINGS, timeLimitMs: 50 } }, () => (now += 30));
+    assert.equal(o.verdict, 'inconclusive', show(o));
+    const stop = o.stoppedAtTimeLimit;
+    assert.ok(stop, show(o));
+    assert.equal(stop.param, 'x');
+    assert.equal(stop.stage, 'elements');
+    assert.equal(stop.total, 120);
+    assert.equal(stop.timeLimitMs, 50);
+    assert.ok(stop.done > 0 && stop.done < 120, String(stop.done));
+    assert.match(o.message, new RegExp(`stopped at the time limit after ${stop.done} of 120 elements`));
+    assert.deepEqual(JSON.parse(JSON.stringify(o)), o, 'the field crosses the process boundary as JSON');
+  });
+
+  it('sets no such field when the check finishes (a clock that stands still)', () => {
+    const o = runCheck(cubeSum.exposed, { op: cubeSum.op, settings: { ...DEFAULT_SETTINGS, timeLimitMs: 50 } }, () => 0);
+    assert.equal(o.verdict, 'pass', show(o));
+    assert.equal(o.stoppedAtTimeLimit, undefined);
+  });
+});
