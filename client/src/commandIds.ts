@@ -10,6 +10,7 @@ export const COMMAND_TITLES = {
   'gradientProbe.copyRegressionTest': 'Copy Failing Case as a Regression Test',
   'gradientProbe.showOutput': 'Show the Log',
   'gradientProbe.restartServer': 'Restart the Language Server',
+  [ClientCommands.goToOp]: 'Go to the Forward of This Backward',
 } as const;
 
 export type CommandId = keyof typeof COMMAND_TITLES;

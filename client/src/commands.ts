@@ -27,6 +27,7 @@ export const COMMANDS: readonly CommandSpec[] = [
   { id: 'gradientProbe.copyRegressionTest', run: (ctx, uri, forward) => copyRegressionTest(ctx, uri, forward) },
   { id: 'gradientProbe.showOutput', run: (ctx) => ctx.output.show(true) },
   { id: 'gradientProbe.restartServer', run: (ctx) => ctx.restart() },
+  { id: ClientCommands.goToOp, run: (_ctx, uri, line, character) => goToOp(uri, line, character) },
 ];
 
 export function registerCommands(ctx: ProbeContext): vscode.Disposable[] {
@@ -84,7 +85,7 @@ async function checkWorkspace(ctx: ProbeContext): Promise<CheckWorkspaceResult |
       }
     },
   );
-  const counts = `${result.pass} pass, ${result.mismatch} mismatch, ${result.inconclusive} inconclusive, ${result.error} could not be checked`;
+  const counts = `${result.pass} pass, ${result.mismatch} mismatch, ${result.inconclusive} inconclusive, ${result.error} error`;
   const head = result.cancelled ? 'workspace check cancelled' : `checked ${result.files} file${result.files === 1 ? '' : 's'}`;
   const text = `Gradient Probe: ${head}: ${counts}.${result.reason ? ` ${result.reason}.` : ''}`;
   if (result.mismatch + result.error > 0) {
@@ -150,4 +151,11 @@ function countsText(verdicts: string[]): string {
   const counts = new Map<string, number>();
   for (const v of verdicts) counts.set(v, (counts.get(v) ?? 0) + 1);
   return [...counts].map(([v, n]) => `${n} ${v}`).join(', ');
+}
+
+/** The lens above a backward: reveals its forward's name. */
+async function goToOp(uri: unknown, line: unknown, character: unknown): Promise<void> {
+  if (typeof uri !== 'string' || typeof line !== 'number' || typeof character !== 'number') return;
+  const at = new vscode.Position(line, character);
+  await vscode.window.showTextDocument(vscode.Uri.parse(uri), { selection: new vscode.Range(at, at) });
 }

@@ -25,6 +25,8 @@ export interface ProbeApi {
   ops(uri: string): FileOps | undefined;
   /** The outcome of a Testing view item's latest run (id: `URI#forward`). */
   testOutcome(id: string): string | undefined;
+  /** How many test runs were recorded from checks started outside the Testing view. */
+  recordedTestRuns(): number;
   /** The last lines written to the extension's output channel (client and server logs). */
   logTail(): string[];
 }
@@ -62,6 +64,7 @@ export class ProbeContext implements vscode.Disposable {
     status: () => this.lastStatus,
     ops: (uri) => this.opsByUri.get(uri),
     testOutcome: (id) => this.tests.outcomes.get(id),
+    recordedTestRuns: () => this.tests.recordedRuns,
     logTail: () => this.output.tail(),
   };
 

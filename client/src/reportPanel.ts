@@ -19,7 +19,7 @@ export class ReportPanels implements vscode.Disposable {
     let answer = await client.sendRequest<OpReportResult>(Methods.opReport, target);
     if (!answer.result && answer.reason?.includes('not been checked')) {
       const checked = await client.sendRequest<CheckOpsResult>(Methods.checkOps, { uri: target.uri, forwards: [target.forward] });
-      answer = checked.results[0] ? { result: checked.results[0] } : { result: null, reason: checked.reason ?? answer.reason };
+      answer = checked.results[0] ? await client.sendRequest<OpReportResult>(Methods.opReport, target) : { result: null, reason: checked.reason ?? answer.reason };
     }
     const key = `${target.uri}#${target.forward}`;
     let panel = this.panels.get(key);
@@ -40,6 +40,7 @@ export class ReportPanels implements vscode.Disposable {
         fileLabel: vscode.workspace.asRelativePath(vscode.Uri.parse(target.uri)),
         nonce,
         cspSource: panel.webview.cspSource,
+        ...(answer.tolerance !== undefined ? { tolerance: answer.tolerance } : {}),
       });
       return true;
     }

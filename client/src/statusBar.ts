@@ -35,14 +35,15 @@ export class ProbeStatusBar implements vscode.Disposable {
       this.item.backgroundColor = undefined;
       return;
     }
-    const parts = [`$(pass) ${status.pass}`, `$(error) ${status.mismatch}`];
-    if (status.inconclusive > 0) parts.push(`$(question) ${status.inconclusive}`);
-    if (status.error > 0) parts.push(`$(warning) ${status.error}`);
+    // The verdict words of the CLI and the JSON report, so every surface reads the same.
+    const parts = [`$(pass) ${status.pass} pass`, `$(error) ${status.mismatch} mismatch`];
+    if (status.inconclusive > 0) parts.push(`$(question) ${status.inconclusive} inconclusive`);
+    if (status.error > 0) parts.push(`$(warning) ${status.error} error`);
     if (status.checking > 0) parts.push(`$(sync~spin) ${status.checking}`);
     this.item.text = `gradients${status.isolated ? ' (isolated)' : ''} ${parts.join(' ')}`;
     this.item.tooltip = [
       status.isolated ? 'Gradient Probe — untrusted workspace: checks run in the isolated interpreter (slower, small ops only)' : 'Gradient Probe',
-      `${status.pass} pass · ${status.mismatch} mismatch · ${status.inconclusive} inconclusive · ${status.error} could not be checked`,
+      `${status.pass} pass · ${status.mismatch} mismatch · ${status.inconclusive} inconclusive · ${status.error} error`,
       status.checking > 0 ? `${status.checking} being checked now` : '',
     ].filter(Boolean).join('\n');
     this.item.backgroundColor = status.mismatch > 0 ? new vscode.ThemeColor('statusBarItem.errorBackground') : undefined;

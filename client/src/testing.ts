@@ -1,16 +1,24 @@
 // The Testing view: every annotated op is a test item, grouped by file; running an item
 // checks that op through the server and reports pass or failure with the verdict's message.
+// Checks started elsewhere (a save, a lens, a command) are recorded as test runs too, from the
+// op states the server pushes: each new result once, with its message and duration.
 
 import * as vscode from 'vscode';
 import type { OpResult } from '../../server/src/engine/types';
-import { Methods, type CheckOpsParams, type CheckOpsResult, type FileOps, type ListWorkspaceOpsResult } from '../../server/src/lsp/protocol';
+import { Methods, type CheckOpsParams, type CheckOpsResult, type FileOps, type ListWorkspaceOpsResult, type OpSummary } from '../../server/src/lsp/protocol';
 import type { ProbeContext } from './context';
 
 export class ProbeTests implements vscode.Disposable {
   readonly controller = vscode.tests.createTestController('gradientProbe', 'Gradient Probe');
   /** The outcome of each item's latest run (by test item id), for the in-editor tests. */
   readonly outcomes = new Map<string, 'passed' | 'failed' | 'errored' | 'skipped'>();
+  /** Runs recorded from pushed results (not started in the Testing view), for the in-editor tests. */
+  recordedRuns = 0;
   private readonly disposables: vscode.Disposable[] = [this.controller];
+  /** The number of the last result recorded per item, so a re-pushed result is not recorded again. */
+  private readonly recordedSeq = new Map<string, number>();
+  /** Items a Testing-view run is checking now: that run reports them itself. */
+  private readonly inViewRun = new Set<string>();
 
   constructor(private readonly ctx: ProbeContext) {
     this.controller.resolveHandler = async (item) => {
@@ -43,14 +51,47 @@ export class ProbeTests implements vscode.Disposable {
       this.controller.items.add(fileItem);
     }
     const children: vscode.TestItem[] = [];
+    const fresh: { item: vscode.TestItem; op: OpSummary }[] = [];
     for (const op of file.ops) {
       const id = `${file.uri}#${op.forward}`;
       const item = fileItem.children.get(id) ?? this.controller.createTestItem(id, op.forward, uri);
       item.range = new vscode.Range(op.range.start.line, op.range.start.character, op.range.end.line, op.range.end.character);
       item.description = op.state;
       children.push(item);
+      if (op.seq !== undefined && op.seq !== this.recordedSeq.get(id)) {
+        this.recordedSeq.set(id, op.seq);
+        if (!this.inViewRun.has(id)) fresh.push({ item, op });
+      }
     }
     fileItem.children.replace(children);
+    if (fresh.length > 0) this.recordPushed(fresh);
+  }
+
+  /** Records results of checks started outside the Testing view as one finished test run. */
+  private recordPushed(fresh: { item: vscode.TestItem; op: OpSummary }[]): void {
+    const run = this.controller.createTestRun(new vscode.TestRunRequest(fresh.map((f) => f.item)), 'Gradient Probe (on save or command)', true);
+    for (const { item, op } of fresh) {
+      run.started(item);
+      const duration = op.elapsedMs;
+      const message = new vscode.TestMessage(`${op.state}: ${op.message}`);
+      if (item.uri && item.range) message.location = new vscode.Location(item.uri, item.range);
+      run.appendOutput(`${item.label}: ${op.state} — ${op.message}\r\n`, undefined, item);
+      if (op.state === 'pass') {
+        run.passed(item, duration);
+        this.outcomes.set(item.id, 'passed');
+      } else if (op.state === 'mismatch') {
+        run.failed(item, message, duration);
+        this.outcomes.set(item.id, 'failed');
+      } else if (op.state === 'error') {
+        run.errored(item, message, duration);
+        this.outcomes.set(item.id, 'errored');
+      } else {
+        run.skipped(item);
+        this.outcomes.set(item.id, 'skipped');
+      }
+    }
+    run.end();
+    this.recordedRuns++;
   }
 
   /** Runs the requested items: whole files or single ops, one server request per file. */
@@ -79,9 +120,18 @@ export class ProbeTests implements vscode.Disposable {
           }
           continue;
         }
-        for (const item of wanted) run.started(item);
+        for (const item of wanted) {
+          run.started(item);
+          this.inViewRun.add(item.id);
+        }
         const params: CheckOpsParams = { uri: fileItem.id, forwards: wanted.map((i) => i.label), force: true };
-        const answer = await client.sendRequest<CheckOpsResult>(Methods.checkOps, params, token);
+        let answer: CheckOpsResult;
+        try {
+          answer = await client.sendRequest<CheckOpsResult>(Methods.checkOps, params, token);
+        } finally {
+          // The server pushes the op states before it answers, so these are already seen.
+          for (const item of wanted) this.inViewRun.delete(item.id);
+        }
         const byName = new Map<string, OpResult>(answer.results.map((r) => [r.forward ?? '', r]));
         for (const item of wanted) {
           const result = byName.get(item.label);
@@ -109,13 +159,14 @@ export class ProbeTests implements vscode.Disposable {
 function report(run: vscode.TestRun, item: vscode.TestItem, result: OpResult): 'passed' | 'failed' | 'errored' | 'skipped' {
   const duration = result.elapsedMs;
   if (result.output) run.appendOutput(result.output.replace(/\r?\n/g, '\r\n'), undefined, item);
+  // Every result leaves a line in the run's output, a pass too (its figure and time).
+  run.appendOutput(`${item.label}: ${result.verdict} — ${result.message || 'gradient agrees'} (${result.elapsedMs.toFixed(1)} ms)\r\n`, undefined, item);
   if (result.verdict === 'pass') {
     run.passed(item, duration);
     return 'passed';
   }
   if (result.verdict === 'inconclusive') {
     // Neither right nor wrong: the numeric estimate could not be trusted at the sample.
-    run.appendOutput(`${item.label}: inconclusive: ${result.message}\r\n`, undefined, item);
     run.skipped(item);
     return 'skipped';
   }

@@ -119,5 +119,19 @@ describe('extension manifest', () => {
       assert.ok(included.includes(needed), `.vscodeignore re-includes ${needed}`);
     }
     assert.ok(!included.some((l) => l.startsWith('server/') || l.startsWith('client/') || l.startsWith('test/')), 'no sources or tests');
+    for (const needed of ['CHANGELOG.md', 'images/*.png']) assert.ok(included.includes(needed), `.vscodeignore re-includes ${needed}`);
+  });
+
+  it('has what the marketplace page needs: icon, keywords, a short README in the verdict words, a CHANGELOG', () => {
+    const pkg = JSON.parse(readFileSync(join(root, 'package.json'), 'utf8')) as { icon?: string; keywords?: string[] };
+    assert.match(pkg.icon ?? '', /^images\/[\w-]+\.png$/);
+    assert.ok((pkg.keywords ?? []).includes('gradient'));
+    // The icon is a PNG of at least 128×128 (width and height are the IHDR's first two fields).
+    const png = readFileSync(join(root, 'client', 'marketplace', 'icon.png'));
+    assert.equal(png.subarray(1, 4).toString('ascii'), 'PNG');
+    assert.ok(png.readUInt32BE(16) >= 128 && png.readUInt32BE(20) >= 128);
+    const readme = readFileSync(join(root, 'client', 'marketplace', 'README.md'), 'utf8');
+    for (const word of ['`pass`', '`mismatch`', '`inconclusive`', '`error`', 'Workspace trust', 'Settings']) assert.ok(readme.includes(word), word);
+    assert.match(readFileSync(join(root, 'client', 'marketplace', 'CHANGELOG.md'), 'utf8'), /^## \d+\.\d+\.\d+$/m);
   });
 });

@@ -109,3 +109,56 @@ describe('report page', function () {
     assert.match(html, /a &amp; b/);
   });
 });
+
+describe('report page: tolerance, reference curve, legend and detection floor', function () {
+  this.timeout(60_000);
+  let mismatch: OpResult;
+  before(async () => {
+    const checker = new Checker({ settings: DEFAULT_SETTINGS, workers: 1 });
+    try {
+      [mismatch] = (await checker.checkFile(join(FIXTURES, 'mismatch.ts'))) as [OpResult];
+    } finally {
+      await checker.dispose();
+    }
+  });
+
+  it('draws the tolerance as a line at tolerance × |value| of the worst element, with a legend', () => {
+    const p = mismatch.params[0]!;
+    const svg = stepPlot(p.stepScan!, 'x', { tolerance: 1e-6, worst: p.worst, elementwise: true });
+    const toY = axis(svg, 'y');
+    const level = 1e-6 * Math.max(Math.abs(p.worst!.analytic), Math.abs(p.worst!.numeric));
+    const y = Number(/<line class="tolerance" x1="[\d.]+" y1="([\d.]+)"/.exec(svg)![1]);
+    assert.ok(Math.abs(y - toY(Math.log10(level))) < 0.2, `tolerance line at ${y}, expected ${toY(Math.log10(level))}`);
+    assert.match(svg, /<ul class="plotlegend"><li><span class="swatch observed"><\/span>observed/);
+    assert.match(svg, /tolerance 1\.00e-6 × \|value\|/);
+  });
+
+  it('beside a wrong backward\'s flat floor, draws the V a correct one would show', () => {
+    // Nocedal & Wright, 2nd ed., §8.1: the central difference's own error is lowest at a middle
+    // step (truncation ∝ h² against roundoff ∝ u/h); the observed error of a wrong backward is flat.
+    const p = mismatch.params[0]!;
+    const svg = stepPlot(p.stepScan!, 'x', { worst: p.worst, elementwise: true });
+    const ref = /<polyline class="reference" points="([^"]+)"/.exec(svg);
+    assert.ok(ref, 'reference curve drawn');
+    const ys = ref[1]!.split(' ').map((pt) => Number(pt.split(',')[1]));
+    const lowest = ys.reduce((best, y, i) => (y > ys[best]! ? i : best), 0);
+    assert.ok(lowest > 0 && lowest < ys.length - 1, `the reference V has its lowest error inside the scan (index ${lowest} of ${ys.length})`);
+    // Its bottom lies far below the observed floor (here the bug is an error of 1/2 relative).
+    const observed = polyline(svg).map((pt) => pt.y);
+    assert.ok(Math.max(...ys) - Math.max(...observed) > 50, 'the V dips well below the flat floor');
+  });
+
+  it('shows the detection floor when the engine reports one, and nothing about it otherwise', () => {
+    const p = { ...mismatch.params[0]!, detectionFloor: 3e-9 };
+    const html = reportPage({ result: { ...mismatch, params: [p] }, fileLabel: 'm.ts', nonce: 'n', cspSource: 's', tolerance: 1e-6 });
+    assert.match(html, /<line class="floor"/);
+    assert.match(html, /detection floor 3\.00e-9 × \|value\|/);
+    const noFloor = mismatch.params.map((q) => {
+      const copy = { ...q };
+      delete copy.detectionFloor;
+      return copy;
+    });
+    const without = reportPage({ result: { ...mismatch, params: noFloor }, fileLabel: 'm.ts', nonce: 'n', cspSource: 's', tolerance: 1e-6 });
+    assert.doesNotMatch(without, /class="floor"|swatch floor/);
+  });
+});

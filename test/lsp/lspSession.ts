@@ -46,6 +46,8 @@ export interface SessionOptions {
   /** What the server gets for `workspace/configuration` of section gradientProbe. */
   settings?: Record<string, unknown>;
   workspace?: string;
+  /** The folder `open`, `uri` and `text` take relative paths from (default: the LSP fixtures). */
+  filesRoot?: string;
 }
 
 export class LspSession {
@@ -104,11 +106,11 @@ export class LspSession {
   }
 
   uri(relativePath: string): string {
-    return pathToFileURL(join(FIXTURES, relativePath)).toString();
+    return pathToFileURL(join(this.options.filesRoot ?? FIXTURES, relativePath)).toString();
   }
 
   text(relativePath: string): string {
-    return readFileSync(join(FIXTURES, relativePath), 'utf8');
+    return readFileSync(join(this.options.filesRoot ?? FIXTURES, relativePath), 'utf8');
   }
 
   async open(relativePath: string): Promise<string> {
@@ -128,6 +130,13 @@ export class LspSession {
       textDocument: { uri, version },
       contentChanges: [{ range: { start: at, end: at }, text }],
     });
+  }
+
+  /** Replaces the whole text of an open document (a full-content change). */
+  async replaceText(uri: string, text: string): Promise<void> {
+    const version = (this.versions.get(uri) ?? 1) + 1;
+    this.versions.set(uri, version);
+    await this.connection.sendNotification(DidChangeTextDocumentNotification.type, { textDocument: { uri, version }, contentChanges: [{ text }] });
   }
 
   async save(uri: string): Promise<void> {

@@ -76,12 +76,17 @@ describe('language server over LSP (trusted workspace)', function () {
     assert.equal(s.diagnostics.get(uri)?.length ?? 0, 0, 'a pass publishes no diagnostic');
     const lenses = await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } }) as CodeLens[];
     const titles = lenses.map((l) => l.command?.title ?? '');
-    assert.equal(lenses.length, 2, titles.join(' | '));
-    assert.match(titles[0]!, /^✓ gradient ok · worst x \d\.\de-\d+ rel · \d/);
+    assert.equal(lenses.length, 3, titles.join(' | '));
+    assert.match(titles[0]!, /^✓ pass · worst x \d\.\de-\d+ rel · \d/);
     assert.equal(lenses[0]!.command?.command, 'gradientProbe.server.recheck');
     assert.deepEqual(lenses[0]!.command?.arguments, [uri, 'softplus']);
     assert.equal(lenses[1]!.command?.command, 'gradientProbe.openReport');
     assert.deepEqual(lenses[0]!.range.start, positionOf(text, 'softplus('));
+    // Above the backward: the way back to its forward.
+    assert.equal(lenses[2]!.command?.title, 'backward of softplus');
+    assert.equal(lenses[2]!.command?.command, 'gradientProbe.goToOp');
+    assert.deepEqual(lenses[2]!.range.start, positionOf(text, 'softplusBackward('));
+    assert.deepEqual(lenses[2]!.command?.arguments, [uri, positionOf(text, 'softplus(').line, positionOf(text, 'softplus(').character]);
 
     const hover = hoverText(await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: positionOf(text, 'softplus(') }));
     assert.match(hover, /\*\*softplus\*\* → backward `softplusBackward` — \*\*pass\*\* · seed 1234/);
@@ -91,6 +96,8 @@ describe('language server over LSP (trusted workspace)', function () {
     // The @sample tag's hover narrows the table to the parameter it draws.
     const tagHover = hoverText(await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: positionOf(text, '@sample x') }));
     assert.match(tagHover, /\| x \| f64\[8\] \|/);
+    // On the tag's name, the hover also says what the tag does, above the figures.
+    assert.match(tagHover, /^\*\*@sample\*\* — How to draw one parameter[\s\S]*---[\s\S]*\| x \| f64\[8\] \|/);
     const report = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri, forward: 'softplus' });
     assert.ok(report.result!.params[0]!.maxRelError < USER_SETTINGS.tolerance.f64);
   });
@@ -274,7 +281,7 @@ describe('language server over LSP (untrusted, isolated interpreter opted in)', 
     const uri = await s.open('mismatch.ts');
     await s.waitFor('growth to mismatch in the interpreter', () => s.opState(uri, 'growth') === 'mismatch');
     const lenses = await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } }) as CodeLens[];
-    assert.match(lenses[0]!.command!.title, /^✗ gradient mismatch · x 5\.0e-1 rel · .* · isolated interpreter$/);
+    assert.match(lenses[0]!.command!.title, /^✗ mismatch · x 5\.0e-1 rel · .* · isolated interpreter$/);
     const diag = await s.waitFor('the mismatch diagnostic', () => s.diagnostics.get(uri)?.find((d) => d.code === 'gradient-mismatch'));
     assert.match(String(diag.message), /\[isolated interpreter\]$/);
     // The same figures as the runner process: the engine is the same, only the host differs.

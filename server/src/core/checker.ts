@@ -50,6 +50,8 @@ export interface CheckFileOptions {
   onResult?: (result: OpResult) => void;
   /** Overrides the Checker's settings for this call. */
   settings?: CheckSettings;
+  /** Called with the bundle's input files (absolute paths) once the file is bundled. */
+  onBundle?: (inputs: string[]) => void;
   /** Only ops this accepts are checked, after `filter` (the CLI's --shard); the others are left out. */
   select?: (op: OpDescriptor) => boolean;
   /**
@@ -236,6 +238,12 @@ export class Checker {
         results[i] = emit(errorResult(abs, ops[i], settings, `the module could not be bundled: ${bundle.message}`, { problems }));
       }
       return results as OpResult[];
+    }
+
+    try {
+      opts.onBundle?.(bundle.inputs);
+    } catch {
+      // A failing listener must not stop the checks.
     }
 
     // The per-file cap and the caller's signal both stop what is still queued or running.

@@ -32,7 +32,15 @@ export interface Problem extends SourcePosition {
   message: string;
   endLine?: number;
   endColumn?: number;
+  /** A fix the editor can offer as a quick fix; where absent it reads the message's wording. */
+  fix?: ProblemFix;
 }
+
+/**
+ * What would repair a problem: replace its range with a word (a did-you-mean), add the missing
+ * `@sample` lines of the op, or create the named function (a missing backward) as a stub.
+ */
+export type ProblemFix = { kind: 'replace'; text: string } | { kind: 'add-samples' } | { kind: 'create-function'; name: string };
 
 /** One JSDoc tag of an op, with its place (for diagnostics and related information). */
 export interface TagLocation extends SourcePosition {

@@ -1,18 +1,39 @@
 // Runs checks for the language server: one Checker for the whole server, the latest result of
 // every op per document, which ops are running, cancellation of stale runs, and reuse of a
-// result when neither the text nor the settings changed since it was computed.
+// result when neither the text, the settings nor any other file of its bundle changed since it
+// was computed (the bundle's inputs are remembered, so a saved helper file re-checks its users).
 
 import { createHash } from 'node:crypto';
+import { statSync } from 'node:fs';
 import { basename } from 'node:path';
 import { Checker } from '../core/checker';
 import { DEFAULT_SETTINGS, type CheckSettings } from '../engine/settings';
 import type { OpResult } from '../engine/types';
 import { settingsKey } from './settings';
 
-/** A result and the (text, settings) it was computed for. */
+/** A result, the (text, settings) it was computed for, and the other input files' stamps then. */
 interface StoredResult {
   key: string;
   result: OpResult;
+  /** Size and modification time of every other file the bundle read, by path. */
+  inputs: ReadonlyMap<string, string>;
+  /** Stored results are numbered, so a client can tell a new result from one pushed again. */
+  seq: number;
+}
+
+/** A file's size and modification time: what tells that it changed on disk. */
+function stampOf(path: string): string {
+  try {
+    const st = statSync(path);
+    return `${st.size}:${st.mtimeMs}`;
+  } catch {
+    return 'missing';
+  }
+}
+
+function inputsUnchanged(inputs: ReadonlyMap<string, string>): boolean {
+  for (const [path, stamp] of inputs) if (stampOf(path) !== stamp) return false;
+  return true;
 }
 
 /** Why a run did not happen; shown to the user as is. */
@@ -40,8 +61,11 @@ export class CheckService {
   private readonly results = new Map<string, Map<string, StoredResult>>();
   private readonly running = new Map<string, Map<string, number>>();
   private readonly controllers = new Map<string, Set<AbortController>>();
+  /** The other files each document's last bundle read (absolute paths). */
+  private readonly bundleInputs = new Map<string, string[]>();
   private trusted: boolean;
   private started = 0;
+  private storedCount = 0;
 
   constructor(
     options: { trusted: boolean; workers?: number },
@@ -79,6 +103,11 @@ export class CheckService {
     return this.results.get(uri)?.get(forward)?.result;
   }
 
+  /** The number of the op's latest result (see StoredResult.seq). */
+  latestSeq(uri: string, forward: string): number | undefined {
+    return this.results.get(uri)?.get(forward)?.seq;
+  }
+
   isRunning(uri: string, forward: string): boolean {
     return (this.running.get(uri)?.get(forward) ?? 0) > 0;
   }
@@ -92,6 +121,14 @@ export class CheckService {
     this.cancel(uri);
     this.results.delete(uri);
     this.running.delete(uri);
+    this.bundleInputs.delete(uri);
+  }
+
+  /** Documents whose last bundle read the given file (not counting the file itself). */
+  dependentsOf(fsPath: string): string[] {
+    const out: string[] = [];
+    for (const [uri, inputs] of this.bundleInputs) if (uri !== fsPath && inputs.includes(fsPath)) out.push(uri);
+    return out;
   }
 
   /**
@@ -106,7 +143,10 @@ export class CheckService {
     // Unique names: a client may name an op twice (a file and its op both selected).
     const wanted = [...new Set(request.forwards ?? request.knownForwards)];
     const stored = this.results.get(request.uri);
-    const reusable = !request.force && wanted.length > 0 && wanted.every((f) => stored?.get(f)?.key === key);
+    const reusable = !request.force && wanted.length > 0 && wanted.every((f) => {
+      const entry = stored?.get(f);
+      return entry?.key === key && inputsUnchanged(entry.inputs);
+    });
     if (reusable) return wanted.map((f) => stored!.get(f)!.result);
 
     this.started += wanted.length;
@@ -121,12 +161,19 @@ export class CheckService {
     this.markRunning(request.uri, wanted, +1);
     const finished = new Set<string>();
     const collected: OpResult[] = [];
+    // Stamps of the bundle's other inputs, taken when it was built (before any op ran).
+    let inputs: ReadonlyMap<string, string> = new Map();
+    const onBundle = (paths: string[]): void => {
+      const others = paths.filter((p) => p !== request.fsPath);
+      this.bundleInputs.set(request.uri, others);
+      inputs = new Map(others.map((p) => [p, stampOf(p)] as const));
+    };
     const accept = (result: OpResult): void => {
       if (controller.signal.aborted) return;
       const forward = result.forward ?? '';
       if (request.forwards && !request.forwards.includes(forward)) return; // `filter` is a substring match
       collected.push(result);
-      this.store(request.uri, forward, key, result);
+      this.store(request.uri, forward, key, result, inputs);
       if (wanted.includes(forward) && !finished.has(forward)) {
         finished.add(forward);
         this.markRunning(request.uri, [forward], -1);
@@ -143,11 +190,13 @@ export class CheckService {
         signal: controller.signal,
         settings: request.settings,
         onResult: accept,
+        onBundle,
         coverage: request.coverage !== false,
         // Verdicts show at once; an op's coverage (hints, hover line) follows when its run ends.
         onCoverage: (result) => {
           if (controller.signal.aborted) return;
-          this.store(request.uri, result.forward ?? '', key, result);
+          // The same run's result with its coverage: the same number, so it is not recorded twice.
+          this.store(request.uri, result.forward ?? '', key, result, inputs, true);
           this.onChange(request.uri);
         },
         ...(filter !== undefined ? { filter } : {}),
@@ -189,10 +238,12 @@ export class CheckService {
     return this.checker;
   }
 
-  private store(uri: string, forward: string, key: string, result: OpResult): void {
+  /** `sameRun`: the result of a run already stored (now with its coverage) keeps its number. */
+  private store(uri: string, forward: string, key: string, result: OpResult, inputs: ReadonlyMap<string, string>, sameRun = false): void {
     let perDoc = this.results.get(uri);
     if (!perDoc) this.results.set(uri, (perDoc = new Map()));
-    perDoc.set(forward, { key, result });
+    const previous = perDoc.get(forward)?.seq;
+    perDoc.set(forward, { key, result, inputs, seq: sameRun && previous !== undefined ? previous : ++this.storedCount });
   }
 
   private markRunning(uri: string, forwards: string[], delta: number): void {

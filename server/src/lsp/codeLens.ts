@@ -1,10 +1,11 @@
-// Code lenses above every annotated op: the verdict with its figure (worst parameter, max
-// relative error, time) or "checking…" while it runs — clicking re-checks the op — and one
-// more that opens the op's report.
+// Code lenses above every annotated op: the verdict, in the CLI's words (`pass`, `mismatch`,
+// `inconclusive`, `error`), with its figure (worst parameter, max relative error, time) or "checking…" while it runs — clicking re-checks the op — and one
+// more that opens the op's report. Above a backward declared in the same file, a lens leads
+// back to the forward it belongs to.
 
 import type { CodeLens } from 'vscode-languageserver';
 import type { DocumentFacts } from './documentFacts';
-import { millis, oneLine, opNameRange, sci, worstParam } from './format';
+import { millis, oneLine, opNameRange, sci, toRange, worstParam } from './format';
 import { ClientCommands, ServerCommands } from './protocol';
 
 export function codeLensesFor(facts: DocumentFacts): CodeLens[] {
@@ -37,24 +38,35 @@ export function codeLensesFor(facts: DocumentFacts): CodeLens[] {
     }
     const p = worstParam(result);
     // Several derivatives of one forward share its line: each lens names its own kind.
-    const what = op.kind !== undefined && op.kind !== 'backward' ? op.kind : 'gradient';
+    // The verdict words of the CLI; a derivative other than the backward is named before them.
+    const kindWord = op.kind !== undefined && op.kind !== 'backward' ? `${op.kind} ` : '';
     // Checks in the isolated interpreter say so: they are slower and limited to small ops.
     const time = `${millis(result.elapsedMs)}${result.isolation === 'interpreter' ? ' · isolated interpreter' : ''}`;
     switch (result.verdict) {
       case 'pass':
-        lenses.push(recheck(`✓ ${what} ok${p ? ` · worst ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
+        lenses.push(recheck(`✓ ${kindWord}pass${p ? ` · worst ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
         break;
       case 'mismatch':
-        lenses.push(recheck(`✗ ${what} mismatch${p ? ` · ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
+        lenses.push(recheck(`✗ ${kindWord}mismatch${p ? ` · ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
         break;
       case 'inconclusive':
         lenses.push(recheck(`? inconclusive · ${oneLine(result.message, 60)} · ${time}`));
         break;
       case 'error':
-        lenses.push(recheck(`! could not check · ${oneLine(result.message, 60)}${result.isolation === 'interpreter' ? ' · isolated interpreter' : ''}`));
+        lenses.push(recheck(`! error · ${oneLine(result.message, 60)}${result.isolation === 'interpreter' ? ' · isolated interpreter' : ''}`));
         break;
     }
     lenses.push({ range, command: { title: 'report', command: ClientCommands.openReport, arguments: args } });
+  }
+  for (const op of snapshot.ops) {
+    const loc = op.backwardLocation;
+    if (!loc || loc.file !== snapshot.fsPath) continue;
+    const at = opNameRange(op, snapshot.lines).start;
+    lenses.push({
+      range: toRange(loc, undefined, snapshot.lines),
+      // The forward's own name: an op's display name also carries its kind (`reach @jacobian`).
+      command: { title: `${op.kind ?? 'backward'} of ${op.forward.replace(/ @\w+$/, '')}`, command: ClientCommands.goToOp, arguments: [snapshot.uri, at.line, at.character] },
+    });
   }
   return lenses;
 }

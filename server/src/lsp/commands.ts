@@ -3,6 +3,7 @@
 // snippet. Each answers with a reason instead of failing when nothing can be done.
 
 import { DEFAULT_SETTINGS } from '../engine/settings';
+import type { OpDescriptor, OpResult } from '../engine/types';
 import { CheckRefused } from './checkService';
 import type { CheckOpsParams, CheckOpsResult, OpReportParams, OpReportResult, RegressionTestResult } from './protocol';
 import { regressionTestFor } from './regressionTest';
@@ -16,6 +17,8 @@ export async function checkOps(session: Session, params: CheckOpsParams, signal:
       ...(params.force !== undefined ? { force: params.force } : {}),
       signal,
     });
+    // The op states go out before the answer, so the client sees them in that order.
+    await session.pushNow();
     return { results };
   } catch (err) {
     if (err instanceof CheckRefused) return { results: [], reason: err.message };
@@ -37,7 +40,7 @@ export async function opReport(session: Session, params: OpReportParams): Promis
   const op = facts?.snapshot.ops.find((o) => o.forward === params.forward);
   if (!facts || !op) return { result: null, reason: `no annotated op named ${params.forward} in this file` };
   const result = facts.latest(op.forward);
-  if (result) return { result };
+  if (result) return { result, tolerance: await toleranceOf(session, key, op, result) };
   if (op.problems.length > 0) return { result: null, reason: `${op.forward} has annotation errors; fix them first` };
   if (facts.configError) return { result: null, reason: facts.configError.message };
   if (!facts.trusted && !facts.isolated) return { result: null, reason: 'the workspace is not trusted, so no code from it runs' };
@@ -50,9 +53,13 @@ export async function regressionTest(session: Session, params: OpReportParams): 
   const op = facts?.snapshot.ops.find((o) => o.forward === params.forward);
   const result = facts?.latest(params.forward);
   if (!op || !result) return { snippet: null, reason: (await opReport(session, params)).reason ?? 'no result' };
+  const outcome = regressionTestFor(op, result, await toleranceOf(session, key, op, result));
+  return 'snippet' in outcome ? { snippet: outcome.snippet } : { snippet: null, reason: outcome.reason };
+}
+
+/** The relative tolerance an op is judged with: its @tolerance, else the setting for its element type. */
+async function toleranceOf(session: Session, key: string, op: OpDescriptor, result: OpResult): Promise<number> {
   const settings = (await session.effectiveSettings(key)).settings ?? DEFAULT_SETTINGS;
   const f32 = result.params.some((p) => p.dtype === 'f32');
-  const tolerance = op.tolerance ?? (f32 ? settings.toleranceF32 : settings.toleranceF64);
-  const outcome = regressionTestFor(op, result, tolerance);
-  return 'snippet' in outcome ? { snippet: outcome.snippet } : { snippet: null, reason: outcome.reason };
+  return op.tolerance ?? (f32 ? settings.toleranceF32 : settings.toleranceF64);
 }

@@ -4,10 +4,11 @@
 
 import { pathToFileURL } from 'node:url';
 import { DiagnosticSeverity, type Diagnostic, type DiagnosticRelatedInformation } from 'vscode-languageserver';
-import type { OpDescriptor, OpResult } from '../engine/types';
+import type { OpDescriptor, OpResult, Problem } from '../engine/types';
 import { UNREACHED_CODE, unreachedDiagnostics } from './coverageMarks';
 import type { DocumentFacts } from './documentFacts';
 import { opNameRange, problemRange, toRange, verdictSentence, worstParam } from './format';
+import { fixOf } from './problemFixes';
 
 /** The `source` of every diagnostic we publish. */
 export const DIAGNOSTIC_SOURCE = 'gradient-probe';
@@ -36,6 +37,7 @@ export function diagnosticsFor(facts: DocumentFacts): Diagnostic[] {
           source: DIAGNOSTIC_SOURCE,
           code: DiagnosticCodes.annotation,
           message: `${op.forward}: ${problem.message}`,
+          ...withFix(problem),
         });
       }
       continue;
@@ -109,4 +111,10 @@ function resultDiagnostic(op: OpDescriptor, result: OpResult, facts: DocumentFac
 
 function zeroRange(): Diagnostic['range'] {
   return { start: { line: 0, character: 0 }, end: { line: 0, character: 0 } };
+}
+
+/** The quick fix the problem admits, as the diagnostic's `data` (codeActions.ts reads it back). */
+function withFix(problem: Problem): { data?: { fix: NonNullable<Problem['fix']> } } {
+  const fix = fixOf(problem);
+  return fix ? { data: { fix } } : {};
 }

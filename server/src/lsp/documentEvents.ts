@@ -38,6 +38,25 @@ export class DocumentEvents {
   async saved(e: TextDocumentChangeEvent<TextDocument>): Promise<void> {
     const key = this.session.keyOf(e.document.uri);
     if ((await this.session.effectiveSettings(key)).checkWhen !== 'on-command') this.runQuietly(key);
+    await this.fileChanged(key);
+  }
+
+  /**
+   * A file changed on disk (saved here, or by another program): every document whose last
+   * bundle read it is re-checked, since its results no longer describe the code that runs.
+   */
+  async fileChanged(fsPath: string): Promise<void> {
+    for (const dependent of this.session.checks.dependentsOf(fsPath)) {
+      this.session.changed(dependent);
+      if ((await this.session.effectiveSettings(dependent)).checkWhen === 'on-command') continue;
+      this.session.log(`re-check ${dependent}: ${fsPath} changed, and its bundle includes it`);
+      this.runQuietly(dependent);
+    }
+  }
+
+  /** Whether a document is open here (its saves arrive as save events). */
+  isOpen(fsPath: string): boolean {
+    return this.versions.has(fsPath);
   }
 
   closed(e: TextDocumentChangeEvent<TextDocument>): void {

@@ -23,6 +23,8 @@ export interface DocumentFacts {
   /** Mark unreached code of checked backwards (gradientProbe.showUnreached); absent means yes. */
   showUnreached?: boolean;
   latest(forward: string): OpResult | undefined;
+  /** The number of the latest result (new results get higher numbers), when known. */
+  resultSeq?(forward: string): number | undefined;
   isRunning(forward: string): boolean;
 }
 

@@ -19,6 +19,10 @@ export interface OpSummary {
   state: Verdict | 'checking' | 'unchecked' | 'not-run';
   /** One line for the Testing view and the status bar tooltip. */
   message: string;
+  /** With a result: how long its check took. */
+  elapsedMs?: number;
+  /** With a result: its number; a higher one is a newer result (the Testing view records each once). */
+  seq?: number;
 }
 
 export interface FileOps {
@@ -103,6 +107,8 @@ export interface OpReportParams {
 }
 export interface OpReportResult {
   result: OpResult | null;
+  /** The relative tolerance the op is judged with (its @tolerance or the setting). */
+  tolerance?: number;
   /** Why there is no result (not checked yet, untrusted, unknown op). */
   reason?: string;
 }
@@ -123,4 +129,6 @@ export const ServerCommands = {
 /** Client-side command a code lens opens (the report webview); args: [uri, forward]. */
 export const ClientCommands = {
   openReport: 'gradientProbe.openReport',
+  /** args: [uri, line, character] (0-based): reveal an op's forward (the lens above its backward). */
+  goToOp: 'gradientProbe.goToOp',
 } as const;

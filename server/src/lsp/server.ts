@@ -3,16 +3,22 @@
 // instead of taking the server down. `runLanguageServer` is what `gradient-probe lsp --stdio` calls.
 
 import { relative } from 'node:path';
-import { fileURLToPath } from 'node:url';
+import { fileURLToPath, pathToFileURL } from 'node:url';
 import {
-  CancellationToken, createConnection, DidChangeConfigurationNotification, FileChangeType, ProposedFeatures,
+  CancellationToken, CodeActionKind, createConnection, DidChangeConfigurationNotification, FileChangeType, ProposedFeatures,
   ResponseError, TextDocuments, TextDocumentSyncKind, type Connection, type InitializeParams, type InitializeResult,
 } from 'vscode-languageserver/node';
 import { TextDocument } from 'vscode-languageserver-textdocument';
+import { codeActionsFor } from './codeActions';
 import { codeLensesFor } from './codeLens';
 import { checkOps, opReport, recheck, regressionTest } from './commands';
+import { completionsAt } from './completion';
+import { definitionAt } from './definition';
 import { DocumentEvents } from './documentEvents';
 import { hoverAt } from './hover';
+import { referencesAt } from './references';
+import { documentSymbolsFor, workspaceSymbolsFor } from './symbols';
+import { tagHoverAt, withTagHover } from './tagHover';
 import {
   Methods, ServerCommands, type CheckOpsParams, type OpReportParams, type ProbeInitializationOptions, type TrustChangedParams,
 } from './protocol';
@@ -69,6 +75,12 @@ export function startServer(connection: Connection): void {
         textDocumentSync: { openClose: true, change: TextDocumentSyncKind.Incremental, save: { includeText: false } },
         codeLensProvider: { resolveProvider: false },
         hoverProvider: true,
+        completionProvider: { triggerCharacters: ['@', ' ', '(', ',', '.'], resolveProvider: false },
+        codeActionProvider: { codeActionKinds: [CodeActionKind.QuickFix, CodeActionKind.RefactorRewrite], resolveProvider: false },
+        definitionProvider: true,
+        referencesProvider: true,
+        documentSymbolProvider: { label: 'Gradient Probe ops' },
+        workspaceSymbolProvider: true,
         executeCommandProvider: { commands: [ServerCommands.recheck] },
         workspace: { workspaceFolders: { supported: true, changeNotifications: true } },
       },
@@ -103,8 +115,52 @@ export function startServer(connection: Connection): void {
   connection.onHover((params) =>
     guard('hover', null, async () => {
       const facts = await need().facts(need().keyOf(params.textDocument.uri));
-      return facts ? hoverAt(facts, params.position) : null;
+      if (!facts) return null;
+      return withTagHover(tagHoverAt(facts.snapshot.fsPath, facts.snapshot.text, params.position), hoverAt(facts, params.position));
     }));
+
+  /** The open buffer (or the file) of a request's document, with its path. */
+  const sourceOf = (uri: string): { fsPath: string; text: string } | undefined => {
+    const fsPath = need().keyOf(uri);
+    const current = need().textOf(fsPath);
+    return current ? { fsPath, text: current.text } : undefined;
+  };
+
+  connection.onCompletion((params) =>
+    guard('completion', [], () => {
+      const src = sourceOf(params.textDocument.uri);
+      return src ? completionsAt(src.fsPath, src.text, params.position) : [];
+    }));
+
+  connection.onCodeAction((params) =>
+    guard('code action', [], () => {
+      const snapshot = need().snapshot(need().keyOf(params.textDocument.uri));
+      if (!snapshot) return [];
+      return codeActionsFor({ uri: params.textDocument.uri, fileName: snapshot.fsPath, text: snapshot.text, ops: snapshot.ops, range: params.range, diagnostics: params.context.diagnostics });
+    }));
+
+  connection.onDefinition((params) =>
+    guard('definition', null, () => {
+      const src = sourceOf(params.textDocument.uri);
+      const found = src ? definitionAt(src.fsPath, src.text, params.position) : null;
+      // Answer in the client's spelling of a URI it knows.
+      return found ? { ...found, uri: found.uri === pathToFileURL(src!.fsPath).toString() ? params.textDocument.uri : found.uri } : null;
+    }));
+
+  connection.onReferences((params) =>
+    guard('references', [], () => {
+      const snapshot = need().snapshot(need().keyOf(params.textDocument.uri));
+      return snapshot ? referencesAt(snapshot, params.position) : [];
+    }));
+
+  connection.onDocumentSymbol((params) =>
+    guard('document symbols', [], async () => {
+      const facts = await need().facts(need().keyOf(params.textDocument.uri));
+      return facts ? documentSymbolsFor(facts) : [];
+    }));
+
+  connection.onWorkspaceSymbol((params) =>
+    guard('workspace symbols', [], async () => workspaceSymbolsFor(await listWorkspaceOps(need(), folders), params.query)));
 
   connection.onExecuteCommand((params) =>
     guard('command', null, async () => (params.command === ServerCommands.recheck ? recheck(need(), params.arguments) : null)));
@@ -132,6 +188,11 @@ export function startServer(connection: Connection): void {
       for (const change of params.changes) {
         if (change.uri.endsWith('/gradient-probe.json')) configChanged = true;
         else if (change.type === FileChangeType.Deleted) s.forget(s.keyOf(change.uri));
+        // Changed outside this editor (an open document's save is handled by its save event).
+        if (change.type !== FileChangeType.Created && !change.uri.endsWith('/gradient-probe.json')) {
+          const key = s.keyOf(change.uri);
+          if (!events?.isOpen(key)) void guard('re-check of dependents', undefined, () => events?.fileChanged(key));
+        }
       }
       if (configChanged) {
         s.settings.clear();

@@ -112,6 +112,7 @@ export class Session {
       showUnreached: settings.showUnreached,
       ...(settings.configError ? { configError: settings.configError } : {}),
       latest: (forward) => this.checks.latest(fsPath, forward),
+      resultSeq: (forward) => this.checks.latestSeq(fsPath, forward),
       isRunning: (forward) => this.checks.isRunning(fsPath, forward),
     };
   }

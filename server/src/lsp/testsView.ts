@@ -14,7 +14,8 @@ export function opSummaries(facts: DocumentFacts): FileOps {
     if (facts.isRunning(op.forward)) return { forward: op.forward, range, state: 'checking', message: 'checking…' };
     const result = facts.latest(op.forward);
     if (!result) return { forward: op.forward, range, state: 'unchecked', message: 'not checked yet' };
-    return { forward: op.forward, range, state: result.verdict, message: verdictSentence(result) };
+    const seq = facts.resultSeq?.(op.forward);
+    return { forward: op.forward, range, state: result.verdict, message: verdictSentence(result), elapsedMs: result.elapsedMs, ...(seq !== undefined ? { seq } : {}) };
   });
   return { uri: facts.snapshot.uri, ops };
 }

@@ -1,7 +1,7 @@
-// The same in-editor suites in a desktop VS Code downloaded by @vscode/test-electron, for
-// machines with internet access (`node test/editor/host/run.mjs --electron`). It cannot run
-// here: the download from Microsoft's update server fails without internet, so CI uses
-// runner.ts (code-server + Chromium). Needs `npm install --save-dev @vscode/test-electron`.
+// The same in-editor suites in a desktop VS Code downloaded by @vscode/test-electron (a dev
+// dependency), for machines with internet access (`node test/editor/host/run.mjs --electron`).
+// Here the download from Microsoft's update server fails without internet, so CI uses
+// runner.ts (code-server + Chromium).
 
 import { cpSync, existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -9,13 +9,13 @@ import { join } from 'node:path';
 import { screenshotFlag } from '../suite/screenshotSignal';
 import { linkRepositoryPackages } from './demoPackages';
 
-/** The part of @vscode/test-electron's API used here (the package is not a dependency). */
+/** The part of @vscode/test-electron's API used here (loaded at run time, so the CI runner never needs it). */
 interface TestElectron {
   runTests(options: { extensionDevelopmentPath: string; extensionTestsPath: string; launchArgs?: string[]; version?: string }): Promise<number>;
 }
 
 /** Screenshots the suites ask for (see suite/*Suite.ts). */
-const SCREENSHOT_NAMES = ['report', 'problems', 'untrusted'];
+const SCREENSHOT_NAMES = ['report', 'problems', 'untrusted', 'completion', 'quickfix'];
 
 /** The VS Code release the suites were written against (the code-server host ships the same). */
 const VSCODE_VERSION = '1.100.3';
@@ -26,14 +26,19 @@ export async function main(root: string): Promise<number> {
     // eslint-disable-next-line @typescript-eslint/no-require-imports
     electron = require('@vscode/test-electron') as TestElectron;
   } catch {
-    process.stderr.write('test:editor --electron needs @vscode/test-electron: npm install --save-dev @vscode/test-electron\n');
+    process.stderr.write('test:editor --electron needs @vscode/test-electron (a dev dependency): run npm ci\n');
     return 2;
   }
   const scratch = mkdtempSync(join(tmpdir(), 'gradient-probe-electron-'));
   let worst = 0;
-  for (const suite of [{ name: 'trusted', trust: false }, { name: 'untrusted', trust: true }]) {
+  const suites = [
+    { name: 'trusted', trust: false },
+    { name: 'untrusted', trust: true },
+    { name: 'writing', trust: false, workspace: join(root, 'test', 'fixtures', 'lsp-writing') },
+  ];
+  for (const suite of suites) {
     const workspace = join(scratch, `workspace-${suite.name}`);
-    cpSync(demoWorkspace(root), workspace, { recursive: true });
+    cpSync(suite.workspace ?? demoWorkspace(root), workspace, { recursive: true });
     linkRepositoryPackages(root, workspace);
     // No page to photograph here: tell the suites up front that their screenshots are "taken".
     for (const name of SCREENSHOT_NAMES) writeFileSync(screenshotFlag(workspace, name), 'not taken: desktop host\n');

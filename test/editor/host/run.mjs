@@ -1,6 +1,7 @@
 // Entry of `npm run test:editor` (after `node esbuild.mjs`): bundles the TypeScript runner and
 // the in-editor suites with esbuild, then runs the runner and exits with the suites' code.
-// `--electron` runs the suites in a downloaded desktop VS Code instead (needs internet).
+// `--electron` runs the suites in a downloaded desktop VS Code instead (needs internet);
+// `--suite=NAME` runs one suite of the code-server host (while developing it).
 import * as esbuild from 'esbuild';
 import { createRequire } from 'node:module';
 import { dirname, join, resolve } from 'node:path';
@@ -18,10 +19,12 @@ await esbuild.build({
     trusted: join(root, 'test/editor/suite/trustedSuite.ts'),
     untrusted: join(root, 'test/editor/suite/untrustedSuite.ts'),
     isolated: join(root, 'test/editor/suite/isolatedSuite.ts'),
+    writing: join(root, 'test/editor/suite/writingSuite.ts'),
   },
   outdir: join(root, 'dist/editor-suite'),
   external: ['vscode', 'mocha'],
 });
 const require = createRequire(import.meta.url);
 const { main } = require(join(root, `dist/editor-host/${runner}.js`));
-process.exit(await main(root));
+const only = process.argv.find((a) => a.startsWith('--suite='))?.slice('--suite='.length);
+process.exit(await main(root, only));

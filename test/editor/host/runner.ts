@@ -35,9 +35,11 @@ interface SuiteRun {
   trustPrompt: boolean;
   /** User settings for this run on top of HOST_SETTINGS. */
   settings?: Record<string, unknown>;
+  /** The folder to copy as the workspace, relative to the repository (default: the demo). */
+  workspace?: string;
 }
 
-export async function main(root: string): Promise<number> {
+export async function main(root: string, only?: string): Promise<number> {
   const codeServer = ensureCodeServer(join(root, '.editor-host'));
   const vsix = packageExtension(root);
   const scratch = mkdtempSync(join(tmpdir(), 'gradient-probe-editor-'));
@@ -54,12 +56,14 @@ export async function main(root: string): Promise<number> {
     { name: 'trusted', trustPrompt: false },
     { name: 'untrusted', trustPrompt: true },
     { name: 'isolated', trustPrompt: true, settings: { 'gradientProbe.isolatedWhenUntrusted': true } },
+    { name: 'writing', trustPrompt: false, workspace: 'test/fixtures/lsp-writing' },
   ];
   let worst = 0;
-  for (const run of runs) {
+  if (only !== undefined && !runs.some((r) => r.name === only)) throw new Error(`no suite named ${only}; the suites: ${runs.map((r) => r.name).join(', ')}`);
+  for (const run of runs.filter((r) => only === undefined || r.name === only)) {
     // A fresh copy per run: the suites edit and save files, and trust is remembered per folder.
     const workspace = join(scratch, `workspace-${run.name}`);
-    cpSync(demoWorkspace(root), workspace, { recursive: true });
+    cpSync(run.workspace ? join(root, run.workspace) : demoWorkspace(root), workspace, { recursive: true });
     linkRepositoryPackages(root, workspace);
     // Editor settings that keep the runs deterministic (no auto-save behind the suite's back,
     // no start page over the editor in the screenshot), plus the run's own.
