@@ -143,7 +143,7 @@ function caughtText(d: DetectionMeasurement): string {
   return `caught ${d.caught}/${d.trials}, located ${d.located}, 95 % lower bound ${d.lowerBound95.toFixed(3)}; median ${ms(d.medianMs)}, max ${ms(d.maxMs)}${Object.keys(d.missed).length ? `; missed: ${JSON.stringify(d.missed)}` : ''}`;
 }
 
-/** The goals for dense Jacobians (README, "How a check works") and block colours, each beside the exact scheme. */
+/** The goals for dense Jacobians (docs/method.md) and block colours, each beside the exact scheme. */
 function denseGoals(r: BenchReport): GoalLine[] {
   const goals: GoalLine[] = [];
   const op = (kind: string, min: number): OpMeasurement | undefined => r.ops.find((m) => m.kind === kind && m.elements >= min);

@@ -9,7 +9,7 @@ export type OpKind = 'elementwise' | 'matmul' | 'softmax' | 'conv1d' | 'layer' |
 /** The families of the op table, the seeded-bug trials and the generated workspace. */
 export const OP_KINDS: readonly OpKind[] = ['elementwise', 'matmul', 'softmax', 'conv1d', 'layer'];
 /**
- * Families measured in the op table and the seeded-bug trials only (README, "How a check works"): a softmax over one
+ * Families measured in the op table and the seeded-bug trials only (docs/method.md): a softmax over one
  * long vector, whose Jacobian couples every element with every other.
  */
 export const DENSE_KINDS: readonly OpKind[] = ['softmaxVector'];

@@ -1,9 +1,10 @@
-// The README's shell commands may fetch no package by a name this project does not own: the CLI
+// The shell commands of the README and the user docs (docs/*.md) may fetch no package by a name
+// this project does not own: the CLI
 // is not on the registry, so `npx gradient-probe …` or `npm install gradient-probe` would ask the
 // registry for someone else's package. `npx --no-install` runs only an installed copy.
 
 import assert from 'node:assert/strict';
-import { readFileSync } from 'node:fs';
+import { readdirSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { ROOT } from '../helpers/cli';
 
@@ -35,8 +36,15 @@ function registryFetch(line: string): string | undefined {
   return undefined;
 }
 
-describe('README commands', () => {
-  const lines = shellLines(readFileSync(join(ROOT, 'README.md'), 'utf8'));
+/** The README and every page of docs/: what a user copies commands from. */
+function userDocs(): string[] {
+  const pages = [join(ROOT, 'README.md')];
+  for (const name of readdirSync(join(ROOT, 'docs'))) if (name.endsWith('.md')) pages.push(join(ROOT, 'docs', name));
+  return pages;
+}
+
+describe('README and docs commands', () => {
+  const lines = userDocs().flatMap((page) => shellLines(readFileSync(page, 'utf8')));
 
   it('has shell commands to look at (install, CI, merge)', () => {
     assert.ok(lines.some((l) => l.includes('npm pack')), 'the tarball install');

@@ -1,4 +1,4 @@
-// Code written the way people write it (README, "Shapes of code that work as written"), through the real command line: exceptions
+// Code written the way people write it (docs/code-shapes.md), through the real command line: exceptions
 // thrown by the op's own code point at the user's TypeScript file, line and column in the
 // human output ("thrown at FILE:LINE:COLUMN"), the JSON report (`thrownAt`, with the inputs
 // that triggered it) and SARIF

@@ -1,4 +1,4 @@
-// Shape (README, "Shapes of code that work as written"): an op that is the module's anonymous default export.
+// Shape (docs/code-shapes.md): an op that is the module's anonymous default export.
 
 /**
  * Cube root response of the Quillmere Glasshouse humidity sensor.

@@ -1,5 +1,5 @@
 // Ops of the Quillmere Glasshouse controller (fictional) written the way people write
-// TypeScript (README, "Shapes of code that work as written"): framework-style layers that accumulate gradients, destructured and
+// TypeScript (docs/code-shapes.md): framework-style layers that accumulate gradients, destructured and
 // defaulted options, objects of functions, a logging helper that imports Node built-ins, prose
 // that mentions `@tags`, and the usual mistakes. Each shape is named in the comment above it.
 

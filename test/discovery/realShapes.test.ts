@@ -1,4 +1,4 @@
-// Common TypeScript shapes (README, "Shapes of code that work as written"): supported ones become ops
+// Common TypeScript shapes (docs/code-shapes.md): supported ones become ops
 // with the right target; refused ones get one problem at the right place saying what to write.
 import assert from 'node:assert/strict';
 import { DEFAULT_EXPORT_BINDING } from '../../server/src/engine/types';

@@ -1,5 +1,5 @@
 // Layers written the way training frameworks write them (correct code must not be flagged;
-// README, "Shapes of code that work as written"): a backward that accumulates into the
+// docs/code-shapes.md): a backward that accumulates into the
 // instance's gradient fields, a backward that reuses its upstream gradient in place, and a
 // backward that reads a cache its forward did not
 // refresh. Derivatives by the chain rule: d(W·x)/dW[i][j] = dy[i]·x[j], d/dx[j] = Σ_i W[i][j]·dy[i].

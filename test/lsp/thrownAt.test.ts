@@ -1,4 +1,4 @@
-// The editor's side of README, "When user code throws": an exception thrown by the op's own code is a diagnostic whose
+// The editor's side of docs/code-shapes.md, "When user code throws": an exception thrown by the op's own code is a diagnostic whose
 // related information points at the throwing line of the user's TypeScript (here a helper in
 // another file), through the real language server. Fixture: test/fixtures/realcode/thrown.
 

@@ -1,4 +1,4 @@
-// CI step (README, "TensorFlow.js ops"): a user's TensorFlow.js project, a folder with its own
+// CI step (docs/derivatives.md, "TensorFlow.js ops"): a user's TensorFlow.js project, a folder with its own
 // package.json that installs @tensorflow/tfjs, is checked by the built command line. The folder
 // is copied outside the repository first, so only the project's own copy of the library can be
 // found (the repository's dev dependency is out of reach), then installed from the npm registry

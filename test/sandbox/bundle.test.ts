@@ -84,7 +84,7 @@ describe('bundle: imports', function () {
     assert.deepEqual(r.location, { file, line: 4, column: 29 });
   });
 
-  it('an import of a Node built-in bundles; calling it says why it cannot work (README, "Imports")', async () => {
+  it('an import of a Node built-in bundles; calling it says why it cannot work (docs/code-shapes.md, "Imports")', async () => {
     const bundler = new Bundler();
     const file = fixture('withdeps', 'ops.ts');
     const text = `import { readFileSync } from 'node:fs';\nimport { sep } from 'node:path';\nexport const f = () => readFileSync('x');\nexport const g = () => sep;\n`;

@@ -1,4 +1,4 @@
-// Bundles kept on disk between runs (README, "Imports"): a new Bundler (a new run of the
+// Bundles kept on disk between runs (docs/code-shapes.md, "Imports"): a new Bundler (a new run of the
 // command line) reuses the bundle of an unchanged file and its imports without building, and
 // builds again when an import changed. Uses a cache folder of its own (GRADIENT_PROBE_BUNDLE_CACHE).
 import assert from 'node:assert/strict';
