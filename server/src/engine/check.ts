@@ -9,7 +9,7 @@ import { dotProductProbes, type DotProbeResult } from './dotProductCheck';
 import { estimateColumns } from './fullCheck';
 import { estimateGrouped } from './groupedCheck';
 import { float32OutputHint, paramHints, swapHints, type ParamEvidence } from './hints';
-import { bundleFramesOf } from './thrownPlace';
+import { runAttempts, stoppedOutcome } from './kindBaseline';
 import { blameOutput } from './outputBlame';
 import { ElementState, compareElements, floorsFor, type Comparison, type ElementEstimates } from './judge';
 import { elementLine } from './lines';
@@ -102,52 +102,14 @@ export function runCheck(exposed: Record<string, unknown>, request: CheckRequest
     if (op.kind !== undefined && op.kind !== 'backward') {
       return runDerivativeKind(exposed, op, settings, seed, deadline, clock, (o, st) => runCheck(exposed, { op: o, settings: st }, clock));
     }
-    const outOfTime = (): boolean => clock() > deadline;
     const h = new OpHarness(op, exposed);
     harness = h;
     calls = h.calls;
-    const kinks: KinkReport[] = [];
-    let lastParams: ParamResult[] = [];
-    let lastInputs: CheckOutcome['inputs'];
-    for (let attempt = 0; attempt <= settings.kinkResamples; attempt++) {
-      const result = runAttempt(h, op, settings, seed, attempt, outOfTime, clock);
-      if ('kink' in result) {
-        kinks[kinks.length] = result.kink;
-        lastParams = result.params;
-        lastInputs = result.inputs;
-        continue;
-      }
-      if (attempt > 0) {
-        const first = kinks[0];
-        const note = `redrawn ${attempt}× after a non-differentiable point near ${elementName(first.slot, first.index)} = ${formatNumber(first.value)}`;
-        result.message = result.message ? `${result.message}; ${note}` : note;
-      }
-      if (op.target.libraryGradient) result.gradientSource = 'library';
-      return finiteOnly(result);
-    }
-    const last = kinks[kinks.length - 1];
-    const outcome = emptyOutcome(
-      'inconclusive',
-      seed,
-      `non-differentiable point near ${elementName(last.slot, last.index)} = ${formatNumber(last.value)} (slopes on either side differ by ${formatNumber(abs(last.jump), 3)}); ${settings.kinkResamples} redraw${settings.kinkResamples === 1 ? '' : 's'} met a kink too — add \`avoid\` points to the @sample`,
-      calls,
-    );
-    // The figures of the last draw, so the report can still show what was compared.
-    outcome.params = lastParams;
-    if (lastInputs !== undefined) outcome.inputs = lastInputs;
-    return finiteOnly(outcome);
+    const outcome = runAttempts(h, op, settings, seed, deadline, clock, (ctx) => runAttempt(ctx.h, ctx.op, ctx.settings, ctx.seed, ctx.attempt, ctx.outOfTime, ctx.clock));
+    if (op.target.libraryGradient && outcome.verdict !== 'error') outcome.gradientSource = 'library';
+    return outcome;
   } catch (e) {
-    if (e instanceof CheckStop) {
-      const stopped = emptyOutcome(e.verdict, seed, e.message, calls);
-      if (e.timeLimit !== undefined) stopped.stoppedAtTimeLimit = { ...e.timeLimit, timeLimitMs };
-      // The inputs of the attempt that stopped, so an exception reproduces like a mismatch.
-      if (harness !== null && harness.capturedInputs !== undefined) stopped.inputs = harness.capturedInputs;
-      if (e.thrown !== undefined) {
-        const frames = bundleFramesOf(e.thrown);
-        if (frames !== '') stopped.thrownFrames = frames;
-      }
-      return finiteOnly(stopped);
-    }
+    if (e instanceof CheckStop) return finiteOnly(stoppedOutcome(e, seed, timeLimitMs, harness));
     return finiteOnly(emptyOutcome('error', seed, `internal error in the check engine: ${describeThrown(e)}`, calls));
   }
 }

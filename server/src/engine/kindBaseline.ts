@@ -13,6 +13,7 @@ import { unitRoundoff, type Precision } from './precision';
 import { STREAM_STRIDE, substream, type RandomSource } from './random';
 import type { KinkReport } from './refine';
 import { captureInputs, finiteOnly } from './reportData';
+import { bundleFramesOf } from './thrownPlace';
 import type { CheckSettings } from './settings';
 import type { CheckOutcome, OpDescriptor, ParamResult, Verdict } from './types';
 
@@ -107,8 +108,9 @@ function emptyOutcome(verdict: Verdict, seed: number, message: string, calls: { 
 }
 
 /**
- * Runs attempts until one ends without a kink (at most settings.kinkResamples redraws), the
- * same policy as runCheck: a kink is never a mismatch. Never throws.
+ * Runs attempts until one ends without a kink (at most settings.kinkResamples redraws): a kink is
+ * never a mismatch. The one redraw loop of every op kind (runCheck's backward check included).
+ * Never throws.
  */
 export function runAttempts(
   h: OpHarness,
@@ -144,16 +146,33 @@ export function runAttempts(
     const outcome = emptyOutcome(
       'inconclusive',
       seed,
-      `non-differentiable point near ${elementName(last.slot, last.index)} = ${formatNumber(last.value)}${last.jump !== 0 ? ` (slopes on either side differ by ${formatNumber(abs(last.jump), 3)})` : ''}; ${settings.kinkResamples} redraw${settings.kinkResamples === 1 ? '' : 's'} met one too — add \`avoid\` points to the @sample`,
+      `non-differentiable point near ${elementName(last.slot, last.index)} = ${formatNumber(last.value)}${last.jump !== 0 ? ` (slopes on either side differ by ${formatNumber(abs(last.jump), 3)})` : ''}; ${settings.kinkResamples} redraw${settings.kinkResamples === 1 ? '' : 's'} met a kink too — add \`avoid\` points to the @sample`,
       h.calls,
     );
+    // The figures of the last draw, so the report can still show what was compared.
     outcome.params = lastParams;
     if (lastInputs !== undefined) outcome.inputs = lastInputs;
     return finiteOnly(outcome);
   } catch (e) {
-    if (e instanceof CheckStop) return finiteOnly(emptyOutcome(e.verdict, seed, e.message, h.calls));
+    if (e instanceof CheckStop) return finiteOnly(stoppedOutcome(e, seed, settings.timeLimitMs, h));
     return finiteOnly(emptyOutcome('error', seed, `internal error in the check engine: ${describeThrown(e)}`, h.calls));
   }
+}
+
+/**
+ * The outcome of a check a CheckStop ended: its verdict and message, how far the time limit let
+ * it get, the inputs of the attempt that stopped and the frames of a thrown error (so an
+ * exception reproduces like a mismatch and is reported at the user's line).
+ */
+export function stoppedOutcome(e: CheckStop, seed: number, timeLimitMs: number, h: OpHarness | null): CheckOutcome {
+  const stopped = emptyOutcome(e.verdict, seed, e.message, h !== null ? h.calls : { forward: 0, backward: 0 });
+  if (e.timeLimit !== undefined) stopped.stoppedAtTimeLimit = { ...e.timeLimit, timeLimitMs };
+  if (h !== null && h.capturedInputs !== undefined) stopped.inputs = h.capturedInputs;
+  if (e.thrown !== undefined) {
+    const frames = bundleFramesOf(e.thrown);
+    if (frames !== '') stopped.thrownFrames = frames;
+  }
+  return stopped;
 }
 
 /** The verdict of several parameter results: any mismatch, else any inconclusive, else pass. */
