@@ -5,6 +5,7 @@
 // clear errors.
 
 import assert from 'node:assert/strict';
+import { DEFAULT_SETTINGS } from '../../server/src/engine/settings';
 import type { BackwardArg, OpDescriptor, OpKind } from '../../server/src/engine/types';
 import { check, functionOp, methodOp, show, spec } from './opBuilder';
 
@@ -51,6 +52,9 @@ describe('engine: @jacobian', () => {
     const flat = (q: Float64Array): Float64Array => Float64Array.from(reachJacobian(q).flat());
     const o2 = check(kindOp('jacobian', reach, flat, [['q', spec('f64', [2], [-3, 3])]], [p('q')]));
     assert.equal(o2.verdict, 'pass', show(o2));
+    // Every entry was compared on its own, so the pass states the tolerance as its detection floor.
+    assert.equal(o1.params[0].checkedElements, o1.params[0].elements, show(o1));
+    assert.equal(o1.params[0].detectionFloor, DEFAULT_SETTINGS.toleranceF64, show(o1));
   });
 
   it('names one wrong entry as J[out, element] with both values', () => {

@@ -256,5 +256,8 @@ export function summariseBlock(
     checkedElements: est.indices.length,
     hints: verdict === 'mismatch' ? matrixHints(analytic, est, cmp, tol, slot, naming) : [],
   };
+  // Every entry compared on its own against the tolerance: a single wrong entry above it is
+  // caught, so the floor is the tolerance itself (as for a full check of a backward).
+  if (est.indices.length === slot.size) result.detectionFloor = tol;
   return { result, kink: refine.kink, note };
 }
