@@ -2,26 +2,25 @@
 // estimate every differentiated parameter's gradient numerically (full, grouped or
 // dot-product), refine suspicious elements, redraw after kinks, and assemble the verdict.
 
-import { F64, I32, abs, describeThrown, formatNumber, max, min } from './builtins';
-import { CheckStop, fail, giveUp } from './failure';
+import { F64, I32, abs, describeThrown, formatNumber, max } from './builtins';
+import { CheckStop, fail } from './failure';
 import { GROUPED_WIDENINGS, PROBE_SWITCH_CALLS, chooseMethod, widened, type Structure } from './methodChoice';
 import { dotProductProbes, type DotProbeResult } from './dotProductCheck';
 import { estimateColumns } from './fullCheck';
 import { estimateGrouped } from './groupedCheck';
 import { float32OutputHint, paramHints, swapHints, type ParamEvidence } from './hints';
-import { runAttempts, stoppedOutcome } from './kindBaseline';
+import { runAttempts, stoppedOutcome, takeBaseline } from './kindBaseline';
 import { blameOutput } from './outputBlame';
 import { ElementState, compareElements, floorsFor, type Comparison, type ElementEstimates } from './judge';
 import { elementLine } from './lines';
 import type { InstanceSnapshot } from './instanceState';
 import { elementName, unravelSlot, OpHarness } from './opHarness';
-import { describeOutputIndex, layoutPrecision } from './outputLayout';
 import type { ParamSlot } from './paramSlot';
 import { relativeFloorFactor, unitRoundoff, type Precision } from './precision';
 import { STREAM, STREAM_STRIDE, fillSigned, substream, type RandomSource } from './random';
 import { refineSuspicious, type KinkReport, type RefineSummary } from './refine';
 import { ROOT_PROBES, describeSearch, splitSearch } from './splitSearch';
-import { ERROR_MAP_MAX_ELEMENTS, captureInputs, finiteOnly, stepScan } from './reportData';
+import { ERROR_MAP_MAX_ELEMENTS, finiteOnly, stepScan } from './reportData';
 import { DEFAULT_SETTINGS, type CheckSettings } from './settings';
 import type { CheckMethod, CheckOutcome, OpDescriptor, ParamResult, TimeLimitStop, Verdict } from './types';
 import { runDerivativeKind } from './kindCheck';
@@ -124,42 +123,13 @@ function runAttempt(
   clock: () => number,
 ): CheckOutcome | { kink: KinkReport; params: ParamResult[]; inputs: CheckOutcome['inputs'] } {
   const stream = (purpose: number) => substream(seed, attempt * STREAM_STRIDE + purpose);
-  const sample = h.prepare(stream(STREAM.inputs), settings.maxElements);
-  const inputs = captureInputs(sample);
-  h.capturedInputs = inputs;
-  const slots = sample.slots;
-  if (slots.length === 0) fail('no parameter is differentiated: every input is fixed, a literal, an integer or not numbers');
-
-  // Baseline: output at the sample point, input mutation, determinism.
-  const guard = h.guardInputs();
-  const t0 = clock();
-  const y0 = h.forwardInto(null, true);
-  const changedByForward = guard.firstChange(h.inputValues());
-  if (changedByForward !== null) fail(`forward changed its input ${changedByForward}`);
-  const layout = h.layout as NonNullable<typeof h.layout>;
-  if (layout.size > settings.maxElements) fail(`forward output has ${layout.size} elements, more than the limit of ${settings.maxElements}`);
-  const t1 = clock();
-  const y1 = h.forwardInto(null, true);
-  const forwardMs = max(0, min(clock() - t1, t1 - t0));
-  for (let j = 0; j < y0.length; j++) {
-    if (y0[j] !== y1[j]) {
-      giveUp(`forward is not deterministic: two calls at the same input differ at ${describeOutputIndex(layout, j)} (${formatNumber(y0[j], 17)} then ${formatNumber(y1[j], 17)})`);
-    }
-  }
+  // Baseline: inputs, output at the sample point, input mutation, determinism, precision and
+  // tolerance — the same for every op kind (kindBaseline.ts).
+  const base = takeBaseline(h, op, settings, stream(STREAM.inputs), clock);
+  const { inputs, slots, y0, layout, guard, precision, uOut, tol, forwardMs } = base;
   if (!h.takesUpstream && layout.kind !== 'number') {
     fail(`the backward takes no $dy, so the forward must return a number; it returned ${layout.size} values`);
   }
-
-  // Precision: the outputs' roundoff comes from the outputs' declared type (a Float32Array is
-  // float32; a float32 parameter summed into a plain number gives float64 outputs), a
-  // parameter's from the parameter. The tolerance is float32's when either is float32. An op
-  // sampled float64 whose forward rounds to float32 inside is held to float64's tolerance, and
-  // the precision hint (hints.ts) tells its author why it cannot meet it.
-  const precision: Precision = layoutPrecision(layout);
-  let anyF32 = precision === 'f32';
-  for (let s = 0; s < slots.length; s++) if (slots[s].precision === 'f32') anyF32 = true;
-  const uOut = unitRoundoff(precision);
-  const tol = typeof op.tolerance === 'number' && op.tolerance > 0 ? op.tolerance : anyF32 ? settings.toleranceF32 : settings.toleranceF64;
 
   // Upstream vectors: uniform in [-1, 1] (K of them), or the plain gradient when there is no $dy.
   const m = y0.length;

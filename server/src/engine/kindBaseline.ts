@@ -35,6 +35,8 @@ export interface Baseline {
 export function takeBaseline(h: OpHarness, op: OpDescriptor, settings: CheckSettings, rng: RandomSource, clock: () => number): Baseline {
   const sample = h.prepare(rng, settings.maxElements);
   const inputs = captureInputs(sample);
+  // Kept on the harness so a check stopped later (an exception) still reports what reproduces it.
+  h.capturedInputs = inputs;
   const slots = sample.slots;
   if (slots.length === 0) fail('no parameter is differentiated: every input is fixed, a literal, an integer or not numbers');
   const guard = h.guardInputs();
@@ -52,9 +54,15 @@ export function takeBaseline(h: OpHarness, op: OpDescriptor, settings: CheckSett
       giveUp(`forward is not deterministic: two calls at the same input differ at ${describeOutputIndex(layout, j)} (${formatNumber(y0[j], 17)} then ${formatNumber(y1[j], 17)})`);
     }
   }
-  let precision: Precision = layoutPrecision(layout);
-  for (let s = 0; s < slots.length; s++) if (slots[s].precision === 'f32') precision = 'f32';
-  const tol = typeof op.tolerance === 'number' && op.tolerance > 0 ? op.tolerance : precision === 'f32' ? settings.toleranceF32 : settings.toleranceF64;
+  // Precision: the outputs' roundoff comes from the outputs' declared type (a Float32Array is
+  // float32; a float32 parameter summed into a plain number gives float64 outputs), a
+  // parameter's from the parameter. The tolerance is float32's when either is float32. An op
+  // sampled float64 whose forward rounds to float32 inside is held to float64's tolerance, and
+  // the precision hint (hints.ts) tells its author why it cannot meet it.
+  const precision: Precision = layoutPrecision(layout);
+  let anyF32 = precision === 'f32';
+  for (let s = 0; s < slots.length; s++) if (slots[s].precision === 'f32') anyF32 = true;
+  const tol = typeof op.tolerance === 'number' && op.tolerance > 0 ? op.tolerance : anyF32 ? settings.toleranceF32 : settings.toleranceF64;
   return { slots, y0, layout, guard, precision, uOut: unitRoundoff(precision), tol, inputs, forwardMs };
 }
 
