@@ -54,16 +54,17 @@ const ENGINE_GLOBAL_SYNTAX = [
 // ---- Layering -------------------------------------------------------------------------------
 // DEVELOPERS.md's layering table, enforced: which server/src folders each folder may import.
 // Type-only imports count too. Change the table and this map together.
-const SERVER_FOLDERS = ['engine', 'text', 'discovery', 'sandbox', 'core', 'project', 'cli', 'lsp'];
+const SERVER_FOLDERS = ['model', 'engine', 'text', 'discovery', 'sandbox', 'core', 'project', 'cli', 'lsp'];
 const MAY_IMPORT = {
-  engine: [],
+  model: [],
+  engine: ['model'],
   text: [],
-  discovery: ['engine', 'text'],
-  sandbox: ['engine', 'discovery'], // discovery: the parser-safe text for coverage mapping (coverageBlocks.ts)
-  core: ['engine', 'discovery', 'sandbox'],
-  project: ['engine', 'text'],
-  cli: ['engine', 'core', 'project', 'lsp', 'text'],
-  lsp: ['engine', 'core', 'project', 'discovery', 'text'],
+  discovery: ['model', 'engine', 'text'],
+  sandbox: ['model', 'engine', 'discovery'], // discovery: the parser-safe text for coverage mapping (coverageBlocks.ts)
+  core: ['model', 'engine', 'discovery', 'sandbox'],
+  project: ['model', 'engine', 'text'],
+  cli: ['model', 'engine', 'core', 'project', 'lsp', 'text'],
+  lsp: ['model', 'engine', 'core', 'project', 'discovery', 'text'],
 };
 const EDITOR_LIBRARIES = { regex: '^vscode(-languageserver|-languageclient)?(/|-|$)', message: 'Only server/src/lsp (vscode-languageserver) and client/src (vscode, vscode-languageclient) speak to the editor.' };
 
@@ -76,9 +77,13 @@ function layering(folder) {
       message: `server/src/${folder} may import only ${MAY_IMPORT[folder].length ? MAY_IMPORT[folder].join(', ') : 'itself'} among the server folders (DEVELOPERS.md, layering table).`,
     });
   }
-  if (folder === 'engine' || folder === 'text') {
-    // The engine is bundled and evaluated inside the sandbox; text is a leaf every folder may use.
+  if (folder === 'model' || folder === 'text') {
+    // The model crosses into the sandbox with the engine; text is a leaf every folder may use.
     patterns.push({ regex: '^(?!\\./)', message: `server/src/${folder} imports nothing outside itself (DEVELOPERS.md, layering table).` });
+  }
+  if (folder === 'engine') {
+    // The engine is bundled and evaluated inside the sandbox: itself and the shared model only.
+    patterns.push({ regex: '^(?!\\./|\\.\\./model/)', message: 'server/src/engine imports nothing but itself and the shared model (DEVELOPERS.md, layering table).' });
   }
   if (folder === 'cli') {
     // `gradient-probe lsp` starts the language server; nothing else of it belongs to the CLI.
@@ -98,8 +103,8 @@ const CLIENT_LAYERING = {
     'no-restricted-imports': ['error', {
       patterns: [
         {
-          regex: '^(\\.\\./)+server/src/(?!engine/types$|lsp/protocol$)',
-          message: 'client/src shares only the data shapes (server/src/engine/types) and the custom messages (server/src/lsp/protocol) with the server; everything else goes over LSP.',
+          regex: '^(\\.\\./)+server/src/(?!model/types$|lsp/protocol$)',
+          message: 'client/src shares only the data shapes (server/src/model/types) and the custom messages (server/src/lsp/protocol) with the server; everything else goes over LSP.',
         },
         { regex: '^vscode-languageserver', message: 'The client uses vscode-languageclient; the server side of LSP stays in server/src/lsp.' },
       ],

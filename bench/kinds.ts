@@ -4,7 +4,7 @@
 // Run: npx esbuild bench/kinds.ts --bundle --platform=node --packages=external --outfile=/tmp/bench-kinds.js && node /tmp/bench-kinds.js
 import { runCheck } from '../server/src/engine/check';
 import { DEFAULT_SETTINGS } from '../server/src/engine/settings';
-import type { BackwardArg, OpDescriptor, OpKind } from '../server/src/engine/types';
+import type { BackwardArg, OpDescriptor, OpKind } from '../server/src/model/types';
 
 type Fn = (...args: any[]) => any;
 

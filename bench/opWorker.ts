@@ -9,7 +9,7 @@ import { join } from 'node:path';
 import { bindingsOf, Checker, listOps } from '../server/src/core/checker';
 import { ROOT_PROBES } from '../server/src/engine/splitSearch';
 import { DEFAULT_SETTINGS, type CheckSettings } from '../server/src/engine/settings';
-import type { OpResult } from '../server/src/engine/types';
+import type { OpResult } from '../server/src/model/types';
 import { Bundler } from '../server/src/sandbox/bundle';
 import { directOp } from './directOp';
 import { loadInContext } from './evalContext';

@@ -1,6 +1,6 @@
 // The shapes of the benchmark's figures: what each worker prints as JSON and what
 // bench/results/latest.json holds. Plain data, so the JSON file and the printed table agree.
-import type { CallCounts } from '../server/src/engine/types';
+import type { CallCounts } from '../server/src/model/types';
 import type { CallBudget } from './floor';
 import type { HandLoopResult } from './handLoop';
 

@@ -2,7 +2,7 @@
 // and each place it never reached, with the sample range that would reach it when the condition
 // says so. Pure HTML text, like reportHtml.ts.
 
-import type { CoverageGap, OpResult } from '../../server/src/engine/types';
+import type { CoverageGap, OpResult } from '../../server/src/model/types';
 
 type Escape = (text: string) => string;
 

@@ -4,7 +4,7 @@
 // a per-element error map for 2-D parameters, and the figures beside them. Colours come from the editor theme's CSS variables.
 // Pure (no editor API) so it can be tested outside the editor.
 
-import type { OpResult, ParamResult, StepScan, WorstElement } from '../../server/src/engine/types';
+import type { OpResult, ParamResult, StepScan, WorstElement } from '../../server/src/model/types';
 import { coverageSection } from './reportCoverage';
 
 export interface ReportPageInput {

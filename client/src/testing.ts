@@ -4,7 +4,7 @@
 // op states the server pushes: each new result once, with its message and duration.
 
 import * as vscode from 'vscode';
-import type { OpResult } from '../../server/src/engine/types';
+import type { OpResult } from '../../server/src/model/types';
 import { Methods, type CheckOpsParams, type CheckOpsResult, type FileOps, type ListWorkspaceOpsResult, type OpSummary } from '../../server/src/lsp/protocol';
 import type { ProbeContext } from './context';
 

@@ -5,7 +5,7 @@ import assert from 'node:assert/strict';
 import { spawnSync } from 'node:child_process';
 import { existsSync, readFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
-import type { OpCoverage } from '../../server/src/engine/types';
+import type { OpCoverage } from '../../server/src/model/types';
 import { allHints, type ReportedPair } from './corpusLabels';
 
 /** Expected verdict of each demo op; the mismatches are the `// DEMO BUG:` ops of examples/src. */

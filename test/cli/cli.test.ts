@@ -7,7 +7,7 @@ import { spawn } from 'node:child_process';
 import { existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import type { OpResult, Report } from '../../server/src/engine/types';
+import type { OpResult, Report } from '../../server/src/model/types';
 import { reportViolations } from './helpers/reportShape';
 import { sarifViolations } from './helpers/sarifShape';
 import { findAll, parseXml } from './helpers/xml';

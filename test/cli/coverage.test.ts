@@ -6,7 +6,7 @@ import assert from 'node:assert/strict';
 import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import type { Report } from '../../server/src/engine/types';
+import type { Report } from '../../server/src/model/types';
 import { runCli } from '../helpers/cli';
 import { sarifViolations } from './helpers/sarifShape';
 

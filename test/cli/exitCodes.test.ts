@@ -6,7 +6,7 @@ import assert from 'node:assert/strict';
 import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import type { Report } from '../../server/src/engine/types';
+import type { Report } from '../../server/src/model/types';
 import { runCli, SPAWN_LIMIT_MS } from '../helpers/cli';
 
 const FIXTURES = 'test/fixtures/cli';

@@ -4,7 +4,7 @@
 import assert from 'node:assert/strict';
 import { join } from 'node:path';
 import fc from 'fast-check';
-import type { OpResult, ParamResult } from '../../server/src/engine/types';
+import type { OpResult, ParamResult } from '../../server/src/model/types';
 import { formatHuman, summaryLine } from '../../server/src/cli/human';
 import { escapeXmlAttribute, escapeXmlText, formatJunit } from '../../server/src/cli/junit';
 import { buildReport, exitCodeFor, worstParam } from '../../server/src/cli/report';

@@ -8,7 +8,7 @@ import assert from 'node:assert/strict';
 import { readFileSync, mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import type { Report } from '../../server/src/engine/types';
+import type { Report } from '../../server/src/model/types';
 import { runCli } from '../helpers/cli';
 
 const FIXTURES = 'test/fixtures/realcode';

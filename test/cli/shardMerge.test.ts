@@ -6,7 +6,7 @@ import assert from 'node:assert/strict';
 import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import type { OpResult, Report } from '../../server/src/engine/types';
+import type { OpResult, Report } from '../../server/src/model/types';
 import { reportViolations } from './helpers/reportShape';
 import { findAll, parseXml } from './helpers/xml';
 import { runCli, SPAWN_LIMIT_MS, type CliRun } from '../helpers/cli';

@@ -1,7 +1,7 @@
 // Test helpers for discovery: where a piece of fixture text stands (counted by plain string
 // search, independently of the compiler), and lookups of ops and problems.
 import assert from 'node:assert/strict';
-import type { OpDescriptor, Problem } from '../../server/src/engine/types';
+import type { OpDescriptor, Problem } from '../../server/src/model/types';
 import { discoverOps, type DiscoveryResult } from '../../server/src/discovery/index';
 
 /** 1-based line and column of the `nth` occurrence of `needle` (plus `shift` characters). */

@@ -1,7 +1,7 @@
 // Common TypeScript shapes (docs/code-shapes.md): supported ones become ops
 // with the right target; refused ones get one problem at the right place saying what to write.
 import assert from 'node:assert/strict';
-import { DEFAULT_EXPORT_BINDING } from '../../server/src/engine/types';
+import { DEFAULT_EXPORT_BINDING } from '../../server/src/model/types';
 import { at, discover, expectProblem, opNamed, withDoc } from './helpers';
 
 describe('discovery: shapes of real code', () => {

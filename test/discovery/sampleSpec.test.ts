@@ -1,7 +1,7 @@
 // Every form of the `@sample` SPEC (docs/annotations.md, "@sample PARAM SPEC") read into a
 // SampleSpec, and each malformed spec reported at the exact token inside the tag.
 import assert from 'node:assert/strict';
-import type { SampleSpec } from '../../server/src/engine/types';
+import type { SampleSpec } from '../../server/src/model/types';
 import { discover, expectProblem, opNamed, withDoc } from './helpers';
 
 /** The spec discovery reads for `@sample x SPEC` on a one-parameter function. */

@@ -2,7 +2,7 @@
 // types, `tf.customGrad` consts (the save parameter left out), `@backward library-gradient`,
 // the float32 rule for tensor samples, and did-you-mean for near misses of the spelling.
 import assert from 'node:assert/strict';
-import { TENSOR_LIBRARY_BINDING } from '../../server/src/engine/types';
+import { TENSOR_LIBRARY_BINDING } from '../../server/src/model/types';
 import { exposeCode } from '../../server/src/sandbox/bundle';
 import { discover, expectProblem, opNamed } from './helpers';
 

@@ -6,7 +6,7 @@ import { join } from 'node:path';
 import { reportPage } from '../../client/src/reportHtml';
 import { Checker } from '../../server/src/core/checker';
 import { DEFAULT_SETTINGS } from '../../server/src/engine/settings';
-import type { OpResult } from '../../server/src/engine/types';
+import type { OpResult } from '../../server/src/model/types';
 import { FIXTURES } from '../lsp/lspSession';
 
 const BRANCHES = join(FIXTURES, '..', 'coverage', 'branches.ts');

@@ -7,7 +7,7 @@ import { join } from 'node:path';
 import { reportPage, stepPlot, errorMapSvg } from '../../client/src/reportHtml';
 import { Checker } from '../../server/src/core/checker';
 import { DEFAULT_SETTINGS } from '../../server/src/engine/settings';
-import type { OpResult, StepScan } from '../../server/src/engine/types';
+import type { OpResult, StepScan } from '../../server/src/model/types';
 import { FIXTURES } from '../lsp/lspSession';
 
 /** Reads the decade ticks of one axis back from the SVG: pixel position per log10 value. */

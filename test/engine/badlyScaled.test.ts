@@ -7,7 +7,7 @@
 
 import assert from 'node:assert/strict';
 import { check, functionOp, show, spec } from './opBuilder';
-import type { SampleSpec } from '../../server/src/engine/types';
+import type { SampleSpec } from '../../server/src/model/types';
 
 type Forward = (x: Float64Array) => Float64Array;
 type Backward = (x: Float64Array, dy: Float64Array) => Float64Array;

@@ -5,7 +5,7 @@
 import assert from 'node:assert/strict';
 import { runCheck } from '../../server/src/engine/check';
 import { DEFAULT_SETTINGS } from '../../server/src/engine/settings';
-import type { CheckOutcome } from '../../server/src/engine/types';
+import type { CheckOutcome } from '../../server/src/model/types';
 import { check, clock, functionOp, show, spec } from './opBuilder';
 
 const x4 = spec('f64', [4]);

@@ -6,7 +6,7 @@
 
 import assert from 'node:assert/strict';
 import { DEFAULT_SETTINGS } from '../../server/src/engine/settings';
-import type { BackwardArg, OpDescriptor, OpKind } from '../../server/src/engine/types';
+import type { BackwardArg, OpDescriptor, OpKind } from '../../server/src/model/types';
 import { check, functionOp, methodOp, show, spec } from './opBuilder';
 
 type Fn = (...args: any[]) => any;

@@ -6,7 +6,7 @@
 import assert from 'node:assert/strict';
 import { derivative, parse, type EvalFunction } from 'mathjs';
 import { createRandom, type RandomSource } from '../../server/src/engine/random';
-import type { BackwardArg } from '../../server/src/engine/types';
+import type { BackwardArg } from '../../server/src/model/types';
 import { check, functionOp, show } from './opBuilder';
 
 /** A random expression in x and y; domains safe everywhere by construction. */

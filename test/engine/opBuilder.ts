@@ -3,7 +3,7 @@
 
 import { runCheck } from '../../server/src/engine/check';
 import { DEFAULT_SETTINGS, type CheckSettings } from '../../server/src/engine/settings';
-import type { BackwardArg, CheckOutcome, OpDescriptor, ParamDescriptor, SampleDtype, SampleSpec } from '../../server/src/engine/types';
+import type { BackwardArg, CheckOutcome, OpDescriptor, ParamDescriptor, SampleDtype, SampleSpec } from '../../server/src/model/types';
 
 type Fn = (...args: any[]) => any;
 

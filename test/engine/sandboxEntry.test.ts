@@ -6,7 +6,7 @@ import assert from 'node:assert/strict';
 import * as vm from 'node:vm';
 import { buildSync } from 'esbuild';
 import { DEFAULT_SETTINGS } from '../../server/src/engine/settings';
-import type { CheckOutcome, OpDescriptor } from '../../server/src/engine/types';
+import type { CheckOutcome, OpDescriptor } from '../../server/src/model/types';
 
 function engineSource(): string {
   const out = buildSync({

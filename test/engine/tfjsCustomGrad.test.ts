@@ -7,7 +7,7 @@
 // gradients of smooth functions of O(1) inputs).
 
 import assert from 'node:assert/strict';
-import { TENSOR_LIBRARY_BINDING, type CheckOutcome, type OpDescriptor, type SampleSpec } from '../../server/src/engine/types';
+import { TENSOR_LIBRARY_BINDING, type CheckOutcome, type OpDescriptor, type SampleSpec } from '../../server/src/model/types';
 import { check, show, spec } from './opBuilder';
 
 // eslint-disable-next-line @typescript-eslint/no-require-imports

@@ -2,7 +2,7 @@
 // its gradient-probe.json sets (timeLimitMs 3000, memoryLimitMb 256): the verdict, a message
 // that says what happened, and where it points. The CLI and the language server suites both
 // check the workspace against this one table.
-import type { Verdict } from '../../server/src/engine/types';
+import type { Verdict } from '../../server/src/model/types';
 
 export interface HostileCase {
   /** The case in words (as test/fixtures/hostile/README.md lists it). */

@@ -6,7 +6,7 @@
 import assert from 'node:assert/strict';
 import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import type { OpResult, Report } from '../../server/src/engine/types';
+import type { OpResult, Report } from '../../server/src/model/types';
 import { reportViolations } from '../cli/helpers/reportShape';
 import { expectedLine, HOST_GLOBALS, HOSTILE_CASES } from './cases';
 import { copyHostileWorkspace, runCli, type CliRun, type HostileCopy } from './workspace';

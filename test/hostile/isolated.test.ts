@@ -5,7 +5,7 @@
 import assert from 'node:assert/strict';
 import { Checker } from '../../server/src/core/checker';
 import { DEFAULT_SETTINGS, type CheckSettings } from '../../server/src/engine/settings';
-import type { OpResult } from '../../server/src/engine/types';
+import type { OpResult } from '../../server/src/model/types';
 import { HOST_GLOBALS } from './cases';
 import { copyHostileWorkspace, type HostileCopy } from './workspace';
 

@@ -7,7 +7,7 @@ import { tmpdir } from 'node:os';
 import { dirname, join } from 'node:path';
 import { bindingsOf, Checker, coverageOf } from '../../server/src/core/checker';
 import { discoverOps } from '../../server/src/discovery/index';
-import type { CoverageGap, OpCoverage, OpResult } from '../../server/src/engine/types';
+import type { CoverageGap, OpCoverage, OpResult } from '../../server/src/model/types';
 import { Bundler } from '../../server/src/sandbox/bundle';
 import { RunnerPool } from '../../server/src/sandbox/pool';
 import { describeResults, fixture, resultOf, settingsWith } from './helpers';

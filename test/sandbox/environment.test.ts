@@ -3,7 +3,7 @@
 import assert from 'node:assert/strict';
 import { Checker } from '../../server/src/core/checker';
 import { FIXED_DATE_MS } from '../../server/src/sandbox/contextSetup';
-import type { OpResult } from '../../server/src/engine/types';
+import type { OpResult } from '../../server/src/model/types';
 import { describeResults, fixture, resultOf, settingsWith } from './helpers';
 
 function line(r: OpResult, key: string): string[] {

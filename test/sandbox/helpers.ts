@@ -3,7 +3,7 @@
 import { existsSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { DEFAULT_SETTINGS, type CheckSettings } from '../../server/src/engine/settings';
-import type { OpResult } from '../../server/src/engine/types';
+import type { OpResult } from '../../server/src/model/types';
 
 /** test/fixtures/sandbox, found from the bundled test's folder (dist/test/sandbox) or the current folder. */
 export function fixturesDir(): string {

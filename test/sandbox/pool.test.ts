@@ -4,7 +4,7 @@
 import assert from 'node:assert/strict';
 import { readFileSync } from 'node:fs';
 import { bindingsOf, Checker, listOps } from '../../server/src/core/checker';
-import type { OpDescriptor } from '../../server/src/engine/types';
+import type { OpDescriptor } from '../../server/src/model/types';
 import { Bundler } from '../../server/src/sandbox/bundle';
 import { RunnerPool, type RunResult } from '../../server/src/sandbox/pool';
 import { runnerCommand } from '../../server/src/sandbox/runnerCommand';

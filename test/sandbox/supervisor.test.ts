@@ -7,7 +7,7 @@ import assert from 'node:assert/strict';
 import { getEventListeners } from 'node:events';
 import { readFileSync } from 'node:fs';
 import { bindingsOf, Checker, listOps } from '../../server/src/core/checker';
-import type { OpDescriptor } from '../../server/src/engine/types';
+import type { OpDescriptor } from '../../server/src/model/types';
 import { Bundler } from '../../server/src/sandbox/bundle';
 import { IsolatedRunner } from '../../server/src/sandbox/isolated';
 import type { RunJob } from '../../server/src/sandbox/jobTypes';

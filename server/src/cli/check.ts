@@ -7,7 +7,7 @@ import { availableParallelism } from 'node:os';
 import { dirname, resolve } from 'node:path';
 import { Checker } from '../core/checker';
 import type { CheckSettings } from '../engine/settings';
-import type { OpResult, ReportRun } from '../engine/types';
+import type { OpResult, ReportRun } from '../model/types';
 import { ConfigError, loadConfigFile, loadProjectConfig, type ProjectConfig } from '../project/config';
 import { findSourceFiles, newWalkStats, SourcePathError } from '../project/files';
 import type { CheckOptions } from './args';

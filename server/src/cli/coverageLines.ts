@@ -2,7 +2,7 @@
 // check: …"), the hint of which sample range would reach it, and whether a backward has gaps
 // (for --fail-on-unreached).
 
-import type { CoverageGap, OpResult, Report } from '../engine/types';
+import type { CoverageGap, OpResult, Report } from '../model/types';
 
 /** Gap lines shown per op before the rest is left to the --json report. */
 const MAX_GAP_LINES = 8;

@@ -1,7 +1,7 @@
 // The explanation of an op that did not pass, as plain lines: message, annotation problems
 // with file:line:column, per-parameter evidence and hints, seed, captured console output.
 
-import type { OpResult, ParamResult, TimeLimitStop } from '../engine/types';
+import type { OpResult, ParamResult, TimeLimitStop } from '../model/types';
 import { formatIndex, formatNumber, formatRelError, stripControl } from './format';
 
 /** Lines of captured console output shown before the rest is cut. */

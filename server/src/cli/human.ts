@@ -1,7 +1,7 @@
 // The human-readable result table of `gradient-probe check`: one row per op grouped by file,
 // details under the rows that did not pass, and the summary line last. Plain text; colour optional.
 
-import type { OpResult, Report, Verdict } from '../engine/types';
+import type { OpResult, Report, Verdict } from '../model/types';
 import { coverageLines, uncollectedNote } from './coverageLines';
 import { detailLines } from './details';
 import { formatIndex, formatRelError, formatTime, shorten } from './format';
@@ -91,7 +91,7 @@ function rowCells(pair: OpResult): string[] {
     shorten(pair.forward ?? '(file)', MAX_OP_WIDTH),
     pair.verdict === 'pass' || pair.verdict === 'inconclusive' ? pair.verdict : pair.verdict.toUpperCase(),
     param ? param.name : '-',
-    // The figure beside the worst index is that element's own (one rule: types.ts WorstElement).
+    // The figure beside the worst index is that element's own (one rule: model/types.ts WorstElement).
     param ? formatRelError(param.worst?.relError ?? param.maxRelError) : '-',
     param?.worst ? formatIndex(param.worst.index) : '-',
     formatTime(pair.elapsedMs),

@@ -1,7 +1,7 @@
 // The report as JUnit XML, the test-report format CI servers read: a test suite per source
 // file, a test case per op; mismatch → <failure>, error → <error>, inconclusive → <skipped>.
 
-import type { OpResult, Report } from '../engine/types';
+import type { OpResult, Report } from '../model/types';
 import { detailLines } from './details';
 import { isFailing, worstParam, type FailPolicy } from './report';
 import { formatRelError } from './format';

@@ -5,7 +5,7 @@
 
 import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
-import type { OpResult, Report, ReportRun } from '../engine/types';
+import type { OpResult, Report, ReportRun } from '../model/types';
 import type { CheckOptions } from './args';
 import { EXIT_USAGE } from './check';
 import { emitReport, failPolicyOf, type OutputIo } from './output';

@@ -3,7 +3,7 @@
 
 import { mkdirSync, writeFileSync } from 'node:fs';
 import { dirname, resolve } from 'node:path';
-import type { Report } from '../engine/types';
+import type { Report } from '../model/types';
 import type { CheckOptions } from './args';
 import { formatHuman } from './human';
 import { formatJunit } from './junit';

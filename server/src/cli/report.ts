@@ -2,7 +2,7 @@
 // folder, stable order, counts) and decides the exit code. Shared by every output format.
 
 import { isAbsolute, relative } from 'node:path';
-import type { OpResult, ParamResult, Report, ReportSummary, Verdict } from '../engine/types';
+import type { OpResult, ParamResult, Report, ReportSummary, Verdict } from '../model/types';
 import { toSlashes } from '../project/paths';
 
 /** Verdicts in the order summaries list them. */

@@ -2,7 +2,7 @@
 // code-scanning views can show mismatches and errors at their source lines.
 
 import { pathToFileURL } from 'node:url';
-import type { OpResult, Report } from '../engine/types';
+import type { OpResult, Report } from '../model/types';
 import { gapSentence } from './coverageLines';
 import { formatRelError } from './format';
 import { isUnfinished, worstParam } from './report';
@@ -158,7 +158,7 @@ function messageOf(pair: OpResult): string {
     parts.push(`${opName(pair)}: the ${pair.kind} disagrees with finite differences (max relative error ${formatRelError(param.maxRelError)}).`);
     parts.push(...param.hints.map((h) => `Hint: ${h}.`));
   } else if (pair.verdict === 'mismatch' && param) {
-    // With an element named, the figure is that element's own relative error (one rule: types.ts WorstElement).
+    // With an element named, the figure is that element's own relative error (one rule: model/types.ts WorstElement).
     let text = `${opName(pair)}: gradient of ${param.name} disagrees with finite differences (max relative error ${formatRelError(param.worst?.relError ?? param.maxRelError)}`;
     if (param.worst) text += ` at [${param.worst.index.join(', ')}]: backward ${param.worst.analytic}, numeric ${param.worst.numeric}`;
     parts.push(`${text}).`);

@@ -5,7 +5,7 @@ import { existsSync, readFileSync } from 'node:fs';
 import { dirname, relative, resolve } from 'node:path';
 import { discoverOps, type DiscoveryResult } from '../discovery/index';
 import type { CheckSettings } from '../engine/settings';
-import type { CheckOutcome, OpCoverage, OpDescriptor, OpResult, Problem } from '../engine/types';
+import type { CheckOutcome, OpCoverage, OpDescriptor, OpResult, Problem } from '../model/types';
 import { Bundler, type BundleStats } from '../sandbox/bundle';
 import { UNAVAILABLE_BUILTIN_NAMESPACE } from '../sandbox/builtinStandIn';
 import { bundleFramesFrom } from '../sandbox/contextSetup';

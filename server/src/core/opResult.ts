@@ -2,7 +2,7 @@
 // or a failure before or during its run (annotation problem, syntax error, bundle failure,
 // timeout, crash). One place, so every path fills the same fields.
 import type { CheckSettings } from '../engine/settings';
-import type { CheckOutcome, OpDescriptor, OpResult, Problem } from '../engine/types';
+import type { CheckOutcome, OpDescriptor, OpResult, Problem } from '../model/types';
 
 /** The result of an op whose check produced an outcome. */
 export function resultFromOutcome(file: string, op: OpDescriptor, outcome: CheckOutcome, elapsedMs: number, output: string): OpResult {

@@ -2,7 +2,7 @@
 // that match forward parameters, declared TypeScript types), before anything runs, so a wrong
 // argument order is reported at the @backward tag with the call spelled out and the fix.
 import ts from 'typescript';
-import type { BackwardArg } from '../engine/types';
+import type { BackwardArg } from '../model/types';
 
 /** Names people give an upstream gradient (common practice in hand-written layers). */
 const UPSTREAM_NAME = /^(d_?y|d_?out(put)?s?|dl_?d_?y|grad(_?out(put)?s?|_?y|_?upstream)?|gradients?|g_?y|g_?out|upstream(_?grad(ient)?)?|out_?grad|delta|d_?loss)$/i;

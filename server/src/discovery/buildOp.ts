@@ -2,7 +2,7 @@
 // parses every tag, matches @sample tags to parameters, resolves the backward and factories in
 // the module, builds the backward's argument list, and records each mistake where it stands.
 import ts from 'typescript';
-import { DEFAULT_EXPORT_BINDING, type BackwardArg, type OpDescriptor, type ParamDescriptor, type SampleSpec, type TagLocation } from '../engine/types';
+import { DEFAULT_EXPORT_BINDING, type BackwardArg, type OpDescriptor, type ParamDescriptor, type SampleSpec, type TagLocation } from '../model/types';
 import { backwardSignatureProblem } from './backwardSignature';
 import { DERIVATIVE_KINDS, defaultDerivativeArgs, explicitDerivativeArgs, parseDerivativeTag, type DerivativeKind } from './derivativeTags';
 import type { ForwardSite } from './forwardSites';

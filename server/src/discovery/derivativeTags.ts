@@ -1,7 +1,7 @@
 // The derivative tags besides @backward — `@jacobian`, `@tangent`, `@hessian` — parsed into
 // their function name and argument list (explicit, or the default of each kind), with every
 // mistake placed inside the tag. buildOp turns each such tag into an op of its own.
-import type { BackwardArg, OpKind, ParamDescriptor } from '../engine/types';
+import type { BackwardArg, OpKind, ParamDescriptor } from '../model/types';
 import { TagCursor, type Token } from './lexer';
 import type { Span, SpanProblem } from './positions';
 import type { RawTag } from './tagText';

@@ -2,7 +2,7 @@
 // parses their tags into OpDescriptors, with every mistake placed at its line and column.
 // One parse, no type checker: the language server calls this on every save.
 import ts from 'typescript';
-import type { OpDescriptor, Problem } from '../engine/types';
+import type { OpDescriptor, Problem } from '../model/types';
 import { buildOp } from './buildOp';
 import { findForwardSites } from './forwardSites';
 import { collectBindings } from './moduleBindings';

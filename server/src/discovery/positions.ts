@@ -1,7 +1,7 @@
 // Turns character offsets in the source text into the 1-based positions that problems, tags
 // and ops carry. Columns count UTF-16 code units, as the TypeScript compiler and LSP do.
 import type ts from 'typescript';
-import type { Problem, SourcePosition } from '../engine/types';
+import type { Problem, SourcePosition } from '../model/types';
 
 /** A stretch of the source text by character offset; `end` is exclusive. */
 export interface Span {

@@ -1,6 +1,6 @@
 // Parses the body of a `@sample PARAM SPEC` tag (docs/annotations.md, "@sample PARAM SPEC") into the
 // parameter it draws and a SampleSpec, or problems pointing inside the tag.
-import type { SampleDtype, SampleSpec } from '../engine/types';
+import type { SampleDtype, SampleSpec } from '../model/types';
 import { TagCursor, type Token } from './lexer';
 import type { Span, SpanProblem } from './positions';
 import type { RawTag } from './tagText';

@@ -2,7 +2,7 @@
 // which parameter of a `customGrad` function is its save function, the float32 rule for tensor
 // samples, and `@backward library-gradient` with its near misses.
 import ts from 'typescript';
-import type { ParamDescriptor } from '../engine/types';
+import type { ParamDescriptor } from '../model/types';
 import type { ForwardSite } from './forwardSites';
 import type { Span, SpanProblem } from './positions';
 import { LIBRARY_GRADIENT, isSaveFunctionType, isTensorType, nearLibraryGradient, tensorLibraryImports, type TensorLibraryImports } from './tensorLibrary';

@@ -22,10 +22,10 @@ import { refineSuspicious, type KinkReport, type RefineSummary } from './refine'
 import { ROOT_PROBES, describeSearch, splitSearch } from './splitSearch';
 import { ERROR_MAP_MAX_ELEMENTS, finiteOnly, stepScan } from './reportData';
 import { DEFAULT_SETTINGS, type CheckSettings } from './settings';
-import type { CheckMethod, CheckOutcome, OpDescriptor, ParamResult, TimeLimitStop, Verdict } from './types';
+import type { CheckMethod, CheckOutcome, OpDescriptor, ParamResult, TimeLimitStop, Verdict } from '../model/types';
 import { runDerivativeKind } from './kindCheck';
 
-export interface CheckRequest {
+export interface OpCheckRequest {
   op: OpDescriptor;
   settings: CheckSettings;
 }
@@ -85,7 +85,7 @@ function emptyOutcome(verdict: Verdict, seed: number, message: string, calls: { 
 }
 
 /** Checks one op. Never throws: every failure is a verdict with a message. */
-export function runCheck(exposed: Record<string, unknown>, request: CheckRequest, clock: () => number): CheckOutcome {
+export function runCheck(exposed: Record<string, unknown>, request: OpCheckRequest, clock: () => number): CheckOutcome {
   let seed = 0;
   let calls = { forward: 0, backward: 0 };
   let timeLimitMs = DEFAULT_SETTINGS.timeLimitMs;
@@ -426,7 +426,7 @@ function summarise(
     // The worst element is a confirmed mismatch when there is one, then the largest relative error.
     const state = cmp.state[p];
     const priority = state === ElementState.mismatch ? 2 : state === ElementState.suspicious || state === ElementState.uncertain ? 1 : 0;
-    // One rule for the worst element (types.ts WorstElement): the most serious state first, then the largest relative error.
+    // One rule for the worst element (model/types.ts WorstElement): the most serious state first, then the largest relative error.
     if (priority > worstPriority || (priority === worstPriority && cmp.rel[p] > cmp.rel[worstPos])) {
       worstPos = p;
       worstPriority = max(worstPriority, priority);

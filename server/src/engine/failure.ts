@@ -1,7 +1,7 @@
 // The one way a check stops early: a verdict (`error` or `inconclusive`) with a message naming
 // the part of the op at fault. runCheck catches it and turns it into the outcome.
 
-import type { TimeLimitStop, Verdict } from './types';
+import type { TimeLimitStop, Verdict } from '../model/types';
 
 export class CheckStop extends Error {
   constructor(

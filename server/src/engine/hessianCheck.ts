@@ -22,7 +22,7 @@ import { MAX_REFINED_ELEMENTS, type KinkReport } from './refine';
 import { refineSecond, requireNumberOutput, secondDifference, secondKink, secondStep, maxSecondStep, type Move } from './secondDifferences';
 import type { CheckSettings } from './settings';
 import { compareAlongLine, shapedLike } from './tangentCheck';
-import type { BackwardArg, CheckOutcome, OpDescriptor, ParamResult, Verdict } from './types';
+import type { BackwardArg, CheckOutcome, OpDescriptor, ParamResult, Verdict } from '../model/types';
 
 /** Checks an op's @backward on its own (runCheck, passed in to keep the module graph acyclic). */
 export type BackwardRunner = (op: OpDescriptor, settings: CheckSettings) => CheckOutcome;

@@ -11,7 +11,7 @@ import { describeOutputIndex, type OutputLayout } from './outputLayout';
 import { STREAM } from './random';
 import type { KinkReport } from './refine';
 import type { CheckSettings } from './settings';
-import type { CheckOutcome, OpDescriptor, ParamResult } from './types';
+import type { CheckOutcome, OpDescriptor, ParamResult } from '../model/types';
 
 /**
  * Most outputs a Jacobian may have for an entry-by-entry check. Refining a column projects the

@@ -15,7 +15,7 @@ import type { KinkReport } from './refine';
 import { captureInputs, finiteOnly } from './reportData';
 import { bundleFramesOf } from './thrownPlace';
 import type { CheckSettings } from './settings';
-import type { CheckOutcome, OpDescriptor, ParamResult, Verdict } from './types';
+import type { CheckOutcome, OpDescriptor, ParamResult, Verdict } from '../model/types';
 
 /** The sample point of one attempt and what was learnt there. */
 export interface Baseline {

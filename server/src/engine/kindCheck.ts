@@ -4,7 +4,7 @@ import { runHessianCheck, type BackwardRunner } from './hessianCheck';
 import { runJacobianCheck } from './jacobianCheck';
 import type { CheckSettings } from './settings';
 import { runTangentCheck } from './tangentCheck';
-import type { CheckOutcome, OpDescriptor } from './types';
+import type { CheckOutcome, OpDescriptor } from '../model/types';
 
 export function runDerivativeKind(
   exposed: Record<string, unknown>,

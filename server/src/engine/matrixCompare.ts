@@ -12,7 +12,7 @@ import { elementName, unravelSlot, type ForwardMap } from './opHarness';
 import type { ParamSlot } from './paramSlot';
 import { ROUNDOFF_ULPS, centralStep, relativeFloorFactor, type Precision } from './precision';
 import { refineSuspicious, type KinkReport, type RefineSummary } from './refine';
-import type { ParamResult, CheckMethod } from './types';
+import type { ParamResult, CheckMethod } from '../model/types';
 
 /** How a matrix and its rows are named in messages. */
 export interface MatrixNaming {

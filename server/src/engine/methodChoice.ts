@@ -9,7 +9,7 @@ import type { ParamSlot } from './paramSlot';
 import { centralStep } from './precision';
 import { distinctIndices, type RandomSource } from './random';
 import type { CheckSettings } from './settings';
-import type { CheckMethod } from './types';
+import type { CheckMethod } from '../model/types';
 
 /**
  * A band model of the Jacobian: element i moves only outputs j with

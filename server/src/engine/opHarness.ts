@@ -12,7 +12,7 @@ import type { ParamSlot } from './paramSlot';
 import type { RandomSource } from './random';
 import { drawSample, type Sample } from './sampling';
 import { TensorBridge } from './tensorBridge';
-import type { BackwardArg, CallCounts, CheckOutcome, OpDescriptor } from './types';
+import type { BackwardArg, CallCounts, CheckOutcome, OpDescriptor } from '../model/types';
 
 type AnyFunction = (...args: unknown[]) => unknown;
 

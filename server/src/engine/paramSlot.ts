@@ -4,7 +4,7 @@
 
 import { F32, F64, fround, isArray } from './builtins';
 import type { Precision } from './precision';
-import type { SampleDtype } from './types';
+import type { SampleDtype } from '../model/types';
 
 type Host = Record<string | number, unknown>;
 

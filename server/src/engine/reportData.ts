@@ -5,7 +5,7 @@
 import { F32, F64, I32, abs, getPrototypeOf, isArray, isFiniteNumber, isView, objectKeys, objectPrototype, pow } from './builtins';
 import { projectDifference, type Line } from './lines';
 import type { Sample } from './sampling';
-import type { StepScan } from './types';
+import type { StepScan } from '../model/types';
 
 /** Steps of the scan, unit: fraction of max(1, |x|): one per decade from 1e-1 down to 1e-13. */
 export const STEP_SCAN_DECADES = { from: -1, to: -13 } as const;

@@ -8,7 +8,7 @@ import { nestedShape } from './outputLayout';
 import { ParamSlot, nestedLeaves, precisionOf } from './paramSlot';
 import { avoidMargin, roundTo, type Precision } from './precision';
 import { uniform, uniformInt, type RandomSource } from './random';
-import type { OpDescriptor, ParamDescriptor, SampleDtype, SampleSpec } from './types';
+import type { OpDescriptor, ParamDescriptor, SampleDtype, SampleSpec } from '../model/types';
 
 /** The drawn inputs of one check attempt. */
 export interface Sample {

@@ -2,7 +2,7 @@
 // `__gradientProbeRun(exposed, requestJson)`, returning the outcome as a JSON string.
 
 import { parseJson, reflectApply, stringifyJson } from './builtins';
-import { runCheck, type CheckRequest } from './check';
+import { runCheck, type OpCheckRequest } from './check';
 
 type Clock = () => number;
 
@@ -26,9 +26,9 @@ const clock: Clock = (() => {
 })();
 
 function run(exposed: unknown, requestJson: string): string {
-  let request: CheckRequest;
+  let request: OpCheckRequest;
   try {
-    request = parseJson(requestJson) as CheckRequest;
+    request = parseJson(requestJson) as OpCheckRequest;
   } catch (e) {
     return stringifyJson({
       verdict: 'error', seed: 0, message: `the check request is not valid JSON: ${String(e)}`, hints: [], params: [], calls: { forward: 0, backward: 0 },

@@ -18,7 +18,7 @@ import { STREAM, STREAM_STRIDE, fillSigned, substream } from './random';
 import { RIDDERS_ERROR_FACTOR, type KinkReport } from './refine';
 import { RIDDERS_MIN_INITIAL_CENTRAL_STEPS, riddersAdaptive } from './ridders';
 import type { CheckSettings } from './settings';
-import type { BackwardArg, CheckOutcome, OpDescriptor, ParamResult } from './types';
+import type { BackwardArg, CheckOutcome, OpDescriptor, ParamResult } from '../model/types';
 
 /** Most suspicious outputs refined per tangent (worst first); one confirmed is enough. */
 const MAX_REFINED_OUTPUTS = 16;

@@ -8,8 +8,8 @@ import { F32, F64, I32, contains, describeThrown, describeValue, formatIndex, is
 import { CheckStop, fail } from './failure';
 import { ParamSlot } from './paramSlot';
 import type { Sample } from './sampling';
-import type { BackwardArg, OpDescriptor } from './types';
-import { TENSOR_LIBRARY_BINDING } from './types';
+import type { BackwardArg, OpDescriptor } from '../model/types';
+import { TENSOR_LIBRARY_BINDING } from '../model/types';
 
 type AnyFunction = (...args: unknown[]) => unknown;
 

@@ -8,7 +8,7 @@ import { statSync } from 'node:fs';
 import { basename } from 'node:path';
 import { Checker } from '../core/checker';
 import { DEFAULT_SETTINGS, type CheckSettings } from '../engine/settings';
-import type { OpResult } from '../engine/types';
+import type { OpResult } from '../model/types';
 import { settingsKey } from './settings';
 
 /** A result, the (text, settings) it was computed for, and the other input files' stamps then. */
@@ -39,7 +39,7 @@ function inputsUnchanged(inputs: ReadonlyMap<string, string>): boolean {
 /** Why a run did not happen; shown to the user as is. */
 export class CheckRefused extends Error {}
 
-export interface CheckRequest {
+export interface FileCheckRequest {
   uri: string;
   fsPath: string;
   text: string;
@@ -136,7 +136,7 @@ export class CheckService {
    * are unchanged (unless forced). Resolves with the results of the requested ops in file
    * order; a cancelled run resolves with what finished before it stopped.
    */
-  async check(request: CheckRequest): Promise<OpResult[]> {
+  async check(request: FileCheckRequest): Promise<OpResult[]> {
     // Untrusted: only the isolated interpreter may run code (the session decides when).
     if (!this.trusted && request.settings.isolation !== 'interpreter') throw new CheckRefused('the workspace is not trusted, so no code from it runs');
     const key = `${hashText(request.text)}|${settingsKey(request.settings)}|${request.coverage === false ? 'no-coverage' : 'coverage'}`;
@@ -232,7 +232,7 @@ export class CheckService {
   private getChecker(): Checker {
     if (!this.checker) {
       // Per-call settings go with each checkFile; these are only the pool's starting point.
-      // Coverage runners start on first use; gradientProbe.showUnreached off means none (CheckRequest.coverage).
+      // Coverage runners start on first use; gradientProbe.showUnreached off means none (FileCheckRequest.coverage).
       this.checker = new Checker({ settings: DEFAULT_SETTINGS, coverage: true, ...(this.workers !== undefined ? { workers: this.workers } : {}) });
     }
     return this.checker;

@@ -5,7 +5,7 @@
 
 import ts from 'typescript';
 import { CodeActionKind, type CodeAction, type Diagnostic, type Range, type TextEdit } from 'vscode-languageserver';
-import type { OpDescriptor, ProblemFix } from '../engine/types';
+import type { OpDescriptor, ProblemFix } from '../model/types';
 import { DIAGNOSTIC_SOURCE, DiagnosticCodes } from './diagnostics';
 import { fixFromData, fixesFromMessage } from './problemFixes';
 import { specFromType, GUESS_LENGTH } from './specGuess';

@@ -3,7 +3,7 @@
 // snippet. Each answers with a reason instead of failing when nothing can be done.
 
 import { DEFAULT_SETTINGS } from '../engine/settings';
-import type { OpDescriptor, OpResult } from '../engine/types';
+import type { OpDescriptor, OpResult } from '../model/types';
 import { CheckRefused } from './checkService';
 import type { CheckOpsParams, CheckOpsResult, OpReportParams, OpReportResult, RegressionTestResult } from './protocol';
 import { regressionTestFor } from './regressionTest';

@@ -2,7 +2,7 @@
 // helpers it calls) that its check never ran, and the hover's line saying how much of it ran.
 
 import { DiagnosticSeverity, DiagnosticTag, type Diagnostic } from 'vscode-languageserver';
-import type { OpResult } from '../engine/types';
+import type { OpResult } from '../model/types';
 
 /** Diagnostic code of unreached code. */
 export const UNREACHED_CODE = 'unreached-code';

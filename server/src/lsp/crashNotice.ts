@@ -1,7 +1,7 @@
 // Tells the user once when a runner process died under an op, instead of on every keystroke
 // that re-checks the same broken op: one message per op until that op stops crashing.
 
-import type { OpResult } from '../engine/types';
+import type { OpResult } from '../model/types';
 
 /**
  * Messages that mean the process running the op died or was killed for its memory, rather than

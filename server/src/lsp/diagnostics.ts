@@ -4,7 +4,7 @@
 
 import { pathToFileURL } from 'node:url';
 import { DiagnosticSeverity, type Diagnostic, type DiagnosticRelatedInformation } from 'vscode-languageserver';
-import type { OpDescriptor, OpResult, Problem } from '../engine/types';
+import type { OpDescriptor, OpResult, Problem } from '../model/types';
 import { UNREACHED_CODE, unreachedDiagnostics } from './coverageMarks';
 import type { DocumentFacts } from './documentFacts';
 import { opNameRange, problemRange, toRange, verdictSentence, worstParam } from './format';

@@ -3,7 +3,7 @@
 // and the Testing view data are all pure functions of this.
 
 import { discoverOps } from '../discovery/index';
-import type { OpDescriptor, OpResult } from '../engine/types';
+import type { OpDescriptor, OpResult } from '../model/types';
 
 export interface DocumentSnapshot {
   uri: string;

@@ -1,7 +1,7 @@
 // Shared wording and number formatting for what the editor shows about a result: the worst
 // parameter, figures in scientific notation, indices, and positions converted to LSP's 0-based form.
 
-import type { OpDescriptor, OpResult, ParamResult, Problem, SourcePosition } from '../engine/types';
+import type { OpDescriptor, OpResult, ParamResult, Problem, SourcePosition } from '../model/types';
 import type { OpRange } from './protocol';
 
 /** The parameter that decides an op's figure: the worst mismatching one, else the largest error. */

@@ -3,7 +3,7 @@
 // method), the hints and the seed, so a result can be read and reproduced where the code is.
 
 import { MarkupKind, type Hover, type Position } from 'vscode-languageserver';
-import type { OpDescriptor, ParamResult } from '../engine/types';
+import type { OpDescriptor, ParamResult } from '../model/types';
 import { coverageHoverLine } from './coverageMarks';
 import type { DocumentFacts } from './documentFacts';
 import { contains, figure, indexText, millis, opNameRange, sci, shapeText, toRange } from './format';

@@ -2,7 +2,7 @@
 // did-you-mean replacement, "add the missing @sample lines", or "create the missing function".
 // A problem's own `fix` field wins; otherwise the fix is read from discovery's wording.
 
-import type { Problem, ProblemFix } from '../engine/types';
+import type { Problem, ProblemFix } from '../model/types';
 
 /** `did you mean @backward?` or `did you mean 'weight'?` at the end of a message. */
 const DID_YOU_MEAN = /did you mean (@?)'?([\w$.]+)'?\?/;

@@ -2,7 +2,7 @@
 // and notification, with its method string, its types and the direction it travels.
 // A leaf module: it imports only data types, so both sides (and tests) can use it.
 
-import type { OpResult, ReportSummary, Verdict } from '../engine/types';
+import type { OpResult, ReportSummary, Verdict } from '../model/types';
 
 /** Where an op's forward name sits, 0-based like LSP positions. */
 export interface OpRange {

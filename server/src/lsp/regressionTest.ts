@@ -2,7 +2,7 @@
 // that rebuilds the recorded sample, calls the backward with an all-ones upstream gradient and
 // compares the worst element with a central difference, so the bug stays caught after it is fixed.
 
-import { DEFAULT_EXPORT_BINDING, type BackwardArg, type OpDescriptor, type OpResult, type ParamResult } from '../engine/types';
+import { DEFAULT_EXPORT_BINDING, type BackwardArg, type OpDescriptor, type OpResult, type ParamResult } from '../model/types';
 import { indexText } from './format';
 import { regressionTestForKind } from './regressionTestKinds';
 

@@ -5,7 +5,7 @@
 // (h = ε^(1/4)·max(1,|x|); Nocedal & Wright, Numerical Optimization 2nd ed., §8.1) — so the
 // bug stays caught after it is fixed.
 
-import type { BackwardArg, OpDescriptor, OpResult } from '../engine/types';
+import type { BackwardArg, OpDescriptor, OpResult } from '../model/types';
 import { literal, quote, type SnippetOutcome } from './regressionTest';
 
 /** Machine epsilon exponents of the dtypes (IEEE 754-2019: 2^-52 binary64, 2^-23 binary32). */

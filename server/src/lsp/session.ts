@@ -7,7 +7,7 @@ import { dirname } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { CodeLensRefreshRequest, MessageType, ShowMessageNotification, type Connection } from 'vscode-languageserver';
 import type { TextDocument } from 'vscode-languageserver-textdocument';
-import type { OpResult } from '../engine/types';
+import type { OpResult } from '../model/types';
 import { CheckRefused, CheckService } from './checkService';
 import { CrashNotice } from './crashNotice';
 import { diagnosticsFor } from './diagnostics';

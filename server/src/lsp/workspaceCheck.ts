@@ -2,7 +2,7 @@
 // Testing view; nothing runs) and check them all with progress and cancellation, publishing
 // diagnostics for every file so the Problems panel shows the whole workspace.
 
-import type { ReportSummary } from '../engine/types';
+import type { ReportSummary } from '../model/types';
 import { findSourceFiles } from '../project/files';
 import { CheckRefused } from './checkService';
 import type { FileOps, CheckWorkspaceResult, WorkspaceProgressParams } from './protocol';

@@ -7,7 +7,7 @@ import { builtinModules } from 'node:module';
 import { dirname, extname, isAbsolute, join, relative, resolve } from 'node:path';
 import * as esbuild from 'esbuild';
 import type * as esbuildTypes from 'esbuild';
-import { DEFAULT_EXPORT_BINDING, TENSOR_LIBRARY_BINDING } from '../engine/types';
+import { DEFAULT_EXPORT_BINDING, TENSOR_LIBRARY_BINDING } from '../model/types';
 import { UNAVAILABLE_BUILTIN_NAMESPACE, unavailableModuleCode } from './builtinStandIn';
 import { bundleCacheDir, readStoredBundle, writeStoredBundle } from './bundleDiskCache';
 import { mappedSegments, originalPlace, type MappedSegment, type SourcePlace } from './sourceMap';

@@ -6,7 +6,7 @@ import { existsSync, readFileSync } from 'node:fs';
 import { dirname, resolve } from 'node:path';
 import ts from 'typescript';
 import { parserSafeText } from '../discovery/index';
-import type { OpDescriptor } from '../engine/types';
+import type { OpDescriptor } from '../model/types';
 
 export type Side = 'forward' | 'backward';
 

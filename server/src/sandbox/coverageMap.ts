@@ -1,7 +1,7 @@
 // Turns V8 block coverage of a bundle into the report's coverage of one op: each block of the
 // op's forward, backward and helpers (coverageBlocks.ts) is looked up at its first mapped place
 // in the bundle (through the source map), and the innermost V8 range there says whether it ran.
-import type { CoverageGap, OpCoverage, OpDescriptor } from '../engine/types';
+import type { CoverageGap, OpCoverage, OpDescriptor } from '../model/types';
 import { blocksOf, findOpFunctions, type CodeBlock, type CodeFunction } from './coverageBlocks';
 import { reachHint } from './coverageReach';
 import type { BlockCoverage } from './jobTypes';

@@ -3,7 +3,7 @@
 // `this.w[j] >= 3`. Anything else (a computed value, a reassigned parameter, a helper's own
 // parameter) gets no hint: the condition is read, never guessed.
 import ts from 'typescript';
-import type { OpDescriptor } from '../engine/types';
+import type { OpDescriptor } from '../model/types';
 import { localNames, type CodeBlock } from './coverageBlocks';
 
 type Comparison = '<' | '<=' | '>' | '>=';

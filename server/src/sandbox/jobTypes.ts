@@ -2,7 +2,7 @@
 // interpreter, their message protocols and the reply reader all use these. A leaf module (it
 // imports only the engine's data shapes), so no two sandbox modules import each other for types.
 import type { CheckSettings } from '../engine/settings';
-import type { CheckOutcome, OpDescriptor } from '../engine/types';
+import type { CheckOutcome, OpDescriptor } from '../model/types';
 
 /** Console text kept per op, in characters: enough for debugging prints, small enough for a report. */
 export const OUTPUT_LIMIT_CHARS = 64 * 1024;
@@ -18,7 +18,7 @@ export interface RunJob {
 
 /** What every runner process is told about a job, whichever kind it is (the wire form of a RunJob's check). */
 export interface RunnerJobFields {
-  /** JSON of the engine's CheckRequest ({ op, settings }). */
+  /** JSON of the engine's OpCheckRequest ({ op, settings }). */
   requestJson: string;
   /** Seed of the context's Math.random (the op's seed). */
   seed: number;

@@ -2,7 +2,7 @@
 // shape) into the RunResult a caller sees, trusting nothing about the engine's JSON beyond what
 // callers read.
 
-import type { CheckOutcome, Verdict } from '../engine/types';
+import type { CheckOutcome, Verdict } from '../model/types';
 import type { RunFailure, RunnerReply, RunResult } from './jobTypes';
 
 const VERDICTS: ReadonlySet<Verdict> = new Set(['pass', 'mismatch', 'inconclusive', 'error']);
