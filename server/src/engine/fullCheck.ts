@@ -5,7 +5,7 @@
 import { F64 } from './builtins';
 import { stopAtTimeLimit } from './failure';
 import type { ElementEstimates } from './judge';
-import type { ForwardMap } from './opHarness';
+import type { ForwardMap } from './forwardMap';
 import type { ParamSlot } from './paramSlot';
 import { ROUNDOFF_ULPS, centralStep } from './precision';
 
@@ -28,18 +28,17 @@ export function estimateColumns(
 ): ElementEstimates {
   const K = ws.length;
   const count = indices.length;
-  const m = (h.layout as { size: number }).size;
+  const m = h.outputLayout.size;
   const numeric: Float64Array[] = [];
   const bound: Float64Array[] = [];
   for (let k = 0; k < K; k++) {
     numeric[k] = new F64(count);
     bound[k] = new F64(count);
   }
-  let plus: Float64Array = new F64(m);
-  let minus: Float64Array = new F64(m);
+  const plus = new F64(m);
+  const minus = new F64(m);
   const sums = new F64(K);
   const mags = new F64(K);
-  const pert = h.perturbation;
   for (let p = 0; p < count; p++) {
     // Reading the clock costs far less than a forward call, but not nothing: every 64 elements.
     if ((p & 63) === 63 && outOfTime()) {
@@ -48,23 +47,9 @@ export function estimateColumns(
     const i = indices[p];
     const x0 = slot.get(i);
     const step = centralStep(slot.precision, x0);
-    pert.slot = slot;
-    pert.index = i;
-    pert.several = false;
-    let xp: number;
-    let xm: number;
-    try {
-      // Finiteness is checked on the projections below, not per output: one pass instead of three.
-      xp = slot.set(i, x0 + step);
-      pert.value = xp;
-      plus = h.forwardInto(plus, false);
-      xm = slot.set(i, x0 - step);
-      pert.value = xm;
-      minus = h.forwardInto(minus, false);
-    } finally {
-      slot.set(i, x0);
-      pert.slot = null;
-    }
+    // Finiteness is checked on the projections below, not per output: one pass instead of three.
+    const xp = h.forwardAtElement(slot, i, x0 + step, plus, false);
+    const xm = h.forwardAtElement(slot, i, x0 - step, minus, false);
     const denom = xp - xm;
     for (let k = 0; k < K; k++) {
       sums[k] = 0;
@@ -87,17 +72,8 @@ export function estimateColumns(
     for (let k = 0; k < K; k++) {
       if (!(mags[k] < Infinity)) {
         // NaN or ±Infinity among the outputs: name where, as the baseline check would.
-        pert.slot = slot;
-        pert.index = i;
-        try {
-          pert.value = slot.set(i, x0 + step);
-          h.forwardInto(plus, true);
-          pert.value = slot.set(i, x0 - step);
-          h.forwardInto(minus, true);
-        } finally {
-          slot.set(i, x0);
-          pert.slot = null;
-        }
+        h.forwardAtElement(slot, i, x0 + step, plus, true);
+        h.forwardAtElement(slot, i, x0 - step, minus, true);
       }
       numeric[k][p] = sums[k] / denom;
       bound[k][p] = (ROUNDOFF_ULPS * uOut * mags[k]) / denom;

@@ -8,7 +8,8 @@ import { F64, I32, abs, formatNumber, max } from './builtins';
 import { giveUp } from './failure';
 import { ElementState, compareElements, excessOf, floorsFor, type Comparison, type ElementEstimates } from './judge';
 import { HINT_TOLERANCE_FACTOR } from './hints';
-import { elementName, unravelSlot, type ForwardMap } from './opHarness';
+import type { ForwardMap } from './forwardMap';
+import { elementName, unravelSlot } from './opHarness';
 import type { ParamSlot } from './paramSlot';
 import { ROUNDOFF_ULPS, centralStep, relativeFloorFactor, type Precision } from './precision';
 import { refineSuspicious, type KinkReport, type RefineSummary } from './refine';
@@ -49,29 +50,14 @@ export function unitColumns(f: ForwardMap, slot: ParamSlot, m: number, uOut: num
     numeric[k] = new F64(n);
     bound[k] = new F64(n);
   }
-  let plus: Float64Array = new F64(m);
-  let minus: Float64Array = new F64(m);
-  const pert = f.perturbation;
+  const plus = new F64(m);
+  const minus = new F64(m);
   for (let i = 0; i < n; i++) {
     if ((i & 63) === 63 && outOfTime()) giveUp(`check of '${slot.name}' stopped at the time limit after ${i} of ${n} columns`);
     const x0 = slot.get(i);
     const step = centralStep(slot.precision, x0);
-    pert.slot = slot;
-    pert.index = i;
-    pert.several = false;
-    let xp: number;
-    let xm: number;
-    try {
-      xp = slot.set(i, x0 + step);
-      pert.value = xp;
-      plus = f.forwardInto(plus, true);
-      xm = slot.set(i, x0 - step);
-      pert.value = xm;
-      minus = f.forwardInto(minus, true);
-    } finally {
-      slot.set(i, x0);
-      pert.slot = null;
-    }
+    const xp = f.forwardAtElement(slot, i, x0 + step, plus, true);
+    const xm = f.forwardAtElement(slot, i, x0 - step, minus, true);
     const denom = xp - xm;
     for (let k = 0; k < m; k++) {
       const a = plus[k];
