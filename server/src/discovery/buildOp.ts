@@ -1,19 +1,23 @@
 // Turns one annotated declaration (a ForwardSite and its JSDoc tags) into an OpDescriptor:
 // parses every tag, matches @sample tags to parameters, resolves the backward and factories in
-// the module, builds the backward's argument list, and records each mistake where it stands.
+// the module (functionLookup.ts), builds the backward's argument list (backwardArgs.ts), and
+// records each mistake where it stands.
 import ts from 'typescript';
-import { DEFAULT_EXPORT_BINDING, type BackwardArg, type OpDescriptor, type ParamDescriptor, type SampleSpec, type TagLocation } from '../model/types';
+import { DEFAULT_EXPORT_BINDING, type OpDescriptor, type ParamDescriptor, type SampleSpec, type TagLocation } from '../model/types';
+import { defaultBackwardArgs, explicitBackwardArgs } from './backwardArgs';
 import { backwardSignatureProblem } from './backwardSignature';
-import { DERIVATIVE_KINDS, defaultDerivativeArgs, explicitDerivativeArgs, parseDerivativeTag, type DerivativeKind } from './derivativeTags';
+import { DERIVATIVE_KINDS, defaultDerivativeArgs, explicitDerivativeArgs, parseDerivativeTag } from './derivativeTags';
 import type { ForwardSite } from './forwardSites';
-import { findMethod, unwrapExpression, type Binding, type ModuleBindings } from './moduleBindings';
+import { checkTopLevelFunction, functionFlavour, resolveBackward } from './functionLookup';
+import type { ModuleBindings } from './moduleBindings';
 import { parseBackwardTag, parseNameListTag, parseNameTag, parseSeedTag, parseToleranceTag, type ParsedBackward } from './otherTags';
-import type { PositionMapper, Span, SpanProblem } from './positions';
+import type { PositionMapper, SpanProblem } from './positions';
 import { nonNumberReturn } from './returnType';
-import { parseSampleTag, type SampleTarget } from './sampleTag';
-import { nearestName } from '../text/nearestName';
+import { readForwardParams, sampleTargetProblem, withSample } from './forwardParams';
+import { parseSampleTag } from './sampleTag';
+import { displayName, suggest } from './siteNames';
 import { classifyTag, type OpTagName } from './tagNames';
-import { customGradSaveParam, libraryGradientTagNameProblem, markTensorParams, readLibraryGradientTag, tensorLibraryProblem, libraryOf, type SampleTagRef } from './tensorOps';
+import { libraryGradientTagNameProblem, markTensorParams, readLibraryGradientTag, tensorLibraryProblem, libraryOf, type SampleTagRef } from './tensorOps';
 import type { RawTag } from './tagText';
 
 export interface BuildContext {
@@ -72,36 +76,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   }
   const isMethod = site.kind === 'method';
 
-  // Forward parameters: plain names; a destructured one is known by its pattern; one with a
-  // default value need not be sampled (it is passed as undefined, so its default applies).
-  const paramNames: string[] = [];
-  const paramSpans = new Map<string, Span>();
-  const defaulted = new Set<string>();
-  const destructured = new Set<string>();
-  const usesFactory = rawTags.some((t) => t.name === 'samples');
-  const saveParam = customGradSaveParam(site, rawTags);
-  for (const p of site.fn?.parameters ?? []) {
-    if (ts.isIdentifier(p.name) && p.name.text === 'this') continue; // TypeScript's `this` type, not an argument
-    if (p === saveParam) continue; // customGrad's save function, passed by the library
-    if (p.dotDotDotToken) {
-      problems.push({ start: p.getStart(), end: p.getEnd(), message: `a rest parameter (found '${p.getText()}') cannot be sampled: list the parameters one by one, or pass an array parameter` });
-      continue;
-    }
-    const name = ts.isIdentifier(p.name) ? p.name.text : p.name.getText().replace(/\s+/g, ' ');
-    if (!ts.isIdentifier(p.name)) {
-      destructured.add(name);
-      if (!p.initializer && !usesFactory) {
-        problems.push({
-          start: p.name.getStart(),
-          end: p.name.getEnd(),
-          message: `a destructured parameter ('${name}') has no name for @sample: give it a default value (\`${name}: T = DEFAULTS\`) so it need not be sampled, or name it (\`opts: T\`, destructured in the body) and add \`@sample opts = JSON\`, or supply the arguments with @samples FACTORY`,
-        });
-      }
-    }
-    if (p.initializer || p.questionToken) defaulted.add(name);
-    paramNames.push(name);
-    paramSpans.set(name, { start: p.name.getStart(), end: p.name.getEnd() });
-  }
+  const { paramNames, paramSpans, defaulted, destructured } = readForwardParams(site, rawTags, problems);
 
   // @samples and @construct factories.
   const samplesTag = firstOf.get('samples');
@@ -319,10 +294,6 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   return ops;
 }
 
-/** Kinds named in messages as the role of the function a tag names. */
-type Role = 'backward' | DerivativeKind;
-
-/** An op whose tags stand where no op can be (on a class): its one problem, nothing parsed. */
 /** The op's file and the span of its forward's name (1-based). */
 function opPlace(site: ForwardSite, ctx: BuildContext): Pick<OpDescriptor, 'file' | 'line' | 'column' | 'endLine' | 'endColumn'> {
   const start = ctx.mapper.at(site.nameSpan.start);
@@ -330,6 +301,7 @@ function opPlace(site: ForwardSite, ctx: BuildContext): Pick<OpDescriptor, 'file
   return { file: ctx.fileName, line: start.line, column: start.column, endLine: end.line, endColumn: end.column };
 }
 
+/** An op whose tags stand where no op can be (on a class): its one problem, nothing parsed. */
 function misplacedOp(site: ForwardSite, ctx: BuildContext, problems: SpanProblem[], ours: OurTag[]): OpDescriptor {
   const tags: TagLocation[] = ours.map((t) => {
     const a = ctx.mapper.at(t.raw.span.start);
@@ -359,148 +331,4 @@ function declaresPrivateMembers(cls: ts.ClassLikeDeclaration, bindings: ModuleBi
     cur = ext && ts.isIdentifier(ext.expression) ? bindings.classes.get(ext.expression.text) : undefined;
   }
   return false;
-}
-
-function displayName(site: ForwardSite): string {
-  const name = site.name || '(anonymous)';
-  if (site.objectName !== undefined) return `${site.objectName}.${name}`;
-  return site.kind === 'method' ? `${site.className || '(anonymous class)'}.${name}` : name;
-}
-
-function suggest(name: string, candidates: readonly string[]): string {
-  const near = nearestName(name, candidates);
-  return near ? `; did you mean '${near}'?` : '';
-}
-
-function withSample(p: { name: string; isField: boolean; hasDefault?: boolean }, spec: SampleSpec | undefined): ParamDescriptor {
-  return spec ? { ...p, sample: spec } : p;
-}
-
-/** Why a `@sample` target does not fit this op, or undefined when it does. */
-function sampleTargetProblem(
-  target: SampleTarget,
-  isMethod: boolean,
-  paramNames: readonly string[],
-  samples: ReadonlyMap<string, unknown>,
-  samplesFactory: string | undefined,
-  site: ForwardSite,
-): string | undefined {
-  if (target.isField && !isMethod) return `'${target.name}': this.FIELD samples only apply to methods`;
-  if (!target.isField && !paramNames.includes(target.name)) return `@sample: '${target.name}' is not a parameter of ${displayName(site)}${suggest(target.name, paramNames)}`;
-  if (samples.has(target.name)) return `@sample ${target.name} is given twice`;
-  if (!target.isField && samplesFactory) return `@sample ${target.name} conflicts with @samples ${samplesFactory}: the factory supplies the arguments (use @fixed for ones not differentiated)`;
-  return undefined;
-}
-
-/** 'async', 'a generator' or undefined for a plain function. */
-function functionFlavour(fn: ts.SignatureDeclaration): string | undefined {
-  const mods = ts.canHaveModifiers(fn) ? ts.getModifiers(fn) : undefined;
-  if (mods?.some((m) => m.kind === ts.SyntaxKind.AsyncKeyword)) return 'async';
-  if ((ts.isFunctionDeclaration(fn) || ts.isFunctionExpression(fn) || ts.isMethodDeclaration(fn)) && fn.asteriskToken) return 'a generator';
-  return undefined;
-}
-
-function bindingKindProblem(name: string, b: Binding, role: string): string | undefined {
-  if (b.kind === 'class') return `${role} '${name}' is a class, not a function`;
-  if (b.kind === 'other') return `${role} '${name}' is not a function`;
-  const flavour = b.fn ? functionFlavour(b.fn) : undefined;
-  if (flavour) return `${role} '${name}' is ${flavour}: it must return its result directly`;
-  return undefined;
-}
-
-/** Factories must be top-level functions (or imports) of this module. */
-function checkTopLevelFunction(name: string, span: Span, role: string, bindings: ModuleBindings, problems: SpanProblem[]): void {
-  const b = bindings.topLevel.get(name);
-  if (!b) {
-    problems.push({ ...span, message: `${role} '${name}' is not declared at the top level of this module or imported into it${suggest(name, [...bindings.topLevel.keys()])}` });
-    return;
-  }
-  const bad = bindingKindProblem(name, b, role);
-  if (bad) problems.push({ ...span, message: bad });
-}
-
-/** Finds the backward: for a method, on the class first; then among the module's top-level names. */
-function resolveBackward(
-  name: string,
-  span: Span,
-  site: ForwardSite,
-  bindings: ModuleBindings,
-  problems: SpanProblem[],
-  role: Role = 'backward',
-): { isMethod: boolean; span?: Span; fn?: ts.SignatureDeclaration } | undefined {
-  let unknownBase = false;
-  if (site.objectNode) {
-    // A function of the same object literal, called on the object (like a method).
-    for (const m of site.objectNode.properties) {
-      if (!(ts.isMethodDeclaration(m) || ts.isPropertyAssignment(m)) || !ts.isIdentifier(m.name) || m.name.text !== name) continue;
-      const fn = ts.isMethodDeclaration(m) ? m : unwrapExpression(m.initializer);
-      if (!(ts.isMethodDeclaration(fn) || ts.isArrowFunction(fn) || ts.isFunctionExpression(fn))) {
-        problems.push({ ...span, message: `backward '${site.objectName}.${name}' is not a function` });
-        return undefined;
-      }
-      const flavour = functionFlavour(fn);
-      if (flavour) problems.push({ ...span, message: `backward '${name}' is ${flavour}: it must return its result directly` });
-      return { isMethod: true, span: { start: m.name.getStart(), end: m.name.getEnd() }, fn };
-    }
-  }
-  if (site.kind === 'method' && site.classNode) {
-    const m = findMethod(site.classNode, name, bindings);
-    if (m.found) {
-      const flavour = m.fn ? functionFlavour(m.fn) : undefined;
-      if (flavour) problems.push({ ...span, message: `${role} '${name}' is ${flavour}: it must return its result directly` });
-      return { isMethod: true, span: m.span, fn: m.fn };
-    }
-    unknownBase = m.unknownBase;
-  }
-  const b = bindings.topLevel.get(name);
-  if (b) {
-    const bad = bindingKindProblem(name, b, role);
-    if (bad) problems.push({ ...span, message: bad });
-    return { isMethod: false, span: b.span, fn: b.fn };
-  }
-  // The class extends one declared elsewhere: the backward may be inherited; the run will tell.
-  if (unknownBase) return { isMethod: true };
-  const where = site.kind === 'method' ? `a method of ${site.className || 'the class'}, a top-level function of this module or an import` : 'a top-level function of this module or an import';
-  const candidates = [...bindings.topLevel.keys(), ...(site.classNode ? site.classNode.members.flatMap((m) => (m.name && ts.isIdentifier(m.name) ? [m.name.text] : [])) : [])];
-  problems.push({ ...span, message: `${role} '${name}' not found: it must be ${where}${suggest(name, candidates)}` });
-  return undefined;
-}
-
-function defaultBackwardArgs(isMethod: boolean, paramNames: readonly string[]): BackwardArg[] {
-  if (isMethod) return [{ kind: 'upstream' }];
-  return [...paramNames.map((name): BackwardArg => ({ kind: 'param', name })), { kind: 'upstream' }];
-}
-
-function explicitBackwardArgs(
-  parsed: ParsedBackward,
-  site: ForwardSite,
-  paramNames: readonly string[],
-  samples: ReadonlyMap<string, unknown>,
-  problems: SpanProblem[],
-): BackwardArg[] {
-  const args: BackwardArg[] = [];
-  const seen = new Set<string>();
-  for (const a of parsed.args ?? []) {
-    const key = a.kind === 'param' ? a.name : a.kind === 'output' ? '$y' : '$dy';
-    if (seen.has(key)) problems.push({ ...a.span, message: `@backward: '${key}' is listed twice` });
-    seen.add(key);
-    if (a.kind !== 'param') {
-      args.push({ kind: a.kind });
-      continue;
-    }
-    if (a.isField) {
-      if (site.kind !== 'method') problems.push({ ...a.span, message: `@backward: '${a.name}' names a field, but ${displayName(site)} is not a method` });
-      else if (!samples.has(a.name)) problems.push({ ...a.span, message: `@backward: '${a.name}' has no @sample; add \`@sample ${a.name} SPEC\` to pass it` });
-    } else if (!paramNames.includes(a.name)) {
-      problems.push({ ...a.span, message: `@backward: '${a.name}' is not a parameter of ${displayName(site)}${suggest(a.name, paramNames)}` });
-    }
-    args.push({ kind: 'param', name: a.name });
-  }
-  if (!seen.has('$dy') && parsed.listSpan) {
-    const returns = nonNumberReturn(site.fn?.type);
-    if (returns) {
-      problems.push({ ...parsed.listSpan, message: `@backward: the list has no $dy, but ${displayName(site)} returns ${returns}; without $dy the forward must return a number` });
-    }
-  }
-  return args;
 }
