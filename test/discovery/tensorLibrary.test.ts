@@ -3,7 +3,7 @@
 // the float32 rule for tensor samples, and did-you-mean for near misses of the spelling.
 import assert from 'node:assert/strict';
 import { TENSOR_LIBRARY_BINDING } from '../../server/src/model/types';
-import { exposeCode } from '../../server/src/sandbox/bundle';
+import { exposeCode } from '../../server/src/sandbox/exposeCode';
 import { discover, expectProblem, opNamed } from './helpers';
 
 const HEADER = `import * as tf from '@tensorflow/tfjs';\nimport { Tensor2D as Grid, customGrad, type GradSaveFunc } from '@tensorflow/tfjs';\n`;

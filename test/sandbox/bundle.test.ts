@@ -7,7 +7,8 @@ import { tmpdir } from 'node:os';
 import { join, sep } from 'node:path';
 import * as vm from 'node:vm';
 import { Checker } from '../../server/src/core/checker';
-import { Bundler, exposeCode } from '../../server/src/sandbox/bundle';
+import { Bundler } from '../../server/src/sandbox/bundle';
+import { exposeCode } from '../../server/src/sandbox/exposeCode';
 import { describeResults, fixture, resultOf, settingsWith } from './helpers';
 
 /** Evaluates a bundle in a bare context and returns what it exposed (test-only, trusted code). */

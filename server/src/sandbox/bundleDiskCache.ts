@@ -6,6 +6,7 @@ import { existsSync, mkdirSync, readdirSync, readFileSync, renameSync, rmSync, s
 import { tmpdir, userInfo } from 'node:os';
 import { dirname, join } from 'node:path';
 import * as esbuild from 'esbuild';
+import type { CacheEntry } from './bundleBuild';
 
 /**
  * Environment variable naming the cache folder, or `off` to keep bundles in memory only. Default:
@@ -21,13 +22,7 @@ const MAX_FILES = 200;
 const MAX_BYTES = 512 * 1024 * 1024;
 
 /** What a cached bundle records (the in-memory cache entry, as JSON). */
-export interface StoredBundle {
-  code: string;
-  key: string;
-  sourceMap: string;
-  mapDir: string;
-  inputs: { path: string; size: number; mtimeMs: number; hash: string }[];
-}
+export type StoredBundle = CacheEntry;
 
 /** The tool's version and esbuild's: a bundle made by another version is not reused. */
 function toolVersion(): string {
