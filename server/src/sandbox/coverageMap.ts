@@ -2,7 +2,8 @@
 // op's forward, backward and helpers (coverageBlocks.ts) is looked up at its first mapped place
 // in the bundle (through the source map), and the innermost V8 range there says whether it ran.
 import type { CoverageGap, OpCoverage, OpDescriptor } from '../model/types';
-import { blocksOf, findOpFunctions, type CodeBlock, type CodeFunction } from './coverageBlocks';
+import { blocksOf, type CodeBlock, type CodeFunction } from './coverageBlocks';
+import { findOpFunctions } from './coverageFunctions';
 import { reachHint } from './coverageReach';
 import type { BlockCoverage } from './jobTypes';
 import type { MappedSegment } from './sourceMap';

@@ -4,7 +4,8 @@
 // parameter) gets no hint: the condition is read, never guessed.
 import ts from 'typescript';
 import type { OpDescriptor } from '../model/types';
-import { localNames, type CodeBlock } from './coverageBlocks';
+import type { CodeBlock } from './coverageBlocks';
+import { localNames } from './coverageFunctions';
 
 type Comparison = '<' | '<=' | '>' | '>=';
 
