@@ -13,6 +13,7 @@ export const ceil = Math.ceil;
 export const min = Math.min;
 export const max = Math.max;
 export const log10 = Math.log10;
+export const log = Math.log;
 export const pow = Math.pow;
 export const round = Math.round;
 export const fround = Math.fround;

@@ -75,7 +75,7 @@ export function hvpAttempt(ctx: AttemptContext, base: Baseline, c: Coords, gm: G
         tally.add(hvpBySecondDifferences(h, base, c, slot, v, analytic, name));
       }
     }
-    checks[s] = tally.finish(slot, gm !== null ? 'gradient-differences' : 'second-differences');
+    checks[s] = tally.finish(slot, gm !== null ? 'gradient-differences' : 'second-differences', base.tol);
   }
   return kindAttemptResult(ctx, checks, base.inputs, '');
 }

@@ -3,6 +3,7 @@
 // outcome of an attempt from its parameters' checks.
 
 import { copyList, max } from './builtins';
+import { directionalFloor } from './directionalFloor';
 import { combinedVerdict, type AttemptContext, type AttemptResult } from './kindBaseline';
 import type { ParamSlot } from './paramSlot';
 import type { KinkReport } from './refine';
@@ -65,12 +66,15 @@ export class DirectionTally {
   maxRel = 0;
   kink: KinkReport | null = null;
   readonly hints: string[] = [];
+  /** Directions compared so far. */
+  directions = 0;
 
   get mismatched(): boolean {
     return this.verdict === 'mismatch';
   }
 
   add(f: DirectionFinding): void {
+    this.directions++;
     this.maxAbs = max(this.maxAbs, f.maxAbs);
     this.maxRel = max(this.maxRel, f.maxRel);
     if (f.kink !== null && this.kink === null) this.kink = f.kink;
@@ -80,8 +84,11 @@ export class DirectionTally {
     }
   }
 
-  /** The parameter's check: every element moved along each direction, none named as the worst. */
-  finish(slot: ParamSlot, method: CheckMethod): KindParamCheck {
+  /**
+   * The parameter's check: every element moved along each direction, none named as the worst;
+   * the detection floor of one wrong entry from the directions compared (directionalFloor.ts).
+   */
+  finish(slot: ParamSlot, method: CheckMethod, tol: number): KindParamCheck {
     const result = kindParamResult(slot, {
       verdict: this.verdict,
       method,
@@ -91,6 +98,8 @@ export class DirectionTally {
       checkedElements: slot.size,
       hints: this.hints,
     });
+    const floor = directionalFloor(slot.size, this.directions, tol);
+    if (floor < Infinity) result.detectionFloor = floor;
     return { result, note: this.note, kink: this.verdict === 'mismatch' ? null : this.kink };
   }
 }

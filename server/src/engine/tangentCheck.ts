@@ -261,5 +261,5 @@ function checkSlot(ctx: AttemptContext, base: Baseline, s: number, probes: numbe
       tally.hints[tally.hints.length] = `the tangent gives 0 for every output when only $d${slot.name} is non-zero: the term of '${slot.name}' looks missing`;
     }
   }
-  return tally.finish(slot, 'directional');
+  return tally.finish(slot, 'directional', tol);
 }
