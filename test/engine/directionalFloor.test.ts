@@ -138,3 +138,32 @@ describe('engine: detection floor of @hessian H·v, against a mathjs Hessian', (
     });
   }
 });
+
+describe('engine: a directional check passes only on outputs it judged', () => {
+  // Outputs sin(k_i·x) with k_i near 10⁴ (our own example): the first central difference is off
+  // by about (k·h)²/6 ≈ 6e-4 relative (Nocedal & Wright §8.1), so every output is suspicious
+  // until Ridders' extrapolation refines it. Refinement takes the 16 worst outputs of a direction.
+  const build = (m: number) => {
+    const k = Array.from({ length: m }, (_, i) => 1e4 * (1 + i / 40));
+    const built = functionOp({
+      forward: (x: number) => Float64Array.from(k, (ki) => Math.sin(ki * x)),
+      backward: (x: number, dx: number) => Float64Array.from(k, (ki) => ki * Math.cos(ki * x) * dx),
+      params: [['x', undefined]],
+      samples: () => [0.3],
+    });
+    built.op.kind = 'tangent';
+    built.op.backwardArgs = [P, { kind: 'tangent', name: 'x' }];
+    return built;
+  };
+
+  it('a correct tangent whose 16 suspicious outputs all refine to agreement passes', () => {
+    const o = check(build(16));
+    assert.equal(o.verdict, 'pass', show(o));
+  });
+
+  it('with 20 suspicious outputs, the 4 left unrefined make it inconclusive, not a pass', () => {
+    const o = check(build(20));
+    assert.equal(o.verdict, 'inconclusive', show(o));
+    assert.match(o.message, /4 suspicious outputs could not be refined within the limits/, show(o));
+  });
+});

@@ -224,6 +224,13 @@ export function compareAlongLine(
         out.note = `the finite-difference estimate of ${words.subject} at ${what(j)} is unreliable (error ${formatNumber(e, 3)} against a value of ${formatNumber(r.value[q], 6)})`;
       }
     }
+    if (order.length > count && out.verdict === 'pass') {
+      // Suspicious outputs beyond the refined ones were never judged: no pass (and no detection
+      // floor) can rest on them.
+      const left = order.length - count;
+      out.verdict = 'inconclusive';
+      out.note = `${words.subject}: ${left} suspicious output${left === 1 ? '' : 's'} could not be refined within the limits (${count} were, and agree)`;
+    }
   }
   for (let j = 0; j < m; j++) {
     const gap = abs(analytic[j] - numeric[j]);
