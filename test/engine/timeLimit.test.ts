@@ -22,10 +22,12 @@ const cubeSum = functionOp({
 
 describe('engine: the time limit', () => {
   it('stops a check that runs out of time, inconclusive, with how far it got', () => {
-    // Each clock read advances 10 ms; the engine reads it every 64 elements, and a 50 ms limit
-    // (80 % of it for the engine: 40 ms) runs out a few reads in, before element 120.
+    // Each clock read advances 1 ms, so the baseline's timed forward calls measure 1 ms each: a
+    // slow forward, for which the engine reads the clock at every element (fullCheck.ts,
+    // clockEvery). A 50 ms limit (80 % of it for the engine: 40 ms) runs out part way, before
+    // element 120.
     let now = 0;
-    const o = runCheck(cubeSum.exposed, { op: cubeSum.op, settings: { ...DEFAULT_SETTINGS, timeLimitMs: 50 } }, () => (now += 30));
+    const o = runCheck(cubeSum.exposed, { op: cubeSum.op, settings: { ...DEFAULT_SETTINGS, timeLimitMs: 50 } }, () => (now += 1));
     assert.equal(o.verdict, 'inconclusive', show(o));
     const stop = o.stoppedAtTimeLimit;
     assert.ok(stop, show(o));

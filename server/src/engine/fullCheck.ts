@@ -26,8 +26,24 @@ export function estimateColumns(
   ws: Float64Array[],
   uOut: number,
   outOfTime: () => boolean,
+  clockEvery = CLOCK_EVERY_CHEAP,
 ): ElementEstimates {
-  return centralColumns(h, slot, indices, ws, ws.length, uOut, outOfTime, 'elements');
+  return centralColumns(h, slot, indices, ws, ws.length, uOut, outOfTime, 'elements', clockEvery);
+}
+
+/**
+ * Elements between two reads of the clock when a forward call is cheap: reading it costs far
+ * less than a forward call, but not nothing.
+ */
+const CLOCK_EVERY_CHEAP = 64;
+
+/**
+ * Elements between two reads of the clock for a forward call of `forwardMs`: every element once
+ * a call costs more than 0.01 ms (our choice: a clock read is well under a microsecond), so 64
+ * slow calls cannot carry the check past the sandbox's watchdog.
+ */
+export function clockEvery(forwardMs: number): number {
+  return forwardMs >= 0.01 ? 1 : CLOCK_EVERY_CHEAP;
 }
 
 /**
@@ -38,7 +54,7 @@ export function estimateColumns(
 export function estimateUnitColumns(h: ForwardMap, slot: ParamSlot, m: number, uOut: number, outOfTime: () => boolean): ElementEstimates {
   const indices = new I32(slot.size);
   for (let i = 0; i < slot.size; i++) indices[i] = i;
-  return centralColumns(h, slot, indices, null, m, uOut, outOfTime, 'columns');
+  return centralColumns(h, slot, indices, null, m, uOut, outOfTime, 'columns', CLOCK_EVERY_CHEAP);
 }
 
 /** The one loop of both: ws null reads the outputs themselves (K = m unit vectors). */
@@ -51,6 +67,7 @@ function centralColumns(
   uOut: number,
   outOfTime: () => boolean,
   unit: 'elements' | 'columns',
+  every: number,
 ): ElementEstimates {
   const count = indices.length;
   const m = h.outputLayout.size;
@@ -65,8 +82,7 @@ function centralColumns(
   const sums = new F64(K);
   const mags = new F64(K);
   for (let p = 0; p < count; p++) {
-    // Reading the clock costs far less than a forward call, but not nothing: every 64 elements.
-    if ((p & 63) === 63 && outOfTime()) {
+    if (p % every === every - 1 && outOfTime()) {
       stopAtTimeLimit(`check of '${slot.name}' stopped at the time limit after ${p} of ${count} ${unit}`, { param: slot.name, stage: 'elements', done: p, total: count });
     }
     const i = indices[p];

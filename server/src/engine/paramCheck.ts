@@ -5,7 +5,7 @@
 import { F64, I32, abs, max } from './builtins';
 import type { UpstreamProbes } from './backwardCalls';
 import { dotProductProbes, type DotProbeResult } from './dotProductCheck';
-import { estimateColumns } from './fullCheck';
+import { clockEvery, estimateColumns } from './fullCheck';
 import { estimateGrouped } from './groupedCheck';
 import { compareElements, floorsFor, type ElementEstimates } from './judge';
 import type { Baseline } from './kindBaseline';
@@ -76,7 +76,7 @@ export function checkParam(at: ParamCheckContext, s: number): ParamCheck {
   } else {
     const all = new I32(n);
     for (let i = 0; i < n; i++) all[i] = i;
-    est = estimateColumns(at.h, slot, all, at.probes.ws, at.base.uOut, at.outOfTime);
+    est = estimateColumns(at.h, slot, all, at.probes.ws, at.base.uOut, at.outOfTime, clockEvery(at.base.forwardMs));
   }
   const floors = floorsFor(analytic, est, relativeFloorFactor(floorPrecisionOf(at, slot)));
   const cmp = compareElements(analytic, est, at.base.tol, floors);
