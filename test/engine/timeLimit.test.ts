@@ -45,4 +45,33 @@ describe('engine: the time limit', () => {
     assert.equal(o.verdict, 'pass', show(o));
     assert.equal(o.stoppedAtTimeLimit, undefined);
   });
+
+  // The matrix kinds read the clock the same way and stop the same way: inconclusive, saying how
+  // far they got (a Jacobian column by column, a Hessian by second differences column by column).
+  const cubes = (x: Float64Array): Float64Array => Float64Array.of(x.reduce((s, v) => s + v ** 3, 0), x.reduce((s, v) => s + v * v, 0));
+  const kindStopped = (kind: 'jacobian' | 'hessian') => {
+    const built = functionOp({
+      forward: kind === 'jacobian' ? cubes : (x: Float64Array) => cubes(x)[0]!,
+      // Right derivatives (power rule, as above): only the time limit stands between them and a pass.
+      backward: kind === 'jacobian' ? (x: Float64Array) => [Array.from(x, (v) => 3 * v * v), Array.from(x, (v) => 2 * v)] : (x: Float64Array) => Array.from(x, (_, i) => Array.from(x, (v, j) => (i === j ? 6 * v : 0))),
+      params: [['x', spec('f64', [kind === 'jacobian' ? 120 : 30])]],
+      backwardArgs: ['x'],
+    });
+    built.op.kind = kind;
+    let now = 0;
+    return runCheck(built.exposed, { op: built.op, settings: { ...DEFAULT_SETTINGS, timeLimitMs: 25 } }, () => (now += 1));
+  };
+  for (const kind of ['jacobian', 'hessian'] as const) {
+    it(`a @${kind} the time limit stops is inconclusive and says how far it got`, () => {
+      const o = kindStopped(kind);
+      const n = kind === 'jacobian' ? 120 : 30;
+      assert.equal(o.verdict, 'inconclusive', show(o));
+      const stop = o.stoppedAtTimeLimit;
+      assert.ok(stop, show(o));
+      assert.equal(stop.stage, 'elements');
+      assert.equal(stop.total, n);
+      assert.ok(stop.done < n, String(stop.done));
+      assert.match(o.message, new RegExp(`stopped at the time limit after ${stop.done} of ${n} columns`));
+    });
+  }
 });

@@ -51,10 +51,10 @@ export function clockEvery(forwardMs: number): number {
  * (output k) of column p. The same differences and bound as estimateColumns with the unit
  * vectors as upstream vectors, without the projections, so a column costs O(m), not O(m²).
  */
-export function estimateUnitColumns(h: ForwardMap, slot: ParamSlot, m: number, uOut: number, outOfTime: () => boolean): ElementEstimates {
+export function estimateUnitColumns(h: ForwardMap, slot: ParamSlot, m: number, uOut: number, outOfTime: () => boolean, clockEvery = CLOCK_EVERY_CHEAP): ElementEstimates {
   const indices = new I32(slot.size);
   for (let i = 0; i < slot.size; i++) indices[i] = i;
-  return centralColumns(h, slot, indices, null, m, uOut, outOfTime, 'columns', CLOCK_EVERY_CHEAP);
+  return centralColumns(h, slot, indices, null, m, uOut, outOfTime, 'columns', clockEvery);
 }
 
 /** The one loop of both: ws null reads the outputs themselves (K = m unit vectors). */

@@ -126,7 +126,7 @@ function matrixAttempt(ctx: AttemptContext, base: Baseline, c: Coords, gm: Gradi
       numericWord: gm !== null ? 'differences of the gradient' : 'second differences',
     };
     checks[s] = gm !== null && g0 !== null
-      ? checkMatrixBlock(gm, slot, rows, g0, ws, base.uOut, base.tol, base.precision, 'gradient-differences', naming, ctx.outOfTime)
+      ? checkMatrixBlock(gm, slot, rows, g0, ws, base.uOut, base.tol, base.precision, 'gradient-differences', naming, ctx.outOfTime, base.forwardMs)
       : secondDifferenceBlock(h, base, c, s, rows, naming, ctx.outOfTime);
   }
   if (asymmetry !== '') {

@@ -4,7 +4,7 @@
 // coordinates of the parameters taken as one vector, which the Hessian is indexed by.
 
 import { F64, I32, abs, formatNumber, max } from './builtins';
-import { fail } from './failure';
+import { fail, stopAtTimeLimit } from './failure';
 import { ElementState, compareElements, excessOf, floorsFor, type ElementEstimates } from './judge';
 import type { Baseline } from './kindBaseline';
 import type { DirectionFinding, KindParamCheck } from './kindResult';
@@ -61,7 +61,9 @@ export function secondDifferenceBlock(h: OpHarness, base: Baseline, c: Coords, s
   }
   for (let i = 0; i < slot.size; i++) {
     indices[i] = i;
-    if (outOfTime()) fail(`check of '${slot.name}' stopped at the time limit after ${i} of ${slot.size} columns of second differences`);
+    if (outOfTime()) {
+      stopAtTimeLimit(`check of '${slot.name}' stopped at the time limit after ${i} of ${slot.size} columns of second differences`, { param: slot.name, stage: 'elements', done: i, total: slot.size });
+    }
     const a = unitMove(slot, i);
     for (let k = 0; k < n; k++) {
       const b = unitMove(base.slots[c.slotOf[k]], c.indexOf[k]);

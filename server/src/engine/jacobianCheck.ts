@@ -62,7 +62,7 @@ function jacobianAttempt(ctx: AttemptContext): AttemptResult {
       rowName: (k) => outputName(layout, k),
       analyticWord: 'jacobian',
       numericWord: 'finite differences',
-    }, ctx.outOfTime);
+    }, ctx.outOfTime, base.forwardMs);
   }
   return kindAttemptResult(ctx, checks, base.inputs, '');
 }

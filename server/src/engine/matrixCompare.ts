@@ -5,7 +5,7 @@
 // so an entry is blamed only beyond tolerance plus the estimate's own error.
 
 import { F64, abs, formatNumber, max } from './builtins';
-import { estimateUnitColumns } from './fullCheck';
+import { clockEvery, estimateUnitColumns } from './fullCheck';
 import { ElementState, compareElements, excessOf, floorsFor, type Comparison, type ElementEstimates } from './judge';
 import { HINT_TOLERANCE_FACTOR } from './hints';
 import type { ForwardMap } from './forwardMap';
@@ -137,9 +137,10 @@ export function checkMatrixBlock(
   method: CheckMethod,
   naming: MatrixNaming,
   outOfTime: () => boolean,
+  forwardMs: number,
 ): KindParamCheck {
   const m = analytic.length;
-  const est = estimateUnitColumns(f, slot, m, uOut, outOfTime);
+  const est = estimateUnitColumns(f, slot, m, uOut, outOfTime, clockEvery(forwardMs));
   const floorPrecision: Precision = slot.precision === 'f32' || precision === 'f32' ? 'f32' : 'f64';
   const floors = floorsFor(analytic, est, relativeFloorFactor(floorPrecision));
   const cmp = compareElements(analytic, est, tol, floors);
