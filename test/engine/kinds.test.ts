@@ -67,6 +67,12 @@ describe('engine: @jacobian', () => {
     assert.equal(o.verdict, 'mismatch', show(o));
     assert.match(o.message, /J\[1, 0\] \(output 1, q\[0\]\): jacobian gives/, show(o));
     assert.ok(o.params[0].hints.some((h) => /only J\[1, 0\] is wrong/.test(h)), show(o));
+    // One rule for the worst element (model/types.ts WorstElement): the entry the message names,
+    // with the relative error the message shows.
+    const worst = o.params[0].worst;
+    assert.ok(worst && worst.relError !== undefined, show(o));
+    assert.deepEqual(worst.index, [0], show(o));
+    assert.ok(o.message.includes(`(relative error ${Number(worst.relError.toPrecision(3))})`), show(o));
   });
 
   it('catches a transposed square Jacobian and says so', () => {

@@ -186,7 +186,7 @@ export function summariseBlock(
       : `'${slot.name}': ${refine.unrefined} suspicious column${refine.unrefined === 1 ? '' : 's'} could not be refined within the limits`;
   }
   const worst = worstPos >= 0
-    ? { index: unravelSlot(slot, worstPos), analytic: analytic[cmp.worstProbe[worstPos]][worstPos], numeric: est.numeric[cmp.worstProbe[worstPos]][worstPos] }
+    ? { index: unravelSlot(slot, worstPos), analytic: analytic[cmp.worstProbe[worstPos]][worstPos], numeric: est.numeric[cmp.worstProbe[worstPos]][worstPos], relError: cmp.rel[worstPos] }
     : null;
   const result = kindParamResult(slot, {
     verdict,
