@@ -4,7 +4,7 @@
 // (first differences of an exact gradient), else second differences of the forward
 // (secondDifferences.ts). The message says which reference was used.
 
-import { F64, I32, abs, formatNumber, max, sliceText } from './builtins';
+import { F64, I32, abs, formatNumber, max, sliceText, newOpList } from './builtins';
 import { CheckStop, fail } from './failure';
 import { readGradients } from './gradients';
 import { GradientMap } from './gradientMap';
@@ -276,7 +276,7 @@ function secondDifferenceBlock(h: OpHarness, base: Baseline, c: Coords, s: numbe
 /** $v for slot s's direction (zeros in the other parameters): one part, or one per parameter. */
 function vectorValue(slots: ParamSlot[], s: number, v: Float64Array): unknown {
   if (slots.length === 1) return shapedLike(slots[0].value(), v, { i: 0 });
-  const parts: unknown[] = [];
+  const parts = newOpList();
   for (let q = 0; q < slots.length; q++) parts[q] = shapedLike(slots[q].value(), q === s ? v : new F64(slots[q].size), { i: 0 });
   return parts;
 }
