@@ -4,7 +4,7 @@
 // gradient as `dy`). Every call runs in the library's `tidy` scope, so each tensor made during
 // it (inputs, intermediates, outputs, gradients) is disposed when it returns.
 
-import { F32, F64, contains, describeThrown, describeValue, formatIndex, isArray, isView, objectKeys, positionOf, reflectApply, newOpF32, newOpI32 } from './builtins';
+import { F32, F64, contains, copyList, describeThrown, describeValue, formatIndex, isArray, isView, objectKeys, positionOf, reflectApply, newOpF32, newOpI32 } from './builtins';
 import { CheckStop, fail } from './failure';
 import { ParamSlot } from './paramSlot';
 import type { Sample } from './sampling';
@@ -31,12 +31,6 @@ export function isTensor(v: unknown): v is Tensor {
   if (v === null || typeof v !== 'object') return false;
   const t = v as { dataSync?: unknown; shape?: unknown; dtype?: unknown };
   return typeof t.dataSync === 'function' && isArray(t.shape) && typeof t.dtype === 'string';
-}
-
-function copyList(list: readonly number[]): number[] {
-  const out: number[] = [];
-  for (let i = 0; i < list.length; i++) out[i] = list[i];
-  return out;
 }
 
 /** A tensor's values as a fresh array of this realm: float32 stays Float32Array, rank 0 becomes a number. */
@@ -208,7 +202,7 @@ export class TensorBridge {
       const name = sample.argNames[i];
       const shape = copyList(v.shape);
       const data = v.dataSync();
-      const copy = new F32(data.length);
+      const copy = newOpF32(data.length); // it becomes the op's argument
       for (let k = 0; k < data.length; k++) copy[k] = data[k];
       const float = v.dtype === 'float32';
       try {
