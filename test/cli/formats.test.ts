@@ -7,7 +7,8 @@ import fc from 'fast-check';
 import type { OpResult, ParamResult } from '../../server/src/model/types';
 import { formatHuman, summaryLine } from '../../server/src/cli/human';
 import { escapeXmlAttribute, escapeXmlText, formatJunit } from '../../server/src/cli/junit';
-import { buildReport, exitCodeFor, worstParam } from '../../server/src/cli/report';
+import { buildReport, exitCodeFor } from '../../server/src/cli/report';
+import { worstParam } from '../../server/src/present/format';
 import { formatSarif, SARIF_SCHEMA_URI } from '../../server/src/cli/sarif';
 import { shouldUseColor } from '../../server/src/cli/terminal';
 import { reportViolations } from './helpers/reportShape';
@@ -127,12 +128,12 @@ describe('human output', () => {
       assert.equal(row[indexColumn - 1], ' ', `column boundary in: ${row}`);
     }
     const mismatchRow = rows.find((r) => r.includes('Dense.forward'))!;
-    assert.match(mismatchRow, /MISMATCH\s+weight\s+5\.0e-1\s+\[2,3\]\s+1\.5 s$/);
+    assert.match(mismatchRow, /MISMATCH\s+weight\s+5\.0e-1\s+\[2, 3\]\s+1\.5 s$/);
     assert.match(rows.find((r) => r.includes('softplus'))!, /pass\s+x\s+3\.1e-10\s+\[5\]\s+3 ms$/);
   });
 
   it('explains rows that did not pass: evidence, hints, problems at file:line:column, seed, output', () => {
-    assert.match(text, /weight \(mismatch\): max rel error 5\.0e-1, max abs error 0\.25; at weight\[2,3\] backward gives 0\.5, finite differences 0\.25/);
+    assert.match(text, /weight \(mismatch\): max rel error 5\.0e-1, max abs error 0\.25; at weight\[2, 3\] backward gives 0\.5, finite differences 0\.25/);
     assert.match(text, /hint: gradient is the transpose of the numeric one/);
     assert.match(text, /hint: gradients of weight and bias look swapped/);
     assert.match(text, /^\s+src\/b & <c>\.ts:7:12: unknown tag @sampel; did you mean @sample\?$/m);

@@ -2,7 +2,8 @@
 // with file:line:column, per-parameter evidence and hints, seed, captured console output.
 
 import type { OpResult, ParamResult, TimeLimitStop } from '../model/types';
-import { formatIndex, formatNumber, formatRelError, stripControl } from './format';
+import { elementName, formatNumber, formatRelError } from '../present/format';
+import { stripControl } from './format';
 
 /** Lines of captured console output shown before the rest is cut. */
 const MAX_OUTPUT_LINES = 12;
@@ -50,7 +51,7 @@ export function paramLine(param: ParamResult): string {
   const head = `${param.name} (${param.verdict}): max rel error ${formatRelError(param.maxRelError)}, max abs error ${formatNumber(param.maxAbsError)}${floor}`;
   if (!param.worst) return head;
   const w = param.worst;
-  const where = w.index.length === 0 ? param.name : `${param.name}${formatIndex(w.index)}`;
+  const where = elementName(param.name, w.index);
   const own = w.relError !== undefined ? ` (relative error ${formatRelError(w.relError)})` : '';
   return `${head}; at ${where}${own} backward gives ${formatNumber(w.analytic)}, finite differences ${formatNumber(w.numeric)}`;
 }

@@ -2,7 +2,7 @@
 // parses every tag, matches @sample tags to parameters, resolves the backward and factories in
 // the module, builds the backward's argument list, and records each mistake where it stands.
 import ts from 'typescript';
-import { DEFAULT_EXPORT_BINDING, type BackwardArg, type OpDescriptor, type ParamDescriptor, type SampleSpec, type TagLocation } from '../model/types';
+import { DEFAULT_EXPORT_BINDING, type BackwardArg, type OpDescriptor, type ParamDescriptor, type ProblemFix, type SampleSpec, type TagLocation } from '../model/types';
 import { backwardSignatureProblem } from './backwardSignature';
 import { DERIVATIVE_KINDS, defaultDerivativeArgs, explicitDerivativeArgs, parseDerivativeTag, type DerivativeKind } from './derivativeTags';
 import type { ForwardSite } from './forwardSites';
@@ -11,7 +11,7 @@ import { parseBackwardTag, parseNameListTag, parseNameTag, parseSeedTag, parseTo
 import type { PositionMapper, Span, SpanProblem } from './positions';
 import { nonNumberReturn } from './returnType';
 import { parseSampleTag, type SampleTarget } from './sampleTag';
-import { nearestName } from '../text/nearestName';
+import { fixesField, suggestName, suggestionOf } from './suggestion';
 import { classifyTag, type OpTagName } from './tagNames';
 import { customGradSaveParam, libraryGradientTagNameProblem, markTensorParams, readLibraryGradientTag, tensorLibraryProblem, libraryOf, type SampleTagRef } from './tensorOps';
 import type { RawTag } from './tagText';
@@ -41,14 +41,18 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   const problems: SpanProblem[] = [];
   const ours: OurTag[] = [];
   let marked = false;
+  // A misspelt @backward (or other derivative tag) is reported as such, not as a missing one.
+  let misspeltDerivative = false;
   for (const raw of rawTags) {
     const cls = classifyTag(raw.name);
     if (cls.kind === 'ours') {
       ours.push({ name: cls.name, raw });
       if (OP_MARKING_TAGS.includes(cls.name)) marked = true;
     } else if (cls.kind === 'misspelled') {
-      problems.push({ ...raw.nameSpan, message: `unknown tag @${raw.name}; did you mean @${cls.suggestion}?` });
+      const fix = suggestionOf(`@${cls.suggestion}`);
+      problems.push({ ...raw.nameSpan, message: `unknown tag @${raw.name}${fix.hint}`, fixes: fix.fixes });
       if (OP_MARKING_TAGS.includes(cls.suggestion)) marked = true;
+      if (cls.suggestion === 'backward' || (DERIVATIVE_KINDS as readonly string[]).includes(cls.suggestion)) misspeltDerivative = true;
     } else {
       const near = libraryGradientTagNameProblem(raw);
       if (near) problems.push(near);
@@ -139,7 +143,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     sampleTargets.set(t.raw, target.name);
     const misplaced = sampleTargetProblem(target, isMethod, paramNames, samples, samplesFactory, site);
     if (misplaced) {
-      problems.push({ ...target.span, message: misplaced });
+      problems.push({ ...target.span, ...misplaced });
       continue;
     }
     samples.set(target.name, parsed.spec);
@@ -147,7 +151,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   }
   if (!samplesTag) {
     for (const name of paramNames) {
-      if (!samples.has(name) && !defaulted.has(name) && !destructured.has(name)) problems.push({ ...paramSpans.get(name)!, message: `parameter '${name}' has no @sample: add \`@sample ${name} SPEC\` (or use @samples FACTORY)` });
+      if (!samples.has(name) && !defaulted.has(name) && !destructured.has(name)) problems.push({ ...paramSpans.get(name)!, message: `parameter '${name}' has no @sample: add \`@sample ${name} SPEC\` (or use @samples FACTORY)`, fixes: [{ kind: 'add-samples' }] });
     }
   }
   const params: ParamDescriptor[] = [
@@ -174,7 +178,10 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     }
     for (const n of r.names) {
       const known = n.name.startsWith('this.') ? samples.has(n.name) : paramNames.includes(n.name);
-      if (!known) problems.push({ ...n.span, message: `@fixed: '${n.name}' is not a parameter of ${displayName(site)}${suggest(n.name, paramNames)}` });
+      if (!known) {
+        const near = suggestName(n.name, paramNames);
+        problems.push({ ...n.span, message: `@fixed: '${n.name}' is not a parameter of ${displayName(site)}${near.hint}`, ...fixesField(near.fixes) });
+      }
       else if (!fixed.includes(n.name)) fixed.push(n.name);
     }
   }
@@ -213,7 +220,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   } else if (backTag) {
     parsedBack = parseBackwardTag(backTag.raw);
     problems.push(...parsedBack.problems);
-  } else if (derivativeTags.length === 0 && !problems.some((p) => /did you mean @(backward|jacobian|tangent|hessian)\?/.test(p.message))) {
+  } else if (derivativeTags.length === 0 && !misspeltDerivative) {
     const first = ours[0]?.raw.nameSpan ?? site.nameSpan;
     problems.push({ ...first, message: `${displayName(site)} has sampling tags but no @backward: add \`@backward NAME\` naming its gradient function` });
   }
@@ -292,7 +299,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     const fnName = parsed.name ?? '';
     const where = parsed.name && parsed.nameSpan ? resolveBackward(parsed.name, parsed.nameSpan, site, ctx.bindings, own, kind) : undefined;
     const args = parsed.args
-      ? explicitDerivativeArgs(kind, parsed, { isMethod, forwardName: displayName(site), paramNames, sampledFields, suggest: (n) => suggest(n, paramNames) }, own)
+      ? explicitDerivativeArgs(kind, parsed, { isMethod, forwardName: displayName(site), paramNames, sampledFields, suggest: (n) => suggestName(n, paramNames) }, own)
       : defaultDerivativeArgs(kind, paramNames, params, fixed, samplesFactory !== undefined);
     if (kind === 'hessian') {
       const returns = nonNumberReturn(site.fn?.type);
@@ -367,11 +374,6 @@ function displayName(site: ForwardSite): string {
   return site.kind === 'method' ? `${site.className || '(anonymous class)'}.${name}` : name;
 }
 
-function suggest(name: string, candidates: readonly string[]): string {
-  const near = nearestName(name, candidates);
-  return near ? `; did you mean '${near}'?` : '';
-}
-
 function withSample(p: { name: string; isField: boolean; hasDefault?: boolean }, spec: SampleSpec | undefined): ParamDescriptor {
   return spec ? { ...p, sample: spec } : p;
 }
@@ -384,11 +386,14 @@ function sampleTargetProblem(
   samples: ReadonlyMap<string, unknown>,
   samplesFactory: string | undefined,
   site: ForwardSite,
-): string | undefined {
-  if (target.isField && !isMethod) return `'${target.name}': this.FIELD samples only apply to methods`;
-  if (!target.isField && !paramNames.includes(target.name)) return `@sample: '${target.name}' is not a parameter of ${displayName(site)}${suggest(target.name, paramNames)}`;
-  if (samples.has(target.name)) return `@sample ${target.name} is given twice`;
-  if (!target.isField && samplesFactory) return `@sample ${target.name} conflicts with @samples ${samplesFactory}: the factory supplies the arguments (use @fixed for ones not differentiated)`;
+): { message: string; fixes?: ProblemFix[] } | undefined {
+  if (target.isField && !isMethod) return { message: `'${target.name}': this.FIELD samples only apply to methods` };
+  if (!target.isField && !paramNames.includes(target.name)) {
+    const near = suggestName(target.name, paramNames);
+    return { message: `@sample: '${target.name}' is not a parameter of ${displayName(site)}${near.hint}`, ...fixesField(near.fixes) };
+  }
+  if (samples.has(target.name)) return { message: `@sample ${target.name} is given twice` };
+  if (!target.isField && samplesFactory) return { message: `@sample ${target.name} conflicts with @samples ${samplesFactory}: the factory supplies the arguments (use @fixed for ones not differentiated)` };
   return undefined;
 }
 
@@ -412,7 +417,8 @@ function bindingKindProblem(name: string, b: Binding, role: string): string | un
 function checkTopLevelFunction(name: string, span: Span, role: string, bindings: ModuleBindings, problems: SpanProblem[]): void {
   const b = bindings.topLevel.get(name);
   if (!b) {
-    problems.push({ ...span, message: `${role} '${name}' is not declared at the top level of this module or imported into it${suggest(name, [...bindings.topLevel.keys()])}` });
+    const near = suggestName(name, [...bindings.topLevel.keys()]);
+    problems.push({ ...span, message: `${role} '${name}' is not declared at the top level of this module or imported into it${near.hint}`, ...fixesField(near.fixes) });
     return;
   }
   const bad = bindingKindProblem(name, b, role);
@@ -462,7 +468,9 @@ function resolveBackward(
   if (unknownBase) return { isMethod: true };
   const where = site.kind === 'method' ? `a method of ${site.className || 'the class'}, a top-level function of this module or an import` : 'a top-level function of this module or an import';
   const candidates = [...bindings.topLevel.keys(), ...(site.classNode ? site.classNode.members.flatMap((m) => (m.name && ts.isIdentifier(m.name) ? [m.name.text] : [])) : [])];
-  problems.push({ ...span, message: `${role} '${name}' not found: it must be ${where}${suggest(name, candidates)}` });
+  // Rename to the near name, or create the missing function (a stub with the checked signature).
+  const near = suggestName(name, candidates);
+  problems.push({ ...span, message: `${role} '${name}' not found: it must be ${where}${near.hint}`, fixes: [...near.fixes, { kind: 'create-function', name }] });
   return undefined;
 }
 
@@ -492,7 +500,8 @@ function explicitBackwardArgs(
       if (site.kind !== 'method') problems.push({ ...a.span, message: `@backward: '${a.name}' names a field, but ${displayName(site)} is not a method` });
       else if (!samples.has(a.name)) problems.push({ ...a.span, message: `@backward: '${a.name}' has no @sample; add \`@sample ${a.name} SPEC\` to pass it` });
     } else if (!paramNames.includes(a.name)) {
-      problems.push({ ...a.span, message: `@backward: '${a.name}' is not a parameter of ${displayName(site)}${suggest(a.name, paramNames)}` });
+      const near = suggestName(a.name, paramNames);
+      problems.push({ ...a.span, message: `@backward: '${a.name}' is not a parameter of ${displayName(site)}${near.hint}`, ...fixesField(near.fixes) });
     }
     args.push({ kind: 'param', name: a.name });
   }

@@ -2,14 +2,14 @@
 // estimate every differentiated parameter's gradient numerically (full, grouped or
 // dot-product), refine suspicious elements, redraw after kinks, and assemble the verdict.
 
-import { F64, I32, abs, describeThrown, formatNumber, max } from './builtins';
+import { F64, I32, abs, formatNumber, max } from './builtins';
 import { CheckStop, fail } from './failure';
 import { GROUPED_WIDENINGS, PROBE_SWITCH_CALLS, chooseMethod, widened, type Structure } from './methodChoice';
 import { dotProductProbes, type DotProbeResult } from './dotProductCheck';
 import { estimateColumns } from './fullCheck';
 import { estimateGrouped } from './groupedCheck';
 import { float32OutputHint, paramHints, swapHints, type ParamEvidence } from './hints';
-import { runAttempts, stoppedOutcome, takeBaseline } from './kindBaseline';
+import { internalErrorOutcome, runAttempts, stoppedOutcome, takeBaseline } from './kindBaseline';
 import { blameOutput } from './outputBlame';
 import { ElementState, compareElements, floorsFor, type Comparison, type ElementEstimates } from './judge';
 import { elementLine } from './lines';
@@ -95,7 +95,7 @@ export function runCheck(exposed: Record<string, unknown>, request: OpCheckReque
     const settings: CheckSettings = { ...DEFAULT_SETTINGS, ...(request.settings ?? {}) };
     seed = typeof op.seed === 'number' ? op.seed : settings.seed;
     timeLimitMs = settings.timeLimitMs;
-    if (op.problems && op.problems.length > 0) return emptyOutcome('error', seed, op.problems[0].message, calls);
+    if (op.problems && op.problems.length > 0) return { ...emptyOutcome('error', seed, op.problems[0].message, calls), failure: 'annotation' };
     const start = clock();
     const deadline = start + TIME_BUDGET_SHARE * settings.timeLimitMs;
     if (op.kind !== undefined && op.kind !== 'backward') {
@@ -109,7 +109,7 @@ export function runCheck(exposed: Record<string, unknown>, request: OpCheckReque
     return outcome;
   } catch (e) {
     if (e instanceof CheckStop) return finiteOnly(stoppedOutcome(e, seed, timeLimitMs, harness));
-    return finiteOnly(emptyOutcome('error', seed, `internal error in the check engine: ${describeThrown(e)}`, calls));
+    return finiteOnly(internalErrorOutcome(e, seed, calls));
   }
 }
 

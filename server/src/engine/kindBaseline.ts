@@ -63,6 +63,7 @@ export function takeBaseline(h: OpHarness, op: OpDescriptor, settings: CheckSett
   let anyF32 = precision === 'f32';
   for (let s = 0; s < slots.length; s++) if (slots[s].precision === 'f32') anyF32 = true;
   const tol = typeof op.tolerance === 'number' && op.tolerance > 0 ? op.tolerance : anyF32 ? settings.toleranceF32 : settings.toleranceF64;
+  h.appliedTolerance = tol;
   return { slots, y0, layout, guard, precision, uOut: unitRoundoff(precision), tol, inputs, forwardMs };
 }
 
@@ -148,7 +149,7 @@ export function runAttempts(
         const note = `redrawn ${attempt}× after a non-differentiable point near ${elementName(first.slot, first.index)} = ${formatNumber(first.value)}`;
         result.message = result.message ? `${result.message}; ${note}` : note;
       }
-      return finiteOnly(result);
+      return finiteOnly(withTolerance(result, h));
     }
     const last = kinks[kinks.length - 1];
     const outcome = emptyOutcome(
@@ -160,11 +161,29 @@ export function runAttempts(
     // The figures of the last draw, so the report can still show what was compared.
     outcome.params = lastParams;
     if (lastInputs !== undefined) outcome.inputs = lastInputs;
-    return finiteOnly(outcome);
+    return finiteOnly(withTolerance(outcome, h));
   } catch (e) {
     if (e instanceof CheckStop) return finiteOnly(stoppedOutcome(e, seed, settings.timeLimitMs, h));
-    return finiteOnly(emptyOutcome('error', seed, `internal error in the check engine: ${describeThrown(e)}`, h.calls));
+    return finiteOnly(internalErrorOutcome(e, seed, h.calls));
   }
+}
+
+/**
+ * Stamps the tolerance the check judged with on every parameter result that has none, so a
+ * reader (the report page, the regression-test snippet) never recomputes it by another rule.
+ */
+function withTolerance(outcome: CheckOutcome, h: OpHarness): CheckOutcome {
+  const tol = h.appliedTolerance;
+  if (tol === undefined) return outcome;
+  for (let s = 0; s < outcome.params.length; s++) if (outcome.params[s].tolerance === undefined) outcome.params[s].tolerance = tol;
+  return outcome;
+}
+
+/** The outcome of a bug in the engine itself (never the op's fault). */
+export function internalErrorOutcome(e: unknown, seed: number, calls: { forward: number; backward: number }): CheckOutcome {
+  const outcome = emptyOutcome('error', seed, `internal error in the check engine: ${describeThrown(e)}`, calls);
+  outcome.failure = 'internal';
+  return outcome;
 }
 
 /**
@@ -174,6 +193,8 @@ export function runAttempts(
  */
 export function stoppedOutcome(e: CheckStop, seed: number, timeLimitMs: number, h: OpHarness | null): CheckOutcome {
   const stopped = emptyOutcome(e.verdict, seed, e.message, h !== null ? h.calls : { forward: 0, backward: 0 });
+  // The op's own code threw, or the op cannot be checked as written (the message says which part).
+  if (e.verdict === 'error') stopped.failure = e.thrown !== undefined ? 'threw' : 'refused';
   if (e.timeLimit !== undefined) stopped.stoppedAtTimeLimit = { ...e.timeLimit, timeLimitMs };
   if (h !== null && h.capturedInputs !== undefined) stopped.inputs = h.capturedInputs;
   if (e.thrown !== undefined) {

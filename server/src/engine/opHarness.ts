@@ -49,6 +49,8 @@ export class OpHarness {
   private sample: Sample | null = null;
   /** The inputs of the current attempt as captured for the report (set by the check). */
   capturedInputs: CheckOutcome['inputs'];
+  /** The relative tolerance the current attempt judges with (set by takeBaseline), for ParamResult.tolerance. */
+  appliedTolerance: number | undefined;
   /** Output shape, fixed by the first forward call. */
   layout: OutputLayout | null = null;
   /** Whether the backward receives `$dy`; when not, the forward returns a number. */

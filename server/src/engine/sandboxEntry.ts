@@ -31,7 +31,7 @@ function run(exposed: unknown, requestJson: string): string {
     request = parseJson(requestJson) as OpCheckRequest;
   } catch (e) {
     return stringifyJson({
-      verdict: 'error', seed: 0, message: `the check request is not valid JSON: ${String(e)}`, hints: [], params: [], calls: { forward: 0, backward: 0 },
+      verdict: 'error', failure: 'internal', seed: 0, message: `the check request is not valid JSON: ${String(e)}`, hints: [], params: [], calls: { forward: 0, backward: 0 },
     });
   }
   const bindings = exposed !== null && typeof exposed === 'object' ? (exposed as Record<string, unknown>) : {};
