@@ -42,11 +42,11 @@ const RESULTS: OpResult[] = [
   result({ file: join(CWD, 'src', 'a.ts'), line: 3, verdict: 'pass', forward: 'softplus', params: [param('x', 'pass', 3.1e-10, [5])] }),
   result({
     file: join(CWD, 'src', 'b & <c>.ts'), line: 5, verdict: 'error', forward: 'odd"name', backward: null,
-    message: 'annotation problem: unknown tag @sampel; did you mean @sample? (line 7, column 12)',
+    message: 'annotation problem: unknown tag @sampel; did you mean @sample? (line 7, column 12)', failure: 'annotation',
     problems: [{ line: 7, column: 12, message: 'unknown tag @sampel; did you mean @sample?' }],
     output: '\x1b[31mred\x1b[0m\u0001 and ]]> & <tag>\r\nsecond line',
   }),
-  result({ file: join(CWD, 'src', 'd.ts'), line: 1, verdict: 'error', forward: null, backward: null, message: 'the module could not be bundled: Could not resolve "./missing"' }),
+  result({ file: join(CWD, 'src', 'd.ts'), line: 1, verdict: 'error', forward: null, backward: null, message: 'the module could not be bundled: Could not resolve "./missing"', failure: 'bundle' }),
 ];
 
 describe('report assembly', () => {

@@ -1,7 +1,8 @@
 // The explanation of an op that did not pass, as plain lines: message, annotation problems
 // with file:line:column, per-parameter evidence and hints, seed, captured console output.
 
-import type { OpResult, ParamResult, TimeLimitStop } from '../model/types';
+import { FAILURE_HEADS } from '../core/opResult';
+import type { FailureKind, OpResult, ParamResult, TimeLimitStop } from '../model/types';
 import { elementName, formatNumber, formatRelError } from '../present/format';
 import { stripControl } from './format';
 
@@ -13,7 +14,7 @@ export function detailLines(pair: OpResult, { withOutput = true }: { withOutput?
   if (pair.verdict === 'pass') return [];
   const out: string[] = [];
   const problems = pair.problems ?? [];
-  const message = withoutRestatedProblem(pair.message, problems[0]?.message);
+  const message = headOfListedFailure(pair) ?? pair.message;
   if (message) out.push(...message.split('\n'));
   if (pair.thrownAt) out.push(`thrown at ${pair.thrownAt.file}:${pair.thrownAt.line}:${pair.thrownAt.column}`);
   for (const problem of problems) out.push(`${pair.file}:${problem.line}:${problem.column}: ${problem.message}`);
@@ -35,13 +36,12 @@ export function detailLines(pair: OpResult, { withOutput = true }: { withOutput?
 }
 
 /**
- * The message without its copy of the first problem ("annotation problem: <problem> (line …)"),
- * since the problems are listed below it with their exact places.
+ * For a failure whose problems are listed below it with their exact places (annotation, syntax,
+ * bundle): the message's head alone, from the failure kind (a report without one shows the message whole).
  */
-function withoutRestatedProblem(message: string, firstProblem: string | undefined): string {
-  if (!firstProblem) return message;
-  const at = message.indexOf(`: ${firstProblem}`);
-  return at > 0 ? message.slice(0, at) : message;
+function headOfListedFailure(pair: OpResult): string | undefined {
+  if (pair.failure === undefined || (pair.problems ?? []).length === 0) return undefined;
+  return (FAILURE_HEADS as Partial<Record<FailureKind, string>>)[pair.failure];
 }
 
 /** One parameter's evidence: errors and the worst element's two values. */

@@ -16,7 +16,7 @@ import { RunnerPool, type IsolationReport, type PoolStats, type RunnerPoolOption
 import type { CheckFileOptions } from './checkFileOptions';
 import { coverageOf, INTERPRETER_NO_COVERAGE } from './opCoverage';
 import { bindingsOf, listOps } from './opListing';
-import { errorResult, failureOfCause, resultFromOutcome, summarizeProblems } from './opResult';
+import { errorResult, FAILURE_HEADS, failureOfCause, resultFromOutcome, summarizeProblems } from './opResult';
 import { loadErrorPlace, thrownPlace } from './sourcePlaces';
 
 export { bindingsOf, listOps, type OpListing } from './opListing';
@@ -132,7 +132,7 @@ export class Checker {
     }
 
     if (listing.fileProblems.length > 0) {
-      const message = `the file has a syntax error, so none of its ops can run: ${summarizeProblems(listing.fileProblems)}`;
+      const message = `${FAILURE_HEADS.syntax}: ${summarizeProblems(listing.fileProblems)}`;
       if (ops.length === 0) {
         // Report the broken file only when it looks like it holds ops and none was left out on purpose.
         if (filter || listing.ops.length > 0 || !source.includes('@backward')) return [];
@@ -146,7 +146,7 @@ export class Checker {
     const runnable: number[] = [];
     ops.forEach((op, i) => {
       if (op.problems.length > 0) {
-        results[i] = emit(errorResult(abs, op, settings, 'annotation', `annotation problem: ${summarizeProblems(op.problems)}`, { problems: op.problems }));
+        results[i] = emit(errorResult(abs, op, settings, 'annotation', `${FAILURE_HEADS.annotation}: ${summarizeProblems(op.problems)}`, { problems: op.problems }));
       } else {
         runnable.push(i);
       }
@@ -166,7 +166,7 @@ export class Checker {
       const location = bundle.location;
       const problems = location && location.file === abs ? [{ line: location.line, column: location.column, message: bundle.message }] : undefined;
       for (const i of runnable) {
-        results[i] = emit(errorResult(abs, ops[i], settings, 'bundle', `the module could not be bundled: ${bundle.message}`, { problems }));
+        results[i] = emit(errorResult(abs, ops[i], settings, 'bundle', `${FAILURE_HEADS.bundle}: ${bundle.message}`, { problems }));
       }
       return results as OpResult[];
     }

@@ -5,6 +5,17 @@ import type { CheckSettings } from '../engine/settings';
 import type { CheckOutcome, FailureKind, OpDescriptor, OpResult, Problem } from '../model/types';
 import type { RunFailureCause } from '../sandbox/jobTypes';
 
+/**
+ * The head of an error message whose problems are its detail (listed with their places): the
+ * Checker writes "HEAD: first problem (line L, column C)", and a reader that lists the problems
+ * itself (the CLI) shows the head alone. One wording for both.
+ */
+export const FAILURE_HEADS = {
+  annotation: 'annotation problem',
+  syntax: 'the file has a syntax error, so none of its ops can run',
+  bundle: 'the module could not be bundled',
+} as const satisfies Partial<Record<FailureKind, string>>;
+
 /** The result of an op whose check produced an outcome. */
 export function resultFromOutcome(file: string, op: OpDescriptor, outcome: CheckOutcome, elapsedMs: number, output: string): OpResult {
   const result: OpResult = {
