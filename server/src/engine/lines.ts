@@ -3,7 +3,7 @@
 // differences onto upstream vectors that every difference quotient of the engine uses.
 
 import { F64, abs, max, min } from './builtins';
-import type { ForwardMap } from './opHarness';
+import type { ForwardMap } from './forwardMap';
 import type { ParamSlot } from './paramSlot';
 import { centralStep, relativeStep } from './precision';
 import { RIDDERS_INITIAL_STEP } from './ridders';
@@ -55,18 +55,7 @@ export function elementLine(h: ForwardMap, slot: ParamSlot, i: number): Line {
     maxStep,
     refineStep: min(RIDDERS_INITIAL_STEP * scale, maxStep),
     evalAt(t: number, out: Float64Array): number {
-      const p = h.perturbation;
-      p.slot = slot;
-      p.index = i;
-      p.several = false;
-      const stored = slot.set(i, x0 + t);
-      p.value = stored;
-      try {
-        h.forwardInto(out, false);
-      } finally {
-        slot.set(i, x0);
-        p.slot = null;
-      }
+      const stored = h.forwardAtElement(slot, i, x0 + t, out, false);
       return isFiniteVector(out) ? stored - x0 : NaN;
     },
   };
@@ -100,19 +89,22 @@ export function directionLine(h: ForwardMap, slot: ParamSlot, d: Float64Array): 
     maxStep,
     refineStep: min(RIDDERS_INITIAL_STEP, maxStep),
     evalAt(t: number, out: Float64Array): number {
-      const p = h.perturbation;
-      p.slot = slot;
-      p.several = true;
       const typed = slot.typed;
-      if (typed !== null) for (let i = 0; i < n; i++) typed[i] = x0[i] + t * scaled[i];
-      else for (let i = 0; i < n; i++) slot.set(i, x0[i] + t * scaled[i]);
-      try {
-        h.forwardInto(out, false);
-      } finally {
-        if (typed !== null) for (let i = 0; i < n; i++) typed[i] = x0[i];
-        else for (let i = 0; i < n; i++) slot.set(i, x0[i]);
-        p.slot = null;
-      }
+      h.forwardMoved(
+        slot,
+        0,
+        true,
+        () => {
+          if (typed !== null) for (let i = 0; i < n; i++) typed[i] = x0[i] + t * scaled[i];
+          else for (let i = 0; i < n; i++) slot.set(i, x0[i] + t * scaled[i]);
+        },
+        () => {
+          if (typed !== null) for (let i = 0; i < n; i++) typed[i] = x0[i];
+          else for (let i = 0; i < n; i++) slot.set(i, x0[i]);
+        },
+        out,
+        false,
+      );
       return isFiniteVector(out) ? t : NaN;
     },
   };
@@ -211,20 +203,21 @@ export function rangeLine(h: ForwardMap, slot: ParamSlot, geo: SlotGeometry, sta
     maxStep,
     refineStep: min(RIDDERS_INITIAL_STEP, maxStep),
     evalAt(t: number, out: Float64Array): number {
-      const p = h.perturbation;
-      p.slot = slot;
-      p.several = count > 1;
-      if (count === 1) p.index = start;
-      if (typed !== null) for (let q = 0; q < count; q++) typed[start + q] = x0[start + q] + t * dir[q];
-      else for (let q = 0; q < count; q++) slot.set(start + q, x0[start + q] + t * dir[q]);
-      if (count === 1) p.value = slot.get(start);
-      try {
-        h.forwardInto(out, false);
-      } finally {
-        if (typed !== null) for (let q = 0; q < count; q++) typed[start + q] = x0[start + q];
-        else for (let q = 0; q < count; q++) slot.set(start + q, x0[start + q]);
-        p.slot = null;
-      }
+      h.forwardMoved(
+        slot,
+        start,
+        count > 1,
+        () => {
+          if (typed !== null) for (let q = 0; q < count; q++) typed[start + q] = x0[start + q] + t * dir[q];
+          else for (let q = 0; q < count; q++) slot.set(start + q, x0[start + q] + t * dir[q]);
+        },
+        () => {
+          if (typed !== null) for (let q = 0; q < count; q++) typed[start + q] = x0[start + q];
+          else for (let q = 0; q < count; q++) slot.set(start + q, x0[start + q]);
+        },
+        out,
+        false,
+      );
       return isFiniteVector(out) ? t : NaN;
     },
   };

@@ -35,7 +35,7 @@ import { F64, I32, U8, abs, max, sqrt } from './builtins';
 import { estimateColumns } from './fullCheck';
 import { ElementState, compareElements, type Comparison, type ElementEstimates } from './judge';
 import { centralOnLine, rangeLine, slotGeometry, type SlotGeometry } from './lines';
-import type { ForwardMap } from './opHarness';
+import type { ForwardMap } from './forwardMap';
 import type { ParamSlot } from './paramSlot';
 import { ROUNDOFF_ULPS } from './precision';
 import type { RandomSource } from './random';
