@@ -118,7 +118,7 @@ export interface OpReportParams {
 }
 export interface OpReportResult {
   result: OpResult | null;
-  /** The relative tolerance the op is judged with (its @tolerance or the setting). */
+  /** The relative tolerance the op was judged with: the engine's applied one (ParamResult.tolerance). */
   tolerance?: number;
   /** Why there is no result (not checked yet, untrusted, unknown op). */
   reason?: string;
