@@ -184,6 +184,9 @@ describe('SARIF output', () => {
     assert.deepEqual(problem!.locations[0]!.physicalLocation.artifactLocation, { uri: 'src/b%20%26%20%3Cc%3E.ts', uriBaseId: '%SRCROOT%' });
     assert.match(mismatch!.message.text, /^Dense\.forward: gradient of weight disagrees with finite differences \(max relative error 5\.0e-1 at \[2, 3\]/);
     assert.match(mismatch!.message.text, /Hint: gradient is the transpose of the numeric one\./);
+    // Why an error could not be checked travels as a property, as in the JSON report.
+    const failures = results.map((r) => (r as unknown as { properties: Record<string, unknown> }).properties['failure']);
+    assert.deepEqual(failures, [undefined, 'annotation', undefined, 'bundle']);
   });
 
   it('reports an op the time limit stopped as an error of its own rule, not a warning', () => {

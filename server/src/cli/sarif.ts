@@ -124,6 +124,8 @@ function result(
   if (pair.forward !== null) properties['forward'] = pair.forward;
   if (pair.backward !== null) properties['backward'] = pair.backward;
   if (pair.kind !== undefined) properties['kind'] = pair.kind;
+  // Why an error could not be checked, as the JSON report's field (a property bag is free-form, SARIF 2.1.0 §3.8).
+  if (pair.failure !== undefined) properties['failure'] = pair.failure;
   const out: Record<string, unknown> = {
     ruleId,
     ruleIndex,
