@@ -40,7 +40,7 @@ function inputsUnchanged(inputs: ReadonlyMap<string, string>): boolean {
 
 /** Why a run did not happen: the message is shown to the user as is, the code is for programs. */
 export class CheckRefused extends Error {
-  constructor(message: string, readonly code: ReasonCode = 'untrusted') {
+  constructor(message: string, readonly code: ReasonCode) {
     super(message);
   }
 }
