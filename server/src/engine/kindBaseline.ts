@@ -4,7 +4,7 @@
 // redraws the inputs after a kink, as runCheck does for @backward ops.
 
 import { F64, abs, describeThrown, formatNumber, max, min } from './builtins';
-import { CheckStop, fail, giveUp } from './failure';
+import { CheckStop, EngineFault, fail, giveUp } from './failure';
 import type { InputGuard } from './inputGuard';
 import { elementName, type OpHarness } from './opHarness';
 import { describeOutputIndex, layoutPrecision, type OutputLayout } from './outputLayout';
@@ -195,7 +195,7 @@ export function internalErrorOutcome(e: unknown, seed: number, calls: { forward:
 export function stoppedOutcome(e: CheckStop, seed: number, timeLimitMs: number, h: OpHarness | null): CheckOutcome {
   const stopped = emptyOutcome(e.verdict, seed, e.message, h !== null ? h.calls : { forward: 0, backward: 0 });
   // The op's own code threw, or the op cannot be checked as written (the message says which part).
-  if (e.verdict === 'error') stopped.failure = e.thrown !== undefined ? 'threw' : 'refused';
+  if (e.verdict === 'error') stopped.failure = e instanceof EngineFault ? 'internal' : e.thrown !== undefined ? 'threw' : 'refused';
   if (e.timeLimit !== undefined) stopped.stoppedAtTimeLimit = { ...e.timeLimit, timeLimitMs };
   if (h !== null && h.capturedInputs !== undefined) stopped.inputs = h.capturedInputs;
   if (e.thrown !== undefined) {

@@ -3,7 +3,7 @@
 // every failure of user code into a message naming the part of the op at fault.
 
 import { F64, describeThrown, describeValue, formatIndex, formatNumber, positionOf, reflectApply, reflectConstruct, sliceText } from './builtins';
-import { CheckStop, fail, failThrown } from './failure';
+import { CheckStop, fail, failInternal, failThrown } from './failure';
 import { ForwardMap } from './forwardMap';
 import { resolveBindings, type AnyFunction } from './opBindings';
 import { readGradients } from './gradients';
@@ -119,7 +119,7 @@ export class OpHarness extends ForwardMap {
   }
 
   get outputLayout(): OutputLayout {
-    if (this.layout === null) return fail('internal error in the check engine: the output layout was read before the first forward call');
+    if (this.layout === null) return failInternal('the output layout was read before the first forward call');
     return this.layout;
   }
 
