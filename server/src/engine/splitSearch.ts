@@ -31,7 +31,7 @@
 // probability at most 1/2, and all ROOT_PROBES independent root probes with at most
 // 2^-ROOT_PROBES < 0.01.
 
-import { F64, I32, U8, abs, max, sqrt } from './builtins';
+import { F64, I32, U8, abs, max, min, sqrt } from './builtins';
 import { estimateColumns } from './fullCheck';
 import { ElementState, compareElements, type Comparison, type ElementEstimates } from './judge';
 import { centralOnLine, rangeLine, slotGeometry, type SlotGeometry } from './lines';
@@ -103,6 +103,8 @@ export interface SetProbe {
   count: number;
   /** The numeric side's error (PROBE_EVIDENCE_FACTOR × it is part of the threshold). */
   numericError: number;
+  /** The threshold's tolerance term (absolute): TOLERANCE_TERM_SHARE × tol × rms, capped by the parent's. */
+  tolTerm: number;
   flagged: boolean;
   /** The numeric side could not be estimated (not finite along the line). */
   unresolved: boolean;
@@ -172,14 +174,15 @@ function termSums(geo: SlotGeometry, g: Float64Array, start: number, count: numb
  * Probes the elements start … start + count − 1 along signs, for upstream u and backward
  * gradient g. Returns the figures and whether the discrepancy is evidence.
  */
-export function probeSet(ctx: SplitContext, sc: Scratch, start: number, count: number, signs: Float64Array, u: Float64Array, g: Float64Array, magnitude: number): SetProbe {
+export function probeSet(ctx: SplitContext, sc: Scratch, start: number, count: number, signs: Float64Array, u: Float64Array, g: Float64Array, magnitude: number, tolTermCap: number): SetProbe {
   const line = rangeLine(ctx.h, ctx.slot, sc.geo, start, count, signs);
   const sums = termSums(sc.geo, g, start, count, signs);
   const analytic = sums.sum;
   const rms = sqrt(sums.s2 / count);
+  const tolTerm = tolTermOf(ctx, sums.s2, count, tolTermCap);
   const ws = [u];
   // Settled when the numeric error is far below what one typical element wrong by the tolerance adds.
-  const target = (PROBE_TARGET_SHARE * ctx.tol * rms) / PROBE_EVIDENCE_FACTOR;
+  const target = (PROBE_TARGET_SHARE / TOLERANCE_TERM_SHARE) * tolTerm / PROBE_EVIDENCE_FACTOR;
   const r = riddersAdaptive(
     (step) => centralOnLine(line, ws, step, sc.plus, sc.minus),
     PROBE_INITIAL_SHARE * line.refineStep,
@@ -190,21 +193,33 @@ export function probeSet(ctx: SplitContext, sc: Scratch, start: number, count: n
   // Outputs whose change stays below their rounding hide it: the resolution at the initial step.
   const resolution = (ROUNDOFF_ULPS * ctx.uOut * magnitude) / r.initialStep[0];
   const numericError = max(r.error[0], resolution);
-  const threshold = thresholdOf(ctx, sums, count, numericError);
+  const threshold = thresholdOf(ctx, sums, tolTerm, numericError);
   const unresolved = !(numericError < Infinity);
   const flagged = !unresolved && abs(analytic - r.value[0]) > threshold;
-  return { analytic, numeric: r.value[0], threshold, rms, count, numericError, flagged, unresolved };
+  return { analytic, numeric: r.value[0], threshold, rms, count, numericError, tolTerm, flagged, unresolved };
+}
+
+/**
+ * TOLERANCE_TERM_SHARE of what one element of the set's typical size wrong by the tolerance
+ * would add, never above the parent's (cap): a part's root-mean-square term can exceed its
+ * parent's by chance, and a threshold that grew along the path of a wrong element would drop a
+ * discrepancy its parent had flagged (seen: a softmax element just above the floor lost at 312
+ * of 20,000 elements). With the cap, a single wrong element flagged at the root stays flagged
+ * on its whole path, as the miss bound above assumes.
+ */
+function tolTermOf(ctx: SplitContext, s2: number, count: number, cap: number): number {
+  const rms = count > 0 ? sqrt(s2 / count) : 0;
+  return min(cap, TOLERANCE_TERM_SHARE * ctx.tol * rms);
 }
 
 /**
  * The threshold of evidence of a range whose numeric side has the given error: the numeric
  * error × PROBE_EVIDENCE_FACTOR, the roundoff of the sum ⟨g, v⟩ in float64, the backward's own
- * rounding per element (ANALYTIC_NOISE_SIGMAS standard deviations), and TOLERANCE_TERM_SHARE of
- * what one element of typical size wrong by the tolerance would contribute.
+ * rounding per element (ANALYTIC_NOISE_SIGMAS standard deviations), and the tolerance term
+ * (tolTermOf).
  */
-function thresholdOf(ctx: SplitContext, sums: { s1: number; s2: number }, count: number, numericError: number): number {
-  const rms = count > 0 ? sqrt(sums.s2 / count) : 0;
-  return PROBE_EVIDENCE_FACTOR * numericError + ROUNDOFF_ULPS * UNIT_ROUNDOFF_F64 * sums.s1 + ANALYTIC_NOISE_SIGMAS * ROUNDOFF_ULPS * ctx.uGrad * sqrt(sums.s2) + TOLERANCE_TERM_SHARE * ctx.tol * rms;
+function thresholdOf(ctx: SplitContext, sums: { s1: number; s2: number }, tolTerm: number, numericError: number): number {
+  return PROBE_EVIDENCE_FACTOR * numericError + ROUNDOFF_ULPS * UNIT_ROUNDOFF_F64 * sums.s1 + ANALYTIC_NOISE_SIGMAS * ROUNDOFF_ULPS * ctx.uGrad * sqrt(sums.s2) + tolTerm;
 }
 
 /** A part of the parameter awaiting a look: its elements, signs and discrepancy. */
@@ -219,6 +234,8 @@ interface Part {
   numeric: number;
   numericError: number;
   threshold: number;
+  /** Its threshold's tolerance term: the cap of its children's. */
+  tolTerm: number;
 }
 
 /**
@@ -262,7 +279,7 @@ export function splitSearch(ctx: SplitContext, us: Float64Array[], grads: Float6
     if (ctx.outOfTime()) break;
     const p = q % us.length;
     const signs = fillSigns(random, n);
-    const probe = probeSet(ctx, sc, 0, n, signs, us[p], grads[p], sc.magnitude[p]);
+    const probe = probeSet(ctx, sc, 0, n, signs, us[p], grads[p], sc.magnitude[p], Infinity);
     result.probes++;
     result.rootProbes[result.rootProbes.length] = probe;
     if (probe.unresolved) result.unexplored++;
@@ -344,7 +361,7 @@ function copySigns(src: Float64Array, a: number, b: number): Float64Array {
 }
 
 function partOf(start: number, count: number, signs: Float64Array, p: number, probe: SetProbe): Part {
-  return { start, count, signs, p, analytic: probe.analytic, numeric: probe.numeric, numericError: probe.numericError, threshold: probe.threshold };
+  return { start, count, signs, p, analytic: probe.analytic, numeric: probe.numeric, numericError: probe.numericError, threshold: probe.threshold, tolTerm: probe.tolTerm };
 }
 
 /**
@@ -363,20 +380,22 @@ function splitPart(ctx: SplitContext, sc: Scratch, us: Float64Array[], grads: Fl
   const u = us[part.p];
   const g = grads[part.p];
   const mag = sc.magnitude[part.p];
-  const a = probeSet(ctx, sc, aStart, half, aSigns, u, g, mag);
+  const a = probeSet(ctx, sc, aStart, half, aSigns, u, g, mag, part.tolTerm);
   result.probes++;
   const out: Part[] = [];
   // The second half, inferred: its discrepancy is the parent's minus the first half's.
   const bAnalytic = part.analytic - a.analytic;
   const bNumeric = part.numeric - a.numeric;
   const bError = part.numericError + a.numericError;
-  const bThreshold = thresholdOf(ctx, termSums(sc.geo, g, bStart, bCount, bSigns), bCount, bError);
+  const bSums = termSums(sc.geo, g, bStart, bCount, bSigns);
+  const bTolTerm = tolTermOf(ctx, bSums.s2, bCount, part.tolTerm);
+  const bThreshold = thresholdOf(ctx, bSums, bTolTerm, bError);
   const aFlag = a.flagged;
   const bFlag = !a.unresolved && abs(bAnalytic - bNumeric) > bThreshold;
   const gapA = abs(a.analytic - a.numeric);
   const gapB = abs(bAnalytic - bNumeric);
   const aPart: Part = partOf(aStart, half, aSigns, part.p, a);
-  const bPart: Part = { start: bStart, count: bCount, signs: bSigns, p: part.p, analytic: bAnalytic, numeric: bNumeric, numericError: bError, threshold: bThreshold };
+  const bPart: Part = { start: bStart, count: bCount, signs: bSigns, p: part.p, analytic: bAnalytic, numeric: bNumeric, numericError: bError, threshold: bThreshold, tolTerm: bTolTerm };
   if (aFlag && bFlag) return gapA >= gapB ? [aPart, bPart] : [bPart, aPart];
   if (aFlag) return [aPart];
   if (bFlag) {
@@ -390,7 +409,7 @@ function splitPart(ctx: SplitContext, sc: Scratch, us: Float64Array[], grads: Fl
       const start = side === 0 ? aStart : bStart;
       const size = side === 0 ? half : bCount;
       const signs = fillSigns(random, size);
-      const probe = probeSet(ctx, sc, start, size, signs, u, g, mag);
+      const probe = probeSet(ctx, sc, start, size, signs, u, g, mag, part.tolTerm);
       result.probes++;
       if (probe.flagged) out[out.length] = partOf(start, size, signs, part.p, probe);
     }
@@ -421,6 +440,7 @@ function compareLeaves(
   const floors = new F64(1);
   floors[0] = ctx.floorOf(part.p);
   const cmp = compareElements(analytic, est, ctx.tol, floors);
+  markUnresolved(analytic[0], est, cmp, part.start, ctx.tol);
   const refine = refineSuspicious(ctx.h, ctx.slot, analytic, est, cmp, ws, ctx.y0, ctx.uOut, ctx.tol, ctx.outOfTime, false);
   for (let q = 0; q < part.count; q++) {
     const pos = leafIdx.length;
@@ -436,6 +456,24 @@ function compareLeaves(
   if (refine.kink !== null && result.kink === null) result.kink = refine.kink;
   result.uncertain += refine.uncertain + refine.unrefined;
   if (result.uncertainNote === '' && refine.uncertainNote !== '') result.uncertainNote = refine.uncertainNote;
+}
+
+/**
+ * The part was flagged, so some element in it is wrong unless the probe erred: an element whose
+ * single central difference cannot resolve it to the tolerance (its bound above tolerance × its
+ * scale, e.g. the outputs' rounding over a whole softmax) is refined like a suspicious one, so
+ * Ridders' larger steps resolve it, or it ends uncertain (inconclusive), never a silent pass.
+ * (Seen: softmax over 100,000, seed 5020, an element wrong by 1e-4 hidden under its bound.)
+ */
+function markUnresolved(g: Float64Array, est: ElementEstimates, cmp: Comparison, start: number, tol: number): void {
+  const n = est.numeric[0];
+  const b = est.bound[0];
+  const floor = cmp.floors[0];
+  for (let q = 0; q < cmp.state.length; q++) {
+    if (cmp.state[q] !== ElementState.ok) continue;
+    const scale = max(abs(g[start + q]), abs(n[q]), floor);
+    if (b[q] > tol * scale) cmp.state[q] = ElementState.suspicious;
+  }
 }
 
 /** One line for the report: what the probes saw, for a message or a note. */
