@@ -61,6 +61,13 @@ export function contains<T>(list: ArrayLike<T>, v: T): boolean {
   return false;
 }
 
+/** A copy of a list without Array.prototype.slice (user code may have replaced it). */
+export function copyList(list: ArrayLike<number>): number[] {
+  const out: number[] = [];
+  for (let i = 0; i < list.length; i++) out[i] = list[i];
+  return out;
+}
+
 /** Position of a value in a list, or -1. */
 export function positionOf<T>(list: ArrayLike<T>, v: T): number {
   for (let i = 0; i < list.length; i++) if (list[i] === v) return i;

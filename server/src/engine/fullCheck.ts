@@ -1,22 +1,23 @@
-// Full check of chosen elements: one pair of forward calls per element gives the whole output
-// difference, whose projections onto every upstream vector are the numeric gradient entries
-// of all probes at once (2 forwards per element serve all K probes).
+// Central differences of chosen elements, one pair of forward calls per element (a column of
+// the Jacobian): projected onto upstream vectors for the full check of a @backward (2 forwards
+// per element serve all K probes), or read entry by entry for a @jacobian or @hessian matrix.
 
-import { F64 } from './builtins';
+import { F64, I32 } from './builtins';
 import { stopAtTimeLimit } from './failure';
+import type { ForwardMap } from './forwardMap';
 import type { ElementEstimates } from './judge';
-import type { ForwardMap } from './opHarness';
 import type { ParamSlot } from './paramSlot';
 import { ROUNDOFF_ULPS, centralStep } from './precision';
 
 /**
  * Central differences (Nocedal & Wright, 2nd ed., §8.1) of the listed elements, perturbed in
- * place and restored. The step is rounded to the parameter's storage first and the quotient
- * divides by the step actually taken (xp − xm), so a float32 parameter's rounding does not bias
- * the estimate. The bound is ROUNDOFF_ULPS·u·Σ_j |w_j|(|f⁺_j| + |f⁻_j|) / (xp − xm) over the outputs
- * that moved: the roundoff of both evaluations carried through the projection. Outputs that did
- * not move carry no roundoff into the difference (the forward is deterministic), and counting
- * them would let a million untouched outputs hide a real error in the one that moved.
+ * place and restored, projected onto the upstream vectors ws: numeric[k][p] is the entry of
+ * element indices[p] under ws[k]. The step is rounded to the parameter's storage first and the
+ * quotient divides by the step actually taken (xp − xm), so a float32 parameter's rounding does
+ * not bias the estimate. The bound is ROUNDOFF_ULPS·u·Σ_j |w_j|(|f⁺_j| + |f⁻_j|) / (xp − xm) over the
+ * outputs that moved: the roundoff of both evaluations carried through the projection. Outputs
+ * that did not move carry no roundoff into the difference (the forward is deterministic), and
+ * counting them would let a million untouched outputs hide a real error in the one that moved.
  */
 export function estimateColumns(
   h: ForwardMap,
@@ -26,78 +27,87 @@ export function estimateColumns(
   uOut: number,
   outOfTime: () => boolean,
 ): ElementEstimates {
-  const K = ws.length;
+  return centralColumns(h, slot, indices, ws, ws.length, uOut, outOfTime, 'elements');
+}
+
+/**
+ * Central differences of every element of a slot, read entry by entry: numeric[k][p] is row k
+ * (output k) of column p. The same differences and bound as estimateColumns with the unit
+ * vectors as upstream vectors, without the projections, so a column costs O(m), not O(m²).
+ */
+export function estimateUnitColumns(h: ForwardMap, slot: ParamSlot, m: number, uOut: number, outOfTime: () => boolean): ElementEstimates {
+  const indices = new I32(slot.size);
+  for (let i = 0; i < slot.size; i++) indices[i] = i;
+  return centralColumns(h, slot, indices, null, m, uOut, outOfTime, 'columns');
+}
+
+/** The one loop of both: ws null reads the outputs themselves (K = m unit vectors). */
+function centralColumns(
+  h: ForwardMap,
+  slot: ParamSlot,
+  indices: ArrayLike<number>,
+  ws: Float64Array[] | null,
+  K: number,
+  uOut: number,
+  outOfTime: () => boolean,
+  unit: 'elements' | 'columns',
+): ElementEstimates {
   const count = indices.length;
-  const m = (h.layout as { size: number }).size;
+  const m = h.outputLayout.size;
   const numeric: Float64Array[] = [];
   const bound: Float64Array[] = [];
   for (let k = 0; k < K; k++) {
     numeric[k] = new F64(count);
     bound[k] = new F64(count);
   }
-  let plus: Float64Array = new F64(m);
-  let minus: Float64Array = new F64(m);
+  const plus = new F64(m);
+  const minus = new F64(m);
   const sums = new F64(K);
   const mags = new F64(K);
-  const pert = h.perturbation;
   for (let p = 0; p < count; p++) {
     // Reading the clock costs far less than a forward call, but not nothing: every 64 elements.
     if ((p & 63) === 63 && outOfTime()) {
-      stopAtTimeLimit(`check of '${slot.name}' stopped at the time limit after ${p} of ${count} elements`, { param: slot.name, stage: 'elements', done: p, total: count });
+      stopAtTimeLimit(`check of '${slot.name}' stopped at the time limit after ${p} of ${count} ${unit}`, { param: slot.name, stage: 'elements', done: p, total: count });
     }
     const i = indices[p];
     const x0 = slot.get(i);
     const step = centralStep(slot.precision, x0);
-    pert.slot = slot;
-    pert.index = i;
-    pert.several = false;
-    let xp: number;
-    let xm: number;
-    try {
-      // Finiteness is checked on the projections below, not per output: one pass instead of three.
-      xp = slot.set(i, x0 + step);
-      pert.value = xp;
-      plus = h.forwardInto(plus, false);
-      xm = slot.set(i, x0 - step);
-      pert.value = xm;
-      minus = h.forwardInto(minus, false);
-    } finally {
-      slot.set(i, x0);
-      pert.slot = null;
-    }
+    // Finiteness is checked on the sums below, not per output: one pass instead of three.
+    const xp = h.forwardAtElement(slot, i, x0 + step, plus, false);
+    const xm = h.forwardAtElement(slot, i, x0 - step, minus, false);
     const denom = xp - xm;
-    for (let k = 0; k < K; k++) {
-      sums[k] = 0;
-      mags[k] = 0;
-    }
-    // One pass over the outputs serves every probe; only outputs that moved enter the sums.
-    for (let j = 0; j < m; j++) {
-      const a = plus[j];
-      const b = minus[j];
-      if (a !== b) {
-        const d = a - b;
-        const mag = (a < 0 ? -a : a) + (b < 0 ? -b : b);
-        for (let k = 0; k < K; k++) {
-          const w = ws[k][j];
-          sums[k] += w * d;
-          mags[k] += (w < 0 ? -w : w) * mag;
+    if (ws === null) {
+      for (let k = 0; k < K; k++) {
+        const a = plus[k];
+        const b = minus[k];
+        sums[k] = a - b;
+        mags[k] = a === b && a - a === 0 ? 0 : (a < 0 ? -a : a) + (b < 0 ? -b : b);
+      }
+    } else {
+      for (let k = 0; k < K; k++) {
+        sums[k] = 0;
+        mags[k] = 0;
+      }
+      // One pass over the outputs serves every probe; only outputs that moved enter the sums.
+      for (let j = 0; j < m; j++) {
+        const a = plus[j];
+        const b = minus[j];
+        if (a !== b) {
+          const d = a - b;
+          const mag = (a < 0 ? -a : a) + (b < 0 ? -b : b);
+          for (let k = 0; k < K; k++) {
+            const w = ws[k][j];
+            sums[k] += w * d;
+            mags[k] += (w < 0 ? -w : w) * mag;
+          }
         }
       }
     }
     for (let k = 0; k < K; k++) {
       if (!(mags[k] < Infinity)) {
         // NaN or ±Infinity among the outputs: name where, as the baseline check would.
-        pert.slot = slot;
-        pert.index = i;
-        try {
-          pert.value = slot.set(i, x0 + step);
-          h.forwardInto(plus, true);
-          pert.value = slot.set(i, x0 - step);
-          h.forwardInto(minus, true);
-        } finally {
-          slot.set(i, x0);
-          pert.slot = null;
-        }
+        h.forwardAtElement(slot, i, x0 + step, plus, true);
+        h.forwardAtElement(slot, i, x0 - step, minus, true);
       }
       numeric[k][p] = sums[k] / denom;
       bound[k][p] = (ROUNDOFF_ULPS * uOut * mags[k]) / denom;

@@ -4,13 +4,13 @@
 // forward), so a @hessian op with a passing @backward is checked as the Jacobian of this map.
 
 import { F64 } from './builtins';
-import type { OpHarness, PerturbationState } from './opHarness';
+import { ForwardMap } from './forwardMap';
+import type { OpHarness } from './opHarness';
 import type { OutputLayout } from './outputLayout';
 import type { ParamSlot } from './paramSlot';
 
-export class GradientMap {
-  readonly perturbation: PerturbationState;
-  layout: OutputLayout | null;
+export class GradientMap extends ForwardMap {
+  readonly outputLayout: OutputLayout;
   private readonly parts: Float64Array[] = [];
   private y: Float64Array | null = null;
   private readonly one = new F64(1);
@@ -20,13 +20,13 @@ export class GradientMap {
     private readonly hg: OpHarness,
     private readonly slots: ParamSlot[],
   ) {
-    this.perturbation = hg.perturbation;
+    super(hg.perturbation);
     let n = 0;
     for (let s = 0; s < slots.length; s++) {
       this.parts[s] = new F64(slots[s].size);
       n += slots[s].size;
     }
-    this.layout = { kind: 'typed', f32: false, size: n };
+    this.outputLayout = { kind: 'typed', f32: false, size: n };
     this.one[0] = 1;
   }
 
@@ -36,7 +36,7 @@ export class GradientMap {
     // The backward may read $y, or (a method) state its forward cached: run the forward here first.
     this.y = this.hg.forwardInto(this.y, true);
     this.hg.backwardInto(this.hg.takesUpstream ? this.one : null, this.y, this.slots, this.parts);
-    const size = (this.layout as OutputLayout).size;
+    const size = this.outputLayout.size;
     const out = dest ?? new F64(size);
     let o = 0;
     for (let s = 0; s < this.parts.length; s++) {

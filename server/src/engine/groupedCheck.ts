@@ -37,21 +37,22 @@ export function estimateGrouped(
   }
   const x0 = slot.snapshot();
   const denom = new F64(n);
-  let plus: Float64Array = new F64(m);
-  let minus: Float64Array = new F64(m);
+  const plus = new F64(m);
+  const minus = new F64(m);
   const rel = relativeStep(slot.precision);
   const typed = slot.typed;
-  const pert = h.perturbation;
   for (let g = 0; g < st.colours; g++) {
     if (outOfTime()) {
       stopAtTimeLimit(`check of '${slot.name}' stopped at the time limit after ${g} of ${st.colours} grouped perturbations`, {
         param: slot.name, stage: 'grouped perturbations', done: g, total: st.colours,
       });
     }
-    pert.slot = slot;
-    pert.several = true;
-    try {
-      // x + h: every element of colour g moves by its own step u^(1/3)·max(1, |x_i|).
+    const restore = (): void => {
+      if (typed !== null) for (let i = g; i < n; i += st.colours) typed[i] = x0[i];
+      else for (let i = g; i < n; i += st.colours) slot.set(i, x0[i]);
+    };
+    // x + h: every element of colour g moves by its own step u^(1/3)·max(1, |x_i|).
+    const movePlus = (): void => {
       if (typed !== null) {
         for (let i = g; i < n; i += st.colours) {
           const x = x0[i];
@@ -61,7 +62,8 @@ export function estimateGrouped(
       } else {
         for (let i = g; i < n; i += st.colours) denom[i] = slot.set(i, x0[i] + rel * max(1, abs(x0[i])));
       }
-      plus = h.forwardInto(plus, true);
+    };
+    const moveMinus = (): void => {
       if (typed !== null) {
         for (let i = g; i < n; i += st.colours) {
           const x = x0[i];
@@ -71,12 +73,9 @@ export function estimateGrouped(
       } else {
         for (let i = g; i < n; i += st.colours) denom[i] -= slot.set(i, x0[i] - rel * max(1, abs(x0[i])));
       }
-      minus = h.forwardInto(minus, true);
-    } finally {
-      if (typed !== null) for (let i = g; i < n; i += st.colours) typed[i] = x0[i];
-      else for (let i = g; i < n; i += st.colours) slot.set(i, x0[i]);
-      pert.slot = null;
-    }
+    };
+    h.forwardMoved(slot, 0, true, movePlus, restore, plus, true);
+    h.forwardMoved(slot, 0, true, moveMinus, restore, minus, true);
     if (st.colours === 1 && st.lo === 0 && st.hi === 0 && n === m) {
       // Diagonal Jacobian (elementwise op): output i belongs to element i; no band bookkeeping.
       for (let k = 0; k < K; k++) {

@@ -2,27 +2,22 @@
 // over the differentiated parameters taken as one vector (n×n), or with `$v` the product H·v.
 // Reference: central differences of the op's @backward when that backward passes its own check
 // (first differences of an exact gradient), else second differences of the forward
-// (secondDifferences.ts). The message says which reference was used.
+// (hessianSecond.ts). The message says which reference was used. The H·v form: hessianVector.ts.
 
-import { F64, I32, abs, formatNumber, max, sliceText } from './builtins';
-import { CheckStop, fail } from './failure';
-import { readGradients } from './gradients';
+import { F64, abs, formatNumber, max } from './builtins';
+import { fail } from './failure';
 import { GradientMap } from './gradientMap';
-import { ElementState, compareElements, excessOf, floorsFor, type ElementEstimates } from './judge';
-import { assemble } from './jacobianCheck';
-import { checkUnchanged, combinedVerdict, readingResult, runAttempts, takeBaseline, unitVectors, type AttemptContext, type AttemptResult, type Baseline } from './kindBaseline';
-import { directionLine } from './lines';
-import { checkMatrixBlock, summariseBlock, type MatrixCheck, type MatrixNaming } from './matrixCompare';
+import { coordsOf, secondDifferenceBlock, type Coords } from './hessianSecond';
+import { hvpAttempt } from './hessianVector';
+import { checkUnchanged, readingResult, runAttempts, takeBaseline, unitVectors, type AttemptContext, type AttemptResult, type Baseline } from './kindBaseline';
+import { kindAttemptResult, type KindParamCheck } from './kindResult';
+import { checkMatrixBlock, type MatrixNaming } from './matrixCompare';
 import { readMatrix } from './matrixRead';
 import { OpHarness, elementName } from './opHarness';
-import type { ParamSlot } from './paramSlot';
-import { relativeFloorFactor } from './precision';
-import { STREAM, STREAM_STRIDE, fillSigned, substream } from './random';
-import { MAX_REFINED_ELEMENTS, type KinkReport } from './refine';
-import { refineSecond, requireNumberOutput, secondDifference, secondKink, secondStep, maxSecondStep, type Move } from './secondDifferences';
+import { STREAM } from './random';
+import { requireNumberOutput } from './secondDifferences';
 import type { CheckSettings } from './settings';
-import { compareAlongLine, shapedLike } from './tangentCheck';
-import type { BackwardArg, CheckOutcome, OpDescriptor, ParamResult, Verdict } from '../model/types';
+import type { CheckOutcome, OpDescriptor } from '../model/types';
 
 /** Checks an op's @backward on its own (runCheck, passed in to keep the module graph acyclic). */
 export type BackwardRunner = (op: OpDescriptor, settings: CheckSettings) => CheckOutcome;
@@ -87,30 +82,6 @@ export function runHessianCheck(
   return outcome;
 }
 
-/** Global index g of the parameters taken as one vector: its slot and element. */
-interface Coords {
-  slotOf: Int32Array;
-  indexOf: Int32Array;
-  offsets: number[];
-  n: number;
-}
-
-function coordsOf(slots: ParamSlot[]): Coords {
-  let n = 0;
-  const offsets: number[] = [];
-  for (let s = 0; s < slots.length; s++) {
-    offsets[s] = n;
-    n += slots[s].size;
-  }
-  const slotOf = new I32(n);
-  const indexOf = new I32(n);
-  for (let s = 0; s < slots.length; s++) for (let i = 0; i < slots[s].size; i++) {
-    slotOf[offsets[s] + i] = s;
-    indexOf[offsets[s] + i] = i;
-  }
-  return { slotOf, indexOf, offsets, n };
-}
-
 function hessianAttempt(ctx: AttemptContext, hg: OpHarness | null): AttemptResult {
   const { h, op, settings } = ctx;
   const base = takeBaseline(h, op, settings, ctx.stream(STREAM.inputs), ctx.clock);
@@ -136,7 +107,7 @@ function matrixAttempt(ctx: AttemptContext, base: Baseline, c: Coords, gm: Gradi
     if (H[e] - H[e] !== 0) fail(`${what} result has ${H[e] !== H[e] ? 'NaN' : 'an infinite value'} at H[${(e - (e % n)) / n}, ${e % n}]`);
   }
   const asymmetry = asymmetryHint(H, n, base.tol, name);
-  const checks: MatrixCheck[] = [];
+  const checks: KindParamCheck[] = [];
   const g0 = gm !== null ? gm.forwardInto(null, true) : null;
   const ws = gm !== null ? unitVectors(n) : [];
   for (let s = 0; s < slots.length; s++) {
@@ -161,7 +132,7 @@ function matrixAttempt(ctx: AttemptContext, base: Baseline, c: Coords, gm: Gradi
   if (asymmetry !== '') {
     for (let s = 0; s < checks.length; s++) if (checks[s].result.verdict === 'mismatch') checks[s].result.hints[checks[s].result.hints.length] = asymmetry;
   }
-  return assemble(ctx, checks, base.inputs, '');
+  return kindAttemptResult(ctx, checks, base.inputs, '');
 }
 
 /** "not symmetric: H[0, 1] = 3 but H[1, 0] = 2" for the worst asymmetric pair, or ''. */
@@ -187,248 +158,3 @@ function asymmetryHint(H: Float64Array, n: number, tol: number, name: (g: number
   return `the Hessian is not symmetric: H[${wa}, ${wb}] = ${formatNumber(H[wa * n + wb])} (${name(wa)}, ${name(wb)}) but H[${wb}, ${wa}] = ${formatNumber(H[wb * n + wa])}; second derivatives of a smooth function commute`;
 }
 
-/** One element moved by t·max(1, |x|) (a relative step). */
-function unitMove(slot: ParamSlot, i: number): Move[] {
-  const x = slot.get(i);
-  const moves: Move[] = [];
-  moves[0] = { slot, index: i, coef: max(1, abs(x)) };
-  return moves;
-}
-
-/** The Hessian block of slot s's columns by second differences, refined before blame. */
-function secondDifferenceBlock(h: OpHarness, base: Baseline, c: Coords, s: number, rows: Float64Array[], naming: MatrixNaming, outOfTime: () => boolean): MatrixCheck {
-  const slot = base.slots[s];
-  const n = c.n;
-  const t = secondStep(base.precision);
-  const indices = new I32(slot.size);
-  const numeric: Float64Array[] = [];
-  const bound: Float64Array[] = [];
-  for (let k = 0; k < n; k++) {
-    numeric[k] = new F64(slot.size);
-    bound[k] = new F64(slot.size);
-  }
-  for (let i = 0; i < slot.size; i++) {
-    indices[i] = i;
-    if (outOfTime()) fail(`check of '${slot.name}' stopped at the time limit after ${i} of ${slot.size} columns of second differences`);
-    const a = unitMove(slot, i);
-    for (let k = 0; k < n; k++) {
-      const b = unitMove(base.slots[c.slotOf[k]], c.indexOf[k]);
-      const tt = max(0, (t < maxSecondStep([a[0], b[0]]) ? t : maxSecondStep([a[0], b[0]])));
-      const d = tt > 0 ? secondDifference(h, a, b, tt, base.uOut) : null;
-      if (d === null) fail(`forward output is not finite at the second-difference points of ${elementName(slot, i)} and ${naming.rowName(k)}`);
-      const scale = a[0].coef * b[0].coef;
-      numeric[k][i] = d.value / scale;
-      bound[k][i] = d.bound / scale;
-    }
-  }
-  const est: ElementEstimates = { indices, numeric, bound };
-  const floors = floorsFor(rows, est, relativeFloorFactor(base.precision));
-  const cmp = compareElements(rows, est, base.tol, floors);
-  // Refinement: Ridders on each out-of-tolerance entry of a suspicious column, worst column first.
-  let confirmed = 0;
-  let uncertain = 0;
-  let unrefined = 0;
-  let refined = 0;
-  let uncertainNote = '';
-  let kink: KinkReport | null = null;
-  for (let i = 0; i < slot.size; i++) {
-    if (cmp.state[i] !== ElementState.suspicious) continue;
-    if (confirmed > 0 || refined >= MAX_REFINED_ELEMENTS || outOfTime()) {
-      unrefined++;
-      continue;
-    }
-    refined++;
-    let state: ElementState = ElementState.ok;
-    for (let k = 0; k < n; k++) {
-      if (excessOf(rows[k][i], numeric[k][i], bound[k][i], base.tol, floors[k]) <= 0) continue;
-      const a = unitMove(slot, i);
-      const b = unitMove(base.slots[c.slotOf[k]], c.indexOf[k]);
-      // A jump of the second derivative along either coordinate is a kink, never a mismatch.
-      if (secondKink(h, a, base.precision, base.tol) || secondKink(h, b, base.precision, base.tol)) {
-        state = ElementState.kink;
-        if (kink === null) kink = { slot, index: i, value: slot.get(i), jump: 0 };
-        break;
-      }
-      const scale = a[0].coef * b[0].coef;
-      const r = refineSecond(h, a, b, base.precision, base.tol, rows[k][i] * scale, base.y0[0]);
-      numeric[k][i] = r.value / scale;
-      if (r.bound < Infinity) bound[k][i] = r.bound / scale;
-      if (r.bound < Infinity && excessOf(rows[k][i], numeric[k][i], bound[k][i], base.tol, floors[k]) > 0) {
-        state = ElementState.mismatch;
-        cmp.worstProbe[i] = k;
-      } else if (!r.settled && state === ElementState.ok) {
-        state = ElementState.uncertain;
-        if (uncertainNote === '') uncertainNote = `the second-difference estimate of H[${k}, ${naming.colOffset + i}] is unreliable (error ${formatNumber(r.bound, 3)} against a value of ${formatNumber(numeric[k][i], 6)}; hessian gives ${formatNumber(rows[k][i], 6)})`;
-      }
-    }
-    cmp.state[i] = state;
-    if (state === ElementState.mismatch) {
-      confirmed++;
-      const k = cmp.worstProbe[i];
-      const d = abs(rows[k][i] - numeric[k][i]);
-      cmp.rel[i] = d / max(abs(rows[k][i]), abs(numeric[k][i]), floors[k], bound[k][i] / base.tol);
-    }
-    if (state === ElementState.uncertain) uncertain++;
-  }
-  return summariseBlock(slot, rows, est, cmp, { confirmed, uncertain, unrefined, kink, uncertainNote }, base.tol, 'second-differences', naming);
-}
-
-/** $v for slot s's direction (zeros in the other parameters): one part, or one per parameter. */
-function vectorValue(slots: ParamSlot[], s: number, v: Float64Array): unknown {
-  if (slots.length === 1) return shapedLike(slots[0].value(), v, { i: 0 });
-  const parts: unknown[] = [];
-  for (let q = 0; q < slots.length; q++) parts[q] = shapedLike(slots[q].value(), q === s ? v : new F64(slots[q].size), { i: 0 });
-  return parts;
-}
-
-/** Reads H·v (one part per parameter) into one flat vector in declaration order. */
-function readProduct(raw: unknown, slots: ParamSlot[], c: Coords, what: string): Float64Array {
-  const parts: Float64Array[] = [];
-  for (let s = 0; s < slots.length; s++) parts[s] = new F64(slots[s].size);
-  try {
-    readGradients(raw, slots, parts);
-  } catch (e) {
-    if (!(e instanceof CheckStop)) throw e;
-    const msg = e.message;
-    // The reader speaks of a backward's gradients; here it is a Hessian-vector product.
-    fail(`${what}: ${sliceText(msg, 0, 10) === 'backward: ' ? sliceText(msg, 10) : msg} (H·v has one part per parameter, shaped like it)`);
-  }
-  const out = new F64(c.n);
-  for (let s = 0; s < slots.length; s++) for (let i = 0; i < slots[s].size; i++) out[c.offsets[s] + i] = parts[s][i];
-  return out;
-}
-
-function hvpAttempt(ctx: AttemptContext, base: Baseline, c: Coords, gm: GradientMap | null, name: (g: number) => string): AttemptResult {
-  const { h, op, settings } = ctx;
-  const { slots, y0 } = base;
-  const what = `hessian '${op.backward}'`;
-  const probes = max(1, settings.upstreamProbes);
-  const g0 = gm !== null ? gm.forwardInto(null, true) : null;
-  const params: ParamResult[] = [];
-  let message = '';
-  let kink: KinkReport | null = null;
-  for (let s = 0; s < slots.length; s++) {
-    const slot = slots[s];
-    const random = substream(ctx.seed, ctx.attempt * STREAM_STRIDE + STREAM.directions, s);
-    let verdict: Verdict = 'pass';
-    let note = '';
-    let maxAbs = 0;
-    let maxRel = 0;
-    for (let p = 0; p < probes && verdict !== 'mismatch'; p++) {
-      const d = fillSigned(random, new F64(slot.size));
-      // directionLine scales the direction per element by max(1, |x|): that scaled vector is v.
-      const line = directionLine(gm ?? h, slot, d);
-      const v = line.scaled;
-      const placeholder = (a: BackwardArg): unknown => (a.kind === 'vector' ? vectorValue(slots, s, v) : undefined);
-      // A method's derivative may read state its forward cached: run the forward at the sample point first.
-      if (h.backwardNeedsFreshForward) h.forwardInto(new F64(1), true);
-      const raw = h.derivativeRaw(y0, placeholder);
-      checkUnchanged(h, base, what);
-      const analytic = readingResult(what, () => readProduct(raw, slots, c, what));
-      for (let k = 0; k < c.n; k++) if (analytic[k] - analytic[k] !== 0) fail(`${what} result has ${analytic[k] !== analytic[k] ? 'NaN' : 'an infinite value'} at ${name(k)}`);
-      if (gm !== null && g0 !== null) {
-        const cmp = compareAlongLine(line, analytic, g0, base.uOut, base.tol, base.precision, name, {
-          subject: `H·v for a v of '${slot.name}'`,
-          analyticWord: 'hessian',
-          numericWord: 'differences of the gradient along v',
-        });
-        maxAbs = max(maxAbs, cmp.maxAbs);
-        maxRel = max(maxRel, cmp.maxRel);
-        if (cmp.kinkJump !== null && kink === null) kink = { slot, index: 0, value: slot.get(0), jump: cmp.kinkJump };
-        if (cmp.verdict === 'mismatch' || (cmp.verdict === 'inconclusive' && verdict === 'pass')) {
-          verdict = cmp.verdict;
-          note = cmp.note;
-        }
-      } else {
-        const r = hvpBySecondDifferences(h, base, c, slot, v, analytic, name);
-        if (r.kink !== null && kink === null) kink = r.kink;
-        maxAbs = max(maxAbs, r.maxAbs);
-        maxRel = max(maxRel, r.maxRel);
-        if (r.verdict === 'mismatch' || (r.verdict === 'inconclusive' && verdict === 'pass')) {
-          verdict = r.verdict;
-          note = r.note;
-        }
-      }
-    }
-    const shape: number[] = [];
-    for (let q = 0; q < slot.shape.length; q++) shape[q] = slot.shape[q];
-    params[s] = {
-      name: slot.name,
-      verdict,
-      maxAbsError: maxAbs,
-      maxRelError: maxRel,
-      worst: null,
-      shape,
-      dtype: slot.dtype,
-      method: gm !== null ? 'gradient-differences' : 'second-differences',
-      elements: slot.size,
-      checkedElements: slot.size,
-      hints: [],
-    };
-    if (note) message += (message ? '; ' : '') + note;
-  }
-  const verdict = combinedVerdict(params);
-  if (verdict !== 'mismatch' && kink !== null) return { kink, params, inputs: base.inputs };
-  const outcome: CheckOutcome = { verdict, seed: ctx.seed, message, hints: [], params, calls: { forward: h.calls.forward, backward: h.calls.backward } };
-  if (base.inputs !== undefined) outcome.inputs = base.inputs;
-  return outcome;
-}
-
-/** (H·v)_k ≈ second difference along e_k and v, for every k, refined where it disagrees. */
-function hvpBySecondDifferences(
-  h: OpHarness,
-  base: Baseline,
-  c: Coords,
-  slot: ParamSlot,
-  v: Float64Array,
-  analytic: Float64Array,
-  name: (g: number) => string,
-): { verdict: Verdict; note: string; maxAbs: number; maxRel: number; kink: KinkReport | null } {
-  const t = secondStep(base.precision);
-  const vMoves: Move[] = [];
-  for (let i = 0; i < slot.size; i++) vMoves[i] = { slot, index: i, coef: v[i] };
-  const out: { verdict: Verdict; note: string; maxAbs: number; maxRel: number; kink: KinkReport | null } = { verdict: 'pass', note: '', maxAbs: 0, maxRel: 0, kink: null };
-  const numeric = new F64(c.n);
-  const bound = new F64(c.n);
-  let largest = 0;
-  for (let k = 0; k < c.n; k++) {
-    const a = unitMove(base.slots[c.slotOf[k]], c.indexOf[k]);
-    const all: Move[] = [a[0]];
-    for (let i = 0; i < vMoves.length; i++) all[all.length] = vMoves[i];
-    const tt = t < maxSecondStep(all) ? t : maxSecondStep(all);
-    const d = secondDifference(h, a, vMoves, tt, base.uOut);
-    if (d === null) fail(`forward output is not finite at the second-difference points of ${name(k)} along v`);
-    numeric[k] = d.value / a[0].coef;
-    bound[k] = d.bound / a[0].coef;
-    largest = max(largest, abs(numeric[k]), abs(analytic[k]));
-  }
-  const floor = relativeFloorFactor(base.precision) * largest;
-  let refined = 0;
-  for (let k = 0; k < c.n; k++) {
-    if (excessOf(analytic[k], numeric[k], bound[k], base.tol, floor) <= 0) continue;
-    if (out.verdict === 'mismatch' || refined >= MAX_REFINED_ELEMENTS) break;
-    refined++;
-    const a = unitMove(base.slots[c.slotOf[k]], c.indexOf[k]);
-    if (secondKink(h, a, base.precision, base.tol) || secondKink(h, vMoves, base.precision, base.tol)) {
-      out.kink = { slot: base.slots[c.slotOf[k]], index: c.indexOf[k], value: base.slots[c.slotOf[k]].get(c.indexOf[k]), jump: 0 };
-      if (out.verdict === 'pass') out.verdict = 'inconclusive';
-      continue;
-    }
-    const r = refineSecond(h, a, vMoves, base.precision, base.tol, analytic[k] * a[0].coef, base.y0[0]);
-    numeric[k] = r.value / a[0].coef;
-    if (r.bound < Infinity) bound[k] = r.bound / a[0].coef;
-    if (r.bound < Infinity && excessOf(analytic[k], numeric[k], bound[k], base.tol, floor) > 0) {
-      out.verdict = 'mismatch';
-      out.note = `H·v for a v of '${slot.name}' disagrees at ${name(k)}: hessian gives ${formatNumber(analytic[k])}, second differences ${formatNumber(numeric[k])} (relative error ${formatNumber(abs(analytic[k] - numeric[k]) / max(abs(analytic[k]), abs(numeric[k]), floor), 3)})`;
-    } else if (!r.settled && out.verdict === 'pass') {
-      out.verdict = 'inconclusive';
-      out.note = `the second-difference estimate of (H·v) at ${name(k)} is unreliable (error ${formatNumber(r.bound, 3)})`;
-    }
-  }
-  for (let k = 0; k < c.n; k++) {
-    const gap = abs(analytic[k] - numeric[k]);
-    out.maxAbs = max(out.maxAbs, gap);
-    if (gap > 0) out.maxRel = max(out.maxRel, gap / max(abs(analytic[k]), abs(numeric[k]), floor, bound[k] / base.tol));
-  }
-  return out;
-}

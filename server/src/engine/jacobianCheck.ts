@@ -3,15 +3,15 @@
 // central differences of the forward, refined before any entry is blamed.
 
 import { fail } from './failure';
-import { checkUnchanged, combinedVerdict, readingResult, runAttempts, takeBaseline, unitVectors, type AttemptContext, type AttemptResult } from './kindBaseline';
-import { checkMatrixBlock, matrixRows, type MatrixCheck } from './matrixCompare';
+import { checkUnchanged, readingResult, runAttempts, takeBaseline, unitVectors, type AttemptContext, type AttemptResult } from './kindBaseline';
+import { kindAttemptResult, type KindParamCheck } from './kindResult';
+import { checkMatrixBlock, matrixRows } from './matrixCompare';
 import { readMatrix, splitParts } from './matrixRead';
 import { OpHarness } from './opHarness';
 import { describeOutputIndex, type OutputLayout } from './outputLayout';
 import { STREAM } from './random';
-import type { KinkReport } from './refine';
 import type { CheckSettings } from './settings';
-import type { CheckOutcome, OpDescriptor, ParamResult } from '../model/types';
+import type { CheckOutcome, OpDescriptor } from '../model/types';
 
 /**
  * Most outputs a Jacobian may have for an entry-by-entry check. Refining a column projects the
@@ -54,7 +54,7 @@ function jacobianAttempt(ctx: AttemptContext): AttemptResult {
     analytic[s] = matrixRows(a, m, slot.size);
   }
   const ws = unitVectors(m);
-  const checks: MatrixCheck[] = [];
+  const checks: KindParamCheck[] = [];
   for (let s = 0; s < slots.length; s++) {
     checks[s] = checkMatrixBlock(h, slots[s], analytic[s], y0, ws, base.uOut, base.tol, base.precision, 'full', {
       symbol: slots.length === 1 ? 'J' : `J_${slots[s].name}`,
@@ -64,33 +64,5 @@ function jacobianAttempt(ctx: AttemptContext): AttemptResult {
       numericWord: 'finite differences',
     }, ctx.outOfTime);
   }
-  return assemble(ctx, checks, base.inputs, '');
-}
-
-/** Turns per-slot matrix checks into an attempt result (a kink without a mismatch asks for a redraw). */
-export function assemble(ctx: AttemptContext, checks: MatrixCheck[], inputs: CheckOutcome['inputs'], lead: string): AttemptResult {
-  const params: ParamResult[] = [];
-  let kink: KinkReport | null = null;
-  let anyMismatch = false;
-  for (let s = 0; s < checks.length; s++) {
-    params[s] = checks[s].result;
-    if (checks[s].result.verdict === 'mismatch') anyMismatch = true;
-    if (kink === null && checks[s].kink !== null) kink = checks[s].kink;
-  }
-  if (!anyMismatch && kink !== null) {
-    for (let s = 0; s < checks.length; s++) if (checks[s].kink !== null) params[s].verdict = 'inconclusive';
-    return { kink, params, inputs };
-  }
-  let message = lead;
-  for (let s = 0; s < checks.length; s++) if (checks[s].note) message += (message ? '; ' : '') + checks[s].note;
-  const outcome: CheckOutcome = {
-    verdict: combinedVerdict(params),
-    seed: ctx.seed,
-    message,
-    hints: [],
-    params,
-    calls: { forward: ctx.h.calls.forward, backward: ctx.h.calls.backward },
-  };
-  if (inputs !== undefined) outcome.inputs = inputs;
-  return outcome;
+  return kindAttemptResult(ctx, checks, base.inputs, '');
 }

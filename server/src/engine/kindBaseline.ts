@@ -44,7 +44,7 @@ export function takeBaseline(h: OpHarness, op: OpDescriptor, settings: CheckSett
   const y0 = h.forwardInto(null, true);
   const changed = guard.firstChange(h.inputValues());
   if (changed !== null) fail(`forward changed its input ${changed}`);
-  const layout = h.layout as OutputLayout;
+  const layout = h.outputLayout;
   if (layout.size > settings.maxElements) fail(`forward output has ${layout.size} elements, more than the limit of ${settings.maxElements}`);
   const t1 = clock();
   const y1 = h.forwardInto(null, true);
@@ -111,7 +111,8 @@ export interface AttemptContext {
   clock: () => number;
 }
 
-function emptyOutcome(verdict: Verdict, seed: number, message: string, calls: { forward: number; backward: number }): CheckOutcome {
+/** An outcome with no parameter results (a check that stopped before comparing anything). */
+export function emptyOutcome(verdict: Verdict, seed: number, message: string, calls: { forward: number; backward: number }): CheckOutcome {
   return { verdict, seed, message, hints: [], params: [], calls: { forward: calls.forward, backward: calls.backward } };
 }
 

@@ -3,7 +3,7 @@
 // differences onto upstream vectors that every difference quotient of the engine uses.
 
 import { F64, abs, max, min } from './builtins';
-import type { ForwardMap } from './opHarness';
+import type { ForwardMap } from './forwardMap';
 import type { ParamSlot } from './paramSlot';
 import { centralStep, relativeStep } from './precision';
 import { RIDDERS_INITIAL_STEP } from './ridders';
@@ -68,18 +68,7 @@ export function elementLine(h: ForwardMap, slot: ParamSlot, i: number): Line {
     maxStep,
     refineStep: min(RIDDERS_INITIAL_STEP * scale, maxStep),
     evalAt(t: number, out: Float64Array): number {
-      const p = h.perturbation;
-      p.slot = slot;
-      p.index = i;
-      p.several = false;
-      const stored = slot.set(i, x0 + t);
-      p.value = stored;
-      try {
-        h.forwardInto(out, false);
-      } finally {
-        slot.set(i, x0);
-        p.slot = null;
-      }
+      const stored = h.forwardAtElement(slot, i, x0 + t, out, false);
       return isFiniteVector(out) ? stored - x0 : NaN;
     },
   };
@@ -113,19 +102,22 @@ export function directionLine(h: ForwardMap, slot: ParamSlot, d: Float64Array): 
     maxStep,
     refineStep: min(RIDDERS_INITIAL_STEP, maxStep),
     evalAt(t: number, out: Float64Array): number {
-      const p = h.perturbation;
-      p.slot = slot;
-      p.several = true;
       const typed = slot.typed;
-      if (typed !== null) for (let i = 0; i < n; i++) typed[i] = x0[i] + t * scaled[i];
-      else for (let i = 0; i < n; i++) slot.set(i, x0[i] + t * scaled[i]);
-      try {
-        h.forwardInto(out, false);
-      } finally {
-        if (typed !== null) for (let i = 0; i < n; i++) typed[i] = x0[i];
-        else for (let i = 0; i < n; i++) slot.set(i, x0[i]);
-        p.slot = null;
-      }
+      h.forwardMoved(
+        slot,
+        0,
+        true,
+        () => {
+          if (typed !== null) moveRange(typed, x0, scaled, 0, 0, n, t);
+          else for (let i = 0; i < n; i++) slot.set(i, x0[i] + t * scaled[i]);
+        },
+        () => {
+          if (typed !== null) restoreRange(typed, x0, 0, n);
+          else for (let i = 0; i < n; i++) slot.set(i, x0[i]);
+        },
+        out,
+        false,
+      );
       return isFiniteVector(out) ? t : NaN;
     },
   };
@@ -210,6 +202,8 @@ function moveRange(typed: Float64Array | Float32Array, x0: Float64Array, dir: Fl
   for (let q = 0; q < count; q++) typed[start + q] = x0[start + q] + t * dir[at + q];
 }
 
+function noop(): void {}
+
 function restoreRange(typed: Float64Array | Float32Array, x0: Float64Array, start: number, count: number): void {
   for (let q = 0; q < count; q++) typed[start + q] = x0[start + q];
 }
@@ -252,12 +246,6 @@ export function rangeLine(h: ForwardMap, slot: ParamSlot, geo: SlotGeometry, sta
     if (typed !== null) restoreRange(typed, x0, start, count);
     else for (let q = 0; q < count; q++) slot.set(start + q, x0[start + q]);
   };
-  const begin = (): void => {
-    const p = h.perturbation;
-    p.slot = slot;
-    p.several = count > 1;
-    if (count === 1) p.index = start;
-  };
   return {
     slot,
     element: count === 1 ? start : -1,
@@ -265,29 +253,13 @@ export function rangeLine(h: ForwardMap, slot: ParamSlot, geo: SlotGeometry, sta
     maxStep,
     refineStep: min(RIDDERS_INITIAL_STEP, maxStep),
     evalAt(t: number, out: Float64Array): number {
-      begin();
-      move(t);
-      if (count === 1) h.perturbation.value = slot.get(start);
-      try {
-        h.forwardInto(out, false);
-      } finally {
-        restore();
-        h.perturbation.slot = null;
-      }
+      h.forwardMoved(slot, start, count > 1, () => move(t), restore, out, false);
       return isFiniteVector(out) ? t : NaN;
     },
     pairAt(t: number, plus: Float64Array, minus: Float64Array): void {
-      begin();
-      try {
-        move(t);
-        if (count === 1) h.perturbation.value = slot.get(start);
-        h.forwardInto(plus, false);
-        move(-t);
-        if (count === 1) h.perturbation.value = slot.get(start);
-        h.forwardInto(minus, false);
-      } finally {
-        h.perturbation.slot = null;
-      }
+      // No restore between the two calls: the second move overwrites every moved element.
+      h.forwardMoved(slot, start, count > 1, () => move(t), noop, plus, false);
+      h.forwardMoved(slot, start, count > 1, () => move(-t), noop, minus, false);
     },
     restore,
   };

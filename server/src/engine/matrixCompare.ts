@@ -4,14 +4,16 @@
 // suspicious columns go through the same refinement as a @backward (kink test, then Ridders),
 // so an entry is blamed only beyond tolerance plus the estimate's own error.
 
-import { F64, I32, abs, formatNumber, max } from './builtins';
-import { giveUp } from './failure';
+import { F64, abs, formatNumber, max } from './builtins';
+import { estimateUnitColumns } from './fullCheck';
 import { ElementState, compareElements, excessOf, floorsFor, type Comparison, type ElementEstimates } from './judge';
 import { HINT_TOLERANCE_FACTOR } from './hints';
-import { elementName, unravelSlot, type ForwardMap } from './opHarness';
+import type { ForwardMap } from './forwardMap';
+import { elementName, unravelSlot } from './opHarness';
 import type { ParamSlot } from './paramSlot';
-import { ROUNDOFF_ULPS, centralStep, relativeFloorFactor, type Precision } from './precision';
-import { refineSuspicious, type KinkReport, type RefineSummary } from './refine';
+import { relativeFloorFactor, type Precision } from './precision';
+import { kindParamResult, type KindParamCheck } from './kindResult';
+import { refineSuspicious, type RefineSummary } from './refine';
 import type { ParamResult, CheckMethod } from '../model/types';
 
 /** How a matrix and its rows are named in messages. */
@@ -26,62 +28,6 @@ export interface MatrixNaming {
   analyticWord: string;
   /** What gave the numeric value: `finite differences`, `differences of the gradient`. */
   numericWord: string;
-}
-
-export interface MatrixCheck {
-  result: ParamResult;
-  kink: KinkReport | null;
-  note: string;
-}
-
-/**
- * Central differences of every column of a slot, read entry by entry: numeric[k][p] is row k
- * of column indices[p]. Same step and roundoff bound as estimateColumns (Nocedal & Wright §8.1),
- * without the projections (the rows are the unit vectors), so a column costs O(m).
- */
-export function unitColumns(f: ForwardMap, slot: ParamSlot, m: number, uOut: number, outOfTime: () => boolean): ElementEstimates {
-  const n = slot.size;
-  const indices = new I32(n);
-  for (let i = 0; i < n; i++) indices[i] = i;
-  const numeric: Float64Array[] = [];
-  const bound: Float64Array[] = [];
-  for (let k = 0; k < m; k++) {
-    numeric[k] = new F64(n);
-    bound[k] = new F64(n);
-  }
-  let plus: Float64Array = new F64(m);
-  let minus: Float64Array = new F64(m);
-  const pert = f.perturbation;
-  for (let i = 0; i < n; i++) {
-    if ((i & 63) === 63 && outOfTime()) giveUp(`check of '${slot.name}' stopped at the time limit after ${i} of ${n} columns`);
-    const x0 = slot.get(i);
-    const step = centralStep(slot.precision, x0);
-    pert.slot = slot;
-    pert.index = i;
-    pert.several = false;
-    let xp: number;
-    let xm: number;
-    try {
-      xp = slot.set(i, x0 + step);
-      pert.value = xp;
-      plus = f.forwardInto(plus, true);
-      xm = slot.set(i, x0 - step);
-      pert.value = xm;
-      minus = f.forwardInto(minus, true);
-    } finally {
-      slot.set(i, x0);
-      pert.slot = null;
-    }
-    const denom = xp - xm;
-    for (let k = 0; k < m; k++) {
-      const a = plus[k];
-      const b = minus[k];
-      numeric[k][i] = (a - b) / denom;
-      // An output that did not move carries no roundoff into its difference.
-      bound[k][i] = a === b ? 0 : (ROUNDOFF_ULPS * uOut * (abs(a) + abs(b))) / denom;
-    }
-  }
-  return { indices, numeric, bound };
 }
 
 /** Rows of a row-major m×n matrix as separate arrays (the analytic side of the comparison). */
@@ -191,9 +137,9 @@ export function checkMatrixBlock(
   method: CheckMethod,
   naming: MatrixNaming,
   outOfTime: () => boolean,
-): MatrixCheck {
+): KindParamCheck {
   const m = analytic.length;
-  const est = unitColumns(f, slot, m, uOut, outOfTime);
+  const est = estimateUnitColumns(f, slot, m, uOut, outOfTime);
   const floorPrecision: Precision = slot.precision === 'f32' || precision === 'f32' ? 'f32' : 'f64';
   const floors = floorsFor(analytic, est, relativeFloorFactor(floorPrecision));
   const cmp = compareElements(analytic, est, tol, floors);
@@ -210,7 +156,7 @@ export function summariseBlock(
   tol: number,
   method: CheckMethod,
   naming: MatrixNaming,
-): MatrixCheck {
+): KindParamCheck {
   let maxAbs = 0;
   let maxRel = 0;
   let worstPos = -1;
@@ -241,21 +187,15 @@ export function summariseBlock(
   const worst = worstPos >= 0
     ? { index: unravelSlot(slot, worstPos), analytic: analytic[cmp.worstProbe[worstPos]][worstPos], numeric: est.numeric[cmp.worstProbe[worstPos]][worstPos] }
     : null;
-  const shape: number[] = [];
-  for (let d = 0; d < slot.shape.length; d++) shape[d] = slot.shape[d];
-  const result: ParamResult = {
-    name: slot.name,
+  const result = kindParamResult(slot, {
     verdict,
-    maxAbsError: maxAbs,
-    maxRelError: maxRel,
-    worst,
-    shape,
-    dtype: slot.dtype,
     method,
-    elements: slot.size,
+    maxAbs,
+    maxRel,
+    worst,
     checkedElements: est.indices.length,
     hints: verdict === 'mismatch' ? matrixHints(analytic, est, cmp, tol, slot, naming) : [],
-  };
+  });
   // Every entry compared on its own against the tolerance: a single wrong entry above it is
   // caught, so the floor is the tolerance itself (as for a full check of a backward).
   if (est.indices.length === slot.size) result.detectionFloor = tol;

@@ -108,19 +108,22 @@ export function probeBandJointly(h: OpHarness, slot: ParamSlot, y0: Float64Array
   if (!(spacing >= 8)) return null;
   const saved: number[] = [];
   const out = new F64(m);
-  const pert = h.perturbation;
-  pert.slot = slot;
-  pert.several = true;
-  try {
-    for (let q = 0; q < count; q++) {
-      saved[q] = slot.get(probes[q]);
-      slot.set(probes[q], saved[q] + centralStep(slot.precision, saved[q]));
-    }
-    h.forwardInto(out, true);
-  } finally {
-    for (let q = 0; q < count; q++) slot.set(probes[q], saved[q]);
-    pert.slot = null;
-  }
+  h.forwardMoved(
+    slot,
+    0,
+    true,
+    () => {
+      for (let q = 0; q < count; q++) {
+        saved[q] = slot.get(probes[q]);
+        slot.set(probes[q], saved[q] + centralStep(slot.precision, saved[q]));
+      }
+    },
+    () => {
+      for (let q = 0; q < count; q++) slot.set(probes[q], saved[q]);
+    },
+    out,
+    true,
+  );
   let lo = Infinity;
   let hi = -Infinity;
   let q = 0;
@@ -190,20 +193,10 @@ export function probeBand(h: OpHarness, slot: ParamSlot, y0: Float64Array, rando
   const out = new F64(m);
   let lo = Infinity;
   let hi = -Infinity;
-  const pert = h.perturbation;
   for (let q = 0; q < probes.length; q++) {
     const i = probes[q];
     const x0 = slot.get(i);
-    pert.slot = slot;
-    pert.index = i;
-    pert.several = false;
-    try {
-      pert.value = slot.set(i, x0 + centralStep(slot.precision, x0));
-      h.forwardInto(out, true);
-    } finally {
-      slot.set(i, x0);
-      pert.slot = null;
-    }
+    h.forwardAtElement(slot, i, x0 + centralStep(slot.precision, x0), out, true);
     const a = anchorOf(i, n, m);
     for (let j = 0; j < m; j++) {
       if (out[j] !== y0[j]) {

@@ -4,6 +4,8 @@
 
 import { F64, describeThrown, describeValue, formatIndex, formatNumber, positionOf, reflectApply, reflectConstruct, sliceText } from './builtins';
 import { CheckStop, fail, failThrown } from './failure';
+import { ForwardMap } from './forwardMap';
+import { resolveBindings, type AnyFunction } from './opBindings';
 import { readGradients } from './gradients';
 import { InputGuard } from './inputGuard';
 import { InstanceSnapshot } from './instanceState';
@@ -14,28 +16,8 @@ import { drawSample, type Sample } from './sampling';
 import { TensorBridge } from './tensorBridge';
 import type { BackwardArg, CallCounts, CheckOutcome, OpDescriptor } from '../model/types';
 
-type AnyFunction = (...args: unknown[]) => unknown;
-
-/** Where the parameters currently are, for messages about a failing forward call. */
-export interface PerturbationState {
-  slot: ParamSlot | null;
-  index: number;
-  value: number;
-  /** Several elements moved together (grouped or directional perturbation). */
-  several: boolean;
-}
-
-function lookup(exposed: Record<string, unknown>, name: string): unknown {
-  try {
-    return exposed[name];
-  } catch (e) {
-    return fail(`reading '${name}' from the module threw ${describeThrown(e)}`);
-  }
-}
-
-export class OpHarness {
+export class OpHarness extends ForwardMap {
   readonly calls: CallCounts = { forward: 0, backward: 0 };
-  readonly perturbation: PerturbationState = { slot: null, index: 0, value: 0, several: false };
   private readonly forwardFn: AnyFunction;
   private readonly backwardFn: AnyFunction;
   private readonly classCtor: AnyFunction | null;
@@ -45,12 +27,12 @@ export class OpHarness {
   /** A fresh instance for the next backward call (prepareFreshInstanceForBackward), or null. */
   private backwardThis: Record<string, unknown> | null = null;
   /** The object literal holding the op's functions (`this` for their calls), or null. */
-  private holder: Record<string, unknown> | null = null;
+  private readonly holder: Record<string, unknown> | null;
   private sample: Sample | null = null;
   /** The inputs of the current attempt as captured for the report (set by the check). */
   capturedInputs: CheckOutcome['inputs'];
-  /** Output shape, fixed by the first forward call. */
-  layout: OutputLayout | null = null;
+  /** Output shape, fixed by the first forward call (read it through outputLayout). */
+  private layout: OutputLayout | null = null;
   /** Whether the backward receives `$dy`; when not, the forward returns a number. */
   readonly takesUpstream: boolean;
   /** Tensors in and out, and the library's gradient, for ops that work with TensorFlow.js. */
@@ -60,59 +42,18 @@ export class OpHarness {
     private readonly op: OpDescriptor,
     exposed: Record<string, unknown>,
   ) {
-    const t = op.target;
+    super({ slot: null, index: 0, value: 0, several: false });
     let upstream = false;
     for (let i = 0; i < op.backwardArgs.length; i++) if (op.backwardArgs[i].kind === 'upstream') upstream = true;
     this.takesUpstream = upstream;
     this.tensors = TensorBridge.forOp(op, exposed);
-    if (t.kind === 'method') {
-      const className = t.className ?? '';
-      const cls = lookup(exposed, className);
-      if (typeof cls !== 'function') fail(`class '${className}' is not available in the module (got ${describeValue(cls)})`);
-      this.classCtor = cls as AnyFunction;
-      const proto = (cls as { prototype?: Record<string, unknown> }).prototype;
-      const fwd = proto ? proto[t.forwardName] : undefined;
-      if (typeof fwd !== 'function') fail(`forward '${op.forward}' is not a method of class '${className}' (got ${describeValue(fwd)})`);
-      this.forwardFn = fwd as AnyFunction;
-      const bwd = t.backwardIsMethod ? (proto ? proto[t.backwardName] : undefined) : lookup(exposed, t.backwardName);
-      if (typeof bwd !== 'function') {
-        fail(`${op.kind ?? 'backward'} '${op.backward}' is not ${t.backwardIsMethod ? `a method of class '${className}'` : 'a function of the module'} (got ${describeValue(bwd)})`);
-      }
-      this.backwardFn = bwd as AnyFunction;
-    } else if (t.objectName !== undefined) {
-      // A function of a top-level object literal: called on the object, as `ops.f(x)` would be.
-      const holder = lookup(exposed, t.objectName);
-      if (holder === null || typeof holder !== 'object') fail(`'${t.objectName}' is not an object in the module (got ${describeValue(holder)})`);
-      this.holder = holder as Record<string, unknown>;
-      const fwd = this.holder[t.forwardName];
-      if (typeof fwd !== 'function') fail(`forward '${op.forward}' is not a function (got ${describeValue(fwd)})`);
-      this.forwardFn = fwd as AnyFunction;
-      this.classCtor = null;
-      const bwd = t.backwardIsMethod ? this.holder[t.backwardName] : lookup(exposed, t.backwardName);
-      if (typeof bwd !== 'function') fail(`${op.kind ?? 'backward'} '${op.backward}' is not a function (got ${describeValue(bwd)})`);
-      this.backwardFn = bwd as AnyFunction;
-    } else {
-      const fwd = lookup(exposed, t.forwardName);
-      if (typeof fwd !== 'function') fail(`forward '${op.forward}' is not a function (got ${describeValue(fwd)})`);
-      this.forwardFn = fwd as AnyFunction;
-      this.classCtor = null;
-      // The library's gradient of the forward stands in for a backward function.
-      const bwd = t.libraryGradient ? this.forwardFn : lookup(exposed, t.backwardName);
-      if (typeof bwd !== 'function') fail(`${op.kind ?? 'backward'} '${op.backward}' is not a function (got ${describeValue(bwd)})`);
-      this.backwardFn = bwd as AnyFunction;
-    }
-    this.constructFn = null;
-    if (t.constructFactory !== undefined) {
-      const f = lookup(exposed, t.constructFactory);
-      if (typeof f !== 'function') fail(`@construct ${t.constructFactory} is not a function (got ${describeValue(f)})`);
-      this.constructFn = f as AnyFunction;
-    }
-    this.samplesFn = null;
-    if (t.samplesFactory !== undefined) {
-      const f = lookup(exposed, t.samplesFactory);
-      if (typeof f !== 'function') fail(`@samples ${t.samplesFactory} is not a function (got ${describeValue(f)})`);
-      this.samplesFn = f as AnyFunction;
-    }
+    const b = resolveBindings(op, exposed);
+    this.forwardFn = b.forwardFn;
+    this.backwardFn = b.backwardFn;
+    this.classCtor = b.classCtor;
+    this.holder = b.holder;
+    this.constructFn = b.constructFn;
+    this.samplesFn = b.samplesFn;
   }
 
   /** Creates the instance (methods) and draws the inputs of one attempt. */
@@ -171,8 +112,13 @@ export class OpHarness {
     } catch (e) {
       failThrown(`forward threw ${this.whereText()}: ${describeThrown(e)}`, e);
     }
-    flattenInto(raw, this.layout as OutputLayout, scratch);
+    flattenInto(raw, this.outputLayout, scratch);
     this.backwardThis = inst;
+  }
+
+  get outputLayout(): OutputLayout {
+    if (this.layout === null) return fail('internal error in the check engine: the output layout was read before the first forward call');
+    return this.layout;
   }
 
   private get args(): unknown[] {
@@ -249,7 +195,7 @@ export class OpHarness {
   private backwardArgs(dy: Float64Array | null, y: Float64Array, placeholder?: (a: BackwardArg) => unknown): unknown[] {
     const s = this.sample as Sample;
     const list: unknown[] = [];
-    const layout = this.layout as OutputLayout;
+    const layout = this.outputLayout;
     for (let i = 0; i < this.op.backwardArgs.length; i++) {
       const a = this.op.backwardArgs[i];
       if (a.kind === 'upstream') list[i] = buildValue(layout, dy as Float64Array);
@@ -357,13 +303,6 @@ export class OpHarness {
     return this.op.target.kind === 'method';
   }
 }
-
-/**
- * What finite differences need of a harness: a vector-valued map evaluated at the current
- * inputs, its output size, and where the inputs are moved (for messages). An OpHarness is one;
- * so is the gradient of a @hessian op (engine/gradientMap.ts).
- */
-export type ForwardMap = Pick<OpHarness, 'forwardInto' | 'perturbation' | 'layout'>;
 
 /** Multi-index of element i of a slot. */
 export function unravelSlot(slot: ParamSlot, i: number): number[] {

@@ -10,7 +10,7 @@
 
 import { F64, abs, max, min, sqrt } from './builtins';
 import { centralProjection, rangeLine, type SlotGeometry } from './lines';
-import type { ForwardMap } from './opHarness';
+import type { ForwardMap } from './forwardMap';
 import type { ParamSlot } from './paramSlot';
 import { ROUNDOFF_ULPS } from './precision';
 import { RIDDERS_MIN_INITIAL_CENTRAL_STEPS, riddersAdaptive, type AdaptiveRiddersResult } from './ridders';

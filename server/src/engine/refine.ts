@@ -7,7 +7,8 @@ import { ElementState, excessOf, relativeError, type Comparison, type ElementEst
 import { estimateColumns } from './fullCheck';
 import { findKink } from './kinkTest';
 import { centralOnLine, elementLine, projectMagnitude } from './lines';
-import { elementName, type ForwardMap } from './opHarness';
+import type { ForwardMap } from './forwardMap';
+import { elementName } from './opHarness';
 import type { ParamSlot } from './paramSlot';
 import { ROUNDOFF_ULPS, unitRoundoff } from './precision';
 import { RIDDERS_MIN_INITIAL_CENTRAL_STEPS, RIDDERS_RETRY_RATIO, riddersAdaptive, type AdaptiveRiddersResult } from './ridders';

@@ -45,23 +45,24 @@ function evalAt(h: OpHarness, a: Move[], b: Move[], alpha: number, beta: number,
   for (let q = 0; q < a.length; q++) all[all.length] = a[q];
   for (let q = 0; q < b.length; q++) all[all.length] = b[q];
   for (let q = 0; q < all.length; q++) saved[q] = all[q].slot.get(all[q].index);
-  const p = h.perturbation;
-  p.slot = all[0].slot;
-  p.index = all[0].index;
-  p.several = all.length > 1;
-  try {
-    for (let q = 0; q < all.length; q++) {
-      const mv = all[q];
-      const sign = q < a.length ? alpha : beta;
-      // Moves on one element add up: read the element's current value, not the saved one.
-      mv.slot.set(mv.index, mv.slot.get(mv.index) + sign * t * mv.coef);
-    }
-    p.value = all[0].slot.get(all[0].index);
-    h.forwardInto(scratch, false);
-  } finally {
-    for (let q = all.length - 1; q >= 0; q--) all[q].slot.set(all[q].index, saved[q]);
-    p.slot = null;
-  }
+  h.forwardMoved(
+    all[0].slot,
+    all[0].index,
+    all.length > 1,
+    () => {
+      for (let q = 0; q < all.length; q++) {
+        const mv = all[q];
+        const sign = q < a.length ? alpha : beta;
+        // Moves on one element add up: read the element's current value, not the saved one.
+        mv.slot.set(mv.index, mv.slot.get(mv.index) + sign * t * mv.coef);
+      }
+    },
+    () => {
+      for (let q = all.length - 1; q >= 0; q--) all[q].slot.set(all[q].index, saved[q]);
+    },
+    scratch,
+    false,
+  );
   return scratch[0];
 }
 

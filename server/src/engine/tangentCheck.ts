@@ -8,14 +8,15 @@ import { F32, F64, abs, describeValue, formatNumber, isArray, isView, max, min }
 import { CheckStop, fail } from './failure';
 import { excessOf } from './judge';
 import { findKink } from './kinkTest';
-import { checkUnchanged, combinedVerdict, readingResult, runAttempts, takeBaseline, type AttemptContext, type AttemptResult, type Baseline } from './kindBaseline';
+import { checkUnchanged, readingResult, runAttempts, takeBaseline, type AttemptContext, type AttemptResult, type Baseline } from './kindBaseline';
+import { DirectionTally, directionKink, kindAttemptResult, type KindParamCheck } from './kindResult';
 import { outputName } from './jacobianCheck';
 import { centralOnLine, directionLine, type Line } from './lines';
 import { OpHarness } from './opHarness';
 import { flattenInto, type OutputLayout } from './outputLayout';
 import { ROUNDOFF_ULPS, relativeFloorFactor, type Precision } from './precision';
 import { STREAM, STREAM_STRIDE, fillSigned, substream } from './random';
-import { RIDDERS_ERROR_FACTOR, type KinkReport } from './refine';
+import { RIDDERS_ERROR_FACTOR } from './refine';
 import { RIDDERS_MIN_INITIAL_CENTRAL_STEPS, riddersAdaptive } from './ridders';
 import type { CheckSettings } from './settings';
 import type { BackwardArg, CheckOutcome, OpDescriptor, ParamResult } from '../model/types';
@@ -96,62 +97,32 @@ function callTangent(h: OpHarness, base: Baseline, op: OpDescriptor, tangents: (
   return { analytic };
 }
 
-interface SlotOutcome {
-  result: ParamResult;
-  note: string;
-  kink: KinkReport | null;
-  hints: string[];
-}
-
 function tangentAttempt(ctx: AttemptContext): AttemptResult {
   const { h, op, settings } = ctx;
   const base = takeBaseline(h, op, settings, ctx.stream(STREAM.inputs), ctx.clock);
   const { slots } = base;
   const probes = max(1, settings.upstreamProbes);
-  const outcomes: SlotOutcome[] = [];
+  const checks: KindParamCheck[] = [];
   const sums = new F64(base.y0.length);
   const used: Float64Array[] = [];
   for (let s = 0; s < slots.length; s++) {
     const random = substream(ctx.seed, ctx.attempt * STREAM_STRIDE + STREAM.directions, s);
-    outcomes[s] = checkSlot(ctx, base, s, probes, random, sums, used);
+    checks[s] = checkSlot(ctx, base, s, probes, random, sums, used);
   }
-  const params: ParamResult[] = [];
-  let kink: KinkReport | null = null;
-  let anyMismatch = false;
-  for (let s = 0; s < outcomes.length; s++) {
-    params[s] = outcomes[s].result;
-    if (params[s].verdict === 'mismatch') anyMismatch = true;
-    if (kink === null && outcomes[s].kink !== null) kink = outcomes[s].kink;
-  }
-  if (!anyMismatch && kink !== null) return { kink, params, inputs: base.inputs };
-  let message = '';
-  const hints: string[] = [];
-  for (let s = 0; s < outcomes.length; s++) {
-    if (outcomes[s].note) message += (message ? '; ' : '') + outcomes[s].note;
-    for (let q = 0; q < outcomes[s].hints.length; q++) hints[hints.length] = outcomes[s].hints[q];
-  }
+  const result = kindAttemptResult(ctx, checks, base.inputs, '');
+  if ('kink' in result || result.verdict === 'mismatch' || slots.length < 2 || used.length !== slots.length) return result;
   // Linearity: with every tangent at once, J·t is the sum of the per-parameter products.
-  if (slots.length > 1 && !anyMismatch && used.length === slots.length) {
-    const together = callTangent(h, base, op, used).analytic;
-    for (let j = 0; j < together.length; j++) {
-      if (abs(together[j] - sums[j]) > base.tol * max(abs(together[j]), abs(sums[j]), 1e-300) + ROUNDOFF_ULPS * 2 ** -52 * (abs(sums[j]) + abs(together[j]))) {
-        anyMismatch = true;
-        message = `with every tangent at once, ${outputName(base.layout, j)} is ${formatNumber(together[j])}, but the per-parameter products add up to ${formatNumber(sums[j])}: the tangent is not linear in its tangents`;
-        hints[hints.length] = 'each parameter alone agrees with finite differences; look for a product of two tangents or a term that depends on another parameter\'s tangent';
-        break;
-      }
+  const together = callTangent(h, base, op, used).analytic;
+  result.calls = { forward: h.calls.forward, backward: h.calls.backward };
+  for (let j = 0; j < together.length; j++) {
+    if (abs(together[j] - sums[j]) > base.tol * max(abs(together[j]), abs(sums[j]), 1e-300) + ROUNDOFF_ULPS * 2 ** -52 * (abs(sums[j]) + abs(together[j]))) {
+      result.verdict = 'mismatch';
+      result.message = `with every tangent at once, ${outputName(base.layout, j)} is ${formatNumber(together[j])}, but the per-parameter products add up to ${formatNumber(sums[j])}: the tangent is not linear in its tangents`;
+      result.hints[result.hints.length] = 'each parameter alone agrees with finite differences; look for a product of two tangents or a term that depends on another parameter\'s tangent';
+      break;
     }
   }
-  const outcome: CheckOutcome = {
-    verdict: anyMismatch ? 'mismatch' : combinedVerdict(params),
-    seed: ctx.seed,
-    message,
-    hints,
-    params,
-    calls: { forward: h.calls.forward, backward: h.calls.backward },
-  };
-  if (base.inputs !== undefined) outcome.inputs = base.inputs;
-  return outcome;
+  return result;
 }
 
 /** What comparing a derivative along one line found. */
@@ -264,18 +235,13 @@ export function compareAlongLine(
 }
 
 /** Random tangents of one parameter (the others zero), each compared output by output. */
-function checkSlot(ctx: AttemptContext, base: Baseline, s: number, probes: number, random: () => number, sums: Float64Array, used: Float64Array[]): SlotOutcome {
+function checkSlot(ctx: AttemptContext, base: Baseline, s: number, probes: number, random: () => number, sums: Float64Array, used: Float64Array[]): KindParamCheck {
   const { h, op } = ctx;
   const { slots, y0, uOut, tol, layout } = base;
   const slot = slots[s];
   const m = y0.length;
-  let maxAbs = 0;
-  let maxRel = 0;
-  let verdict: ParamResult['verdict'] = 'pass';
-  let note = '';
-  let kink: KinkReport | null = null;
-  const hints: string[] = [];
-  for (let p = 0; p < probes && verdict !== 'mismatch'; p++) {
+  const tally = new DirectionTally();
+  for (let p = 0; p < probes && !tally.mismatched; p++) {
     const d = fillSigned(random, new F64(slot.size));
     const line = directionLine(h, slot, d);
     const tangents: (Float64Array | null)[] = [];
@@ -290,31 +256,10 @@ function checkSlot(ctx: AttemptContext, base: Baseline, s: number, probes: numbe
       analyticWord: 'tangent',
       numericWord: 'finite differences along the tangent',
     });
-    maxAbs = max(maxAbs, c.maxAbs);
-    maxRel = max(maxRel, c.maxRel);
-    if (c.kinkJump !== null && kink === null) kink = { slot, index: 0, value: slot.get(0), jump: c.kinkJump };
-    if (c.verdict === 'mismatch' || (c.verdict === 'inconclusive' && verdict === 'pass')) {
-      verdict = c.verdict;
-      note = c.note;
-    }
+    tally.add({ verdict: c.verdict, note: c.note, maxAbs: c.maxAbs, maxRel: c.maxRel, kink: directionKink(slot, c.kinkJump) });
     if (c.verdict === 'mismatch' && c.allZero) {
-      hints[hints.length] = `the tangent gives 0 for every output when only $d${slot.name} is non-zero: the term of '${slot.name}' looks missing`;
+      tally.hints[tally.hints.length] = `the tangent gives 0 for every output when only $d${slot.name} is non-zero: the term of '${slot.name}' looks missing`;
     }
   }
-  const shape: number[] = [];
-  for (let q = 0; q < slot.shape.length; q++) shape[q] = slot.shape[q];
-  const result: ParamResult = {
-    name: slot.name,
-    verdict,
-    maxAbsError: maxAbs,
-    maxRelError: maxRel,
-    worst: null,
-    shape,
-    dtype: slot.dtype,
-    method: 'directional',
-    elements: slot.size,
-    checkedElements: slot.size,
-    hints,
-  };
-  return { result, note, kink: verdict === 'mismatch' ? null : kink, hints: [] };
+  return tally.finish(slot, 'directional');
 }

@@ -4,7 +4,7 @@
 // gradient as `dy`). Every call runs in the library's `tidy` scope, so each tensor made during
 // it (inputs, intermediates, outputs, gradients) is disposed when it returns.
 
-import { F32, F64, I32, contains, describeThrown, describeValue, formatIndex, isArray, isView, objectKeys, positionOf, reflectApply } from './builtins';
+import { F32, F64, I32, contains, copyList, describeThrown, describeValue, formatIndex, isArray, isView, objectKeys, positionOf, reflectApply } from './builtins';
 import { CheckStop, fail } from './failure';
 import { ParamSlot } from './paramSlot';
 import type { Sample } from './sampling';
@@ -31,12 +31,6 @@ export function isTensor(v: unknown): v is Tensor {
   if (v === null || typeof v !== 'object') return false;
   const t = v as { dataSync?: unknown; shape?: unknown; dtype?: unknown };
   return typeof t.dataSync === 'function' && isArray(t.shape) && typeof t.dtype === 'string';
-}
-
-function copyList(list: readonly number[]): number[] {
-  const out: number[] = [];
-  for (let i = 0; i < list.length; i++) out[i] = list[i];
-  return out;
 }
 
 /** A tensor's values as a fresh array of this realm: float32 stays Float32Array, rank 0 becomes a number. */

@@ -1,0 +1,120 @@
+// What a finished @backward attempt reports: hints (per parameter, swapped gradients, float32
+// outputs, which named output is wrong), step scans and error maps, and the outcome assembled
+// from the parameters' checks.
+
+import { abs, max } from './builtins';
+import type { BackwardCaller, UpstreamProbes } from './backwardCalls';
+import { float32OutputHint, paramHints, swapHints, type ParamEvidence } from './hints';
+import type { Baseline } from './kindBaseline';
+import { elementLine } from './lines';
+import type { OpHarness } from './opHarness';
+import { blameOutput } from './outputBlame';
+import type { ParamCheck } from './paramSummary';
+import { ERROR_MAP_MAX_ELEMENTS, stepScan } from './reportData';
+import type { CheckSettings } from './settings';
+import type { CheckOutcome, ParamResult, Verdict } from '../model/types';
+
+/**
+ * Most time, in milliseconds, a step scan may cost (26 forward calls, estimated from the timed
+ * baseline calls); above it the report goes without the scan. Our choice: the scan is a picture,
+ * not a verdict, and should not double the check of a large op.
+ */
+const STEP_SCAN_BUDGET_MS = 150;
+
+/** What the report of one attempt reads besides the parameters' checks. */
+export interface AttemptReportContext {
+  h: OpHarness;
+  settings: CheckSettings;
+  base: Baseline;
+  probes: UpstreamProbes;
+  callBackward: BackwardCaller;
+  outOfTime: () => boolean;
+  seed: number;
+}
+
+/** The outcome of an attempt whose parameters were all checked (no kink left to redraw). */
+export function attemptOutcome(at: AttemptReportContext, checks: ParamCheck[]): CheckOutcome {
+  const { h, settings, base, probes } = at;
+  const slots = base.slots;
+  let anyMismatch = false;
+  let anyInconclusive = false;
+  for (let s = 0; s < checks.length; s++) {
+    if (checks[s].result.verdict === 'mismatch') anyMismatch = true;
+    if (checks[s].result.verdict === 'inconclusive') anyInconclusive = true;
+  }
+
+  // Hints, step scans and error maps for the report.
+  // Plain loops, not Array.prototype methods: the op's module may have replaced those.
+  const mismatched: ParamEvidence[] = [];
+  for (let s = 0; s < checks.length; s++) {
+    const c = checks[s];
+    if (c.evidence === null || c.result.verdict !== 'mismatch') continue;
+    c.result.hints = paramHints(c.evidence, slots);
+    mismatched[mismatched.length] = c.evidence;
+  }
+  const opHints = anyMismatch ? swapHints(mismatched) : [];
+  // Several named outputs: say which one's term is wrong, when one output accounts for it.
+  if (anyMismatch && base.layout.kind === 'object' && !at.outOfTime()) {
+    for (let s = 0; s < checks.length; s++) {
+      const c = checks[s];
+      if (c.result.verdict !== 'mismatch' || c.evidence === null || c.worstPos < 0) continue;
+      const blame = blameOutput(h, base.layout, slots[s], s, c.evidence.est.indices[c.worstPos], probes.ws[c.evidence.cmp.worstProbe[c.worstPos]], base.tol, at.callBackward);
+      if (blame !== null) {
+        c.result.hints[c.result.hints.length] = blame;
+        c.note += ` — ${blame}`;
+      }
+    }
+  }
+  for (let s = 0; s < checks.length; s++) addReportData(at, s, checks[s]);
+
+  const verdict: Verdict = anyMismatch ? 'mismatch' : anyInconclusive ? 'inconclusive' : 'pass';
+  if (verdict !== 'pass' && base.precision === 'f64') {
+    // The check ran at float64 precision, yet the op may compute in float32: name the precision.
+    const f32 = float32OutputHint(base.y0);
+    if (f32 !== null) opHints[opHints.length] = f32;
+  }
+  let message = '';
+  const params: ParamResult[] = [];
+  for (let s = 0; s < checks.length; s++) {
+    const note = checks[s].note;
+    if (note) message += (message ? '; ' : '') + note;
+    params[s] = checks[s].result;
+  }
+  const outcome: CheckOutcome = {
+    verdict,
+    seed: at.seed,
+    message,
+    hints: opHints,
+    params,
+    calls: { forward: h.calls.forward, backward: h.calls.backward },
+  };
+  if (base.inputs !== undefined) outcome.inputs = base.inputs;
+  for (let s = 0; s < checks.length; s++) {
+    const stop = checks[s].timeStop;
+    if (stop !== undefined && outcome.stoppedAtTimeLimit === undefined) outcome.stoppedAtTimeLimit = { ...stop, timeLimitMs: settings.timeLimitMs };
+  }
+  return outcome;
+}
+
+/** Step scan at the worst element and the error map of a 2-D parameter. */
+function addReportData(at: AttemptReportContext, s: number, c: ParamCheck): void {
+  const r = c.result;
+  const pos = c.worstPos;
+  const ev = c.evidence;
+  if (ev === null || pos < 0) return;
+  const slot = at.base.slots[s];
+  if (ev.complete && slot.shape.length === 2 && slot.size <= ERROR_MAP_MAX_ELEMENTS) {
+    const map: number[] = [];
+    for (let p = 0; p < ev.est.indices.length; p++) map[ev.est.indices[p]] = ev.cmp.rel[p];
+    r.errorMap = map;
+  }
+  const scans = at.settings.stepScans ?? 'all';
+  if (scans === 'none' || (scans === 'mismatch' && r.verdict !== 'mismatch')) return;
+  if (26 * at.base.forwardMs > STEP_SCAN_BUDGET_MS || at.outOfTime()) return;
+  const i = ev.est.indices[pos];
+  const k = ev.cmp.worstProbe[pos];
+  const line = elementLine(at.h, slot, i);
+  // Probed parameters compared their elements under the probes' upstream vectors.
+  const ws = r.method === 'dot-product' && at.probes.dotUs.length > 0 ? at.probes.dotUs : at.probes.ws;
+  r.stepScan = stepScan(line, ws[k], ev.analytic[k][i], max(1, abs(slot.get(i))));
+}
