@@ -55,6 +55,8 @@ export interface SplitResult {
   uncertainNote: string;
   /** Flagged parts that could not be followed (lost, out of probes or time). */
   unexplored: number;
+  /** The time limit (not the probe cap) left flagged parts unexplored. */
+  stoppedByTime: boolean;
   /** Root probes run, flagged, and the largest relative discrepancy seen at the root. */
   rootProbes: SetProbe[];
   probes: number;
@@ -106,6 +108,7 @@ export function splitSearch(ctx: SplitContext, us: Float64Array[], grads: Float6
     uncertain: 0,
     uncertainNote: '',
     unexplored: 0,
+    stoppedByTime: false,
     rootProbes: [],
     probes: 0,
     detectionFloor: ctx.tol,
@@ -148,11 +151,13 @@ export function splitSearch(ctx: SplitContext, us: Float64Array[], grads: Float6
     }
     if (result.probes >= MAX_SPLIT_PROBES || ctx.outOfTime()) {
       result.unexplored += 1 + stack.length;
+      result.stoppedByTime = result.probes < MAX_SPLIT_PROBES;
       break;
     }
     const children = splitPart(ctx, sc, us, grads, part, random, result);
     if (children === null) {
       result.unexplored++;
+      if (result.probes < MAX_SPLIT_PROBES && ctx.outOfTime()) result.stoppedByTime = true;
       continue;
     }
     // Push the smaller discrepancy first so the larger is followed first.
