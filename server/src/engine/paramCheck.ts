@@ -144,10 +144,11 @@ function probeParam(at: ParamCheckContext, s: number, random: RandomSource): Par
   } else if (r.verdict === 'pass' && search.unexplored > 0 && search.kink === null) {
     r.verdict = 'inconclusive';
     result.note = describeSearch(slot, search);
-    if (search.stoppedByTime) {
-      const calls = at.h.calls.forward + at.h.calls.backward;
-      result.timeStop = { param: slot.name, stage: 'forward calls', done: calls, total: calls };
-    }
+  }
+  if (r.verdict === 'inconclusive' && search.stoppedByTime && result.timeStop === undefined) {
+    // The search or a leaf's refinement was cut short by the time limit: an unfinished check.
+    const calls = at.h.calls.forward + at.h.calls.backward;
+    result.timeStop = { param: slot.name, stage: 'forward calls', done: calls, total: calls };
   }
   return result;
 }

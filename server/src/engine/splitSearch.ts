@@ -287,6 +287,10 @@ function compareLeaves(
   if (refine.kink !== null && result.kink === null) result.kink = refine.kink;
   result.uncertain += refine.uncertain + refine.unrefined;
   if (result.uncertainNote === '' && refine.uncertainNote !== '') result.uncertainNote = refine.uncertainNote;
+  if (refine.unrefined > 0 && result.uncertainNote === '') {
+    result.uncertainNote = `${refine.unrefined} suspicious element${refine.unrefined === 1 ? '' : 's'} of a flagged part could not be refined within the limits`;
+  }
+  if (refine.stoppedAt !== undefined) result.stoppedByTime = true;
 }
 
 /**
