@@ -185,12 +185,28 @@ export function slotGeometry(slot: ParamSlot): SlotGeometry {
   const barriers = slot.avoid.length > 0 || (slot.range !== null && slot.range[0] < slot.range[1]);
   // Never below MIN_REFINE_STEPS central steps at the initial step, as for single elements.
   const least = (MIN_REFINE_STEPS * relativeStep(slot.precision)) / RIDDERS_INITIAL_STEP;
+  const range = slot.range;
+  if (slot.avoid.length === 0 && range !== null && range[0] < range[1]) {
+    // The common case (a sampled range, no avoid points): distanceToBarrier inlined.
+    rangeScales(x0, scale, range[0], range[1], least);
+    return { x0, scale };
+  }
   for (let i = 0; i < n; i++) {
     const x = x0[i];
     const c = x > 1 ? x : x < -1 ? -x : 1;
     scale[i] = barriers ? max(least * c, min(c, (0.9 * distanceToBarrier(slot, x)) / RIDDERS_INITIAL_STEP)) : c;
   }
   return { x0, scale };
+}
+
+/** slotGeometry's scales for a range [lo, hi] without avoid points (as distanceToBarrier gives it). */
+function rangeScales(x0: Float64Array, scale: Float64Array, lo: number, hi: number, least: number): void {
+  for (let i = 0; i < x0.length; i++) {
+    const x = x0[i];
+    const c = x > 1 ? x : x < -1 ? -x : 1;
+    const d = x >= lo && x <= hi ? min(x - lo, hi - x) : Infinity;
+    scale[i] = max(least * c, min(c, (0.9 * d) / RIDDERS_INITIAL_STEP));
+  }
 }
 
 /**
