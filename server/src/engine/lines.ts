@@ -229,8 +229,9 @@ function restoreRange(typed: Float64Array | Float32Array, x0: Float64Array, star
  * probe's displacement per unit t. 32 signs from each draw of the generator (its values carry
  * at least 32 random bits).
  */
-export function signedScales(random: () => number, geo: SlotGeometry, start: number, count: number): Float64Array {
-  const d = new F64(count);
+export function signedScales(random: () => number, geo: SlotGeometry, start: number, count: number, reuse: Float64Array | null = null): Float64Array {
+  // A buffer of a probe that no part kept can take the next probe's direction.
+  const d = reuse !== null && reuse.length === count ? reuse : new F64(count);
   const sc = geo.scale;
   let bits = 0;
   for (let q = 0; q < count; q++) {

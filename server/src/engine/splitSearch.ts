@@ -123,15 +123,19 @@ export function splitSearch(ctx: SplitContext, us: Float64Array[], grads: Float6
   const leafExcess: number[] = [];
 
   const stack: Part[] = [];
+  // The direction of an unflagged root probe is kept by nothing: the next one reuses it.
+  let spare: Float64Array | null = null;
   for (let q = 0; q < ROOT_PROBES; q++) {
     if (ctx.outOfTime()) break;
     const p = q % us.length;
-    const dir = signedScales(random, sc.geo, 0, n);
+    const dir = signedScales(random, sc.geo, 0, n, spare);
+    spare = null;
     const probe = probeSet(ctx, sc, 0, n, dir, 0, us[p], grads[p], sc.magnitude[p], Infinity);
     result.probes++;
     result.rootProbes[result.rootProbes.length] = probe;
     if (probe.unresolved) result.unexplored++;
     if (probe.flagged) stack[stack.length] = partOf(0, n, dir, 0, p, probe);
+    else spare = dir;
   }
   let floorRel = ctx.tol;
   for (let q = 0; q < result.rootProbes.length; q++) {
