@@ -17,6 +17,9 @@ export const GOALS = {
   coldMs: 1500,
   workerSpeedup: 1.7,
   memoryGrowth: 0.1,
+  /** Time inside a warm runner of a check of an op of at most smallOpElements elements, median ms. */
+  smallOpRunnerMs: 0.5,
+  smallOpElements: 12,
   /** Elementwise 1,000,000 with one wrong element, median ms. */
   elementwiseBugMs: 1200,
   /** y = W x, W 1000×1000: passing check, and a located single wrong element (median), ms. */
@@ -74,6 +77,14 @@ export function evaluateGoals(r: BenchReport): GoalLine[] {
       goal: `≥ ${GOALS.bigSpeedup}× faster than the hand-written loop from ${GOALS.bigElements.toLocaleString('en-US')} elements`,
       figure: big.length ? `smallest speed-up ${f1(minBig)}× (${big.length} op sizes; the loop's time is extrapolated from the elements it reached)${bigShort.length ? `; short: ${bigShort.map((m) => `${m.kind} ${m.elements.toLocaleString('en-US')} ${f1(handSpeedup(m))}×`).join(', ')}` : ''}` : 'not measured',
       met: big.length > 0 ? bigShort.length === 0 : null,
+    });
+    // The ops of about 10 elements (elementwise 10, y = W x 12, softmax 10, conv1d 10, layer 9).
+    const small = r.ops.filter((m) => m.elements <= GOALS.smallOpElements);
+    const slowest = small.length ? Math.max(...small.map((m) => m.check.runnerMedianMs)) : NaN;
+    goals.push({
+      goal: `a ~10-element op's check ≤ ${GOALS.smallOpRunnerMs} ms inside a warm runner`,
+      figure: small.length ? `in runner, median: ${small.map((m) => `${m.kind} ${m.elements} ${f2(m.check.runnerMedianMs)} ms`).join(', ')}` : 'not measured',
+      met: small.length > 0 ? slowest <= GOALS.smallOpRunnerMs : null,
     });
   }
   // The layer's three fields of 333,333 make 999,999 elements: it belongs to the million class.

@@ -1,9 +1,10 @@
 // Profiles where a warm runner spends a check: starts the real runner script (dist/sandbox-child.js)
 // under `node --cpu-prof`, sends it the same messages the RunnerPool sends for one benchmark op,
 // and prints the functions with the most self time from the profile it writes.
-// Usage: node dist/bench/profileRunner.js KIND ELEMENTS JOBS [--no-profile] [--bug=COUNT] [-- EXTRA_NODE_FLAGS...]
+// Usage: node dist/bench/profileRunner.js KIND ELEMENTS JOBS [--no-profile] [--bug=COUNT] [--engine=warm|cold] [-- EXTRA_NODE_FLAGS...]
 // (--no-profile times the jobs without the profiler; --bug seeds COUNT wrong elements (1e-4) in the
-// backward; extra flags try V8 options on the runner).
+// backward; --engine forces the warm engine or an engine loaded per op context; extra flags try V8
+// options on the runner).
 import { fork } from 'node:child_process';
 import { mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -12,6 +13,7 @@ import { bindingsOf, listOps } from '../server/src/core/checker';
 import { DEFAULT_SETTINGS } from '../server/src/engine/settings';
 import { Bundler } from '../server/src/sandbox/bundle';
 import { CHILD_SCRIPT_NAME, ENGINE_SCRIPT_NAME, findBuiltAsset } from '../server/src/sandbox/assets';
+import { runnerJobFields } from '../server/src/sandbox/jobTypes';
 import type { ChildMessage, JobMessage } from '../server/src/sandbox/protocol';
 import { median } from './floor';
 import { benchOp, type OpKind } from './opSources';
@@ -70,12 +72,15 @@ async function main(): Promise<void> {
   const next = (): Promise<ChildMessage> => new Promise((resolve) => child.once('message', (m) => resolve(m as ChildMessage)));
   await next(); // hello
   child.send({ type: 'init', engineCode: readFileSync(engineScript, 'utf8') });
+  // The runner's own choice (RunnerPool's), unless --engine=warm or --engine=cold forces one.
+  const engineArg = process.argv.find((a) => a.startsWith('--engine='))?.slice(9);
+  const warmEngine = engineArg === undefined ? runnerJobFields({ bundleKey: '', bundleCode: '', op: target, settings: DEFAULT_SETTINGS }).warmEngine : engineArg === 'warm';
   const times: number[] = [];
   for (let id = 1; id <= jobs; id++) {
     const job: JobMessage = {
       type: 'job', id, bundleKey: bundle.key, bundleCode: id === 1 ? bundle.code : undefined,
       requestJson: JSON.stringify({ op: target, settings: DEFAULT_SETTINGS }), seed: DEFAULT_SETTINGS.seed,
-      timeLimitMs: DEFAULT_SETTINGS.timeLimitMs, outputLimitChars: 65536,
+      timeLimitMs: DEFAULT_SETTINGS.timeLimitMs, outputLimitChars: 65536, warmEngine,
     };
     child.send(job);
     const reply = await next();

@@ -22,10 +22,12 @@ const cubeSum = functionOp({
 
 describe('engine: the time limit', () => {
   it('stops a check that runs out of time, inconclusive, with how far it got', () => {
-    // Each clock read advances 10 ms; the engine reads it every 64 elements, and a 50 ms limit
-    // (80 % of it for the engine: 40 ms) runs out a few reads in, before element 120.
+    // Each clock read advances 1 ms; the engine reads it before every call of the op (its hard
+    // stop, at 90 % of the limit) and every 64 elements (its phases' stop, at 80 %), so a 50 ms
+    // limit runs out some twenty elements in, before element 120, and either stop reports how far
+    // the element loop got.
     let now = 0;
-    const o = runCheck(cubeSum.exposed, { op: cubeSum.op, settings: { ...DEFAULT_SETTINGS, timeLimitMs: 50 } }, () => (now += 30));
+    const o = runCheck(cubeSum.exposed, { op: cubeSum.op, settings: { ...DEFAULT_SETTINGS, timeLimitMs: 50 } }, () => (now += 1));
     assert.equal(o.verdict, 'inconclusive', show(o));
     const stop = o.stoppedAtTimeLimit;
     assert.ok(stop, show(o));

@@ -6,7 +6,7 @@ import { readFileSync } from 'node:fs';
 import { bindingsOf, Checker, listOps } from '../../server/src/core/checker';
 import type { OpDescriptor } from '../../server/src/model/types';
 import { Bundler } from '../../server/src/sandbox/bundle';
-import { RunnerPool, type RunResult } from '../../server/src/sandbox/pool';
+import { COVERAGE_RUNNER_JOBS, RunnerPool, type RunResult } from '../../server/src/sandbox/pool';
 import { runnerCommand } from '../../server/src/sandbox/runnerCommand';
 import { fixture, settingsWith } from './helpers';
 
@@ -44,6 +44,17 @@ describe('pool: runners', function () {
     assert.equal(pool.stats.spawned, 1);
     assert.equal(pool.stats.warmJobs, 2);
     assert.equal(pool.stats.bundlesSent, 1);
+  });
+
+  it('replaces a coverage runner after its share of jobs, and every job still gets its coverage', async () => {
+    pool = new RunnerPool({ size: 1, coverage: true });
+    for (let i = 0; i < COVERAGE_RUNNER_JOBS + 2; i++) {
+      const r = await pool.run({ bundleKey: fx.key, bundleCode: fx.code, op: fx.cube, settings });
+      assert.equal(verdictOf(r), 'pass');
+      assert.ok('outcome' in r && r.coverage && r.coverage.functions.length > 0, `job ${i + 1} has no coverage`);
+    }
+    assert.equal(pool.stats.spawned, 2);
+    assert.equal(pool.stats.crashes, 0);
   });
 
   it('cancels a running job by killing and replacing its runner; a queued one never starts', async () => {

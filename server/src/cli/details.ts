@@ -67,6 +67,7 @@ function outputLines(output: string | undefined): string[] {
 
 /** How far a check got before its time limit, and which limit to raise. */
 export function timeLimitLine(stop: TimeLimitStop): string {
-  return `not finished: the time limit of ${stop.timeLimitMs} ms stopped the check of '${stop.param}' after ${stop.done} of ${stop.total} ${stop.stage}; `
+  const got = stop.stage === 'forward calls' ? `${stop.done} calls of the op` : `${stop.done} of ${stop.total} ${stop.stage}`;
+  return `not finished: the time limit of ${stop.timeLimitMs} ms stopped the check of '${stop.param}' after ${got}; `
     + 'an unfinished check fails the run (unless --allow-unfinished): raise the limit with --time-limit MS or "timeLimitMs" in gradient-probe.json';
 }

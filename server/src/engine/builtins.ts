@@ -1,10 +1,106 @@
-// Built-ins the engine uses, captured when the engine loads. User code runs in the same vm
-// context afterwards and may replace globals or patch prototypes; the engine keeps the originals.
+// Built-ins the engine uses, captured when the engine loads. User code runs afterwards (in the
+// same vm context, or in a fresh one per op while the engine stays warm in its own) and may
+// replace globals or patch prototypes; the engine keeps the originals.
 
+// The engine's own typed arrays, for its working storage. What the op receives is made with the
+// op realm's constructors below (newOpF64, …), and what the op returns is recognised whichever
+// realm made it (isF64, isPlainPrototype).
 export const F64 = Float64Array;
 export const F32 = Float32Array;
 export const I32 = Int32Array;
 export const U8 = Uint8Array;
+export const objectPrototype = Object.prototype;
+
+/**
+ * The intrinsics of an op's own context, captured by the context's setup script before user code
+ * ran. When the engine runs in a context of its own (the warm runner, sandbox/child.ts), every
+ * value handed to the op is built from these, so `x instanceof Float64Array` holds in user code
+ * and nothing the op receives belongs to the engine's realm. The engine's working arrays stay its
+ * own: arrays of a new realm in every check would turn its hot loops polymorphic (measured: a
+ * 100-element row softmax 0.27 → 2.7 ms a check; bench/PERFORMANCE.md).
+ */
+export interface OpRealm {
+  Float64Array: Float64ArrayConstructor;
+  Float32Array: Float32ArrayConstructor;
+  Int32Array: Int32ArrayConstructor;
+  Uint8Array: Uint8ArrayConstructor;
+  objectPrototype: object;
+  /** The op context's JSON.parse, for values handed to the op (literal samples). */
+  parseJson: (text: string) => unknown;
+  /** A new empty array of the op context, for nested-array inputs. */
+  newList: () => unknown[];
+  /** A new empty plain object of the op context, for record-shaped `$dy` and `$y`. */
+  newRecord: () => Record<string, unknown>;
+}
+
+const ownRealm: OpRealm = {
+  Float64Array, Float32Array, Int32Array, Uint8Array, objectPrototype: Object.prototype,
+  parseJson: (text: string) => parseJson(text), newList: () => [], newRecord: () => ({}),
+};
+let opRealm: OpRealm = ownRealm;
+
+/** Makes `realm` the op realm for one check; null returns to the engine's own. */
+export function enterOpRealm(realm: OpRealm | null): void {
+  opRealm = realm ?? ownRealm;
+}
+
+/** A new Float64Array of the op realm (a value the op will receive). */
+export function newOpF64(n: number): Float64Array {
+  return new opRealm.Float64Array(n);
+}
+
+/** A new Float32Array of the op realm. */
+export function newOpF32(n: number): Float32Array {
+  return new opRealm.Float32Array(n);
+}
+
+/** A new Int32Array of the op realm. */
+export function newOpI32(n: number): Int32Array {
+  return new opRealm.Int32Array(n);
+}
+
+/** A new empty plain object of the op realm. */
+export function newOpRecord(): Record<string, unknown> {
+  return opRealm.newRecord();
+}
+
+/** A plain object's prototype (Object.prototype of the engine's or the op's realm, or null). */
+export function isPlainPrototype(proto: unknown): boolean {
+  return proto === null || proto === objectPrototype || proto === opRealm.objectPrototype;
+}
+
+// A typed array's kind from its internal slot (the %TypedArray%.prototype[Symbol.toStringTag]
+// getter), which answers for arrays of any realm and cannot be faked by a prototype change.
+const typedArrayTag = Object.getOwnPropertyDescriptor(Object.getPrototypeOf(Uint8Array.prototype) as object, Symbol.toStringTag)?.get as (this: unknown) => unknown;
+
+function typedKind(v: unknown): unknown {
+  return typeof v === 'object' && v !== null ? reflectApply(typedArrayTag, v, []) : undefined;
+}
+
+/** A Float64Array of any realm. */
+export function isF64(v: unknown): v is Float64Array {
+  return typedKind(v) === 'Float64Array';
+}
+
+/** A Float32Array of any realm. */
+export function isF32(v: unknown): v is Float32Array {
+  return typedKind(v) === 'Float32Array';
+}
+
+/** An Int32Array of any realm. */
+export function isI32(v: unknown): v is Int32Array {
+  return typedKind(v) === 'Int32Array';
+}
+
+/** JSON text parsed into the op realm's objects (a value the op will receive). */
+export function parseJsonForOp(text: string): unknown {
+  return opRealm.parseJson(text);
+}
+
+/** A new empty array of the op realm (an input the op will receive). */
+export function newOpList(): unknown[] {
+  return opRealm.newList();
+}
 
 export const abs = Math.abs;
 export const sqrt = Math.sqrt;
@@ -25,7 +121,6 @@ export const isArray = Array.isArray;
 export const isView = ArrayBuffer.isView;
 export const objectKeys = Object.keys;
 export const getPrototypeOf = Object.getPrototypeOf;
-export const objectPrototype = Object.prototype;
 export const hasOwn = Object.prototype.hasOwnProperty;
 export const reflectApply = Reflect.apply;
 export const reflectConstruct = Reflect.construct;

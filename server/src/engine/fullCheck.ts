@@ -53,18 +53,46 @@ function centralColumns(
   unit: 'elements' | 'columns',
 ): ElementEstimates {
   const count = indices.length;
-  const m = h.outputLayout.size;
   const numeric: Float64Array[] = [];
   const bound: Float64Array[] = [];
   for (let k = 0; k < K; k++) {
     numeric[k] = new F64(count);
     bound[k] = new F64(count);
   }
+  // Between the clock reads every 64 elements, the engine's hard stop (OpHarness.stopAfter)
+  // reports this progress when a slow forward reaches it first.
+  const progress = { param: slot.name, stage: 'elements' as const, done: 0, total: count, unit };
+  const outer = h.perturbation.progress;
+  h.perturbation.progress = progress;
+  try {
+    centralColumnsLoop(h, slot, indices, ws, K, uOut, outOfTime, unit, numeric, bound, progress);
+  } finally {
+    h.perturbation.progress = outer;
+  }
+  return { indices, numeric, bound };
+}
+
+function centralColumnsLoop(
+  h: ForwardMap,
+  slot: ParamSlot,
+  indices: ArrayLike<number>,
+  ws: Float64Array[] | null,
+  K: number,
+  uOut: number,
+  outOfTime: () => boolean,
+  unit: 'elements' | 'columns',
+  numeric: Float64Array[],
+  bound: Float64Array[],
+  progress: { done: number },
+): void {
+  const count = indices.length;
+  const m = h.outputLayout.size;
   const plus = new F64(m);
   const minus = new F64(m);
   const sums = new F64(K);
   const mags = new F64(K);
   for (let p = 0; p < count; p++) {
+    progress.done = p;
     // Reading the clock costs far less than a forward call, but not nothing: every 64 elements.
     if ((p & 63) === 63 && outOfTime()) {
       stopAtTimeLimit(`check of '${slot.name}' stopped at the time limit after ${p} of ${count} ${unit}`, { param: slot.name, stage: 'elements', done: p, total: count });
@@ -113,5 +141,4 @@ function centralColumns(
       bound[k][p] = (ROUNDOFF_ULPS * uOut * mags[k]) / denom;
     }
   }
-  return { indices, numeric, bound };
 }

@@ -2,7 +2,7 @@
 // accepting the shapes the interface allows and naming the parameter and the shapes when the
 // result does not fit.
 
-import { F64, describeValue, formatIndex, getPrototypeOf, isArray, isView, objectKeys, objectPrototype, ownKey, quotedList } from './builtins';
+import { F64, describeValue, formatIndex, getPrototypeOf, isArray, isView, objectKeys, ownKey, quotedList, isPlainPrototype } from './builtins';
 import { fail } from './failure';
 import type { ParamSlot } from './paramSlot';
 
@@ -135,7 +135,7 @@ export function readGradients(result: unknown, slots: ParamSlot[], dests: Float6
     }
     entries = result;
   } else if (result !== null && typeof result === 'object' && !isView(result) &&
-    (getPrototypeOf(result) === objectPrototype || getPrototypeOf(result) === null)) {
+    isPlainPrototype(getPrototypeOf(result))) {
     entries = [];
     const obj = result as Record<string, unknown>;
     for (let i = 0; i < n; i++) {

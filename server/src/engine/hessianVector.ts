@@ -2,7 +2,7 @@
 // directions v of that parameter alone (the others zero); H·v is compared entry by entry with
 // differences of the gradient along v, or with second differences of the forward.
 
-import { F64, max, sliceText } from './builtins';
+import { F64, max, newOpList, sliceText } from './builtins';
 import { CheckStop, fail } from './failure';
 import type { GradientMap } from './gradientMap';
 import { readGradients } from './gradients';
@@ -18,7 +18,7 @@ import type { BackwardArg } from '../model/types';
 /** $v for slot s's direction (zeros in the other parameters): one part, or one per parameter. */
 function vectorValue(slots: ParamSlot[], s: number, v: Float64Array): unknown {
   if (slots.length === 1) return shapedLike(slots[0].value(), v, { i: 0 });
-  const parts: unknown[] = [];
+  const parts = newOpList();
   for (let q = 0; q < slots.length; q++) parts[q] = shapedLike(slots[q].value(), q === s ? v : new F64(slots[q].size), { i: 0 });
   return parts;
 }

@@ -1,7 +1,7 @@
 // Detects a forward or backward that changes its inputs: a deep copy of the numbers in every
 // argument (and `this.FIELD` value) is taken before a call and compared after it.
 
-import { F64, formatIndex, formatNumber, getPrototypeOf, isArray, isView, objectKeys, objectPrototype, stringifyJson, toStringCall } from './builtins';
+import { F64, formatIndex, formatNumber, getPrototypeOf, isArray, isView, objectKeys, stringifyJson, toStringCall, isPlainPrototype } from './builtins';
 
 /** A frozen copy of one value's numbers (typed arrays and arrays copied, plain objects walked). */
 type Snap =
@@ -40,7 +40,7 @@ function snap(v: unknown, depth: number): Snap {
     return { kind: 'array', items };
   }
   const proto = getPrototypeOf(v);
-  if (proto === objectPrototype || proto === null) {
+  if (isPlainPrototype(proto)) {
     const keys = objectKeys(v);
     const items: Snap[] = [];
     for (let i = 0; i < keys.length; i++) items[i] = snap((v as Record<string, unknown>)[keys[i]], depth + 1);

@@ -118,6 +118,14 @@ export function emptyOutcome(verdict: Verdict, seed: number, message: string, ca
 }
 
 /**
+ * Share of settings.timeLimitMs after the engine's deadline (check.ts, TIME_BUDGET_SHARE 0.8)
+ * when no further call of the op starts (OpHarness.stopAfter): half the slack before the
+ * sandbox's watchdog, so a call that starts just before it still ends before the watchdog when
+ * it takes less than a tenth of the limit (our choice).
+ */
+const HARD_STOP_SHARE = 0.1;
+
+/**
  * Runs attempts until one ends without a kink (at most settings.kinkResamples redraws): a kink is
  * never a mismatch. The one redraw loop of every op kind (runCheck's backward check included).
  * Never throws.
@@ -132,6 +140,8 @@ export function runAttempts(
   attemptFn: (ctx: AttemptContext) => AttemptResult,
 ): CheckOutcome {
   const outOfTime = (): boolean => clock() > deadline;
+  // Phases stop themselves at the deadline; past HARD_STOP_SHARE of the limit no call starts.
+  h.stopAfter(clock, deadline + HARD_STOP_SHARE * settings.timeLimitMs, settings.timeLimitMs);
   const kinks: KinkReport[] = [];
   let lastParams: ParamResult[] = [];
   let lastInputs: CheckOutcome['inputs'];

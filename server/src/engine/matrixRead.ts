@@ -3,7 +3,7 @@
 // expected and the found shape when a result does not fit — including a matrix returned
 // transposed.
 
-import { F64, describeValue, formatIndex, getPrototypeOf, isArray, isView, objectKeys, objectPrototype, ownKey, quotedList } from './builtins';
+import { F64, describeValue, formatIndex, getPrototypeOf, isArray, isView, objectKeys, ownKey, quotedList, isPlainPrototype } from './builtins';
 import { fail } from './failure';
 import { shapeOf } from './gradients';
 import type { ParamSlot } from './paramSlot';
@@ -74,7 +74,7 @@ export function splitParts(result: unknown, slots: ParamSlot[], what: string, pa
   const n = slots.length;
   const parts: unknown[] = [];
   const plainObject = result !== null && typeof result === 'object' && !isArray(result) && !isView(result) &&
-    (getPrototypeOf(result) === objectPrototype || getPrototypeOf(result) === null);
+    isPlainPrototype(getPrototypeOf(result));
   if (n === 1) {
     if (plainObject && ownKey(result as object, slots[0].key)) parts[0] = (result as Record<string, unknown>)[slots[0].key];
     else parts[0] = result;

@@ -2,7 +2,7 @@
 // named outputs of those kinds): detected once, then used to flatten every later output into a
 // Float64Array and to build upstream gradients `$dy` of the same shape.
 
-import { F32, F64, describeValue, formatIndex, getPrototypeOf, isArray, isView, objectKeys, objectPrototype } from './builtins';
+import { describeValue, formatIndex, getPrototypeOf, isArray, isView, objectKeys, isF32, isF64, isPlainPrototype, newOpF32, newOpF64, newOpList, newOpRecord } from './builtins';
 import { fail } from './failure';
 import type { Precision } from './precision';
 
@@ -36,16 +36,15 @@ function product(shape: number[]): number {
 /** Detects the layout of a forward's first output. */
 export function detectLayout(value: unknown, what = 'forward output', depth = 0): OutputLayout {
   if (typeof value === 'number') return { kind: 'number', size: 1 };
-  if (value instanceof F64) return { kind: 'typed', f32: false, size: value.length };
-  if (value instanceof F32) return { kind: 'typed', f32: true, size: value.length };
+  if (isF64(value)) return { kind: 'typed', f32: false, size: value.length };
+  if (isF32(value)) return { kind: 'typed', f32: true, size: value.length };
   if (isView(value)) fail(`${what} is ${describeValue(value)}; outputs must be numbers, Float64Array, Float32Array or number[]`);
   if (isArray(value)) {
     const shape = nestedShape(value, what);
     return { kind: 'nested', shape, size: product(shape) };
   }
   if (depth === 0 && value !== null && typeof value === 'object') {
-    const proto = getPrototypeOf(value);
-    if (proto === objectPrototype || proto === null) {
+    if (isPlainPrototype(getPrototypeOf(value))) {
       const keys = objectKeys(value);
       if (keys.length === 0) fail(`${what} is an empty object`);
       const parts: OutputLayout[] = [];
@@ -99,7 +98,7 @@ export function flattenInto(value: unknown, layout: OutputLayout, dest: Float64A
       dest[offset] = value as number;
       return;
     case 'typed': {
-      if (!(layout.f32 ? value instanceof F32 : value instanceof F64)) changed(what);
+      if (!(layout.f32 ? isF32(value) : isF64(value))) changed(what);
       const arr = value as Float64Array;
       const n = layout.size;
       if (arr.length !== n) changed(what);
@@ -121,7 +120,7 @@ export function flattenInto(value: unknown, layout: OutputLayout, dest: Float64A
 }
 
 function buildNested(shape: number[], dim: number, flat: ArrayLike<number>, pos: { i: number }): unknown[] {
-  const out: unknown[] = [];
+  const out = newOpList();
   const n = shape[dim];
   if (dim === shape.length - 1) {
     for (let k = 0; k < n; k++) out[k] = flat[pos.i++];
@@ -131,20 +130,20 @@ function buildNested(shape: number[], dim: number, flat: ArrayLike<number>, pos:
   return out;
 }
 
-/** A fresh value of the layout's shape holding flat[offset ..] (used for `$dy` and `$y`). */
+/** A fresh value of the layout's shape holding flat[offset ..] (used for `$dy` and `$y`), made in the op's realm. */
 export function buildValue(layout: OutputLayout, flat: ArrayLike<number>, offset = 0): unknown {
   switch (layout.kind) {
     case 'number':
       return flat[offset];
     case 'typed': {
-      const out = layout.f32 ? new F32(layout.size) : new F64(layout.size);
+      const out = layout.f32 ? newOpF32(layout.size) : newOpF64(layout.size);
       for (let i = 0; i < layout.size; i++) out[i] = flat[offset + i];
       return out;
     }
     case 'nested':
       return buildNested(layout.shape, 0, flat, { i: offset });
     case 'object': {
-      const out: Record<string, unknown> = {};
+      const out = newOpRecord();
       for (let i = 0; i < layout.keys.length; i++) out[layout.keys[i]] = buildValue(layout.parts[i], flat, offset + layout.offsets[i]);
       return out;
     }

@@ -2,7 +2,7 @@
 // number[], or a scalar held in the argument list or on the instance) and in-place access to
 // element i, so perturbations write into the very object the forward reads (no copies).
 
-import { F32, F64, fround, isArray } from './builtins';
+import { F64, fround, isArray, isF32 } from './builtins';
 import type { Precision } from './precision';
 import type { SampleDtype } from '../model/types';
 
@@ -102,6 +102,6 @@ export function nestedLeaves(value: unknown[], shape: number[]): number[][] {
 
 /** Precision of a sampled value's storage. */
 export function precisionOf(dtype: SampleDtype, value: unknown): Precision {
-  if (value instanceof F32) return 'f32';
+  if (isF32(value)) return 'f32';
   return dtype === 'f32' ? 'f32' : 'f64';
 }

@@ -2,7 +2,7 @@
 // at the worst element, the per-element error map of 2-D parameters, and the sample inputs as
 // JSON-safe values.
 
-import { F32, F64, I32, abs, getPrototypeOf, isArray, isFiniteNumber, isView, objectKeys, objectPrototype, pow } from './builtins';
+import { F64, abs, getPrototypeOf, isArray, isFiniteNumber, isView, objectKeys, pow, isF32, isF64, isI32, isPlainPrototype } from './builtins';
 import { projectDifference, type Line } from './lines';
 import type { Sample } from './sampling';
 import type { StepScan } from '../model/types';
@@ -53,7 +53,7 @@ function jsonSafe(v: unknown, budget: { left: number }, depth: number): unknown 
   if (v === null || typeof v === 'string' || typeof v === 'boolean') return v;
   if (v === undefined) return null;
   if (isView(v)) {
-    const dtype = v instanceof F64 ? 'f64' : v instanceof F32 ? 'f32' : v instanceof I32 ? 'i32' : 'other';
+    const dtype = isF64(v) ? 'f64' : isF32(v) ? 'f32' : isI32(v) ? 'i32' : 'other';
     const arr = v as unknown as ArrayLike<number>;
     budget.left -= arr.length;
     if (budget.left < 0) return null;
@@ -72,7 +72,7 @@ function jsonSafe(v: unknown, budget: { left: number }, depth: number): unknown 
   }
   if (typeof v === 'object') {
     const proto = getPrototypeOf(v);
-    if (proto !== objectPrototype && proto !== null) return null;
+    if (!isPlainPrototype(proto)) return null;
     const out: Record<string, unknown> = {};
     const keys = objectKeys(v);
     for (let i = 0; i < keys.length; i++) out[keys[i]] = jsonSafe((v as Record<string, unknown>)[keys[i]], budget, depth + 1);

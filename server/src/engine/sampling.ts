@@ -2,7 +2,7 @@
 // seeded generator, keeps `avoid` points at a margin, and wraps every differentiated parameter
 // in a ParamSlot.
 
-import { F32, F64, I32, abs, contains, describeThrown, sliceText, describeValue, formatNumber, isArray, isFiniteNumber, isInteger, max, min, parseJson, reflectApply, stringifyJson } from './builtins';
+import { abs, isF32, isF64, newOpF32, newOpF64, newOpI32, contains, describeThrown, sliceText, describeValue, formatNumber, isArray, isFiniteNumber, isInteger, max, min, newOpList, parseJsonForOp, reflectApply, stringifyJson } from './builtins';
 import { fail, failThrown } from './failure';
 import { nestedShape } from './outputLayout';
 import { ParamSlot, nestedLeaves, precisionOf } from './paramSlot';
@@ -68,7 +68,7 @@ function validateSpec(name: string, spec: RandomSpec, maxElements: number): numb
 }
 
 function drawNested(random: RandomSpec, rng: RandomSource, shape: number[], dim: number, precision: Precision, ints: boolean): unknown[] {
-  const out: unknown[] = [];
+  const out = newOpList();
   for (let i = 0; i < shape[dim]; i++) {
     if (dim === shape.length - 1) {
       out[i] = ints ? uniformInt(rng, random.range[0], random.range[1]) : drawElement(rng, random, precision);
@@ -81,14 +81,14 @@ function drawNested(random: RandomSpec, rng: RandomSource, shape: number[], dim:
 export function drawValue(name: string, spec: SampleSpec, rng: RandomSource, maxElements: number): unknown {
   if (spec.kind === 'literal') {
     // A fresh copy per attempt, so an op that changes it cannot affect the next attempt.
-    return spec.value === undefined ? undefined : parseJson(stringifyJson(spec.value));
+    return spec.value === undefined ? undefined : parseJsonForOp(stringifyJson(spec.value));
   }
   const size = validateSpec(name, spec, maxElements);
   const ints = spec.dtype === 'i32' || spec.dtype === 'int';
   const precision: Precision = spec.dtype === 'f32' ? 'f32' : 'f64';
   if (spec.dtype === 'f64' || spec.dtype === 'f32' || spec.dtype === 'i32') {
     if (spec.shape.length === 0 && spec.dtype !== 'i32') return drawElement(rng, spec, precision);
-    const arr = spec.dtype === 'f64' ? new F64(size) : spec.dtype === 'f32' ? new F32(size) : new I32(size);
+    const arr = spec.dtype === 'f64' ? newOpF64(size) : spec.dtype === 'f32' ? newOpF32(size) : newOpI32(size);
     for (let i = 0; i < size; i++) arr[i] = ints ? uniformInt(rng, spec.range[0], spec.range[1]) : drawElement(rng, spec, precision);
     return arr;
   }
@@ -114,9 +114,9 @@ function slotFor(
   if (typeof value === 'number') {
     return new ParamSlot(param.name, key, dtype, precisionOf(dtype, value), [], 1, host, hostKey, null, range, avoid);
   }
-  if (value instanceof F64 || value instanceof F32) {
+  if (isF64(value) || isF32(value)) {
     const shape = param.sample?.kind === 'random' && param.sample.shape.length > 0 ? param.sample.shape : [value.length];
-    return new ParamSlot(param.name, key, value instanceof F32 ? 'f32' : 'f64', precisionOf(dtype, value), shape, value.length, host, hostKey, value, range, avoid);
+    return new ParamSlot(param.name, key, isF32(value) ? 'f32' : 'f64', precisionOf(dtype, value), shape, value.length, host, hostKey, value, range, avoid);
   }
   if (isArray(value)) {
     let shape: number[];
@@ -181,7 +181,7 @@ export function drawSample(
       argNames[i] = p.name;
       if (contains(fixed, p.name)) continue;
       const v = list[i];
-      const dtype: SampleDtype = v instanceof F32 ? 'f32' : v instanceof F64 ? 'f64' : 'num';
+      const dtype: SampleDtype = isF32(v) ? 'f32' : isF64(v) ? 'f64' : 'num';
       if (typeof v === 'number' && !isFiniteNumber(v)) fail(`@samples ${op.target.samplesFactory}: argument '${p.name}' is ${formatNumber(v)}`);
       const slot = slotFor(p, v, dtype, args as unknown as Record<number, unknown>, i, null, []);
       if (slot !== null) slots[slots.length] = slot;

@@ -1,7 +1,9 @@
 // The engine's entry inside the sandbox's vm context: defines the one global the runner calls,
-// `__gradientProbeRun(exposed, requestJson)`, returning the outcome as a JSON string.
+// `__gradientProbeRun(exposed, requestJson, realm?)`, returning the outcome as a JSON string.
+// Without `realm` the engine and the op share one context; with it the engine runs in a context
+// of its own (kept warm across checks) and builds what the op sees from the op context's intrinsics.
 
-import { parseJson, reflectApply, stringifyJson } from './builtins';
+import { enterOpRealm, parseJson, reflectApply, stringifyJson, type OpRealm } from './builtins';
 import { runCheck, type OpCheckRequest } from './check';
 
 type Clock = () => number;
@@ -25,7 +27,28 @@ const clock: Clock = (() => {
   return () => dateNow();
 })();
 
-function run(exposed: unknown, requestJson: string): string {
+const REALM_FUNCTIONS = ['Float64Array', 'Float32Array', 'Int32Array', 'Uint8Array', 'parseJson', 'newList', 'newRecord'] as const;
+
+/**
+ * The op realm handed in by the op context's setup script (contextSetup.ts), read once into an
+ * object of our own: only own data properties holding functions count, so nothing the op's code
+ * could have reached runs here as a getter. Undefined when absent or malformed.
+ */
+function readRealm(realm: unknown): OpRealm | undefined {
+  if (realm === null || typeof realm !== 'object') return undefined;
+  const out: Record<string, unknown> = {};
+  for (let i = 0; i < REALM_FUNCTIONS.length; i++) {
+    const d = Object.getOwnPropertyDescriptor(realm, REALM_FUNCTIONS[i]);
+    if (!d || !('value' in d) || typeof d.value !== 'function') return undefined;
+    out[REALM_FUNCTIONS[i]] = d.value;
+  }
+  const proto = Object.getOwnPropertyDescriptor(realm, 'objectPrototype');
+  if (!proto || !('value' in proto) || proto.value === null || typeof proto.value !== 'object') return undefined;
+  out.objectPrototype = proto.value;
+  return out as unknown as OpRealm;
+}
+
+function run(exposed: unknown, requestJson: string, realm?: unknown): string {
   let request: OpCheckRequest;
   try {
     request = parseJson(requestJson) as OpCheckRequest;
@@ -35,7 +58,16 @@ function run(exposed: unknown, requestJson: string): string {
     });
   }
   const bindings = exposed !== null && typeof exposed === 'object' ? (exposed as Record<string, unknown>) : {};
-  return stringifyJson(runCheck(bindings, request, clock));
+  const opRealm = realm === undefined ? undefined : readRealm(realm);
+  if (realm !== undefined && opRealm === undefined) {
+    return stringifyJson({ verdict: 'error', failure: 'internal', seed: 0, message: 'internal: the op context handed the engine no usable realm', hints: [], params: [], calls: { forward: 0, backward: 0 } });
+  }
+  enterOpRealm(opRealm ?? null);
+  try {
+    return stringifyJson(runCheck(bindings, request, clock));
+  } finally {
+    enterOpRealm(null);
+  }
 }
 
 Object.defineProperty(g, '__gradientProbeRun', { value: run, writable: false, configurable: false, enumerable: false });

@@ -4,7 +4,7 @@
 // the forward along t; suspicious outputs get the kink test and Ridders' extrapolation before
 // any blame. With several parameters, one call with every tangent at once must equal the sum.
 
-import { F32, F64, abs, describeValue, formatNumber, isArray, isView, max, min } from './builtins';
+import { F64, abs, describeValue, formatNumber, isArray, isView, max, min, isF32, isF64, newOpF32, newOpF64, newOpList } from './builtins';
 import { CheckStop, fail } from './failure';
 import { excessOf } from './judge';
 import { findKink } from './kinkTest';
@@ -29,16 +29,16 @@ export function runTangentCheck(exposed: Record<string, unknown>, op: OpDescript
   return runAttempts(h, op, settings, seed, deadline, clock, tangentAttempt);
 }
 
-/** A value shaped like a parameter holding flat values (a number, a typed array of the same type, nested number[]). */
+/** A value shaped like a parameter holding flat values (a number, a typed array of the same type, nested number[]), made in the op's realm. */
 export function shapedLike(template: unknown, flat: ArrayLike<number>, pos: { i: number }): unknown {
   if (typeof template === 'number') return flat[pos.i++];
-  if (template instanceof F64 || template instanceof F32) {
-    const out = template instanceof F32 ? new F32(template.length) : new F64(template.length);
+  if (isF64(template) || isF32(template)) {
+    const out = isF32(template) ? newOpF32(template.length) : newOpF64(template.length);
     for (let i = 0; i < out.length; i++) out[i] = flat[pos.i++];
     return out;
   }
   if (isArray(template)) {
-    const out: unknown[] = [];
+    const out = newOpList();
     for (let i = 0; i < template.length; i++) out[i] = shapedLike(template[i], flat, pos);
     return out;
   }

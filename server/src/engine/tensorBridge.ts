@@ -4,7 +4,7 @@
 // gradient as `dy`). Every call runs in the library's `tidy` scope, so each tensor made during
 // it (inputs, intermediates, outputs, gradients) is disposed when it returns.
 
-import { F32, F64, I32, contains, copyList, describeThrown, describeValue, formatIndex, isArray, isView, objectKeys, positionOf, reflectApply } from './builtins';
+import { F32, F64, contains, copyList, describeThrown, describeValue, formatIndex, isArray, isView, objectKeys, positionOf, reflectApply, newOpF32, newOpI32 } from './builtins';
 import { CheckStop, fail } from './failure';
 import { ParamSlot } from './paramSlot';
 import type { Sample } from './sampling';
@@ -94,7 +94,7 @@ export class TensorBridge {
     if (isView(value)) {
       // A copy: the engine perturbs the sample's own array in place between calls.
       const src = value as unknown as ArrayLike<number>;
-      const data = t.dtype === 'int32' ? new I32(src.length) : new F32(src.length);
+      const data = t.dtype === 'int32' ? newOpI32(src.length) : newOpF32(src.length);
       for (let k = 0; k < src.length; k++) data[k] = src[k];
       return this.lib.tensor(data, t.shape !== null && t.shape.length > 0 ? t.shape : [src.length], t.dtype);
     }
@@ -158,7 +158,7 @@ export class TensorBridge {
     if (shape === null) return value;
     if (typeof value === 'number') return this.lib.tensor(value, shape, 'float32');
     const src = value as ArrayLike<number>;
-    const data = new F32(src.length);
+    const data = newOpF32(src.length);
     for (let k = 0; k < src.length; k++) data[k] = src[k];
     return this.lib.tensor(data, shape, 'float32');
   }
@@ -202,7 +202,7 @@ export class TensorBridge {
       const name = sample.argNames[i];
       const shape = copyList(v.shape);
       const data = v.dataSync();
-      const copy = new F32(data.length);
+      const copy = newOpF32(data.length); // it becomes the op's argument
       for (let k = 0; k < data.length; k++) copy[k] = data[k];
       const float = v.dtype === 'float32';
       try {

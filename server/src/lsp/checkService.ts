@@ -9,6 +9,7 @@ import { basename } from 'node:path';
 import { Checker } from '../core/checker';
 import { DEFAULT_SETTINGS, type CheckSettings } from '../engine/settings';
 import type { OpResult } from '../model/types';
+import { HeapTrim } from './heapTrim';
 import { settingsKey } from './settings';
 import { UNTRUSTED_REASON } from './opStanding';
 import type { ReasonCode } from './protocol';
@@ -72,6 +73,7 @@ export class CheckService {
   private trusted: boolean;
   private started = 0;
   private storedCount = 0;
+  private readonly heap = new HeapTrim();
 
   constructor(
     options: { trusted: boolean; workers?: number },
@@ -223,6 +225,7 @@ export class CheckService {
       if (controllers.size === 0) this.controllers.delete(request.uri);
       this.markRunning(request.uri, wanted.filter((f) => !finished.has(f)), -1);
       this.onChange(request.uri);
+      this.heap.afterCheck();
     }
     const order = new Map(wanted.map((f, i) => [f, i] as const));
     return collected.sort((a, b) => (order.get(a.forward ?? '') ?? 1e9) - (order.get(b.forward ?? '') ?? 1e9));

@@ -315,7 +315,11 @@ export interface TimeLimitStop {
   /** The parameter being checked when time ran out. */
   param: string;
   /** What `done` and `total` count. */
-  stage: 'elements' | 'grouped perturbations' | 'suspicious elements refined';
+  /**
+   * 'dot-product probes': the root probes of a probed parameter (done of total); 'forward calls':
+   * the engine's hard stop between calls (done = total = the calls of the op made).
+   */
+  stage: 'elements' | 'grouped perturbations' | 'suspicious elements refined' | 'dot-product probes' | 'forward calls';
   done: number;
   total: number;
   /** The op's time limit (settings.timeLimitMs), in milliseconds. */

@@ -17,7 +17,22 @@ const setupScript = new vm.Script(CONTEXT_SETUP_SOURCE, { filename: 'gradient-pr
 const driveScript = new vm.Script('__gradientProbeDrive()', { filename: 'gradient-probe-drive.js' });
 const outputScript = new vm.Script('__gradientProbeOutput()', { filename: 'gradient-probe-output.js' });
 const phaseScript = new vm.Script('__gradientProbePhase()', { filename: 'gradient-probe-phase.js' });
+const loadEngineScript = new vm.Script('__gradientProbeLoadEngine()', { filename: 'gradient-probe-load-engine.js' });
 let engineScript: vm.Script | undefined;
+/**
+ * The engine's `run`, loaded once into a context of its own and kept warm across checks (its
+ * compiled code and type feedback survive); each op's module still gets a fresh context. Undefined
+ * when the engine context could not be set up: each context then loads its own engine.
+ */
+let warmRun: unknown;
+/** A fresh op context with the setup script already run, made while the runner was idle. */
+let prepared: PreparedContext | undefined;
+
+interface PreparedContext {
+  context: vm.Context;
+  /** Seeds Math.random and sets the console limit for the job (contextSetup.ts). */
+  arm: (seed: number, outputLimit: number) => void;
+}
 const bundleScripts = new Map<string, vm.Script>();
 /** Length of each cached bundle's code, for coverage offsets. */
 const bundleLengths = new Map<string, number>();
@@ -121,6 +136,59 @@ function hostErrorText(e: unknown): string {
   return message && 'value' in message && typeof message.value === 'string' ? message.value : 'unknown error';
 }
 
+/** Options of every context: a global without prototype, no code generation, timed microtasks. */
+function newContext(name: string): vm.Context {
+  // The global object has no prototype, so `globalThis.constructor.constructor` cannot reach the
+  // host's Function (with a plain `{}` it does: checked on Node 20).
+  return vm.createContext(Object.create(null), {
+    name,
+    codeGeneration: { strings: false, wasm: false },
+    microtaskMode: 'afterEvaluate',
+  });
+}
+
+/** A fresh op context, set up before any user code exists in it. */
+function prepareContext(): PreparedContext {
+  const context = newContext('gradient-probe op');
+  const setup: unknown = setupScript.runInContext(context);
+  if (typeof setup !== 'function') throw new Error('context setup did not evaluate to a function');
+  // Our own function, called with primitives before any user code exists in the context.
+  const arm: unknown = (setup as (seed: number, now: number, limit: number, engineContext: boolean) => unknown)(0, FIXED_DATE_MS, 0, false);
+  if (typeof arm !== 'function') throw new Error('context setup returned no arm function');
+  return { context, arm: arm as PreparedContext['arm'] };
+}
+
+/** Prepares the next job's context once the runner has nothing else to do. */
+function prepareWhenIdle(): void {
+  setImmediate(() => {
+    if (prepared !== undefined) return;
+    try {
+      prepared = prepareContext();
+    } catch {
+      prepared = undefined; // the job makes its own and reports what failed
+    }
+  });
+}
+
+/**
+ * Loads the engine into a context of its own, once per runner. Its setup freezes that context's
+ * intrinsics after the engine loaded (contextSetup.ts), so what of it reaches an op cannot carry
+ * state to the next op.
+ */
+function loadWarmEngine(script: vm.Script): unknown {
+  try {
+    const context = newContext('gradient-probe engine');
+    const setup: unknown = setupScript.runInContext(context);
+    if (typeof setup !== 'function') return undefined;
+    (setup as (seed: number, now: number, limit: number, engineContext: boolean) => unknown)(0, FIXED_DATE_MS, 0, true);
+    (context as Record<string, unknown>).__gradientProbeEngine = script.runInContext(context);
+    const run: unknown = loadEngineScript.runInContext(context);
+    return typeof run === 'function' ? run : undefined;
+  } catch {
+    return undefined;
+  }
+}
+
 function runJob(job: JobMessage): void {
   const started = performance.now();
   const elapsed = (): number => performance.now() - started;
@@ -139,32 +207,28 @@ function runJob(job: JobMessage): void {
     send({ type: 'missing-bundle', id: job.id });
     return;
   }
-  // A fresh context per op: globalThis writes and prototype changes die with it. The global
-  // object has no prototype, so `globalThis.constructor.constructor` cannot reach the host's
-  // Function (with a plain `{}` it does: checked on Node 20).
-  const context = vm.createContext(Object.create(null), {
-    name: 'gradient-probe op',
-    codeGeneration: { strings: false, wasm: false },
-    microtaskMode: 'afterEvaluate',
-  });
+  // A fresh context per op (made ahead while the runner was idle, never used before): globalThis
+  // writes and prototype changes die with it.
+  let context: vm.Context | undefined;
   let tagged: unknown;
   // Counters start at zero for every job, so nothing of an earlier op is counted for this one.
   coverage?.reset();
   try {
-    const setup: unknown = setupScript.runInContext(context);
-    if (typeof setup !== 'function') throw new Error('context setup did not evaluate to a function');
-    // Our own function, called with primitives before any user code exists in the context.
-    (setup as (seed: number, now: number, limit: number) => void)(job.seed, FIXED_DATE_MS, job.outputLimitChars);
+    const fresh = prepared ?? prepareContext();
+    prepared = undefined;
+    context = fresh.context;
+    fresh.arm(job.seed, job.outputLimitChars);
     const sandboxGlobal = context as Record<string, unknown>;
-    sandboxGlobal.__gradientProbeEngine = engineScript.runInContext(context);
+    if (job.warmEngine && typeof warmRun === 'function') sandboxGlobal.__gradientProbeWarmRun = warmRun;
+    else sandboxGlobal.__gradientProbeEngine = engineScript.runInContext(context);
     sandboxGlobal.__gradientProbeModule = bundleScript.runInContext(context);
     sandboxGlobal.__gradientProbeRequest = job.requestJson;
     importAttempt = undefined;
     tagged = driveScript.runInContext(context, { timeout: job.timeLimitMs });
   } catch (e) {
-    const output = readOutput(context);
+    const output = context ? readOutput(context) : '';
     if (isTimeout(e)) {
-      const duringLoad = readPhase(context) === 'load';
+      const duringLoad = context !== undefined && readPhase(context) === 'load';
       const error = duringLoad
         ? `timed out after ${job.timeLimitMs} ms while loading the module (its top-level code did not finish)`
         : `timed out after ${job.timeLimitMs} ms`;
@@ -207,8 +271,11 @@ function onMessage(raw: unknown): void {
   const message = raw as ParentMessage;
   if (message.type === 'init') {
     engineScript = new vm.Script(wrapWithBuiltins(message.engineCode), { filename: 'engine-in-sandbox.js' });
+    warmRun = loadWarmEngine(engineScript);
+    prepareWhenIdle();
   } else if (message.type === 'job') {
     runJob(message);
+    prepareWhenIdle();
   }
 }
 

@@ -39,14 +39,16 @@ export function wrapWithBuiltins(code: string): string {
 export const FIXED_DATE_MS = 1622505600000;
 
 /**
- * Evaluates to a function `(seed, fixedNow, outputLimit) => void`. After it ran, the context has
+ * Evaluates to a function `(seed, fixedNow, outputLimit, engineContext) => arm`, where
+ * `arm(seed, outputLimit)` re-seeds Math.random and sets the console limit for the job about to
+ * run (so a context can be prepared ahead, before its job is known). After it ran, the context has
  * `__gradientProbeDrive()` (loads engine and module, runs the check, returns a tagged string:
  * 'R' + outcome JSON, 'L' + bundle frames + '|' + load error, 'E' + engine failure) and `__gradientProbeOutput()`
  * (the console text), both non-writable. The host puts the wrapped engine, the wrapped module
  * and the request JSON in `__gradientProbeEngine`, `__gradientProbeModule`,
  * `__gradientProbeRequest` before calling the driver; the driver removes them first.
  */
-export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, outputLimit) {
+export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, outputLimit, engineContext) {
   'use strict';
   const g = globalThis;
   const BUILTIN_NAMES = ${JSON.stringify(CONTEXT_BUILTINS)};
@@ -192,16 +194,28 @@ export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, output
   let phase = 'engine';
   Object.defineProperty(g, '__gradientProbePhase', { value: function currentPhase() { return phase; }, writable: false, configurable: false });
 
+  // What the engine builds the op's values from when it runs in a context of its own (the warm
+  // runner): this context's intrinsics, captured before user code exists. Held in this closure
+  // only; the engine reads its own data properties once per check (engine/sandboxEntry.ts).
+  const realm = Object.freeze(Object.assign(Object.create(null), {
+    Float64Array: g.Float64Array, Float32Array: g.Float32Array, Int32Array: g.Int32Array, Uint8Array: g.Uint8Array,
+    objectPrototype: Object.prototype, parseJson: JSON.parse, newList: function newList() { return []; }, newRecord: function newRecord() { return {}; },
+  }));
+
   const drive = function drive() {
     const engine = take('__gradientProbeEngine');
+    const warmRun = take('__gradientProbeWarmRun');
     const mod = take('__gradientProbeModule');
     const request = take('__gradientProbeRequest');
-    try {
-      apply(engine, undefined, builtins);
-    } catch (e) {
-      return 'E' + 'the check engine failed to load: ' + describe(e);
+    let run = warmRun;
+    if (typeof warmRun !== 'function') {
+      try {
+        apply(engine, undefined, builtins);
+      } catch (e) {
+        return 'E' + 'the check engine failed to load: ' + describe(e);
+      }
+      run = g.__gradientProbeRun;
     }
-    const run = g.__gradientProbeRun;
     if (typeof run !== 'function') return 'E' + 'the check engine did not define __gradientProbeRun';
     phase = 'load';
     try {
@@ -212,7 +226,7 @@ export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, output
     phase = 'check';
     let result;
     try {
-      result = run(g.__gradientProbeExposed, request);
+      result = typeof warmRun === 'function' ? run(g.__gradientProbeExposed, request, realm) : run(g.__gradientProbeExposed, request);
     } catch (e) {
       return 'E' + 'the check engine threw: ' + describe(e);
     }
@@ -220,6 +234,69 @@ export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, output
     return 'R' + result;
   };
   Object.defineProperty(g, '__gradientProbeDrive', { value: drive, writable: false, configurable: false });
+
+  if (engineContext === true) {
+    // The engine's own context (warm runner): loads the engine once, then freezes every
+    // intrinsic of this context. Values of this realm can still reach an op's code (a thrown
+    // engine error, a callback handed to the op's library), and a frozen realm cannot carry
+    // anything from one op to the next through them. Code generation is off here as in every
+    // context, so this realm's Function cannot compile either.
+    const loadEngine = function loadEngine() {
+      const engine = take('__gradientProbeEngine');
+      apply(engine, undefined, builtins);
+      const run = g.__gradientProbeRun;
+      if (typeof run !== 'function') throw new Error('the check engine did not define __gradientProbeRun');
+      hardenIntrinsics();
+      return run;
+    };
+    Object.defineProperty(g, '__gradientProbeLoadEngine', { value: loadEngine, writable: false, configurable: false });
+  }
+
+  return function arm(jobSeed, jobOutputLimit) {
+    state = (jobSeed >>> 0) ^ 0x9e3779b9;
+    outputLimit = jobOutputLimit;
+  };
+
+  // Freezes the built-ins of this context and everything reachable from them through
+  // prototypes and properties (accessors included), plus the intrinsics only reachable through
+  // syntax: iterator, generator and async function prototypes.
+  function hardenIntrinsics() {
+    const getProto = Object.getPrototypeOf;
+    const ownKeys = Reflect.ownKeys;
+    const describeOwn = Object.getOwnPropertyDescriptor;
+    const freeze = Object.freeze;
+    const seen = new Set();
+    const todo = [];
+    const add = (v) => {
+      if ((typeof v === 'object' && v !== null) || typeof v === 'function') {
+        if (!seen.has(v)) { seen.add(v); todo.push(v); }
+      }
+    };
+    for (const name of BUILTIN_NAMES) if (name !== 'globalThis' && name !== 'console') add(g[name]);
+    add(g.console);
+    add(g.Iterator);
+    add([][Symbol.iterator]());
+    add(new Map()[Symbol.iterator]());
+    add(new Set()[Symbol.iterator]());
+    add(''[Symbol.iterator]());
+    add(/./[Symbol.matchAll](''));
+    add(function* generator() {});
+    add(async function asyncFunction() {});
+    add(async function* asyncGenerator() {});
+    add(random);
+    while (todo.length > 0) {
+      const v = todo.pop();
+      add(getProto(v));
+      for (const key of ownKeys(v)) {
+        let d;
+        try { d = describeOwn(v, key); } catch (e) { continue; }
+        if (!d) continue;
+        if ('value' in d) add(d.value);
+        else { add(d.get); add(d.set); }
+      }
+      freeze(v);
+    }
+  }
 })`;
 
 /**

@@ -26,6 +26,35 @@ export interface RunnerJobFields {
   timeLimitMs: number;
   /** Most characters of console text kept for the op. */
   outputLimitChars: number;
+  /**
+   * Whether a process runner may run this check on its warm engine (the engine in a context of its
+   * own, the op's module in a fresh one) rather than loading the engine into the op's context.
+   */
+  warmEngine: boolean;
+}
+
+/**
+ * Most sampled elements an op may have for the warm engine. The warm engine sees every op's arrays
+ * from a realm of their own, so its element loops stay generic (megamorphic) where a fresh engine
+ * specialises them to the one op: measured in one runner (bench/profileRunner.js, bench/PERFORMANCE.md),
+ * 10 elements 1.4 → 0.6 ms a check, 100 elements about even, 1,000 slightly slower and 100,000
+ * elements 165 → 812 ms. Below this the engine's cold start dominates; above it the loops do.
+ */
+export const WARM_ENGINE_MAX_ELEMENTS = 256;
+
+/** Sampled elements of an op's random `@sample` inputs; undefined when some input's size is unknown before the check. */
+export function sampledElements(op: OpDescriptor): number | undefined {
+  if (op.target.samplesFactory !== undefined) return undefined;
+  let total = 0;
+  for (const p of op.params) {
+    const spec = p.sample;
+    if (spec === undefined) continue;
+    if (spec.kind !== 'random') return undefined;
+    let size = 1;
+    for (const d of spec.shape) size *= d;
+    total += size;
+  }
+  return total;
 }
 
 /** The fields every runner process gets for a job. */
@@ -35,6 +64,7 @@ export function runnerJobFields(job: RunJob): RunnerJobFields {
     seed: job.op.seed ?? job.settings.seed,
     timeLimitMs: Math.max(1, Math.floor(job.settings.timeLimitMs)),
     outputLimitChars: OUTPUT_LIMIT_CHARS,
+    warmEngine: (sampledElements(job.op) ?? Infinity) <= WARM_ENGINE_MAX_ELEMENTS,
   };
 }
 

@@ -23,6 +23,15 @@ export type PoolStats = RunnerStats;
 /** A runner that does not say hello within this time is killed and reported, in ms (cold start is ~100–200 ms). */
 export const START_TIMEOUT_MS = 15_000;
 
+/**
+ * Jobs after which a coverage runner is replaced. While V8 collects precise coverage it keeps the
+ * feedback of every function it has seen alive, and each job's fresh context brings new functions:
+ * measured, a coverage runner grew 116 → 178 MiB in 300 jobs, and reading coverage slowed with it.
+ * Stopping and restarting coverage between jobs released nothing (measured the same); a new
+ * process does, at one cold start per this many jobs (bench/PERFORMANCE.md).
+ */
+export const COVERAGE_RUNNER_JOBS = 100;
+
 /** Bundles a runner is assumed to hold; mirrors the runner's own cache size. */
 const KNOWN_BUNDLES_PER_RUNNER = 32;
 
@@ -64,6 +73,8 @@ export class RunnerPool {
   private readonly childScriptOption?: string;
   private readonly engine: EngineCode;
   private readonly startPolicy: RunnerStartPolicy;
+  /** Jobs after which a runner is replaced (coverage runners only, COVERAGE_RUNNER_JOBS). */
+  private readonly jobsPerRunner: number | undefined;
   private lastHello?: { hello: HelloMessage; command: RunnerCommand; memoryLimitMb: number };
 
   constructor(opts: RunnerPoolOptions = {}) {
@@ -72,6 +83,7 @@ export class RunnerPool {
     this.engine = new EngineCode(opts.engineScript);
     this.log = opts.log ?? (() => undefined);
     this.startPolicy = new RunnerStartPolicy({ coverage: opts.coverage === true });
+    this.jobsPerRunner = opts.coverage === true ? COVERAGE_RUNNER_JOBS : undefined;
     this.queue = new JobQueue(this.stats, (job) => this.cancelRunning(job));
   }
 
@@ -189,6 +201,10 @@ export class RunnerPool {
       // A context stopped mid-run may leave the heap full of what the loop built; a new
       // runner costs one cold start and guarantees the next op a clean process.
       this.replace(runner, 'timed out');
+      return;
+    }
+    if (this.jobsPerRunner !== undefined && runner.jobsRun >= this.jobsPerRunner) {
+      this.replace(runner, `recycled after ${runner.jobsRun} jobs`);
       return;
     }
     runner.state = 'idle';
