@@ -54,17 +54,18 @@ const ENGINE_GLOBAL_SYNTAX = [
 // ---- Layering -------------------------------------------------------------------------------
 // DEVELOPERS.md's layering table, enforced: which server/src folders each folder may import.
 // Type-only imports count too. Change the table and this map together.
-const SERVER_FOLDERS = ['model', 'engine', 'text', 'discovery', 'sandbox', 'core', 'project', 'cli', 'lsp'];
+const SERVER_FOLDERS = ['model', 'engine', 'text', 'present', 'discovery', 'sandbox', 'core', 'project', 'cli', 'lsp'];
 const MAY_IMPORT = {
   model: [],
   engine: ['model'],
   text: [],
+  present: ['model'],
   discovery: ['model', 'engine', 'text'],
   sandbox: ['model', 'engine', 'discovery'], // discovery: the parser-safe text for coverage mapping (coverageBlocks.ts)
   core: ['model', 'engine', 'discovery', 'sandbox'],
   project: ['model', 'engine', 'text'],
-  cli: ['model', 'engine', 'core', 'project', 'lsp', 'text'],
-  lsp: ['model', 'engine', 'core', 'project', 'discovery', 'text'],
+  cli: ['model', 'engine', 'core', 'project', 'lsp', 'text', 'present'],
+  lsp: ['model', 'engine', 'core', 'project', 'discovery', 'text', 'present'],
 };
 const EDITOR_LIBRARIES = { regex: '^vscode(-languageserver|-languageclient)?(/|-|$)', message: 'Only server/src/lsp (vscode-languageserver) and client/src (vscode, vscode-languageclient) speak to the editor.' };
 
@@ -80,6 +81,10 @@ function layering(folder) {
   if (folder === 'model' || folder === 'text') {
     // The model crosses into the sandbox with the engine; text is a leaf every folder may use.
     patterns.push({ regex: '^(?!\\./)', message: `server/src/${folder} imports nothing outside itself (DEVELOPERS.md, layering table).` });
+  }
+  if (folder === 'present') {
+    // Presentation is shared with the VS Code client: itself and the shared model only, no Node.
+    patterns.push({ regex: '^(?!\\./|\\.\\./model/)', message: 'server/src/present imports nothing but itself and the shared model (DEVELOPERS.md, layering table).' });
   }
   if (folder === 'engine') {
     // The engine is bundled and evaluated inside the sandbox: itself and the shared model only.
@@ -103,8 +108,8 @@ const CLIENT_LAYERING = {
     'no-restricted-imports': ['error', {
       patterns: [
         {
-          regex: '^(\\.\\./)+server/src/(?!model/types$|lsp/protocol$)',
-          message: 'client/src shares only the data shapes (server/src/model/types) and the custom messages (server/src/lsp/protocol) with the server; everything else goes over LSP.',
+          regex: '^(\\.\\./)+server/src/(?!model/types$|lsp/protocol$|present/format$)',
+          message: 'client/src shares only the data shapes (server/src/model/types), the custom messages (server/src/lsp/protocol) and the presentation of figures (server/src/present/format) with the server; everything else goes over LSP.',
         },
         { regex: '^vscode-languageserver', message: 'The client uses vscode-languageclient; the server side of LSP stays in server/src/lsp.' },
       ],

@@ -51,6 +51,7 @@ async function main(): Promise<void> {
     let caught = 0;
     let located = 0;
     const missed: Record<string, number> = {};
+    const missedSeeds: { seed: number; verdict: string; note?: string }[] = [];
     const times: number[] = [];
     const methods = new Set<string>();
     for (let t = 0; t < trials; t++) {
@@ -65,13 +66,15 @@ async function main(): Promise<void> {
         const p = result.params.find((q) => q.name === op.bugParam);
         const at = bugPositions(seed, bugSize, bug.count);
         if (p?.worst && at.includes(flatIndex(p.worst.index, p.shape))) located++;
+        else missedSeeds.push({ seed, verdict: 'mismatch, not located' });
       } else {
         missed[result.verdict] = (missed[result.verdict] ?? 0) + 1;
+        missedSeeds.push({ seed, verdict: result.verdict, ...(result.message ? { note: result.message } : {}) });
       }
     }
     const m: DetectionMeasurement = {
       kind: op.kind, forward: op.forward, elements: op.elements, bugParam: op.bugParam, bugCount: bug.count, bugRelative: bug.relative,
-      trials, firstSeed, caught, located, missed, lowerBound95: clopperPearsonLower(caught, trials, 0.05),
+      trials, firstSeed, caught, located, missed, missedSeeds, lowerBound95: clopperPearsonLower(caught, trials, 0.05),
       medianMs: median(times), maxMs: Math.max(...times), methods: [...methods],
     };
     process.stdout.write(`${JSON.stringify(m)}\n`);

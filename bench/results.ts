@@ -51,6 +51,8 @@ export interface DetectionMeasurement {
   located: number;
   /** Verdicts other than mismatch, with their count. */
   missed: Record<string, number>;
+  /** The seeds of the trials not caught, with their verdict, and of caught trials not located (absent in older runs). */
+  missedSeeds?: { seed: number; verdict: string; note?: string }[];
   /** Lower bound of the catch probability at 95 % confidence (Clopper–Pearson, one-sided). */
   lowerBound95: number;
   medianMs: number;

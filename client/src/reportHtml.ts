@@ -5,6 +5,7 @@
 // Pure (no editor API) so it can be tested outside the editor.
 
 import type { OpResult, ParamResult, StepScan, WorstElement } from '../../server/src/model/types';
+import { formatIndex, formatNumber, formatRelError as sci, formatShape, formatTime, NO_FIGURE } from '../../server/src/present/format';
 import { coverageSection } from './reportCoverage';
 
 export interface ReportPageInput {
@@ -15,7 +16,10 @@ export interface ReportPageInput {
   nonce: string;
   /** The webview's own source for the policy (`webview.cspSource`). */
   cspSource: string;
-  /** The relative tolerance the op was judged with, drawn as a line on each step plot. */
+  /**
+   * The relative tolerance the op was judged with, drawn as a line on each step plot when a
+   * parameter does not carry its own (ParamResult.tolerance, the engine's applied one, wins).
+   */
   tolerance?: number;
 }
 
@@ -38,7 +42,7 @@ const MAP_SIDE = 320;
 export function reportPage(input: ReportPageInput): string {
   const { result, nonce } = input;
   const csp = `default-src 'none'; style-src 'nonce-${nonce}'; img-src ${input.cspSource} data:;`;
-  const sections = result.params.map((p) => paramSection(p, input.tolerance)).join('\n');
+  const sections = result.params.map((p) => paramSection(p, p.tolerance ?? input.tolerance)).join('\n');
   const hints = result.hints.length > 0 ? `<ul class="hints">${result.hints.map((h) => `<li>${esc(h)}</li>`).join('')}</ul>` : '';
   return `<!DOCTYPE html>
 <html lang="en">
@@ -51,7 +55,7 @@ export function reportPage(input: ReportPageInput): string {
 </head>
 <body>
 <h1>${esc(result.forward ?? 'op')} <span class="verdict ${esc(result.verdict)}">${esc(result.verdict)}</span></h1>
-<p class="meta">${esc(input.fileLabel)}:${result.line} · ${result.kind ?? 'backward'} ${esc(result.backward ?? '—')} · seed ${result.seed} · ${result.elapsedMs.toFixed(1)} ms · ${result.calls.forward} forward / ${result.calls.backward} backward calls</p>
+<p class="meta">${esc(input.fileLabel)}:${result.line} · ${result.kind ?? 'backward'} ${esc(result.backward ?? '—')} · seed ${result.seed} · ${formatTime(result.elapsedMs)} · ${result.calls.forward} forward / ${result.calls.backward} backward calls</p>
 ${result.message ? `<p class="message">${esc(result.message)}</p>` : ''}
 ${hints}
 ${sections || '<p>No differentiated parameters.</p>'}
@@ -84,15 +88,15 @@ ${p.hints.length > 0 ? `<ul class="hints">${p.hints.map((h) => `<li>${esc(h)}</l
 
 function figuresTable(p: ParamResult): string {
   const rows: [string, string][] = [
-    ['shape', p.shape.length === 0 ? `${p.dtype} scalar` : `${p.dtype}[${p.shape.join(', ')}]`],
+    ['shape', p.shape.length === 0 ? `${p.dtype} scalar` : formatShape(p)],
     ['method', p.method],
     ['elements checked', `${p.checkedElements} of ${p.elements}`],
     ['max abs error', sci(p.maxAbsError)],
     ['max rel error', sci(p.maxRelError)],
-    ['detection floor (p ≥ 0.99)', typeof p.detectionFloor === 'number' ? sci(p.detectionFloor) : '—'],
-    ['worst element', p.worst ? (p.worst.index.length ? `[${p.worst.index.join(', ')}]` : 'scalar') : '—'],
-    ['backward there', p.worst ? String(p.worst.analytic) : '—'],
-    ['numeric there', p.worst ? String(p.worst.numeric) : '—'],
+    ['detection floor (p ≥ 0.99)', sci(p.detectionFloor)],
+    ['worst element', p.worst ? formatIndex(p.worst.index) : NO_FIGURE],
+    ['backward there', formatNumber(p.worst?.analytic)],
+    ['numeric there', formatNumber(p.worst?.numeric)],
   ];
   return `<table class="figures">${rows.map(([k, v]) => `<tr><th>${esc(k)}</th><td>${esc(v)}</td></tr>`).join('')}</table>`;
 }
@@ -204,10 +208,6 @@ function decadeRange(values: number[]): { lo: number; hi: number } {
 
 function f(v: number): string {
   return v.toFixed(1);
-}
-
-function sci(v: number): string {
-  return Number.isFinite(v) ? (v === 0 ? '0' : v.toExponential(2)) : '—';
 }
 
 export function esc(text: string): string {

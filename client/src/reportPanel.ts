@@ -17,7 +17,7 @@ export class ReportPanels implements vscode.Disposable {
     const client = this.ctx.running;
     if (!client) return false;
     let answer = await client.sendRequest<OpReportResult>(Methods.opReport, target);
-    if (!answer.result && answer.reason?.includes('not been checked')) {
+    if (!answer.result && answer.reasonCode === 'not-checked') {
       const checked = await client.sendRequest<CheckOpsResult>(Methods.checkOps, { uri: target.uri, forwards: [target.forward] });
       answer = checked.results[0] ? await client.sendRequest<OpReportResult>(Methods.opReport, target) : { result: null, reason: checked.reason ?? answer.reason };
     }

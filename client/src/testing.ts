@@ -5,6 +5,7 @@
 
 import * as vscode from 'vscode';
 import type { OpResult } from '../../server/src/model/types';
+import { elementName, formatNumber, formatTime, worstParam } from '../../server/src/present/format';
 import { Methods, type CheckOpsParams, type CheckOpsResult, type FileOps, type ListWorkspaceOpsResult, type OpSummary } from '../../server/src/lsp/protocol';
 import type { ProbeContext } from './context';
 
@@ -160,7 +161,7 @@ function report(run: vscode.TestRun, item: vscode.TestItem, result: OpResult): '
   const duration = result.elapsedMs;
   if (result.output) run.appendOutput(result.output.replace(/\r?\n/g, '\r\n'), undefined, item);
   // Every result leaves a line in the run's output, a pass too (its figure and time).
-  run.appendOutput(`${item.label}: ${result.verdict} — ${result.message || 'gradient agrees'} (${result.elapsedMs.toFixed(1)} ms)\r\n`, undefined, item);
+  run.appendOutput(`${item.label}: ${result.verdict} — ${result.message || 'gradient agrees'} (${formatTime(result.elapsedMs)})\r\n`, undefined, item);
   if (result.verdict === 'pass') {
     run.passed(item, duration);
     return 'passed';
@@ -171,10 +172,12 @@ function report(run: vscode.TestRun, item: vscode.TestItem, result: OpResult): '
     return 'skipped';
   }
   const message = new vscode.TestMessage(`${result.verdict}: ${result.message}`);
-  const worst = result.params.find((p) => p.verdict === result.verdict && p.worst) ?? result.params.find((p) => p.worst);
+  // The parameter the verdict rests on: the one rule of every surface (present/format.ts).
+  const worst = worstParam(result);
   if (result.verdict === 'mismatch' && worst?.worst) {
-    message.expectedOutput = `numeric ${worst.worst.numeric} at ${worst.name}[${worst.worst.index.join(', ')}]`;
-    message.actualOutput = `backward ${worst.worst.analytic} at ${worst.name}[${worst.worst.index.join(', ')}]`;
+    const where = elementName(worst.name, worst.worst.index);
+    message.expectedOutput = `numeric ${formatNumber(worst.worst.numeric)} at ${where}`;
+    message.actualOutput = `backward ${formatNumber(worst.worst.analytic)} at ${where}`;
   }
   if (item.uri && item.range) message.location = new vscode.Location(item.uri, item.range);
   if (result.verdict === 'error') {

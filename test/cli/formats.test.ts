@@ -7,7 +7,8 @@ import fc from 'fast-check';
 import type { OpResult, ParamResult } from '../../server/src/model/types';
 import { formatHuman, summaryLine } from '../../server/src/cli/human';
 import { escapeXmlAttribute, escapeXmlText, formatJunit } from '../../server/src/cli/junit';
-import { buildReport, exitCodeFor, worstParam } from '../../server/src/cli/report';
+import { buildReport, exitCodeFor } from '../../server/src/cli/report';
+import { worstParam } from '../../server/src/present/format';
 import { formatSarif, SARIF_SCHEMA_URI } from '../../server/src/cli/sarif';
 import { shouldUseColor } from '../../server/src/cli/terminal';
 import { reportViolations } from './helpers/reportShape';
@@ -41,11 +42,11 @@ const RESULTS: OpResult[] = [
   result({ file: join(CWD, 'src', 'a.ts'), line: 3, verdict: 'pass', forward: 'softplus', params: [param('x', 'pass', 3.1e-10, [5])] }),
   result({
     file: join(CWD, 'src', 'b & <c>.ts'), line: 5, verdict: 'error', forward: 'odd"name', backward: null,
-    message: 'annotation problem: unknown tag @sampel; did you mean @sample? (line 7, column 12)',
+    message: 'annotation problem: unknown tag @sampel; did you mean @sample? (line 7, column 12)', failure: 'annotation',
     problems: [{ line: 7, column: 12, message: 'unknown tag @sampel; did you mean @sample?' }],
     output: '\x1b[31mred\x1b[0m\u0001 and ]]> & <tag>\r\nsecond line',
   }),
-  result({ file: join(CWD, 'src', 'd.ts'), line: 1, verdict: 'error', forward: null, backward: null, message: 'the module could not be bundled: Could not resolve "./missing"' }),
+  result({ file: join(CWD, 'src', 'd.ts'), line: 1, verdict: 'error', forward: null, backward: null, message: 'the module could not be bundled: Could not resolve "./missing"', failure: 'bundle' }),
 ];
 
 describe('report assembly', () => {
@@ -127,12 +128,12 @@ describe('human output', () => {
       assert.equal(row[indexColumn - 1], ' ', `column boundary in: ${row}`);
     }
     const mismatchRow = rows.find((r) => r.includes('Dense.forward'))!;
-    assert.match(mismatchRow, /MISMATCH\s+weight\s+5\.0e-1\s+\[2,3\]\s+1\.5 s$/);
+    assert.match(mismatchRow, /MISMATCH\s+weight\s+5\.0e-1\s+\[2, 3\]\s+1\.5 s$/);
     assert.match(rows.find((r) => r.includes('softplus'))!, /pass\s+x\s+3\.1e-10\s+\[5\]\s+3 ms$/);
   });
 
   it('explains rows that did not pass: evidence, hints, problems at file:line:column, seed, output', () => {
-    assert.match(text, /weight \(mismatch\): max rel error 5\.0e-1, max abs error 0\.25; at weight\[2,3\] backward gives 0\.5, finite differences 0\.25/);
+    assert.match(text, /weight \(mismatch\): max rel error 5\.0e-1, max abs error 0\.25; at weight\[2, 3\] backward gives 0\.5, finite differences 0\.25/);
     assert.match(text, /hint: gradient is the transpose of the numeric one/);
     assert.match(text, /hint: gradients of weight and bias look swapped/);
     assert.match(text, /^\s+src\/b & <c>\.ts:7:12: unknown tag @sampel; did you mean @sample\?$/m);
@@ -183,6 +184,9 @@ describe('SARIF output', () => {
     assert.deepEqual(problem!.locations[0]!.physicalLocation.artifactLocation, { uri: 'src/b%20%26%20%3Cc%3E.ts', uriBaseId: '%SRCROOT%' });
     assert.match(mismatch!.message.text, /^Dense\.forward: gradient of weight disagrees with finite differences \(max relative error 5\.0e-1 at \[2, 3\]/);
     assert.match(mismatch!.message.text, /Hint: gradient is the transpose of the numeric one\./);
+    // Why an error could not be checked travels as a property, as in the JSON report.
+    const failures = results.map((r) => (r as unknown as { properties: Record<string, unknown> }).properties['failure']);
+    assert.deepEqual(failures, [undefined, 'annotation', undefined, 'bundle']);
   });
 
   it('reports an op the time limit stopped as an error of its own rule, not a warning', () => {

@@ -28,6 +28,11 @@ describe('the JSON report matches docs/report.schema.json', function () {
     const verdicts = new Set(report.pairs.map((p) => p.verdict));
     for (const v of ['pass', 'mismatch', 'error']) assert.ok(verdicts.has(v), `the workspace gives a ${v}`);
     assert.ok(report.pairs.some((p) => Array.isArray(p.problems)), 'some pair carries problems');
+    // Why an op could not be checked is a field, set exactly on the errors.
+    for (const p of report.pairs) assert.equal(p.failure !== undefined, p.verdict === 'error', `${String(p.forward)}: ${String(p.failure)}`);
+    assert.ok(report.pairs.some((p) => p.failure === 'annotation') && report.pairs.some((p) => p.failure === 'syntax'), JSON.stringify(report.pairs.map((p) => p.failure)));
+    // Every checked parameter states the tolerance it was judged with.
+    for (const p of report.pairs) for (const q of p.params as Array<{ tolerance?: number }>) assert.equal(typeof q.tolerance, 'number');
     // A validator that accepts anything would pass the lines above: these must fail.
     const wrongVerdict = structuredClone(report);
     wrongVerdict.pairs[0]!.verdict = 'ok';

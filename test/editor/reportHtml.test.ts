@@ -60,7 +60,7 @@ describe('report page', function () {
     const html = reportPage({ result: pass, fileLabel: 'pass.ts', nonce: 'n0nce', cspSource: 'vscode-webview:' });
     const floor = pass.params[0]!.detectionFloor;
     assert.equal(typeof floor, 'number');
-    assert.match(html, new RegExp(`<th>detection floor \\(p ≥ 0\\.99\\)</th><td>${floor!.toExponential(2).replace('+', '\\+')}`));
+    assert.match(html, new RegExp(`<th>detection floor \\(p ≥ 0\\.99\\)</th><td>${floor!.toExponential(1).replace('+', '\\+')}`));
   });
 
   it('plots every recorded step error at its place on log–log axes', () => {
@@ -130,7 +130,7 @@ describe('report page: tolerance, reference curve, legend and detection floor', 
     const y = Number(/<line class="tolerance" x1="[\d.]+" y1="([\d.]+)"/.exec(svg)![1]);
     assert.ok(Math.abs(y - toY(Math.log10(level))) < 0.2, `tolerance line at ${y}, expected ${toY(Math.log10(level))}`);
     assert.match(svg, /<ul class="plotlegend"><li><span class="swatch observed"><\/span>observed/);
-    assert.match(svg, /tolerance 1\.00e-6 × \|value\|/);
+    assert.match(svg, /tolerance 1\.0e-6 × \|value\|/);
   });
 
   it('beside a wrong backward\'s flat floor, draws the V a correct one would show', () => {
@@ -152,7 +152,7 @@ describe('report page: tolerance, reference curve, legend and detection floor', 
     const p = { ...mismatch.params[0]!, detectionFloor: 3e-9 };
     const html = reportPage({ result: { ...mismatch, params: [p] }, fileLabel: 'm.ts', nonce: 'n', cspSource: 's', tolerance: 1e-6 });
     assert.match(html, /<line class="floor"/);
-    assert.match(html, /detection floor 3\.00e-9 × \|value\|/);
+    assert.match(html, /detection floor 3\.0e-9 × \|value\|/);
     const noFloor = mismatch.params.map((q) => {
       const copy = { ...q };
       delete copy.detectionFloor;

@@ -42,7 +42,9 @@ function matVec(rows: number, cols: number, wrong: [number, number][] = []) {
 }
 
 /** Softmax over one vector of n, a dense Jacobian; `wrong` adds to gradient entries (relative to the largest). */
-function softmax(n: number, wrong: [number, number][] = [], opts: { absInside?: boolean } = {}) {
+function softmax(n: number, wrong: [number, number][] = [], opts: { absInside?: boolean; dim?: { at: number; by: number; scale: number } } = {}) {
+  // With dim, logit `at` is lowered by `by` (its gradient far below the typical one) and its gradient entry scaled by `scale`.
+  const shift = (i: number): number => (opts.dim && i === opts.dim.at ? opts.dim.by : 0);
   return functionOp({
     forward: (z: Float64Array) => {
       const y = new Float64Array(n);
@@ -51,7 +53,7 @@ function softmax(n: number, wrong: [number, number][] = [], opts: { absInside?: 
       let sum = 0;
       for (let i = 0; i < n; i++) {
         // With absInside the logits pass through |z| first: a kink at 0 for every element.
-        const v = opts.absInside ? Math.abs(z[i]) : z[i];
+        const v = (opts.absInside ? Math.abs(z[i]) : z[i]) - shift(i);
         y[i] = Math.exp(v - Math.abs(top) - 2);
         sum += y[i];
       }
@@ -69,6 +71,7 @@ function softmax(n: number, wrong: [number, number][] = [], opts: { absInside?: 
       let big = 0;
       for (let i = 0; i < n; i++) big = Math.max(big, Math.abs(g[i]));
       for (const [at, rel] of wrong) g[at] += rel * big;
+      if (opts.dim) g[opts.dim.at] *= opts.dim.scale;
       return g;
     },
     params: [['z', spec('f64', [n], [-2, 2])]],
@@ -130,6 +133,31 @@ describe('engine: dot-product probes split down to single elements (Dorfman 1943
     const o = check(softmax(20_000, [[0, 1e-3]]), { seed: 11 });
     assert.equal(o.verdict, 'mismatch', show(o));
     assert.equal(wrongIndex(o, 0), 0, show(o));
+  });
+
+  it('a wrong element whose own central difference cannot resolve it is refined, not passed (softmax over 20,000)', () => {
+    // Regression: the benchmark's softmax over 100,000 (seed 5020) passed with its seeded bug, an
+    // element ~100× below the typical gradient scaled by 1 + 1e-4. The probes flagged it down to
+    // its leaf, but the element's single central difference carries the rounding of all the
+    // outputs (bound ~7e-11 against an error of ~1e-11), so it compared "ok" within its bound and
+    // the discrepancy was dropped. Here the element's logit is lowered by 4 and its gradient
+    // scaled by 1 + 4e-4: for these seeds its error (2e-11 to 8e-11) sits above the probes'
+    // threshold and below its central difference's bound (5e-11 to 9e-11).
+    for (const seed of [1, 2, 3]) {
+      const o = check(softmax(20_000, [], { dim: { at: 777, by: 4, scale: 1 + 4e-4 } }), { seed });
+      assert.equal(o.verdict, 'mismatch', show(o));
+      assert.equal(wrongIndex(o, 0), 777, show(o));
+    }
+    // Lowered by 5 and scaled by 1 + 1e-4 (seed 1), the element's discrepancy sits just above the
+    // root's threshold; a part on its path whose typical term was larger by chance used to get a
+    // larger threshold and drop it (inconclusive: "could not narrow it"). Children now keep at
+    // most their parent's tolerance term.
+    const near = check(softmax(20_000, [], { dim: { at: 777, by: 5, scale: 1 + 1e-4 } }), { seed: 1 });
+    assert.equal(near.verdict, 'mismatch', show(near));
+    assert.equal(wrongIndex(near, 0), 777, show(near));
+    // The same op without the bug still passes: the refinement resolves the element.
+    const ok = check(softmax(20_000, [], { dim: { at: 777, by: 4, scale: 1 } }), { seed: 1 });
+    assert.equal(ok.verdict, 'pass', show(ok));
   });
 
   it('a correct softmax over 20,000 passes by probes', () => {

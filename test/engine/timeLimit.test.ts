@@ -22,10 +22,11 @@ const cubeSum = functionOp({
 
 describe('engine: the time limit', () => {
   it('stops a check that runs out of time, inconclusive, with how far it got', () => {
-    // Each clock read advances 1 ms, so the baseline's timed forward calls measure 1 ms each: a
-    // slow forward, for which the engine reads the clock at every element (fullCheck.ts,
-    // clockEvery). A 50 ms limit (80 % of it for the engine: 40 ms) runs out part way, before
-    // element 120.
+    // Each clock read advances 1 ms, so the baseline's timed forward calls measure 1 ms: a slow
+    // forward, for which the engine reads the clock at every element (fullCheck.ts, clockEvery,
+    // its phases' stop at 80 %) and before every call of the op (its hard stop, at 90 %). A 50 ms
+    // limit runs out part way, before element 120, and either stop reports how far the element
+    // loop got.
     let now = 0;
     const o = runCheck(cubeSum.exposed, { op: cubeSum.op, settings: { ...DEFAULT_SETTINGS, timeLimitMs: 50 } }, () => (now += 1));
     assert.equal(o.verdict, 'inconclusive', show(o));

@@ -57,13 +57,17 @@ describe('regression test snippet', function () {
   const checker = new Checker({ settings: DEFAULT_SETTINGS, workers: 1 });
   after(() => checker.dispose());
 
+  /** The snippet of a fixture op's mismatch; `tolerance` is the one the engine must report having applied. */
   async function snippetFor(name: string, forward: string, tolerance = DEFAULT_SETTINGS.toleranceF64): Promise<string> {
     const file = join(FIXTURES, name);
     const op = discoverOps(file, readFileSync(file, 'utf8')).ops.find((o) => o.forward === forward)!;
     const [result] = await checker.checkFile(file, { filter: forward });
     assert.equal(result?.verdict, 'mismatch', result?.message);
-    const outcome = regressionTestFor(op, result!, tolerance);
+    // The engine states the tolerance it judged each parameter with; the snippet uses that one.
+    assert.deepEqual(result!.params.map((p) => p.tolerance), result!.params.map(() => tolerance));
+    const outcome = regressionTestFor(op, result!);
     assert.ok('snippet' in outcome, 'reason' in outcome ? outcome.reason : '');
+    assert.ok(outcome.snippet.includes(`const tolerance = ${tolerance};`), outcome.snippet);
     return outcome.snippet;
   }
 

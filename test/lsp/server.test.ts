@@ -247,10 +247,12 @@ describe('language server over LSP (untrusted workspace)', function () {
     assert.equal(diags[0]!.code, 'untrusted-workspace');
     assert.equal(diags[0]!.severity, DiagnosticSeverity.Information);
     const lenses = await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } }) as CodeLens[];
-    assert.match(lenses[0]!.command!.title, /untrusted/);
-    const refused = await s.connection.sendRequest<{ results: unknown[]; reason?: string }>(Methods.checkOps, { uri, force: true });
+    // One wording of "untrusted" on every surface (lsp/opStanding.ts), and a code beside it for programs.
+    assert.match(lenses[0]!.command!.title, /not checked — the workspace is not trusted/);
+    const refused = await s.connection.sendRequest<{ results: unknown[]; reason?: string; reasonCode?: string }>(Methods.checkOps, { uri, force: true });
     assert.equal(refused.results.length, 0);
     assert.match(refused.reason ?? '', /not trusted/);
+    assert.equal(refused.reasonCode, 'untrusted');
     const summary = await s.connection.sendRequest<CheckWorkspaceResult>(Methods.checkWorkspace, {});
     assert.equal(summary.pass + summary.mismatch + summary.inconclusive, 0);
     assert.match(summary.reason ?? '', /not trusted/);

@@ -14,7 +14,6 @@ import { completionsAt } from '../../server/src/lsp/completion';
 import { definitionAt } from '../../server/src/lsp/definition';
 import { diagnosticsFor } from '../../server/src/lsp/diagnostics';
 import type { DocumentFacts } from '../../server/src/lsp/documentFacts';
-import { fixFromMessage } from '../../server/src/lsp/problemFixes';
 import { specFromType } from '../../server/src/lsp/specGuess';
 import { tagHoverAt } from '../../server/src/lsp/tagHover';
 import { repoRoot } from './lspSession';
@@ -190,7 +189,7 @@ describe('writing features: quick fixes', () => {
     const op = discoverOps(FILE, fixed).ops.find((o) => o.forward === 'shade')!;
     assert.deepEqual(op.params.map((p) => p.name), ['light', 'cover']);
     // Only the backward is missing now, and it has its own quick fix.
-    assert.deepEqual(op.problems.map((p) => fixFromMessage(p.message)), [{ kind: 'create-function', name: 'shadeBackward' }]);
+    assert.deepEqual(op.problems.map((p) => p.fixes), [[{ kind: 'create-function', name: 'shadeBackward' }]]);
   });
 
   it('annotates an exported const bound to an arrow function above its statement', () => {

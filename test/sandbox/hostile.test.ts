@@ -24,6 +24,7 @@ describe('sandbox: an op that never returns', function () {
     const spin = resultOf(results, 'spin');
     assert.equal(spin.verdict, 'error', describeResults(results));
     assert.match(spin.message, /timed out after 2500 ms/);
+    assert.equal(spin.failure, 'timed-out', 'the cause is a field, not only words');
     assert.equal(spin.line, 7);
     const cube = resultOf(results, 'cube');
     assert.equal(cube.verdict, 'pass', describeResults(results));
@@ -104,6 +105,8 @@ describe('sandbox: a module whose top-level code fails', function () {
     for (const r of results) {
       assert.equal(r.verdict, 'error');
       assert.match(r.message, /timed out after 2000 ms while loading the module/);
+      // The op that ran and the one the failed load spared carry the same cause.
+      assert.equal(r.failure, 'load');
     }
     assert.equal(checker.stats.pool.jobsStarted - started, 1, 'the second op was not run');
   });
@@ -128,6 +131,8 @@ describe('sandbox: allocation bombs', function () {
       const r = resultOf(results, name);
       assert.equal(r.verdict, 'error', describeResults(results));
       assert.match(r.message, /memory|allocation failed|Invalid array length|runner process died/i);
+      // Killed for its memory, died under it, or V8 refused the allocation inside the op's code.
+      assert.ok(['memory-limit', 'runner-crashed', 'threw'].includes(r.failure ?? ''), `failure ${r.failure}`);
       // The host did not take the allocation: it grew by far less than the bomb's size.
       const grownMb = (process.memoryUsage().rss - hostBefore) / 2 ** 20;
       assert.ok(grownMb < 200, `host grew by ${grownMb.toFixed(0)} MiB`);

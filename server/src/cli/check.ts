@@ -193,7 +193,7 @@ async function checkOneFile(
     if (signal?.aborted) return [];
     return [{
       file, line: 1, forward: null, backward: null, verdict: 'error', seed: settings.seed,
-      message: `could not check this file: ${errorText(err)}`, hints: [], params: [],
+      message: `could not check this file: ${errorText(err)}`, failure: 'internal', hints: [], params: [],
       calls: { forward: 0, backward: 0 }, elapsedMs: performance.now() - started,
     }];
   }

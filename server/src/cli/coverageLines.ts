@@ -44,6 +44,7 @@ export function uncollectedNote(report: Report): string | undefined {
     if (pair.coverage && !pair.coverage.collected) byReason.set(pair.coverage.reason, (byReason.get(pair.coverage.reason) ?? 0) + 1);
   }
   if (byReason.size === 0) return undefined;
-  const parts = [...byReason].map(([reason, n]) => `${n} ${n === 1 ? 'op' : 'ops'} (${reason.replace(/^not collected: /, '')})`);
-  return `coverage not collected for ${parts.join('; ')}`;
+  // The reason is shown whole ("not collected: ..."): the report's own words, never cut apart.
+  const parts = [...byReason].map(([reason, n]) => `${n} ${n === 1 ? 'op' : 'ops'} ${reason}`);
+  return `coverage: ${parts.join('; ')}`;
 }

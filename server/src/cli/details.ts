@@ -1,8 +1,10 @@
 // The explanation of an op that did not pass, as plain lines: message, annotation problems
 // with file:line:column, per-parameter evidence and hints, seed, captured console output.
 
-import type { OpResult, ParamResult, TimeLimitStop } from '../model/types';
-import { formatIndex, formatNumber, formatRelError, stripControl } from './format';
+import { FAILURE_HEADS } from '../core/opResult';
+import type { FailureKind, OpResult, ParamResult, TimeLimitStop } from '../model/types';
+import { elementName, formatNumber, formatRelError } from '../present/format';
+import { stripControl } from './format';
 
 /** Lines of captured console output shown before the rest is cut. */
 const MAX_OUTPUT_LINES = 12;
@@ -12,7 +14,7 @@ export function detailLines(pair: OpResult, { withOutput = true }: { withOutput?
   if (pair.verdict === 'pass') return [];
   const out: string[] = [];
   const problems = pair.problems ?? [];
-  const message = withoutRestatedProblem(pair.message, problems[0]?.message);
+  const message = headOfListedFailure(pair) ?? pair.message;
   if (message) out.push(...message.split('\n'));
   if (pair.thrownAt) out.push(`thrown at ${pair.thrownAt.file}:${pair.thrownAt.line}:${pair.thrownAt.column}`);
   for (const problem of problems) out.push(`${pair.file}:${problem.line}:${problem.column}: ${problem.message}`);
@@ -34,13 +36,12 @@ export function detailLines(pair: OpResult, { withOutput = true }: { withOutput?
 }
 
 /**
- * The message without its copy of the first problem ("annotation problem: <problem> (line …)"),
- * since the problems are listed below it with their exact places.
+ * For a failure whose problems are listed below it with their exact places (annotation, syntax,
+ * bundle): the message's head alone, from the failure kind (a report without one shows the message whole).
  */
-function withoutRestatedProblem(message: string, firstProblem: string | undefined): string {
-  if (!firstProblem) return message;
-  const at = message.indexOf(`: ${firstProblem}`);
-  return at > 0 ? message.slice(0, at) : message;
+function headOfListedFailure(pair: OpResult): string | undefined {
+  if (pair.failure === undefined || (pair.problems ?? []).length === 0) return undefined;
+  return (FAILURE_HEADS as Partial<Record<FailureKind, string>>)[pair.failure];
 }
 
 /** One parameter's evidence: errors and the worst element's two values. */
@@ -50,7 +51,7 @@ export function paramLine(param: ParamResult): string {
   const head = `${param.name} (${param.verdict}): max rel error ${formatRelError(param.maxRelError)}, max abs error ${formatNumber(param.maxAbsError)}${floor}`;
   if (!param.worst) return head;
   const w = param.worst;
-  const where = w.index.length === 0 ? param.name : `${param.name}${formatIndex(w.index)}`;
+  const where = elementName(param.name, w.index);
   const own = w.relError !== undefined ? ` (relative error ${formatRelError(w.relError)})` : '';
   return `${head}; at ${where}${own} backward gives ${formatNumber(w.analytic)}, finite differences ${formatNumber(w.numeric)}`;
 }
@@ -66,6 +67,7 @@ function outputLines(output: string | undefined): string[] {
 
 /** How far a check got before its time limit, and which limit to raise. */
 export function timeLimitLine(stop: TimeLimitStop): string {
-  return `not finished: the time limit of ${stop.timeLimitMs} ms stopped the check of '${stop.param}' after ${stop.done} of ${stop.total} ${stop.stage}; `
+  const got = stop.stage === 'forward calls' ? `${stop.done} calls of the op` : `${stop.done} of ${stop.total} ${stop.stage}`;
+  return `not finished: the time limit of ${stop.timeLimitMs} ms stopped the check of '${stop.param}' after ${got}; `
     + 'an unfinished check fails the run (unless --allow-unfinished): raise the limit with --time-limit MS or "timeLimitMs" in gradient-probe.json';
 }

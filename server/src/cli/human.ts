@@ -4,8 +4,8 @@
 import type { OpResult, Report, Verdict } from '../model/types';
 import { coverageLines, uncollectedNote } from './coverageLines';
 import { detailLines } from './details';
-import { formatIndex, formatRelError, formatTime, shorten } from './format';
-import { isUnfinished, VERDICTS, worstParam } from './report';
+import { formatIndex, formatRelError, formatTime, paramRelError, shorten, worstParam } from '../present/format';
+import { isUnfinished, VERDICTS } from './report';
 
 export interface HumanOptions {
   /** ANSI colours (the caller decides: a terminal, NO_COLOR unset). */
@@ -92,7 +92,7 @@ function rowCells(pair: OpResult): string[] {
     pair.verdict === 'pass' || pair.verdict === 'inconclusive' ? pair.verdict : pair.verdict.toUpperCase(),
     param ? param.name : '-',
     // The figure beside the worst index is that element's own (one rule: model/types.ts WorstElement).
-    param ? formatRelError(param.worst?.relError ?? param.maxRelError) : '-',
+    param ? formatRelError(paramRelError(param)) : '-',
     param?.worst ? formatIndex(param.worst.index) : '-',
     formatTime(pair.elapsedMs),
   ];

@@ -3,8 +3,8 @@
 
 import type { OpResult, Report } from '../model/types';
 import { detailLines } from './details';
-import { isFailing, worstParam, type FailPolicy } from './report';
-import { formatRelError } from './format';
+import { formatRelError, paramRelError, worstParam } from '../present/format';
+import { isFailing, type FailPolicy } from './report';
 
 /** Which inconclusive ops count as failures: the CLI's own policy (--fail-on-inconclusive, --allow-unfinished). */
 export type JunitOptions = FailPolicy;
@@ -88,7 +88,7 @@ function testCase(pair: OpResult, options: JunitOptions): string {
 function headline(pair: OpResult): string {
   const param = worstParam(pair);
   if (pair.verdict === 'mismatch' && param) {
-    return `gradient of ${param.name} disagrees with finite differences (max relative error ${formatRelError(param.maxRelError)})`;
+    return `gradient of ${param.name} disagrees with finite differences (max relative error ${formatRelError(paramRelError(param))})`;
   }
   const firstProblem = pair.problems?.[0];
   if (firstProblem) return `${pair.file}:${firstProblem.line}:${firstProblem.column}: ${firstProblem.message}`;

@@ -2,7 +2,7 @@
 // folder, stable order, counts) and decides the exit code. Shared by every output format.
 
 import { isAbsolute, relative } from 'node:path';
-import type { OpResult, ParamResult, Report, ReportSummary, Verdict } from '../model/types';
+import type { OpResult, Report, ReportSummary, Verdict } from '../model/types';
 import { toSlashes } from '../project/paths';
 
 /** Verdicts in the order summaries list them. */
@@ -74,29 +74,11 @@ export function exitCodeFor(report: Report, policy: FailPolicy = {}): 0 | 1 {
   return report.pairs.some((p) => isFailing(p, policy)) ? 1 : 0;
 }
 
-/**
- * The parameter a one-line summary should name: the worst of those that share the op's verdict
- * (the one that explains it), else the worst overall.
- */
-export function worstParam(pair: Pick<OpResult, 'verdict' | 'params'>): ParamResult | undefined {
-  const sameVerdict = pair.params.filter((p) => p.verdict === pair.verdict);
-  const pool = sameVerdict.length > 0 ? sameVerdict : pair.params;
-  let worst: ParamResult | undefined;
-  for (const p of pool) {
-    if (!worst || relError(p) > relError(worst)) worst = p;
-  }
-  return worst;
-}
-
 /** A path as reports show it: relative to `cwd` with `/`; absolute only on another drive. */
 export function reportPath(file: string, cwd: string): string {
   if (!isAbsolute(file)) return toSlashes(file);
   const rel = relative(cwd, file);
   return isAbsolute(rel) ? toSlashes(file) : toSlashes(rel);
-}
-
-function relError(p: ParamResult): number {
-  return Number.isFinite(p.maxRelError) ? p.maxRelError : Number.POSITIVE_INFINITY;
 }
 
 function compare(a: string, b: string): number {

@@ -4,8 +4,8 @@
 import { pathToFileURL } from 'node:url';
 import type { OpResult, Report } from '../model/types';
 import { gapSentence } from './coverageLines';
-import { formatRelError } from './format';
-import { isUnfinished, worstParam } from './report';
+import { formatIndex, formatNumber, formatRelError, paramRelError, worstParam } from '../present/format';
+import { isUnfinished } from './report';
 
 /** SARIF 2.1.0's published JSON schema, as the standard's `$schema` property names it. */
 export const SARIF_SCHEMA_URI = 'https://json.schemastore.org/sarif-2.1.0.json';
@@ -124,6 +124,8 @@ function result(
   if (pair.forward !== null) properties['forward'] = pair.forward;
   if (pair.backward !== null) properties['backward'] = pair.backward;
   if (pair.kind !== undefined) properties['kind'] = pair.kind;
+  // Why an error could not be checked, as the JSON report's field (a property bag is free-form, SARIF 2.1.0 §3.8).
+  if (pair.failure !== undefined) properties['failure'] = pair.failure;
   const out: Record<string, unknown> = {
     ruleId,
     ruleIndex,
@@ -155,12 +157,13 @@ function messageOf(pair: OpResult): string {
   const param = worstParam(pair);
   if (pair.verdict === 'mismatch' && param && pair.kind !== undefined && pair.kind !== 'backward') {
     // The message of a Jacobian, tangent or Hessian names the wrong entry or output.
-    parts.push(`${opName(pair)}: the ${pair.kind} disagrees with finite differences (max relative error ${formatRelError(param.maxRelError)}).`);
+    parts.push(`${opName(pair)}: the ${pair.kind} disagrees with finite differences (max relative error ${formatRelError(paramRelError(param))}).`);
     parts.push(...param.hints.map((h) => `Hint: ${h}.`));
   } else if (pair.verdict === 'mismatch' && param) {
     // With an element named, the figure is that element's own relative error (one rule: model/types.ts WorstElement).
-    let text = `${opName(pair)}: gradient of ${param.name} disagrees with finite differences (max relative error ${formatRelError(param.worst?.relError ?? param.maxRelError)}`;
-    if (param.worst) text += ` at [${param.worst.index.join(', ')}]: backward ${param.worst.analytic}, numeric ${param.worst.numeric}`;
+    let text = `${opName(pair)}: gradient of ${param.name} disagrees with finite differences (max relative error ${formatRelError(paramRelError(param))}`;
+    const w = param.worst;
+    if (w) text += `${w.index.length > 0 ? ` at ${formatIndex(w.index)}` : ''}: backward ${formatNumber(w.analytic)}, numeric ${formatNumber(w.numeric)}`;
     parts.push(`${text}).`);
     parts.push(...param.hints.map((h) => `Hint: ${h}.`));
   } else {

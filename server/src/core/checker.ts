@@ -1,20 +1,27 @@
 // The Checker: the one orchestration shared by the CLI, the language server and benchmarks.
 // discovery → bundle once per file → one sandbox job per op (in parallel across runners) → OpResult.
+// Its helpers: opListing.ts (discovery, bindings), opResult.ts (report entries, failure kinds),
+// opCoverage.ts (the coverage pass's result), sourcePlaces.ts (where user code threw).
 import { setMaxListeners } from 'node:events';
-import { existsSync, readFileSync } from 'node:fs';
+import { readFileSync } from 'node:fs';
 import { dirname, relative, resolve } from 'node:path';
-import { discoverOps, type DiscoveryResult } from '../discovery/index';
 import type { CheckSettings } from '../engine/settings';
-import type { CheckOutcome, OpCoverage, OpDescriptor, OpResult, Problem } from '../model/types';
-import { Bundler, type BundleStats } from '../sandbox/bundle';
-import { UNAVAILABLE_BUILTIN_NAMESPACE } from '../sandbox/builtinStandIn';
+import type { FailureKind, OpDescriptor, OpResult, Problem } from '../model/types';
+import { Bundler, type BundleResult, type BundleStats } from '../sandbox/bundle';
 import { bundleFramesFrom } from '../sandbox/contextSetup';
-import { opCoverage } from '../sandbox/coverageMap';
-import type { MappedSegment, SourcePlace } from '../sandbox/sourceMap';
+import type { SourcePlace } from '../sandbox/sourceMap';
 import { IsolatedRunner } from '../sandbox/isolated';
-import { emptyStats, type RunnerStats, type RunResult } from '../sandbox/jobTypes';
+import { emptyStats, type RunnerStats } from '../sandbox/jobTypes';
 import { RunnerPool, type IsolationReport, type PoolStats, type RunnerPoolOptions } from '../sandbox/pool';
-import { errorResult, resultFromOutcome, summarizeProblems } from './opResult';
+import type { CheckFileOptions } from './checkFileOptions';
+import { coverageOf, INTERPRETER_NO_COVERAGE } from './opCoverage';
+import { bindingsOf, listOps } from './opListing';
+import { errorResult, FAILURE_HEADS, failureOfCause, resultFromOutcome, summarizeProblems } from './opResult';
+import { loadErrorPlace, thrownPlace } from './sourcePlaces';
+
+export { bindingsOf, listOps, type OpListing } from './opListing';
+export { coverageOf, INTERPRETER_NO_COVERAGE } from './opCoverage';
+export type { CheckFileOptions } from './checkFileOptions';
 
 /**
  * A file's checks together may take at most this many times the per-op time limit. A file
@@ -35,82 +42,6 @@ export interface CheckerOptions {
    * after the verdict's run gave a verdict. Default false.
    */
   coverage?: boolean;
-}
-
-/** Why an op run in the isolated interpreter has no coverage. */
-export const INTERPRETER_NO_COVERAGE = 'not collected: the op ran in the isolated interpreter, which does not record coverage';
-
-export interface CheckFileOptions {
-  /** The file's text (an unsaved editor buffer); default: read from disk. */
-  text?: string;
-  /** Only ops whose forward name contains this text. */
-  filter?: string;
-  signal?: AbortSignal;
-  /** Called once per op as soon as its result is known. */
-  onResult?: (result: OpResult) => void;
-  /** Overrides the Checker's settings for this call. */
-  settings?: CheckSettings;
-  /** Called with the bundle's input files (absolute paths) once the file is bundled. */
-  onBundle?: (inputs: string[]) => void;
-  /** Only ops this accepts are checked, after `filter` (the CLI's --shard); the others are left out. */
-  select?: (op: OpDescriptor) => boolean;
-  /**
-   * Given the files the ops' bundle is built from (the checked file first, then what it imports,
-   * from the bundler's own list), whether the ops must be checked (the CLI's --changed-since);
-   * false leaves every op of the file out. Without a bundle (it failed) the ops are checked.
-   */
-  inputsChanged?: (inputs: readonly string[]) => boolean;
-  /** Told how many ops `filter`, `select` or `inputsChanged` left out, and which of them did. */
-  onSkipped?: (count: number, by: 'filter' | 'select' | 'unchanged') => void;
-  /**
-   * With coverage on: when given, onResult gets each op's result as soon as its verdict is
-   * known, and this gets the same op's result again once its coverage is there (the returned
-   * results carry it too). Without it, onResult waits for the coverage.
-   */
-  onCoverage?: (result: OpResult) => void;
-  /** Collect coverage in this call (default true; only a Checker made with `coverage` can). */
-  coverage?: boolean;
-}
-
-/** The ops of a file without running anything (code lenses, hovers, the tests view). */
-export interface OpListing extends DiscoveryResult {
-  /** Absolute path. */
-  file: string;
-  /** Set when the file could not be read; ops and fileProblems are then empty. */
-  readError?: string;
-}
-
-/** Discovers the ops of a file from the given text or the disk. Never throws. */
-export function listOps(file: string, text?: string): OpListing {
-  const abs = resolve(file);
-  let source = text;
-  if (source === undefined) {
-    try {
-      source = readFileSync(abs, 'utf8');
-    } catch (e) {
-      return { file: abs, ops: [], fileProblems: [], readError: (e as Error).message };
-    }
-  }
-  return { file: abs, ...discoverOps(abs, source) };
-}
-
-/** The top-level names the sandbox must expose for an op (see OpTarget). */
-export function bindingsOf(op: OpDescriptor): string[] {
-  const t = op.target;
-  const names: string[] = [];
-  if (t.kind === 'method') {
-    if (t.className) names.push(t.className);
-  } else if (t.objectName) {
-    names.push(t.objectName);
-  } else {
-    names.push(t.forwardName);
-  }
-  if (!t.backwardIsMethod && !t.libraryGradient) names.push(t.backwardName);
-  // A @hessian op also calls the forward's @backward (its reference when that passes).
-  if (op.gradient && !op.gradient.backwardIsMethod && !names.includes(op.gradient.backwardName)) names.push(op.gradient.backwardName);
-  if (t.samplesFactory) names.push(t.samplesFactory);
-  if (t.constructFactory) names.push(t.constructFactory);
-  return names;
 }
 
 export interface CheckerStats {
@@ -179,7 +110,7 @@ export class Checker {
       return r;
     };
     if (text === undefined) {
-      return [emit(errorResult(abs, null, settings, `cannot read the file: ${readError ?? 'unknown error'}`))];
+      return [emit(errorResult(abs, null, settings, 'unreadable', `cannot read the file: ${readError ?? 'unknown error'}`))];
     }
     const source = text;
     const listing = listOps(abs, source);
@@ -201,21 +132,21 @@ export class Checker {
     }
 
     if (listing.fileProblems.length > 0) {
-      const message = `the file has a syntax error, so none of its ops can run: ${summarizeProblems(listing.fileProblems)}`;
+      const message = `${FAILURE_HEADS.syntax}: ${summarizeProblems(listing.fileProblems)}`;
       if (ops.length === 0) {
         // Report the broken file only when it looks like it holds ops and none was left out on purpose.
         if (filter || listing.ops.length > 0 || !source.includes('@backward')) return [];
         if (opts.inputsChanged && !opts.inputsChanged([abs])) return [];
-        return [emit(errorResult(abs, null, settings, message, { line: listing.fileProblems[0]?.line, problems: listing.fileProblems }))];
+        return [emit(errorResult(abs, null, settings, 'syntax', message, { line: listing.fileProblems[0]?.line, problems: listing.fileProblems }))];
       }
-      return ops.map((op) => emit(errorResult(abs, op, settings, message, { problems: [...listing.fileProblems, ...op.problems] })));
+      return ops.map((op) => emit(errorResult(abs, op, settings, 'syntax', message, { problems: [...listing.fileProblems, ...op.problems] })));
     }
 
     const results: Array<OpResult | undefined> = new Array(ops.length);
     const runnable: number[] = [];
     ops.forEach((op, i) => {
       if (op.problems.length > 0) {
-        results[i] = emit(errorResult(abs, op, settings, `annotation problem: ${summarizeProblems(op.problems)}`, { problems: op.problems }));
+        results[i] = emit(errorResult(abs, op, settings, 'annotation', `${FAILURE_HEADS.annotation}: ${summarizeProblems(op.problems)}`, { problems: op.problems }));
       } else {
         runnable.push(i);
       }
@@ -235,7 +166,7 @@ export class Checker {
       const location = bundle.location;
       const problems = location && location.file === abs ? [{ line: location.line, column: location.column, message: bundle.message }] : undefined;
       for (const i of runnable) {
-        results[i] = emit(errorResult(abs, ops[i], settings, `the module could not be bundled: ${bundle.message}`, { problems }));
+        results[i] = emit(errorResult(abs, ops[i], settings, 'bundle', `${FAILURE_HEADS.bundle}: ${bundle.message}`, { problems }));
       }
       return results as OpResult[];
     }
@@ -245,106 +176,114 @@ export class Checker {
     } catch {
       // A failing listener must not stop the checks.
     }
+    await this.runOps({ abs, source, bundle, settings, opts, emit }, runnable.map((i) => ({ op: ops[i]!, done: (r) => { results[i] = r; } })));
+    return results as OpResult[];
+  }
 
-    // The per-file cap and the caller's signal both stop what is still queued or running.
-    const stop = new AbortController();
-    // Every queued op listens to it (one listener each): not a leak, whatever Node's default of 10 says.
-    setMaxListeners(runnable.length + 10, stop.signal);
+  /**
+   * Runs the bundled ops of one file in the runners, under one stop: the caller's signal, the
+   * per-file time cap, or the module failing while it loads (the other ops would fail the same way).
+   */
+  private async runOps(file: FileRun, jobs: Array<{ op: OpDescriptor; done: (result: OpResult) => void }>): Promise<void> {
+    const { settings, opts } = file;
+    const stop: FileStop = { controller: new AbortController(), reason: 'cancelled', failure: 'cancelled', coverageStops: new Set() };
+    const signal = stop.controller.signal;
+    // One listener per queued op (the pool's) plus these few, by design: not a leak, whatever Node's default of 10 says.
+    setMaxListeners(jobs.length + 10, signal);
     const fileLimitMs = settings.timeLimitMs * FILE_TIME_LIMIT_FACTOR;
-    let stopReason = 'cancelled';
-    // Where the module threw while loading, when that is a line of this file.
-    let loadProblems: Problem[] | undefined;
     // Each op's coverage run has its own stop; one listener stops them all with the file.
-    const coverageStops = new Set<AbortController>();
-    // One listener per queued op (the pool's) plus these few, by design: not a leak.
-    setMaxListeners(runnable.length + 4, stop.signal);
-    stop.signal.addEventListener('abort', () => { for (const c of coverageStops) c.abort(); }, { once: true });
-    const onCallerAbort = (): void => stop.abort();
+    signal.addEventListener('abort', () => { for (const c of stop.coverageStops) c.abort(); }, { once: true });
+    const onCallerAbort = (): void => stop.controller.abort();
     opts.signal?.addEventListener('abort', onCallerAbort, { once: true });
-    if (opts.signal?.aborted) stop.abort();
+    if (opts.signal?.aborted) stop.controller.abort();
     const capTimer = setTimeout(() => {
-      stopReason = `not finished: the file's checks reached their total time limit of ${fileLimitMs} ms (${FILE_TIME_LIMIT_FACTOR} × the per-op limit)`;
-      stop.abort();
+      stop.reason = `not finished: the file's checks reached their total time limit of ${fileLimitMs} ms (${FILE_TIME_LIMIT_FACTOR} × the per-op limit)`;
+      stop.failure = 'file-time-limit';
+      stop.controller.abort();
     }, fileLimitMs);
     capTimer.unref();
     try {
-      await Promise.all(
-        runnable.map(async (i) => {
-          const op = ops[i];
-          // Isolated mode: the op runs in the WebAssembly interpreter instead of a runner process.
-          const interpreted = settings.isolation === 'interpreter';
-          const runner = interpreted ? this.interpreter() : this.pool;
-          const job = { bundleKey: bundle.key, bundleCode: bundle.code, op, settings };
-          const run = await runner.run({ ...job, signal: stop.signal });
-          // The coverage run repeats the job in its own runners once the verdict's run gave a
-          // verdict: an op that failed (a hang, an allocation bomb) never runs twice, and no
-          // coverage run competes with the verdict's run of the same op.
-          const coverageStop = new AbortController();
-          const wantCoverage = !interpreted && this.coverageOptions !== undefined && opts.coverage !== false
-            && !stop.signal.aborted && 'outcome' in run && run.outcome.verdict !== 'error';
-          if (wantCoverage) coverageStops.add(coverageStop);
-          const coverageRun = wantCoverage ? this.coverageRunners().run({ ...job, signal: coverageStop.signal }) : undefined;
-          if ('error' in run && run.cause === 'load') {
-            const place = loadErrorPlace(abs, run.bundleFrames ?? [], bundle.originalPlace);
-            if (place) {
-              run.error += place.file === abs ? ` (line ${place.line})` : ` (at ${relative(dirname(abs), place.file)}:${place.line}:${place.column})`;
-              if (place.file === abs) loadProblems = [{ line: place.line, column: place.column, message: run.error }];
-            }
-            if (!stop.signal.aborted) {
-              // The module itself fails before any op code runs: the other ops of this file
-              // would meet the same failure (or the same hang), so they are not run.
-              stopReason = run.error;
-              stop.abort();
-            }
-          }
-          let thrownAt: SourcePlace | undefined;
-          if ('outcome' in run && run.outcome.thrownFrames !== undefined) {
-            // The op's own code threw: name its place in the user's source, not the bundle's.
-            const place = thrownPlace(bundleFramesFrom(run.outcome.thrownFrames), bundle.originalPlace);
-            delete run.outcome.thrownFrames;
-            // Reported as a field (thrownAt), not in the message: the message stays the engine's own words.
-            if (place) thrownAt = place;
-          }
-          const result =
-            'outcome' in run
-              ? resultFromOutcome(abs, op, run.outcome, run.elapsedMs, run.output)
-              : errorResult(abs, op, settings, run.cause === 'cancelled' ? stopReason : run.error, {
-                  elapsedMs: run.elapsedMs,
-                  output: run.output,
-                  problems: run.cause === 'load' || run.cause === 'cancelled' ? loadProblems : undefined,
-                });
-          if (thrownAt) result.thrownAt = { file: thrownAt.file, line: thrownAt.line, column: thrownAt.column };
-          if (interpreted) result.isolation = 'interpreter';
-          if (interpreted && this.coverageOptions && opts.coverage !== false && result.verdict !== 'error') {
-            result.coverage = { collected: false, reason: INTERPRETER_NO_COVERAGE };
-          }
-          const early = coverageRun !== undefined && opts.onCoverage !== undefined;
-          if (!coverageRun || early) results[i] = emit(result);
-          if (coverageRun) {
-            const coverageResult = await coverageRun;
-            coverageStops.delete(coverageStop);
-            const covered: OpResult = { ...result };
-            if ('outcome' in run && run.outcome.verdict !== 'error') {
-              covered.coverage = coverageOf(op, run.outcome, coverageResult, source, bundle.code, bundle.segments);
-            }
-            if (early) {
-              results[i] = covered;
-              try {
-                if (covered.coverage) opts.onCoverage?.(covered);
-              } catch {
-                // As with onResult: a failing listener costs no other op its result.
-              }
-            } else {
-              results[i] = emit(covered);
-            }
-          }
-        }),
-      );
+      await Promise.all(jobs.map(async ({ op, done }) => this.runOp(file, stop, op, done)));
     } finally {
       clearTimeout(capTimer);
       opts.signal?.removeEventListener('abort', onCallerAbort);
     }
-    return results as OpResult[];
+  }
+
+  /** One op's verdict run, then (when asked for) its coverage run; `done` gets the result each time it changes. */
+  private async runOp(file: FileRun, stop: FileStop, op: OpDescriptor, done: (result: OpResult) => void): Promise<void> {
+    const { abs, bundle, settings, opts, emit } = file;
+    const signal = stop.controller.signal;
+    // Isolated mode: the op runs in the WebAssembly interpreter instead of a runner process.
+    const interpreted = settings.isolation === 'interpreter';
+    const runner = interpreted ? this.interpreter() : this.pool;
+    const job = { bundleKey: bundle.key, bundleCode: bundle.code, op, settings };
+    const run = await runner.run({ ...job, signal });
+    // The coverage run repeats the job in its own runners once the verdict's run gave a
+    // verdict: an op that failed (a hang, an allocation bomb) never runs twice, and no
+    // coverage run competes with the verdict's run of the same op.
+    const coverageStop = new AbortController();
+    const wantCoverage = !interpreted && this.coverageOptions !== undefined && opts.coverage !== false
+      && !signal.aborted && 'outcome' in run && run.outcome.verdict !== 'error';
+    if (wantCoverage) stop.coverageStops.add(coverageStop);
+    const coverageRun = wantCoverage ? this.coverageRunners().run({ ...job, signal: coverageStop.signal }) : undefined;
+    if ('error' in run && run.cause === 'load') {
+      const place = loadErrorPlace(abs, run.bundleFrames ?? [], bundle.originalPlace);
+      if (place) {
+        run.error += place.file === abs ? ` (line ${place.line})` : ` (at ${relative(dirname(abs), place.file)}:${place.line}:${place.column})`;
+        if (place.file === abs) stop.loadProblems = [{ line: place.line, column: place.column, message: run.error }];
+      }
+      if (!signal.aborted) {
+        // The module itself fails before any op code runs: the other ops of this file
+        // would meet the same failure (or the same hang), so they are not run.
+        stop.reason = run.error;
+        stop.failure = 'load';
+        stop.controller.abort();
+      }
+    }
+    let thrownAt: SourcePlace | undefined;
+    if ('outcome' in run && run.outcome.thrownFrames !== undefined) {
+      // The op's own code threw: name its place in the user's source, not the bundle's.
+      const place = thrownPlace(bundleFramesFrom(run.outcome.thrownFrames), bundle.originalPlace);
+      delete run.outcome.thrownFrames;
+      // Reported as a field (thrownAt), not in the message: the message stays the engine's own words.
+      if (place) thrownAt = place;
+    }
+    let result: OpResult;
+    if ('outcome' in run) {
+      result = resultFromOutcome(abs, op, run.outcome, run.elapsedMs, run.output);
+    } else {
+      const cancelled = run.cause === 'cancelled';
+      result = errorResult(abs, op, settings, cancelled ? stop.failure : failureOfCause(run.cause), cancelled ? stop.reason : run.error, {
+        elapsedMs: run.elapsedMs,
+        output: run.output,
+        problems: run.cause === 'load' || cancelled ? stop.loadProblems : undefined,
+      });
+    }
+    if (thrownAt) result.thrownAt = { file: thrownAt.file, line: thrownAt.line, column: thrownAt.column };
+    if (interpreted) result.isolation = 'interpreter';
+    if (interpreted && this.coverageOptions && opts.coverage !== false && result.verdict !== 'error') {
+      result.coverage = { collected: false, reason: INTERPRETER_NO_COVERAGE };
+    }
+    const early = coverageRun !== undefined && opts.onCoverage !== undefined;
+    if (!coverageRun || early) done(emit(result));
+    if (!coverageRun) return;
+    const coverageResult = await coverageRun;
+    stop.coverageStops.delete(coverageStop);
+    const covered: OpResult = { ...result };
+    if ('outcome' in run && run.outcome.verdict !== 'error') {
+      covered.coverage = coverageOf(op, run.outcome, coverageResult, file.source, bundle.code, bundle.segments);
+    }
+    if (!early) {
+      done(emit(covered));
+      return;
+    }
+    done(covered);
+    try {
+      if (covered.coverage) opts.onCoverage?.(covered);
+    } catch {
+      // As with onResult: a failing listener costs no other op its result.
+    }
   }
 
   /** Kills the runner processes (and the interpreter's worker); the Checker cannot run checks afterwards. */
@@ -364,52 +303,23 @@ export class Checker {
   }
 }
 
-/**
- * The op's coverage from the coverage pass. It describes the verdict's check only when the pass
- * repeated that check: same verdict and the same number of forward and backward calls (the
- * engine's time budget could make a slower run do less). Otherwise no coverage is claimed.
- */
-export function coverageOf(
-  op: OpDescriptor, outcome: CheckOutcome, run: RunResult, checkedText: string, bundleCode: string, segments: () => MappedSegment[],
-): OpCoverage {
-  if (!('outcome' in run)) return { collected: false, reason: `not collected: the coverage run failed (${run.error})` };
-  if (!run.coverage) return { collected: false, reason: 'not collected: the coverage runner returned no coverage' };
-  const same = run.outcome.verdict === outcome.verdict && run.outcome.calls.forward === outcome.calls.forward && run.outcome.calls.backward === outcome.calls.backward;
-  if (!same) return { collected: false, reason: 'not collected: the coverage run did not repeat the check exactly (different calls), so its coverage would not describe this check' };
-  try {
-    return opCoverage({ op, checkedText, bundleCode, segments: segments(), blocks: run.coverage });
-  } catch (e) {
-    return { collected: false, reason: `not collected: ${(e as Error).message}` };
-  }
+/** What the ops of one file share while they run. */
+interface FileRun {
+  abs: string;
+  source: string;
+  bundle: Extract<BundleResult, { ok: true }>;
+  settings: CheckSettings;
+  opts: CheckFileOptions;
+  emit: (result: OpResult) => OpResult;
 }
 
-type PlaceFinder = (line: number, column: number) => SourcePlace | undefined;
-
-/**
- * The first bundle frame (innermost first) whose place `preferred` accepts, else the first that
- * maps anywhere. Frames in a built-in's stand-in are skipped: the error is made there, the user
- * called it elsewhere.
- */
-function firstPlace(frames: Array<{ line: number; column: number }>, originalPlace: PlaceFinder, preferred: (place: SourcePlace) => boolean): SourcePlace | undefined {
-  let first: SourcePlace | undefined;
-  for (const frame of frames) {
-    const place = originalPlace(frame.line, frame.column);
-    if (!place || place.file.includes(UNAVAILABLE_BUILTIN_NAMESPACE)) continue;
-    if (preferred(place)) return place;
-    first ??= place;
-  }
-  return first;
-}
-
-/**
- * Where user code threw: the innermost frame in the user's own files (not a package under
- * node_modules; a package's own source map can point outside it, at files that are not there).
- */
-function thrownPlace(frames: Array<{ line: number; column: number }>, originalPlace: PlaceFinder): SourcePlace | undefined {
-  return firstPlace(frames, originalPlace, (place) => !/[\\/]node_modules[\\/]/.test(place.file) && existsSync(place.file));
-}
-
-/** Where the module threw while loading: the first frame in the checked file. */
-function loadErrorPlace(file: string, frames: Array<{ line: number; column: number }>, originalPlace: PlaceFinder): SourcePlace | undefined {
-  return firstPlace(frames, originalPlace, (place) => place.file === file);
+/** The stop of one file's ops, and what an op it stopped is told. */
+interface FileStop {
+  controller: AbortController;
+  /** The message of an op the stop cancelled. */
+  reason: string;
+  failure: FailureKind;
+  /** Where the module threw while loading, when that is a line of this file. */
+  loadProblems?: Problem[];
+  coverageStops: Set<AbortController>;
 }

@@ -2,7 +2,19 @@
 // or a failure before or during its run (annotation problem, syntax error, bundle failure,
 // timeout, crash). One place, so every path fills the same fields.
 import type { CheckSettings } from '../engine/settings';
-import type { CheckOutcome, OpDescriptor, OpResult, Problem } from '../model/types';
+import type { CheckOutcome, FailureKind, OpDescriptor, OpResult, Problem } from '../model/types';
+import type { RunFailureCause } from '../sandbox/jobTypes';
+
+/**
+ * The head of an error message whose problems are its detail (listed with their places): the
+ * Checker writes "HEAD: first problem (line L, column C)", and a reader that lists the problems
+ * itself (the CLI) shows the head alone. One wording for both.
+ */
+export const FAILURE_HEADS = {
+  annotation: 'annotation problem',
+  syntax: 'the file has a syntax error, so none of its ops can run',
+  bundle: 'the module could not be bundled',
+} as const satisfies Partial<Record<FailureKind, string>>;
 
 /** The result of an op whose check produced an outcome. */
 export function resultFromOutcome(file: string, op: OpDescriptor, outcome: CheckOutcome, elapsedMs: number, output: string): OpResult {
@@ -24,6 +36,7 @@ export function errorResult(
   file: string,
   op: OpDescriptor | null,
   settings: CheckSettings,
+  failure: FailureKind,
   message: string,
   extra: { line?: number; problems?: Problem[]; elapsedMs?: number; output?: string } = {},
 ): OpResult {
@@ -31,6 +44,7 @@ export function errorResult(
     verdict: 'error',
     seed: op?.seed ?? settings.seed,
     message,
+    failure,
     hints: [],
     params: [],
     calls: { forward: 0, backward: 0 },
@@ -52,4 +66,17 @@ export function summarizeProblems(problems: Problem[]): string {
   if (!first) return '';
   const more = problems.length > 1 ? `; ${problems.length - 1} more problem${problems.length > 2 ? 's' : ''}` : '';
   return `${first.message} (line ${first.line}, column ${first.column})${more}`;
+}
+
+/** What a runner's failure cause means for the op (the Checker explains a `cancelled` by what stopped the file). */
+export function failureOfCause(cause: RunFailureCause): FailureKind {
+  switch (cause) {
+    case 'timeout': return 'timed-out';
+    case 'crash': return 'runner-crashed';
+    case 'memory': return 'memory-limit';
+    case 'load': return 'load';
+    case 'runner': return 'runner';
+    case 'closed':
+    case 'cancelled': return 'cancelled';
+  }
 }

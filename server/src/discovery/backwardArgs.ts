@@ -5,7 +5,8 @@ import type { ForwardSite } from './forwardSites';
 import type { ParsedBackward } from './otherTags';
 import type { SpanProblem } from './positions';
 import { nonNumberReturn } from './returnType';
-import { displayName, suggest } from './siteNames';
+import { displayName } from './siteNames';
+import { fixesField, suggestName } from './suggestion';
 
 /** The default list: the forward's parameters and `$dy` (a method: `$dy` alone). */
 export function defaultBackwardArgs(isMethod: boolean, paramNames: readonly string[]): BackwardArg[] {
@@ -35,7 +36,8 @@ export function explicitBackwardArgs(
       if (site.kind !== 'method') problems.push({ ...a.span, message: `@backward: '${a.name}' names a field, but ${displayName(site)} is not a method` });
       else if (!samples.has(a.name)) problems.push({ ...a.span, message: `@backward: '${a.name}' has no @sample; add \`@sample ${a.name} SPEC\` to pass it` });
     } else if (!paramNames.includes(a.name)) {
-      problems.push({ ...a.span, message: `@backward: '${a.name}' is not a parameter of ${displayName(site)}${suggest(a.name, paramNames)}` });
+      const near = suggestName(a.name, paramNames);
+      problems.push({ ...a.span, message: `@backward: '${a.name}' is not a parameter of ${displayName(site)}${near.hint}`, ...fixesField(near.fixes) });
     }
     args.push({ kind: 'param', name: a.name });
   }

@@ -15,7 +15,8 @@ import type { PositionMapper, SpanProblem } from './positions';
 import { nonNumberReturn } from './returnType';
 import { readForwardParams, sampleTargetProblem, withSample } from './forwardParams';
 import { parseSampleTag } from './sampleTag';
-import { displayName, suggest } from './siteNames';
+import { displayName } from './siteNames';
+import { fixesField, suggestName, suggestionOf } from './suggestion';
 import { classifyTag, type OpTagName } from './tagNames';
 import { libraryGradientTagNameProblem, markTensorParams, readLibraryGradientTag, tensorLibraryProblem, libraryOf, type SampleTagRef } from './tensorOps';
 import type { RawTag } from './tagText';
@@ -45,14 +46,18 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   const problems: SpanProblem[] = [];
   const ours: OurTag[] = [];
   let marked = false;
+  // A misspelt @backward (or other derivative tag) is reported as such, not as a missing one.
+  let misspeltDerivative = false;
   for (const raw of rawTags) {
     const cls = classifyTag(raw.name);
     if (cls.kind === 'ours') {
       ours.push({ name: cls.name, raw });
       if (OP_MARKING_TAGS.includes(cls.name)) marked = true;
     } else if (cls.kind === 'misspelled') {
-      problems.push({ ...raw.nameSpan, message: `unknown tag @${raw.name}; did you mean @${cls.suggestion}?` });
+      const fix = suggestionOf(`@${cls.suggestion}`);
+      problems.push({ ...raw.nameSpan, message: `unknown tag @${raw.name}${fix.hint}`, fixes: fix.fixes });
       if (OP_MARKING_TAGS.includes(cls.suggestion)) marked = true;
+      if (cls.suggestion === 'backward' || (DERIVATIVE_KINDS as readonly string[]).includes(cls.suggestion)) misspeltDerivative = true;
     } else {
       const near = libraryGradientTagNameProblem(raw);
       if (near) problems.push(near);
@@ -114,7 +119,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     sampleTargets.set(t.raw, target.name);
     const misplaced = sampleTargetProblem(target, isMethod, paramNames, samples, samplesFactory, site);
     if (misplaced) {
-      problems.push({ ...target.span, message: misplaced });
+      problems.push({ ...target.span, ...misplaced });
       continue;
     }
     samples.set(target.name, parsed.spec);
@@ -122,7 +127,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   }
   if (!samplesTag) {
     for (const name of paramNames) {
-      if (!samples.has(name) && !defaulted.has(name) && !destructured.has(name)) problems.push({ ...paramSpans.get(name)!, message: `parameter '${name}' has no @sample: add \`@sample ${name} SPEC\` (or use @samples FACTORY)` });
+      if (!samples.has(name) && !defaulted.has(name) && !destructured.has(name)) problems.push({ ...paramSpans.get(name)!, message: `parameter '${name}' has no @sample: add \`@sample ${name} SPEC\` (or use @samples FACTORY)`, fixes: [{ kind: 'add-samples' }] });
     }
   }
   const params: ParamDescriptor[] = [
@@ -149,7 +154,10 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     }
     for (const n of r.names) {
       const known = n.name.startsWith('this.') ? samples.has(n.name) : paramNames.includes(n.name);
-      if (!known) problems.push({ ...n.span, message: `@fixed: '${n.name}' is not a parameter of ${displayName(site)}${suggest(n.name, paramNames)}` });
+      if (!known) {
+        const near = suggestName(n.name, paramNames);
+        problems.push({ ...n.span, message: `@fixed: '${n.name}' is not a parameter of ${displayName(site)}${near.hint}`, ...fixesField(near.fixes) });
+      }
       else if (!fixed.includes(n.name)) fixed.push(n.name);
     }
   }
@@ -188,7 +196,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   } else if (backTag) {
     parsedBack = parseBackwardTag(backTag.raw);
     problems.push(...parsedBack.problems);
-  } else if (derivativeTags.length === 0 && !problems.some((p) => /did you mean @(backward|jacobian|tangent|hessian)\?/.test(p.message))) {
+  } else if (derivativeTags.length === 0 && !misspeltDerivative) {
     const first = ours[0]?.raw.nameSpan ?? site.nameSpan;
     problems.push({ ...first, message: `${displayName(site)} has sampling tags but no @backward: add \`@backward NAME\` naming its gradient function` });
   }
@@ -267,7 +275,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     const fnName = parsed.name ?? '';
     const where = parsed.name && parsed.nameSpan ? resolveBackward(parsed.name, parsed.nameSpan, site, ctx.bindings, own, kind) : undefined;
     const args = parsed.args
-      ? explicitDerivativeArgs(kind, parsed, { isMethod, forwardName: displayName(site), paramNames, sampledFields, suggest: (n) => suggest(n, paramNames) }, own)
+      ? explicitDerivativeArgs(kind, parsed, { isMethod, forwardName: displayName(site), paramNames, sampledFields, suggest: (n) => suggestName(n, paramNames) }, own)
       : defaultDerivativeArgs(kind, paramNames, params, fixed, samplesFactory !== undefined);
     if (kind === 'hessian') {
       const returns = nonNumberReturn(site.fn?.type);

@@ -4,6 +4,7 @@
 import type { BackwardArg, OpKind, ParamDescriptor } from '../model/types';
 import { TagCursor, type Token } from './lexer';
 import type { Span, SpanProblem } from './positions';
+import { fixesField, type Suggestion } from './suggestion';
 import type { RawTag } from './tagText';
 
 /** The kinds whose tag this module parses. */
@@ -156,7 +157,7 @@ export function defaultDerivativeArgs(kind: DerivativeKind, paramNames: readonly
 export function explicitDerivativeArgs(
   kind: DerivativeKind,
   parsed: ParsedDerivative,
-  opts: { isMethod: boolean; forwardName: string; paramNames: readonly string[]; sampledFields: ReadonlySet<string>; suggest: (name: string) => string },
+  opts: { isMethod: boolean; forwardName: string; paramNames: readonly string[]; sampledFields: ReadonlySet<string>; suggest: (name: string) => Suggestion },
   problems: SpanProblem[],
 ): BackwardArg[] {
   const args: BackwardArg[] = [];
@@ -175,7 +176,8 @@ export function explicitDerivativeArgs(
       if (!opts.isMethod) problems.push({ ...w.span, message: `@${kind}: ${what} names a field, but ${opts.forwardName} is not a method` });
       else if (!opts.sampledFields.has(a.name)) problems.push({ ...w.span, message: `@${kind}: '${a.name}' has no @sample; add \`@sample ${a.name} SPEC\`` });
     } else if (!opts.paramNames.includes(a.name)) {
-      problems.push({ ...w.span, message: `@${kind}: ${what} is not a parameter of ${opts.forwardName}${opts.suggest(a.name)}` });
+      const near = opts.suggest(a.name);
+      problems.push({ ...w.span, message: `@${kind}: ${what} is not a parameter of ${opts.forwardName}${near.hint}`, ...fixesField(near.fixes) });
     }
   }
   if (kind === 'tangent' && tangents === 0 && parsed.listSpan) {

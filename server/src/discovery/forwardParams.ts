@@ -1,11 +1,12 @@
 // The forward's parameters as discovery sees them (plain names, destructured patterns, defaults,
 // a customGrad's save function left out) and how a @sample tag's target fits them.
 import ts from 'typescript';
-import type { ParamDescriptor, SampleSpec } from '../model/types';
+import type { ParamDescriptor, ProblemFix, SampleSpec } from '../model/types';
 import type { ForwardSite } from './forwardSites';
 import type { Span, SpanProblem } from './positions';
 import type { SampleTarget } from './sampleTag';
-import { displayName, suggest } from './siteNames';
+import { displayName } from './siteNames';
+import { fixesField, suggestName } from './suggestion';
 import { customGradSaveParam } from './tensorOps';
 import type { RawTag } from './tagText';
 
@@ -67,11 +68,14 @@ export function sampleTargetProblem(
   samples: ReadonlyMap<string, unknown>,
   samplesFactory: string | undefined,
   site: ForwardSite,
-): string | undefined {
-  if (target.isField && !isMethod) return `'${target.name}': this.FIELD samples only apply to methods`;
-  if (!target.isField && !paramNames.includes(target.name)) return `@sample: '${target.name}' is not a parameter of ${displayName(site)}${suggest(target.name, paramNames)}`;
-  if (samples.has(target.name)) return `@sample ${target.name} is given twice`;
-  if (!target.isField && samplesFactory) return `@sample ${target.name} conflicts with @samples ${samplesFactory}: the factory supplies the arguments (use @fixed for ones not differentiated)`;
+): { message: string; fixes?: ProblemFix[] } | undefined {
+  if (target.isField && !isMethod) return { message: `'${target.name}': this.FIELD samples only apply to methods` };
+  if (!target.isField && !paramNames.includes(target.name)) {
+    const near = suggestName(target.name, paramNames);
+    return { message: `@sample: '${target.name}' is not a parameter of ${displayName(site)}${near.hint}`, ...fixesField(near.fixes) };
+  }
+  if (samples.has(target.name)) return { message: `@sample ${target.name} is given twice` };
+  if (!target.isField && samplesFactory) return { message: `@sample ${target.name} conflicts with @samples ${samplesFactory}: the factory supplies the arguments (use @fixed for ones not differentiated)` };
   return undefined;
 }
 

@@ -6,7 +6,7 @@ import type { DerivativeKind } from './derivativeTags';
 import type { ForwardSite } from './forwardSites';
 import { findMethod, unwrapExpression, type Binding, type ModuleBindings } from './moduleBindings';
 import type { Span, SpanProblem } from './positions';
-import { suggest } from './siteNames';
+import { fixesField, suggestName } from './suggestion';
 
 /** Kinds named in messages as the role of the function a tag names. */
 export type Role = 'backward' | DerivativeKind;
@@ -31,7 +31,8 @@ function bindingKindProblem(name: string, b: Binding, role: string): string | un
 export function checkTopLevelFunction(name: string, span: Span, role: string, bindings: ModuleBindings, problems: SpanProblem[]): void {
   const b = bindings.topLevel.get(name);
   if (!b) {
-    problems.push({ ...span, message: `${role} '${name}' is not declared at the top level of this module or imported into it${suggest(name, [...bindings.topLevel.keys()])}` });
+    const near = suggestName(name, [...bindings.topLevel.keys()]);
+    problems.push({ ...span, message: `${role} '${name}' is not declared at the top level of this module or imported into it${near.hint}`, ...fixesField(near.fixes) });
     return;
   }
   const bad = bindingKindProblem(name, b, role);
@@ -81,6 +82,8 @@ export function resolveBackward(
   if (unknownBase) return { isMethod: true };
   const where = site.kind === 'method' ? `a method of ${site.className || 'the class'}, a top-level function of this module or an import` : 'a top-level function of this module or an import';
   const candidates = [...bindings.topLevel.keys(), ...(site.classNode ? site.classNode.members.flatMap((m) => (m.name && ts.isIdentifier(m.name) ? [m.name.text] : [])) : [])];
-  problems.push({ ...span, message: `${role} '${name}' not found: it must be ${where}${suggest(name, candidates)}` });
+  // Rename to the near name, or create the missing function (a stub with the checked signature).
+  const near = suggestName(name, candidates);
+  problems.push({ ...span, message: `${role} '${name}' not found: it must be ${where}${near.hint}`, fixes: [...near.fixes, { kind: 'create-function', name }] });
   return undefined;
 }

@@ -1,7 +1,7 @@
 // Turns character offsets in the source text into the 1-based positions that problems, tags
 // and ops carry. Columns count UTF-16 code units, as the TypeScript compiler and LSP do.
 import type ts from 'typescript';
-import type { Problem, SourcePosition } from '../model/types';
+import type { Problem, ProblemFix, SourcePosition } from '../model/types';
 
 /** A stretch of the source text by character offset; `end` is exclusive. */
 export interface Span {
@@ -12,6 +12,8 @@ export interface Span {
 /** A problem found while reading a tag, still in offsets (converted once at the end). */
 export interface SpanProblem extends Span {
   message: string;
+  /** Quick fixes, the likeliest first (Problem.fixes). */
+  fixes?: ProblemFix[];
 }
 
 /** Converts offsets of one source file; offsets outside the text are clamped into it. */
@@ -31,6 +33,8 @@ export class PositionMapper {
   problem(span: SpanProblem): Problem {
     const start = this.at(span.start);
     const end = this.at(Math.max(span.start, span.end));
-    return { line: start.line, column: start.column, endLine: end.line, endColumn: end.column, message: span.message };
+    const problem: Problem = { line: start.line, column: start.column, endLine: end.line, endColumn: end.column, message: span.message };
+    if (span.fixes && span.fixes.length > 0) problem.fixes = span.fixes;
+    return problem;
   }
 }

@@ -4,7 +4,7 @@ import type { SampleDtype, SampleSpec } from '../model/types';
 import { TagCursor, type Token } from './lexer';
 import type { Span, SpanProblem } from './positions';
 import type { RawTag } from './tagText';
-import { nearestName } from '../text/nearestName';
+import { fixesField, suggestName } from './suggestion';
 import { findJsonSyntaxError } from './jsonError';
 
 const DTYPES: readonly SampleDtype[] = ['f64', 'f32', 'num', 'i32', 'int'];
@@ -79,9 +79,9 @@ function parseSpec(c: TagCursor, param: string, problems: SpanProblem[]): Sample
   }
   if (head.kind === 'punct' && head.text === '=') return parseLiteral(c, head, param, problems);
   if (head.kind !== 'word' || !DTYPES.includes(head.text as SampleDtype)) {
-    const near = head.kind === 'word' ? nearestName(head.text, DTYPES) : undefined;
-    const hint = near ? `; did you mean '${near}'?` : ' (f64, f32, num, i32 or int), or `= JSON`';
-    problems.push(c.problemAt(head, `@sample ${param}: unknown element type '${head.text}'${hint}`));
+    const near = head.kind === 'word' ? suggestName(head.text, DTYPES) : undefined;
+    const hint = near?.hint || ' (f64, f32, num, i32 or int), or `= JSON`';
+    problems.push({ ...c.problemAt(head, `@sample ${param}: unknown element type '${head.text}'${hint}`), ...fixesField(near?.fixes ?? []) });
     return undefined;
   }
   const dtype = head.text as SampleDtype;
@@ -112,9 +112,10 @@ function parseSpec(c: TagCursor, param: string, problems: SpanProblem[]): Sample
       }
       continue;
     }
-    const near = word.kind === 'word' ? nearestName(word.text, ['in', 'avoid', 'fixed']) : undefined;
-    const hint = near && near !== word.text ? `; did you mean '${near}'?` : ' (expected `in [lo, hi]`, `avoid v, ...` or `fixed`)';
-    problems.push(c.problemAt(word, `@sample ${param}: unexpected '${word.text}'${hint}`));
+    const near = word.kind === 'word' ? suggestName(word.text, ['in', 'avoid', 'fixed']) : undefined;
+    const useful = near !== undefined && near.hint !== '' && near.fixes[0]?.kind === 'replace' && near.fixes[0].text !== word.text ? near : undefined;
+    const hint = useful?.hint ?? ' (expected `in [lo, hi]`, `avoid v, ...` or `fixed`)';
+    problems.push({ ...c.problemAt(word, `@sample ${param}: unexpected '${word.text}'${hint}`), ...fixesField(useful?.fixes ?? []) });
     return undefined;
   }
   return { kind: 'random', dtype, shape, range, avoid, fixed };

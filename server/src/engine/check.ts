@@ -2,10 +2,9 @@
 // (backwardAttempt.ts: draw inputs, call forward and backward, estimate and compare every
 // parameter, refine, redraw after kinks); the other derivative kinds go to kindCheck.ts.
 
-import { describeThrown } from './builtins';
 import { CheckStop } from './failure';
 import { runBackwardAttempt } from './backwardAttempt';
-import { emptyOutcome, runAttempts, stoppedOutcome } from './kindBaseline';
+import { emptyOutcome, internalErrorOutcome, runAttempts, stoppedOutcome } from './kindBaseline';
 import { runDerivativeKind } from './kindCheck';
 import { OpHarness } from './opHarness';
 import { finiteOnly } from './reportData';
@@ -35,7 +34,7 @@ export function runCheck(exposed: Record<string, unknown>, request: OpCheckReque
     const settings: CheckSettings = { ...DEFAULT_SETTINGS, ...(request.settings ?? {}) };
     seed = typeof op.seed === 'number' ? op.seed : settings.seed;
     timeLimitMs = settings.timeLimitMs;
-    if (op.problems && op.problems.length > 0) return emptyOutcome('error', seed, op.problems[0].message, calls);
+    if (op.problems && op.problems.length > 0) return { ...emptyOutcome('error', seed, op.problems[0].message, calls), failure: 'annotation' };
     const start = clock();
     const deadline = start + TIME_BUDGET_SHARE * settings.timeLimitMs;
     if (op.kind !== undefined && op.kind !== 'backward') {
@@ -49,6 +48,6 @@ export function runCheck(exposed: Record<string, unknown>, request: OpCheckReque
     return outcome;
   } catch (e) {
     if (e instanceof CheckStop) return finiteOnly(stoppedOutcome(e, seed, timeLimitMs, harness));
-    return finiteOnly(emptyOutcome('error', seed, `internal error in the check engine: ${describeThrown(e)}`, calls));
+    return finiteOnly(internalErrorOutcome(e, seed, calls));
   }
 }

@@ -21,6 +21,14 @@ export function fail(message: string): never {
   throw new CheckStop('error', message);
 }
 
+/** A stop that is the engine's own fault (a broken invariant), not the op's: failure `internal`. */
+export class EngineFault extends CheckStop {}
+
+/** Stops the check with verdict `error` for a broken invariant of the engine itself. */
+export function failInternal(message: string): never {
+  throw new EngineFault('error', `internal error in the check engine: ${message}`);
+}
+
 /** Stops the check with verdict `error` because user code threw `thrown` (its place is reported). */
 export function failThrown(message: string, thrown: unknown): never {
   throw new CheckStop('error', message, thrown);

@@ -3,6 +3,7 @@
 
 import type { OutputLayout } from './outputLayout';
 import type { ParamSlot } from './paramSlot';
+import type { TimeLimitStop } from '../model/types';
 
 /** Where the parameters currently are, for messages about a failing forward call. */
 export interface PerturbationState {
@@ -11,6 +12,12 @@ export interface PerturbationState {
   value: number;
   /** Several elements moved together (grouped or directional perturbation). */
   several: boolean;
+  /**
+   * How far the running phase has got, for the engine's hard stop between calls
+   * (OpHarness.stopAfter) to report like the phase's own stop would; `unit` names what is
+   * counted in the message. Absent outside such a phase.
+   */
+  progress?: Omit<TimeLimitStop, 'timeLimitMs'> & { unit: string };
 }
 
 /**

@@ -70,18 +70,47 @@ function centralColumns(
   every: number,
 ): ElementEstimates {
   const count = indices.length;
-  const m = h.outputLayout.size;
   const numeric: Float64Array[] = [];
   const bound: Float64Array[] = [];
   for (let k = 0; k < K; k++) {
     numeric[k] = new F64(count);
     bound[k] = new F64(count);
   }
+  // Between the clock reads (every `every` elements), the engine's hard stop (OpHarness.stopAfter)
+  // reports this progress when a slow forward reaches it first.
+  const progress = { param: slot.name, stage: 'elements' as const, done: 0, total: count, unit };
+  const outer = h.perturbation.progress;
+  h.perturbation.progress = progress;
+  try {
+    centralColumnsLoop(h, slot, indices, ws, K, uOut, outOfTime, unit, every, numeric, bound, progress);
+  } finally {
+    h.perturbation.progress = outer;
+  }
+  return { indices, numeric, bound };
+}
+
+function centralColumnsLoop(
+  h: ForwardMap,
+  slot: ParamSlot,
+  indices: ArrayLike<number>,
+  ws: Float64Array[] | null,
+  K: number,
+  uOut: number,
+  outOfTime: () => boolean,
+  unit: 'elements' | 'columns',
+  every: number,
+  numeric: Float64Array[],
+  bound: Float64Array[],
+  progress: { done: number },
+): void {
+  const count = indices.length;
+  const m = h.outputLayout.size;
   const plus = new F64(m);
   const minus = new F64(m);
   const sums = new F64(K);
   const mags = new F64(K);
   for (let p = 0; p < count; p++) {
+    progress.done = p;
     if (p % every === every - 1 && outOfTime()) {
       stopAtTimeLimit(`check of '${slot.name}' stopped at the time limit after ${p} of ${count} ${unit}`, { param: slot.name, stage: 'elements', done: p, total: count });
     }
@@ -129,5 +158,4 @@ function centralColumns(
       bound[k][p] = (ROUNDOFF_ULPS * uOut * mags[k]) / denom;
     }
   }
-  return { indices, numeric, bound };
 }

@@ -59,21 +59,31 @@ export function secondDifferenceBlock(h: OpHarness, base: Baseline, c: Coords, s
     numeric[k] = new F64(slot.size);
     bound[k] = new F64(slot.size);
   }
-  for (let i = 0; i < slot.size; i++) {
-    indices[i] = i;
-    if (outOfTime()) {
-      stopAtTimeLimit(`check of '${slot.name}' stopped at the time limit after ${i} of ${slot.size} columns of second differences`, { param: slot.name, stage: 'elements', done: i, total: slot.size });
+  // The engine's hard stop (OpHarness.stopAfter) reports this progress when a slow forward
+  // reaches it between the clock reads.
+  const progress = { param: slot.name, stage: 'elements' as const, done: 0, total: slot.size, unit: 'columns of second differences' };
+  const outer = h.perturbation.progress;
+  h.perturbation.progress = progress;
+  try {
+    for (let i = 0; i < slot.size; i++) {
+      progress.done = i;
+      indices[i] = i;
+      if (outOfTime()) {
+        stopAtTimeLimit(`check of '${slot.name}' stopped at the time limit after ${i} of ${slot.size} columns of second differences`, { param: slot.name, stage: 'elements', done: i, total: slot.size });
+      }
+      const a = unitMove(slot, i);
+      for (let k = 0; k < n; k++) {
+        const b = unitMove(base.slots[c.slotOf[k]], c.indexOf[k]);
+        const tt = max(0, (t < maxSecondStep([a[0], b[0]]) ? t : maxSecondStep([a[0], b[0]])));
+        const d = tt > 0 ? secondDifference(h, a, b, tt, base.uOut) : null;
+        if (d === null) fail(`forward output is not finite at the second-difference points of ${elementName(slot, i)} and ${naming.rowName(k)}`);
+        const scale = a[0].coef * b[0].coef;
+        numeric[k][i] = d.value / scale;
+        bound[k][i] = d.bound / scale;
+      }
     }
-    const a = unitMove(slot, i);
-    for (let k = 0; k < n; k++) {
-      const b = unitMove(base.slots[c.slotOf[k]], c.indexOf[k]);
-      const tt = max(0, (t < maxSecondStep([a[0], b[0]]) ? t : maxSecondStep([a[0], b[0]])));
-      const d = tt > 0 ? secondDifference(h, a, b, tt, base.uOut) : null;
-      if (d === null) fail(`forward output is not finite at the second-difference points of ${elementName(slot, i)} and ${naming.rowName(k)}`);
-      const scale = a[0].coef * b[0].coef;
-      numeric[k][i] = d.value / scale;
-      bound[k][i] = d.bound / scale;
-    }
+  } finally {
+    h.perturbation.progress = outer;
   }
   const est: ElementEstimates = { indices, numeric, bound };
   const floors = floorsFor(rows, est, relativeFloorFactor(base.precision));

@@ -4,7 +4,7 @@
 // redraws the inputs after a kink, as runCheck does for @backward ops.
 
 import { F64, abs, describeThrown, formatNumber, max, min } from './builtins';
-import { CheckStop, fail, giveUp } from './failure';
+import { CheckStop, EngineFault, fail, giveUp } from './failure';
 import type { InputGuard } from './inputGuard';
 import { elementName, type OpHarness } from './opHarness';
 import { describeOutputIndex, layoutPrecision, type OutputLayout } from './outputLayout';
@@ -63,6 +63,7 @@ export function takeBaseline(h: OpHarness, op: OpDescriptor, settings: CheckSett
   let anyF32 = precision === 'f32';
   for (let s = 0; s < slots.length; s++) if (slots[s].precision === 'f32') anyF32 = true;
   const tol = typeof op.tolerance === 'number' && op.tolerance > 0 ? op.tolerance : anyF32 ? settings.toleranceF32 : settings.toleranceF64;
+  h.appliedTolerance = tol;
   return { slots, y0, layout, guard, precision, uOut: unitRoundoff(precision), tol, inputs, forwardMs };
 }
 
@@ -117,6 +118,14 @@ export function emptyOutcome(verdict: Verdict, seed: number, message: string, ca
 }
 
 /**
+ * Share of settings.timeLimitMs after the engine's deadline (check.ts, TIME_BUDGET_SHARE 0.8)
+ * when no further call of the op starts (OpHarness.stopAfter): half the slack before the
+ * sandbox's watchdog, so a call that starts just before it still ends before the watchdog when
+ * it takes less than a tenth of the limit (our choice).
+ */
+const HARD_STOP_SHARE = 0.1;
+
+/**
  * Runs attempts until one ends without a kink (at most settings.kinkResamples redraws): a kink is
  * never a mismatch. The one redraw loop of every op kind (runCheck's backward check included).
  * Never throws.
@@ -131,6 +140,8 @@ export function runAttempts(
   attemptFn: (ctx: AttemptContext) => AttemptResult,
 ): CheckOutcome {
   const outOfTime = (): boolean => clock() > deadline;
+  // Phases stop themselves at the deadline; past HARD_STOP_SHARE of the limit no call starts.
+  h.stopAfter(clock, deadline + HARD_STOP_SHARE * settings.timeLimitMs, settings.timeLimitMs);
   const kinks: KinkReport[] = [];
   let lastParams: ParamResult[] = [];
   let lastInputs: CheckOutcome['inputs'];
@@ -149,7 +160,7 @@ export function runAttempts(
         const note = `redrawn ${attempt}× after a non-differentiable point near ${elementName(first.slot, first.index)} = ${formatNumber(first.value)}`;
         result.message = result.message ? `${result.message}; ${note}` : note;
       }
-      return finiteOnly(result);
+      return finiteOnly(withTolerance(result, h));
     }
     const last = kinks[kinks.length - 1];
     const outcome = emptyOutcome(
@@ -161,11 +172,29 @@ export function runAttempts(
     // The figures of the last draw, so the report can still show what was compared.
     outcome.params = lastParams;
     if (lastInputs !== undefined) outcome.inputs = lastInputs;
-    return finiteOnly(outcome);
+    return finiteOnly(withTolerance(outcome, h));
   } catch (e) {
     if (e instanceof CheckStop) return finiteOnly(stoppedOutcome(e, seed, settings.timeLimitMs, h));
-    return finiteOnly(emptyOutcome('error', seed, `internal error in the check engine: ${describeThrown(e)}`, h.calls));
+    return finiteOnly(internalErrorOutcome(e, seed, h.calls));
   }
+}
+
+/**
+ * Stamps the tolerance the check judged with on every parameter result that has none, so a
+ * reader (the report page, the regression-test snippet) never recomputes it by another rule.
+ */
+function withTolerance(outcome: CheckOutcome, h: OpHarness): CheckOutcome {
+  const tol = h.appliedTolerance;
+  if (tol === undefined) return outcome;
+  for (let s = 0; s < outcome.params.length; s++) if (outcome.params[s].tolerance === undefined) outcome.params[s].tolerance = tol;
+  return outcome;
+}
+
+/** The outcome of a bug in the engine itself (never the op's fault). */
+export function internalErrorOutcome(e: unknown, seed: number, calls: { forward: number; backward: number }): CheckOutcome {
+  const outcome = emptyOutcome('error', seed, `internal error in the check engine: ${describeThrown(e)}`, calls);
+  outcome.failure = 'internal';
+  return outcome;
 }
 
 /**
@@ -175,6 +204,8 @@ export function runAttempts(
  */
 export function stoppedOutcome(e: CheckStop, seed: number, timeLimitMs: number, h: OpHarness | null): CheckOutcome {
   const stopped = emptyOutcome(e.verdict, seed, e.message, h !== null ? h.calls : { forward: 0, backward: 0 });
+  // The op's own code threw, or the op cannot be checked as written (the message says which part).
+  if (e.verdict === 'error') stopped.failure = e instanceof EngineFault ? 'internal' : e.thrown !== undefined ? 'threw' : 'refused';
   if (e.timeLimit !== undefined) stopped.stoppedAtTimeLimit = { ...e.timeLimit, timeLimitMs };
   if (h !== null && h.capturedInputs !== undefined) stopped.inputs = h.capturedInputs;
   if (e.thrown !== undefined) {

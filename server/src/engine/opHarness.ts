@@ -3,7 +3,7 @@
 // every failure of user code into a message naming the part of the op at fault.
 
 import { F64, describeThrown, describeValue, formatIndex, formatNumber, positionOf, reflectApply, reflectConstruct, sliceText } from './builtins';
-import { CheckStop, fail, failThrown } from './failure';
+import { CheckStop, fail, failInternal, failThrown, stopAtTimeLimit } from './failure';
 import { ForwardMap } from './forwardMap';
 import { resolveBindings, type AnyFunction } from './opBindings';
 import { readGradients } from './gradients';
@@ -31,12 +31,18 @@ export class OpHarness extends ForwardMap {
   private sample: Sample | null = null;
   /** The inputs of the current attempt as captured for the report (set by the check). */
   capturedInputs: CheckOutcome['inputs'];
+  /** The relative tolerance the current attempt judges with (set by takeBaseline), for ParamResult.tolerance. */
+  appliedTolerance: number | undefined;
   /** Output shape, fixed by the first forward call (read it through outputLayout). */
   private layout: OutputLayout | null = null;
   /** Whether the backward receives `$dy`; when not, the forward returns a number. */
   readonly takesUpstream: boolean;
   /** Tensors in and out, and the library's gradient, for ops that work with TensorFlow.js. */
   private readonly tensors: TensorBridge | null;
+  /** The hard stop (stopAfter): the clock, and the time after which no call of the op starts. */
+  private stopClock: (() => number) | null = null;
+  private stopTime = Infinity;
+  private stopLimitMs = 0;
 
   constructor(
     private readonly op: OpDescriptor,
@@ -54,6 +60,31 @@ export class OpHarness extends ForwardMap {
     this.holder = b.holder;
     this.constructFn = b.constructFn;
     this.samplesFn = b.samplesFn;
+  }
+
+  /**
+   * The engine's last line before the sandbox's watchdog: after `time` (on `clock`), no call of
+   * the op's forward or backward starts; the check stops with the time-limit outcome instead
+   * (stoppedAtTimeLimit, stage 'forward calls'). Every phase checks its own, earlier budget
+   * (outOfTime) where it can say how far it got; this catches a phase that runs on between its
+   * checks (a kink ladder, a Ridders tableau) with a slow forward.
+   */
+  stopAfter(clock: () => number, time: number, timeLimitMs: number): void {
+    this.stopClock = clock;
+    this.stopTime = time;
+    this.stopLimitMs = timeLimitMs;
+  }
+
+  private checkClock(): void {
+    if (this.stopClock === null || !(this.stopClock() > this.stopTime)) return;
+    const pr = this.perturbation.progress;
+    if (pr !== undefined) {
+      stopAtTimeLimit(`check of '${pr.param}' stopped at the time limit after ${pr.done} of ${pr.total} ${pr.unit}`, { param: pr.param, stage: pr.stage, done: pr.done, total: pr.total });
+    }
+    const slot = this.perturbation.slot;
+    const name = slot !== null ? slot.name : this.op.params.length > 0 ? this.op.params[0].name : this.op.forward;
+    const calls = this.calls.forward + this.calls.backward;
+    stopAtTimeLimit(`check of '${name}' stopped at the time limit of ${this.stopLimitMs} ms after ${calls} calls of the op`, { param: name, stage: 'forward calls', done: calls, total: calls });
   }
 
   /** Creates the instance (methods) and draws the inputs of one attempt. */
@@ -105,6 +136,7 @@ export class OpHarness extends ForwardMap {
     const s = this.sample as Sample;
     const current = this.instance as Record<string, unknown>;
     for (let i = 0; i < s.fields.length; i++) inst[s.fields[i].field] = current[s.fields[i].field];
+    this.checkClock();
     this.calls.forward++;
     let raw: unknown;
     try {
@@ -117,7 +149,7 @@ export class OpHarness extends ForwardMap {
   }
 
   get outputLayout(): OutputLayout {
-    if (this.layout === null) return fail('internal error in the check engine: the output layout was read before the first forward call');
+    if (this.layout === null) return failInternal('the output layout was read before the first forward call');
     return this.layout;
   }
 
@@ -152,6 +184,7 @@ export class OpHarness extends ForwardMap {
 
   /** Calls the forward with the current inputs and returns what it returned. */
   forwardRaw(): unknown {
+    this.checkClock();
     this.calls.forward++;
     try {
       if (this.tensors !== null) return this.tensors.callForward(this.forwardFn, this.instance ?? this.holder ?? undefined, this.args);
@@ -239,6 +272,7 @@ export class OpHarness extends ForwardMap {
       }
     }
     const madeGuard = madeNames.length > 0 ? new InputGuard(madeNames, madeValues) : null;
+    this.checkClock();
     this.calls.backward++;
     let result: unknown;
     const thisArg = this.op.target.backwardIsMethod ? (this.backwardThis ?? this.instance ?? this.holder ?? undefined) : undefined;
@@ -285,6 +319,7 @@ export class OpHarness extends ForwardMap {
    */
   derivativeRaw(y: Float64Array, placeholder: (a: BackwardArg) => unknown): unknown {
     const list = this.backwardArgs(null, y, placeholder);
+    this.checkClock();
     this.calls.backward++;
     try {
       return reflectApply(this.backwardFn, this.op.target.backwardIsMethod ? (this.instance ?? this.holder ?? undefined) : undefined, list);

@@ -140,9 +140,15 @@ function probeParam(at: ParamCheckContext, s: number, random: RandomSource): Par
     // The time limit came before every root probe ran: no floor to stand on, so no pass.
     r.verdict = 'inconclusive';
     result.note = `check of '${slot.name}' stopped at the time limit after ${search.rootProbes.length} of ${ROOT_PROBES} dot-product probes`;
+    result.timeStop = { param: slot.name, stage: 'dot-product probes', done: search.rootProbes.length, total: ROOT_PROBES };
   } else if (r.verdict === 'pass' && search.unexplored > 0 && search.kink === null) {
     r.verdict = 'inconclusive';
     result.note = describeSearch(slot, search);
+  }
+  if (r.verdict === 'inconclusive' && search.stoppedByTime && result.timeStop === undefined) {
+    // The search or a leaf's refinement was cut short by the time limit: an unfinished check.
+    const calls = at.h.calls.forward + at.h.calls.backward;
+    result.timeStop = { param: slot.name, stage: 'forward calls', done: calls, total: calls };
   }
   return result;
 }

@@ -11,6 +11,7 @@ import type { ForwardMap } from './forwardMap';
 import { elementName } from './opHarness';
 import type { ParamSlot } from './paramSlot';
 import { ROUNDOFF_ULPS, unitRoundoff } from './precision';
+import { confirmWide } from './wideConfirm';
 import { RIDDERS_MIN_INITIAL_CENTRAL_STEPS, RIDDERS_RETRY_RATIO, riddersAdaptive, type AdaptiveRiddersResult } from './ridders';
 
 /**
@@ -128,6 +129,7 @@ export function refineSuspicious(
     paramScale[k] = g;
   }
   let refined = 0;
+  const atElement = new F64(K);
   for (let q = 0; q < order.length; q++) {
     if (summary.confirmed > 0 || refined >= MAX_REFINED_ELEMENTS || outOfTime()) {
       summary.unrefined = order.length - q;
@@ -160,6 +162,21 @@ export function refineSuspicious(
     }
     refined++;
     const line = elementLine(h, slot, i);
+    // A gap far beyond every signature of truncation, a kink or rounding is a mismatch without
+    // the ladder and the tableau (wideConfirm.ts); anything less goes the full way below.
+    for (let k = 0; k < K; k++) atElement[k] = analytic[k][i];
+    const quick = confirmWide(line, ws, y0, atElement, u, tol, cmp.floors, plus, minus);
+    if (quick !== null) {
+      const k = quick.k;
+      est.numeric[k][p] = quick.numeric;
+      est.bound[k][p] = quick.allowance;
+      cmp.state[p] = ElementState.mismatch;
+      cmp.worstProbe[p] = k;
+      cmp.excess[p] = abs(analytic[k][i] - quick.numeric) - quick.allowance;
+      cmp.rel[p] = abs(analytic[k][i] - quick.numeric) / max(abs(analytic[k][i]), abs(quick.numeric), cmp.floors[k], 1e-300);
+      summary.confirmed++;
+      continue;
+    }
     const discrepancy = new F64(K);
     for (let k = 0; k < K; k++) discrepancy[k] = abs(analytic[k][i] - est.numeric[k][p]);
     const scan = findKink(line, y0, ws, u, tol, cmp.floors, discrepancy, (moved) => smallestStep(slot, i, analytic, cmp.floors, moved, u, tol, line.centralStep));

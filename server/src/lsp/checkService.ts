@@ -11,6 +11,8 @@ import { DEFAULT_SETTINGS, type CheckSettings } from '../engine/settings';
 import type { OpResult } from '../model/types';
 import { HeapTrim } from './heapTrim';
 import { settingsKey } from './settings';
+import { UNTRUSTED_REASON } from './opStanding';
+import type { ReasonCode } from './protocol';
 
 /** A result, the (text, settings) it was computed for, and the other input files' stamps then. */
 interface StoredResult {
@@ -37,8 +39,12 @@ function inputsUnchanged(inputs: ReadonlyMap<string, string>): boolean {
   return true;
 }
 
-/** Why a run did not happen; shown to the user as is. */
-export class CheckRefused extends Error {}
+/** Why a run did not happen: the message is shown to the user as is, the code is for programs. */
+export class CheckRefused extends Error {
+  constructor(message: string, readonly code: ReasonCode) {
+    super(message);
+  }
+}
 
 export interface FileCheckRequest {
   uri: string;
@@ -140,7 +146,7 @@ export class CheckService {
    */
   async check(request: FileCheckRequest): Promise<OpResult[]> {
     // Untrusted: only the isolated interpreter may run code (the session decides when).
-    if (!this.trusted && request.settings.isolation !== 'interpreter') throw new CheckRefused('the workspace is not trusted, so no code from it runs');
+    if (!this.trusted && request.settings.isolation !== 'interpreter') throw new CheckRefused(UNTRUSTED_REASON, 'untrusted');
     const key = `${hashText(request.text)}|${settingsKey(request.settings)}|${request.coverage === false ? 'no-coverage' : 'coverage'}`;
     // Unique names: a client may name an op twice (a file and its op both selected).
     const wanted = [...new Set(request.forwards ?? request.knownForwards)];

@@ -7,7 +7,7 @@ import ts from 'typescript';
 import { CodeActionKind, type CodeAction, type Diagnostic, type Range, type TextEdit } from 'vscode-languageserver';
 import type { OpDescriptor, ProblemFix } from '../model/types';
 import { DIAGNOSTIC_SOURCE, DiagnosticCodes } from './diagnostics';
-import { fixFromData, fixesFromMessage } from './problemFixes';
+import { fixesFromData } from './problemFixes';
 import { specFromType, GUESS_LENGTH } from './specGuess';
 import { indentAt, SourceModel, type ParamInfo, type SiteModel } from './sourceModel';
 import { TAG_DOCS } from './tagDocs';
@@ -28,8 +28,7 @@ export function codeActionsFor(input: CodeActionInput): CodeAction[] {
   const seen = new Set<string>();
   for (const d of input.diagnostics) {
     if (d.source !== DIAGNOSTIC_SOURCE || d.code !== DiagnosticCodes.annotation) continue;
-    const carried = fixFromData(d.data);
-    for (const fix of [...(carried ? [carried] : []), ...fixesFromMessage(String(d.message))]) {
+    for (const fix of fixesFromData(d.data)) {
       const action = actionFor(fix, d, model, input);
       // One "add samples" or "create" per op, however many diagnostics ask for it.
       if (action && !seen.has(action.title)) {

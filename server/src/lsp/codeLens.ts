@@ -4,8 +4,10 @@
 // back to the forward it belongs to.
 
 import type { CodeLens } from 'vscode-languageserver';
+import { formatRelError, formatTime, oneLine, paramRelError, worstParam } from '../present/format';
 import type { DocumentFacts } from './documentFacts';
-import { millis, oneLine, opNameRange, sci, toRange, worstParam } from './format';
+import { opNameRange, toRange } from './format';
+import { opStanding } from './opStanding';
 import { ClientCommands, ServerCommands } from './protocol';
 
 export function codeLensesFor(facts: DocumentFacts): CodeLens[] {
@@ -15,16 +17,12 @@ export function codeLensesFor(facts: DocumentFacts): CodeLens[] {
     const range = opNameRange(op, snapshot.lines);
     const args = [snapshot.uri, op.forward];
     const recheck = (title: string): CodeLens => ({ range, command: { title, command: ServerCommands.recheck, arguments: args } });
-    if (op.problems.length > 0) {
-      lenses.push({ range, command: { title: `Gradient Probe: annotation error — ${oneLine(op.problems[0]!.message, 80)}`, command: '' } });
-      continue;
-    }
-    if (facts.configError) {
-      lenses.push({ range, command: { title: 'Gradient Probe: not checked — the project configuration file has an error', command: '' } });
-      continue;
-    }
-    if (!facts.trusted && !facts.isolated) {
-      lenses.push({ range, command: { title: 'Gradient Probe: not checked in an untrusted workspace', command: '' } });
+    const standing = opStanding(op, facts);
+    if (!standing.may) {
+      const title = standing.code === 'annotation-error'
+        ? `Gradient Probe: annotation error — ${oneLine(op.problems[0]!.message, 80)}`
+        : `Gradient Probe: not checked — ${oneLine(standing.reason, 80)}`;
+      lenses.push({ range, command: { title, command: '' } });
       continue;
     }
     if (facts.isRunning(op.forward)) {
@@ -41,13 +39,13 @@ export function codeLensesFor(facts: DocumentFacts): CodeLens[] {
     // The verdict words of the CLI; a derivative other than the backward is named before them.
     const kindWord = op.kind !== undefined && op.kind !== 'backward' ? `${op.kind} ` : '';
     // Checks in the isolated interpreter say so: they are slower and limited to small ops.
-    const time = `${millis(result.elapsedMs)}${result.isolation === 'interpreter' ? ' · isolated interpreter' : ''}`;
+    const time = `${formatTime(result.elapsedMs)}${result.isolation === 'interpreter' ? ' · isolated interpreter' : ''}`;
     switch (result.verdict) {
       case 'pass':
-        lenses.push(recheck(`✓ ${kindWord}pass${p ? ` · worst ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
+        lenses.push(recheck(`✓ ${kindWord}pass${p ? ` · worst ${p.name} ${formatRelError(paramRelError(p))} rel` : ''} · ${time}`));
         break;
       case 'mismatch':
-        lenses.push(recheck(`✗ ${kindWord}mismatch${p ? ` · ${p.name} ${sci(p.maxRelError)} rel` : ''} · ${time}`));
+        lenses.push(recheck(`✗ ${kindWord}mismatch${p ? ` · ${p.name} ${formatRelError(paramRelError(p))} rel` : ''} · ${time}`));
         break;
       case 'inconclusive':
         lenses.push(recheck(`? inconclusive · ${oneLine(result.message, 60)} · ${time}`));

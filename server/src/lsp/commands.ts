@@ -5,6 +5,7 @@
 import { DEFAULT_SETTINGS } from '../engine/settings';
 import type { OpDescriptor, OpResult } from '../model/types';
 import { CheckRefused } from './checkService';
+import { opStanding } from './opStanding';
 import type { CheckOpsParams, CheckOpsResult, OpReportParams, OpReportResult, RegressionTestResult } from './protocol';
 import { regressionTestFor } from './regressionTest';
 import type { Session } from './session';
@@ -21,7 +22,7 @@ export async function checkOps(session: Session, params: CheckOpsParams, signal:
     await session.pushNow();
     return { results };
   } catch (err) {
-    if (err instanceof CheckRefused) return { results: [], reason: err.message };
+    if (err instanceof CheckRefused) return { results: [], reason: err.message, reasonCode: err.code };
     throw err;
   }
 }
@@ -29,7 +30,7 @@ export async function checkOps(session: Session, params: CheckOpsParams, signal:
 /** `workspace/executeCommand` of ServerCommands.recheck: args [uri, forward?]. */
 export async function recheck(session: Session, args: unknown[] | undefined): Promise<CheckOpsResult> {
   const [uri, forward] = args ?? [];
-  if (typeof uri !== 'string') return { results: [], reason: 're-check needs the document URI as its first argument' };
+  if (typeof uri !== 'string') return { results: [], reason: 're-check needs the document URI as its first argument', reasonCode: 'bad-request' };
   const params: CheckOpsParams = { uri, force: true, ...(typeof forward === 'string' ? { forwards: [forward] } : {}) };
   return checkOps(session, params, new AbortController().signal);
 }
@@ -38,13 +39,12 @@ export async function opReport(session: Session, params: OpReportParams): Promis
   const key = session.keyOf(params.uri);
   const facts = await session.facts(key);
   const op = facts?.snapshot.ops.find((o) => o.forward === params.forward);
-  if (!facts || !op) return { result: null, reason: `no annotated op named ${params.forward} in this file` };
+  if (!facts || !op) return { result: null, reason: `no annotated op named ${params.forward} in this file`, reasonCode: 'unknown-op' };
   const result = facts.latest(op.forward);
   if (result) return { result, tolerance: await toleranceOf(session, key, op, result) };
-  if (op.problems.length > 0) return { result: null, reason: `${op.forward} has annotation errors; fix them first` };
-  if (facts.configError) return { result: null, reason: facts.configError.message };
-  if (!facts.trusted && !facts.isolated) return { result: null, reason: 'the workspace is not trusted, so no code from it runs' };
-  return { result: null, reason: `${op.forward} has not been checked yet` };
+  const standing = opStanding(op, facts);
+  if (!standing.may) return { result: null, reason: standing.reason, reasonCode: standing.code };
+  return { result: null, reason: `${op.forward} has not been checked yet`, reasonCode: 'not-checked' };
 }
 
 export async function regressionTest(session: Session, params: OpReportParams): Promise<RegressionTestResult> {
@@ -52,14 +52,22 @@ export async function regressionTest(session: Session, params: OpReportParams): 
   const facts = await session.facts(key);
   const op = facts?.snapshot.ops.find((o) => o.forward === params.forward);
   const result = facts?.latest(params.forward);
-  if (!op || !result) return { snippet: null, reason: (await opReport(session, params)).reason ?? 'no result' };
-  const outcome = regressionTestFor(op, result, await toleranceOf(session, key, op, result));
-  return 'snippet' in outcome ? { snippet: outcome.snippet } : { snippet: null, reason: outcome.reason };
+  if (!op || !result) {
+    const why = await opReport(session, params);
+    return { snippet: null, reason: why.reason ?? 'no result', ...(why.reasonCode ? { reasonCode: why.reasonCode } : {}) };
+  }
+  const outcome = regressionTestFor(op, result);
+  return 'snippet' in outcome ? { snippet: outcome.snippet } : { snippet: null, reason: outcome.reason, reasonCode: 'no-failing-case' };
 }
 
-/** The relative tolerance an op is judged with: its @tolerance, else the setting for its element type. */
+/**
+ * The relative tolerance an op was judged with, for the report page's line: the engine's own
+ * (ParamResult.tolerance, the same for every parameter of an op). Results without one (a check
+ * stopped before it chose) fall back to the op's @tolerance or the float64 setting.
+ */
 async function toleranceOf(session: Session, key: string, op: OpDescriptor, result: OpResult): Promise<number> {
+  const applied = result.params.find((p) => p.tolerance !== undefined)?.tolerance;
+  if (applied !== undefined) return applied;
   const settings = (await session.effectiveSettings(key)).settings ?? DEFAULT_SETTINGS;
-  const f32 = result.params.some((p) => p.dtype === 'f32');
-  return op.tolerance ?? (f32 ? settings.toleranceF32 : settings.toleranceF64);
+  return op.tolerance ?? settings.toleranceF64;
 }

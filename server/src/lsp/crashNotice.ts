@@ -1,13 +1,13 @@
 // Tells the user once when a runner process died under an op, instead of on every keystroke
 // that re-checks the same broken op: one message per op until that op stops crashing.
 
-import type { OpResult } from '../model/types';
+import type { FailureKind, OpResult } from '../model/types';
 
 /**
- * Messages that mean the process running the op died or was killed for its memory, rather than
- * the op failing inside it (RunnerPool's texts, and the isolated mode's).
+ * Failures that mean the process running the op died or was killed for its memory, rather than
+ * the op failing inside it (OpResult.failure, set by the Checker from the runner's cause).
  */
-const CRASH = /^(the (runner|interpreter) process died|the op used \d+ MiB of memory)/;
+const CRASHES: ReadonlySet<FailureKind> = new Set(['runner-crashed', 'memory-limit']);
 
 export class CrashNotice {
   /** `file#forward` of ops whose latest run crashed and was already reported. */
@@ -19,7 +19,7 @@ export class CrashNotice {
   observe(fsPath: string, results: readonly OpResult[]): void {
     for (const r of results) {
       const key = `${fsPath}#${r.forward ?? ''}`;
-      if (!CRASH.test(r.message)) {
+      if (r.failure === undefined || !CRASHES.has(r.failure)) {
         this.reported.delete(key);
         continue;
       }

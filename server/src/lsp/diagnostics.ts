@@ -4,11 +4,13 @@
 
 import { pathToFileURL } from 'node:url';
 import { DiagnosticSeverity, type Diagnostic, type DiagnosticRelatedInformation } from 'vscode-languageserver';
-import type { OpDescriptor, OpResult, Problem } from '../model/types';
+import type { OpDescriptor, OpResult } from '../model/types';
 import { UNREACHED_CODE, unreachedDiagnostics } from './coverageMarks';
 import type { DocumentFacts } from './documentFacts';
-import { opNameRange, problemRange, toRange, verdictSentence, worstParam } from './format';
-import { fixOf } from './problemFixes';
+import { worstParam } from '../present/format';
+import { opNameRange, problemRange, toRange, verdictSentence } from './format';
+import { opStanding } from './opStanding';
+import { fixData } from './problemFixes';
 
 /** The `source` of every diagnostic we publish. */
 export const DIAGNOSTIC_SOURCE = 'gradient-probe';
@@ -28,8 +30,9 @@ export function diagnosticsFor(facts: DocumentFacts): Diagnostic[] {
   const { snapshot } = facts;
   const out: Diagnostic[] = [];
   for (const op of snapshot.ops) {
+    const standing = opStanding(op, facts);
     // Annotation mistakes are known without running anything, so they show even untrusted.
-    if (op.problems.length > 0) {
+    if (!standing.may && standing.code === 'annotation-error') {
       for (const problem of op.problems) {
         out.push({
           range: problemRange(problem, snapshot.lines),
@@ -37,26 +40,26 @@ export function diagnosticsFor(facts: DocumentFacts): Diagnostic[] {
           source: DIAGNOSTIC_SOURCE,
           code: DiagnosticCodes.annotation,
           message: `${op.forward}: ${problem.message}`,
-          ...withFix(problem),
+          ...fixData(problem),
         });
       }
       continue;
     }
     const range = opNameRange(op, snapshot.lines);
-    if (facts.configError) {
+    if (!standing.may && standing.code === 'config-error' && facts.configError) {
       const related: DiagnosticRelatedInformation[] = facts.configError.file
         ? [{ location: { uri: pathToFileURL(facts.configError.file).toString(), range: zeroRange() }, message: 'the project configuration file' }]
         : [];
       out.push({
         range, severity: DiagnosticSeverity.Error, source: DIAGNOSTIC_SOURCE, code: DiagnosticCodes.config,
-        message: `${op.forward} not checked: ${facts.configError.message}`, relatedInformation: related,
+        message: `${op.forward} not checked: ${standing.reason}`, relatedInformation: related,
       });
       continue;
     }
-    if (!facts.trusted && !facts.isolated) {
+    if (!standing.may) {
       out.push({
         range, severity: DiagnosticSeverity.Information, source: DIAGNOSTIC_SOURCE, code: DiagnosticCodes.untrusted,
-        message: `${op.forward} not checked: this workspace is not trusted, and checking runs its code. Trust the folder to check it.`,
+        message: `${op.forward} not checked: ${standing.reason}. Trust the folder to check it.`,
       });
       continue;
     }
@@ -111,10 +114,4 @@ function resultDiagnostic(op: OpDescriptor, result: OpResult, facts: DocumentFac
 
 function zeroRange(): Diagnostic['range'] {
   return { start: { line: 0, character: 0 }, end: { line: 0, character: 0 } };
-}
-
-/** The quick fix the problem admits, as the diagnostic's `data` (codeActions.ts reads it back). */
-function withFix(problem: Problem): { data?: { fix: NonNullable<Problem['fix']> } } {
-  const fix = fixOf(problem);
-  return fix ? { data: { fix } } : {};
 }

@@ -1,49 +1,10 @@
-// Shared wording and number formatting for what the editor shows about a result: the worst
-// parameter, figures in scientific notation, indices, and positions converted to LSP's 0-based form.
+// What the editor features share about a result: positions converted to LSP's 0-based ranges,
+// and the short verdict sentence. Figures (relative errors, values, indices, times) and the
+// worst parameter come from the presentation module every surface shares (present/format.ts).
 
-import type { OpDescriptor, OpResult, ParamResult, Problem, SourcePosition } from '../model/types';
+import type { OpDescriptor, OpResult, Problem, SourcePosition } from '../model/types';
+import { formatIndex, formatNumber, formatRelError, oneLine, paramRelError, worstParam } from '../present/format';
 import type { OpRange } from './protocol';
-
-/** The parameter that decides an op's figure: the worst mismatching one, else the largest error. */
-export function worstParam(result: OpResult): ParamResult | undefined {
-  const rank = (p: ParamResult): number => (p.verdict === 'mismatch' ? 2 : p.verdict === 'inconclusive' ? 1 : 0);
-  let best: ParamResult | undefined;
-  for (const p of result.params) {
-    if (!best || rank(p) > rank(best) || (rank(p) === rank(best) && p.maxRelError > best.maxRelError)) best = p;
-  }
-  return best;
-}
-
-/** 3.1e-10; two significant digits are what a reader compares against a tolerance. */
-export function sci(value: number | null | undefined): string {
-  if (value === null || value === undefined || !Number.isFinite(value)) return '—';
-  if (value === 0) return '0';
-  return value.toExponential(1);
-}
-
-/** A value the user compares by eye (analytic vs numeric): enough digits to see where they part. */
-export function figure(value: number | null | undefined): string {
-  if (value === null || value === undefined || !Number.isFinite(value)) return '—';
-  return Number(value.toPrecision(6)).toString();
-}
-
-export function indexText(index: number[] | undefined): string {
-  return index && index.length > 0 ? `[${index.join(', ')}]` : 'scalar';
-}
-
-export function shapeText(p: ParamResult): string {
-  return p.shape.length === 0 ? p.dtype : `${p.dtype}[${p.shape.join(', ')}]`;
-}
-
-export function millis(ms: number): string {
-  return ms < 10 ? `${ms.toFixed(1)} ms` : ms < 10_000 ? `${Math.round(ms)} ms` : `${(ms / 1000).toFixed(1)} s`;
-}
-
-/** First line of a message, cut to fit a lens or a status line. */
-export function oneLine(text: string, max = 120): string {
-  const first = text.split('\n')[0]!.trim();
-  return first.length > max ? `${first.slice(0, max - 1)}…` : first;
-}
 
 /** 1-based position (and optional end) → 0-based LSP range; a missing end covers the word there. */
 export function toRange(start: SourcePosition, end: SourcePosition | undefined, lines: readonly string[]): OpRange {
@@ -78,12 +39,12 @@ export function verdictSentence(result: OpResult): string {
   const p = worstParam(result);
   switch (result.verdict) {
     case 'pass':
-      return p ? `gradient agrees; worst ${p.name} at ${sci(p.maxRelError)} relative` : 'gradient agrees';
+      return p ? `gradient agrees; worst ${p.name} at ${formatRelError(paramRelError(p))} relative` : 'gradient agrees';
     case 'mismatch':
       // A Jacobian, tangent or Hessian names its wrong entry or output in the message.
       if (result.kind !== undefined && result.kind !== 'backward') return `${result.kind} is wrong: ${oneLine(result.message)}`;
       return p && p.worst
-        ? `gradient of ${p.name} is wrong: max relative error ${sci(p.worst.relError ?? p.maxRelError)} at ${indexText(p.worst.index)} (backward ${figure(p.worst.analytic)}, numeric ${figure(p.worst.numeric)})`
+        ? `gradient of ${p.name} is wrong: max relative error ${formatRelError(paramRelError(p))} at ${formatIndex(p.worst.index)} (backward ${formatNumber(p.worst.analytic)}, numeric ${formatNumber(p.worst.numeric)})`
         : `gradient is wrong: ${oneLine(result.message)}`;
     case 'inconclusive':
       return `inconclusive: ${oneLine(result.message || 'the numeric estimate cannot be trusted here')}`;

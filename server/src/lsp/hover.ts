@@ -5,8 +5,10 @@
 import { MarkupKind, type Hover, type Position } from 'vscode-languageserver';
 import type { OpDescriptor, ParamResult } from '../model/types';
 import { coverageHoverLine } from './coverageMarks';
+import { formatIndex, formatNumber, formatRelError, formatShape, formatTime, NO_FIGURE } from '../present/format';
 import type { DocumentFacts } from './documentFacts';
-import { contains, figure, indexText, millis, opNameRange, sci, shapeText, toRange } from './format';
+import { contains, opNameRange, toRange } from './format';
+import { opStanding } from './opStanding';
 
 export function hoverAt(facts: DocumentFacts, position: Position): Hover | null {
   const { snapshot } = facts;
@@ -31,16 +33,16 @@ export function hoverAt(facts: DocumentFacts, position: Position): Hover | null 
 /** The hover text; `onlyParam` narrows the table to the parameter a `@sample` tag draws. */
 export function opMarkdown(op: OpDescriptor, facts: DocumentFacts, onlyParam?: string): string {
   const head = `**${escape(op.forward)}** → ${op.kind ?? 'backward'} \`${op.backward}\``;
-  if (op.problems.length > 0) {
+  const standing = opStanding(op, facts);
+  if (!standing.may && standing.code === 'annotation-error') {
     return [head, '', 'Annotation errors (nothing runs until they are fixed):', '', ...op.problems.map((p) => `- line ${p.line}: ${escape(p.message)}`)].join('\n');
   }
-  if (facts.configError) return [head, '', `Not checked: ${escape(facts.configError.message)}`].join('\n');
-  if (!facts.trusted && !facts.isolated) return [head, '', 'Not checked: this workspace is not trusted, and checking runs its code.'].join('\n');
+  if (!standing.may) return [head, '', `Not checked: ${escape(standing.reason)}.`].join('\n');
   const result = facts.latest(op.forward);
   const running = facts.isRunning(op.forward);
   if (!result) return [head, '', running ? 'checking…' : 'Not checked yet: save the file or click the lens.'].join('\n');
   const lines = [
-    `${head} — **${result.verdict}** · seed ${result.seed} · ${millis(result.elapsedMs)}${result.isolation === 'interpreter' ? ' · isolated interpreter' : ''}${running ? ' · re-checking…' : ''}`,
+    `${head} — **${result.verdict}** · seed ${result.seed} · ${formatTime(result.elapsedMs)}${result.isolation === 'interpreter' ? ' · isolated interpreter' : ''}${running ? ' · re-checking…' : ''}`,
     '',
   ];
   if (result.message && result.verdict !== 'pass') lines.push(escape(result.message), '');
@@ -56,7 +58,7 @@ export function opMarkdown(op: OpDescriptor, facts: DocumentFacts, onlyParam?: s
     lines.push(`\`${escape(onlyParam)}\` is not differentiated (fixed or a literal).`, '');
   }
   // Detection floor: the smallest relative error in one element the check catches with p ≥ 0.99.
-  const floors = params.filter((p) => typeof p.detectionFloor === 'number').map((p) => `${escape(p.name)} ${sci(p.detectionFloor as number)}`);
+  const floors = params.filter((p) => typeof p.detectionFloor === 'number').map((p) => `${escape(p.name)} ${formatRelError(p.detectionFloor)}`);
   if (floors.length > 0) lines.push(`Detection floor (smallest single-element relative error caught, p ≥ 0.99): ${floors.join(', ')}`, '');
   const hints = [...(onlyParam === undefined ? result.hints : []), ...params.flatMap((p) => p.hints.map((h) => `${p.name}: ${h}`))];
   if (hints.length > 0) lines.push('Hints:', '', ...hints.map((h) => `- ${escape(h)}`), '');
@@ -68,7 +70,7 @@ export function opMarkdown(op: OpDescriptor, facts: DocumentFacts, onlyParam?: s
 
 function row(p: ParamResult): string {
   const checked = p.checkedElements < p.elements ? ` (${p.checkedElements}/${p.elements} el.)` : '';
-  return `| ${escape(p.name)} | ${shapeText(p)} | ${p.verdict} | ${sci(p.maxAbsError)} | ${sci(p.maxRelError)} | ${p.worst ? indexText(p.worst.index) : '—'} | ${figure(p.worst?.analytic)} | ${figure(p.worst?.numeric)} | ${p.method}${checked} |`;
+  return `| ${escape(p.name)} | ${formatShape(p)} | ${p.verdict} | ${formatRelError(p.maxAbsError)} | ${formatRelError(p.maxRelError)} | ${p.worst ? formatIndex(p.worst.index) : NO_FIGURE} | ${formatNumber(p.worst?.analytic)} | ${formatNumber(p.worst?.numeric)} | ${p.method}${checked} |`;
 }
 
 /** Markdown's special characters in user-controlled text (names, messages). */

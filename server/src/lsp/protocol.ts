@@ -78,10 +78,20 @@ export interface CheckOpsParams {
   /** Run even when an up-to-date result exists. */
   force?: boolean;
 }
+/**
+ * Why a request has no result, as data; `reason` words it for the user. 'unknown-op': no
+ * annotated op of that name in the file; 'annotation-error', 'config-error', 'untrusted': the op
+ * may not run (lsp/opStanding.ts); 'not-checked': it may, but has not run yet; 'no-failing-case':
+ * nothing to copy as a regression test; 'unreadable': the file cannot be read; 'bad-request': the
+ * request's arguments are wrong.
+ */
+export type ReasonCode = 'unknown-op' | 'annotation-error' | 'config-error' | 'untrusted' | 'not-checked' | 'no-failing-case' | 'unreadable' | 'bad-request';
+
 export interface CheckOpsResult {
   /** Empty when nothing ran; `reason` then says why (untrusted, configuration error, …). */
   results: OpResult[];
   reason?: string;
+  reasonCode?: ReasonCode;
 }
 
 /** client → server request: check every source file of the workspace. Cancellable. */
@@ -90,6 +100,7 @@ export interface CheckWorkspaceResult extends ReportSummary {
   files: number;
   cancelled: boolean;
   reason?: string;
+  reasonCode?: ReasonCode;
 }
 
 /** server → client notification: progress of a workspace check. */
@@ -107,10 +118,11 @@ export interface OpReportParams {
 }
 export interface OpReportResult {
   result: OpResult | null;
-  /** The relative tolerance the op is judged with (its @tolerance or the setting). */
+  /** The relative tolerance the op was judged with: the engine's applied one (ParamResult.tolerance). */
   tolerance?: number;
   /** Why there is no result (not checked yet, untrusted, unknown op). */
   reason?: string;
+  reasonCode?: ReasonCode;
 }
 
 /** client → server request: a mocha `it(...)` reproducing the op's last check. */
@@ -118,6 +130,7 @@ export type RegressionTestParams = OpReportParams;
 export interface RegressionTestResult {
   snippet: string | null;
   reason?: string;
+  reasonCode?: ReasonCode;
 }
 
 /** Commands the server executes (workspace/executeCommand); code lenses use them. */

@@ -2,8 +2,9 @@
 // that rebuilds the recorded sample, calls the backward with an all-ones upstream gradient and
 // compares the worst element with a central difference, so the bug stays caught after it is fixed.
 
+import { DEFAULT_SETTINGS } from '../engine/settings';
 import { DEFAULT_EXPORT_BINDING, type BackwardArg, type OpDescriptor, type OpResult, type ParamResult } from '../model/types';
-import { indexText } from './format';
+import { formatIndex as indexText, worstParam } from '../present/format';
 import { regressionTestForKind } from './regressionTestKinds';
 
 /**
@@ -16,16 +17,25 @@ const STEP_EXPONENT_F32 = -23;
 
 export type SnippetOutcome = { snippet: string } | { reason: string };
 
-/** `tolerance` is the relative tolerance the check used for this op. */
-export function regressionTestFor(op: OpDescriptor, result: OpResult, tolerance: number): SnippetOutcome {
+/**
+ * The relative tolerance the check judged a parameter with: the engine's own (ParamResult.tolerance).
+ * A result without one (from an engine before the field) falls back to the op's @tolerance, else float64's setting.
+ */
+export function appliedTolerance(op: OpDescriptor, param: ParamResult): number {
+  return param.tolerance ?? op.tolerance ?? DEFAULT_SETTINGS.toleranceF64;
+}
+
+/** The snippet of an op's mismatch, or why there is none. */
+export function regressionTestFor(op: OpDescriptor, result: OpResult): SnippetOutcome {
   if (result.verdict !== 'mismatch') return { reason: `${op.forward} is not a mismatch (verdict ${result.verdict}); there is no failing case to copy` };
-  if (op.kind !== undefined && op.kind !== 'backward') return regressionTestForKind(op, result, tolerance);
+  if (op.kind !== undefined && op.kind !== 'backward') return regressionTestForKind(op, result);
   if (!result.inputs) return { reason: `the sample of ${op.forward} was too large to record, so it cannot be written into a test` };
   // TensorFlow.js ops: tensors are made from the recorded arrays at every call, outputs read back.
   const tensorLib = op.target.tensorLibrary;
   const tensorOp = tensorLib !== undefined && (op.target.libraryGradient === true || op.params.some((p) => p.tensor));
-  const param = result.params.filter((p) => p.verdict === 'mismatch').sort((a, b) => b.maxRelError - a.maxRelError)[0];
-  if (!param || !param.worst) return { reason: `${op.forward}: no mismatching element was recorded` };
+  // The parameter the verdict rests on (present/format.ts, the one rule of every surface).
+  const param = worstParam(result);
+  if (!param || param.verdict !== 'mismatch' || !param.worst) return { reason: `${op.forward}: no mismatching element was recorded` };
 
   const isMethod = op.target.kind === 'method';
   const plainParams = op.params.filter((p) => !p.isField).map((p) => p.name);
@@ -101,7 +111,7 @@ export function regressionTestFor(op: OpDescriptor, result: OpResult, tolerance:
   push(1, `write(x0 - h); const xm = read(); const down = flat(forward()).reduce((s, v) => s + v, 0);`);
   push(1, `write(x0);`);
   push(1, `const numeric = (up - down) / (xp - xm);`);
-  push(1, `const tolerance = ${tolerance}; // relative, as in the check`);
+  push(1, `const tolerance = ${appliedTolerance(op, param)}; // relative, the one the check applied`);
   push(1, `assert.ok(Math.abs(analytic - numeric) <= tolerance * Math.max(Math.abs(analytic), Math.abs(numeric)),`);
   push(2, `\`${quoteTemplate(param.name)}${indexText(param.worst.index)}: backward \${analytic}, central difference \${numeric}\`);`);
   push(0, `});`);

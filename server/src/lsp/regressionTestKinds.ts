@@ -6,20 +6,23 @@
 // bug stays caught after it is fixed.
 
 import type { BackwardArg, OpDescriptor, OpResult } from '../model/types';
-import { literal, quote, type SnippetOutcome } from './regressionTest';
+import { worstParam } from '../present/format';
+import { appliedTolerance, literal, quote, type SnippetOutcome } from './regressionTest';
 
 /** Machine epsilon exponents of the dtypes (IEEE 754-2019: 2^-52 binary64, 2^-23 binary32). */
 const EPS_EXPONENT_F64 = -52;
 const EPS_EXPONENT_F32 = -23;
 
-export function regressionTestForKind(op: OpDescriptor, result: OpResult, tolerance: number): SnippetOutcome {
+export function regressionTestForKind(op: OpDescriptor, result: OpResult): SnippetOutcome {
   const kind = op.kind ?? 'backward';
   if (!result.inputs) return { reason: `the sample of ${op.forward} was too large to record, so it cannot be written into a test` };
+  // A Hessian-vector product ($v) is compared along a fixed direction, like a tangent.
   const hvp = op.backwardArgs.some((a) => a.kind === 'vector');
-  if (hvp) return { reason: `${op.forward}: a regression test is written for a Hessian matrix, not yet for a Hessian-vector product ($v)` };
-  const bad = result.params.filter((p) => p.verdict === 'mismatch').sort((a, b) => b.maxRelError - a.maxRelError)[0];
+  // The parameter the verdict rests on (present/format.ts, the one rule of every surface).
+  const worst = worstParam(result);
+  const bad = worst?.verdict === 'mismatch' ? worst : undefined;
   if (!bad) return { reason: `${op.forward}: no mismatching parameter was recorded` };
-  if (kind !== 'tangent' && !bad.worst) return { reason: `${op.forward}: no mismatching entry was recorded` };
+  if (kind !== 'tangent' && !hvp && !bad.worst) return { reason: `${op.forward}: no mismatching entry was recorded` };
 
   const isMethod = op.target.kind === 'method';
   const plainParams = op.params.filter((p) => !p.isField).map((p) => p.name);
@@ -58,18 +61,31 @@ export function regressionTestForKind(op: OpDescriptor, result: OpResult, tolera
   push(1, `const F = (xs: number[]): number[] => { writeX(xs); const out = flat(forward()); writeX(x0); return out; };`);
   push(1, `const offset = sizes.slice(0, ${badIndex}).reduce((s, n) => s + n, 0);`);
   push(1, `const eps = 2 ** ${f32 ? EPS_EXPONENT_F32 : EPS_EXPONENT_F64};`);
-  push(1, `const tolerance = ${tolerance}; // relative, as in the check`);
+  push(1, `const tolerance = ${appliedTolerance(op, bad)}; // relative, the one the check applied`);
   push(1, `const close = (a: number, n: number, scale: number): boolean => Math.abs(a - n) <= tolerance * Math.max(Math.abs(a), Math.abs(n), Math.sqrt(eps) * scale);`);
 
   const argText = (a: BackwardArg): string => {
     if (a.kind === 'param') return holder(a.name);
     if (a.kind === 'output') return 'forward()';
     if (a.kind === 'tangent') return `like(${holder(a.name)}, tangentOf(${JSON.stringify(a.name)}))`;
+    // $v: one part per differentiated parameter, shaped like it (a single parameter's part alone).
+    if (a.kind === 'vector') return names.length === 1 ? `like(${holder(names[0]!)}, v)` : `[${names.map((n, q) => `like(${holder(n)}, partOf(${q}))`).join(', ')}]`;
     return 'undefined';
   };
   const pick = names.length === 1 ? 'result' : `(Array.isArray(result) ? result[${badIndex}] : result[${JSON.stringify(bad.name.replace(/^this\./, ''))}])`;
 
-  if (kind === 'tangent') {
+  if (hvp) {
+    push(1, `// A fixed direction v over every differentiated parameter (${names.join(', ')}).`);
+    push(1, `const v = x0.map((_, g) => 1 - 0.37 * (g % 5));`);
+    push(1, `const partOf = (q: number): number[] => { const from = sizes.slice(0, q).reduce((s, n) => s + n, 0); return v.slice(from, from + sizes[q]!); };`);
+    push(1, `const Hv = flat(${callee}(${op.backwardArgs.map(argText).join(', ')}));`);
+    push(1, `// (H·v)_k by second differences along element k and v (step ε^(1/4), Nocedal & Wright, 2nd ed., §8.1).`);
+    push(1, `const h = Math.pow(eps, 0.25) * Math.max(1, ...x0.map(Math.abs));`);
+    push(1, `const at = (a: number, b: number, k: number): number => F(x0.map((x, j) => x + (j === k ? a * h : 0) + b * h * v[j]!))[0]!;`);
+    push(1, `const numeric = x0.map((_, k) => (at(1, 1, k) - at(1, -1, k) - at(-1, 1, k) + at(-1, -1, k)) / (4 * h * h));`);
+    push(1, `const scale = Math.max(...numeric.map(Math.abs), ...Hv.map(Math.abs));`);
+    push(1, `numeric.forEach((n, k) => assert.ok(close(Hv[k]!, n, scale), \`(H·v)[\${k}]: hessian \${Hv[k]}, second difference \${n}\`));`);
+  } else if (kind === 'tangent') {
     push(1, `// A fixed tangent of ${bad.name} (the other tangents zero).`);
     push(1, `const t = x0.map((_, g) => (g >= offset && g < offset + sizes[${badIndex}]! ? 1 - 0.37 * ((g - offset) % 5) : 0));`);
     push(1, `const tangentOf = (name: string): number[] => { const q = ${JSON.stringify(names)}.indexOf(name); const from = sizes.slice(0, q).reduce((s, n) => s + n, 0); return t.slice(from, from + sizes[q]!); };`);

@@ -15,6 +15,7 @@ import { snapshotOf, type DocumentFacts, type DocumentSnapshot } from './documen
 import { Methods, type FileOps } from './protocol';
 import { SettingsCache, type EffectiveSettings } from './settings';
 import { opSummaries, statusOf } from './testsView';
+import { folderStanding } from './opStanding';
 
 /** Coalesces bursts of results into one push; short enough to feel immediate. */
 const PUSH_DELAY_MS = 30;
@@ -123,11 +124,11 @@ export class Session {
    */
   async check(fsPath: string, opts: { forwards?: string[]; force?: boolean; signal?: AbortSignal } = {}): Promise<OpResult[]> {
     const settings = await this.effectiveSettings(fsPath);
-    if (settings.configError) throw new CheckRefused(settings.configError.message);
     const isolated = !this.checks.isTrusted && settings.isolatedWhenUntrusted;
-    if (!this.checks.isTrusted && !isolated) throw new CheckRefused('the workspace is not trusted, so no code from it runs');
+    const standing = folderStanding({ trusted: this.checks.isTrusted, isolated, ...(settings.configError ? { configError: settings.configError } : {}) });
+    if (!standing.may) throw new CheckRefused(standing.reason, standing.code);
     const snapshot = this.snapshot(fsPath);
-    if (!snapshot) throw new CheckRefused(`${fsPath} cannot be read`);
+    if (!snapshot) throw new CheckRefused(`${fsPath} cannot be read`, 'unreadable');
     const runnable = snapshot.ops.filter((op) => op.problems.length === 0).map((op) => op.forward);
     this.changed(fsPath);
     const results = await this.checks.check({

@@ -112,7 +112,8 @@ export function readEditorSettings(raw: unknown): EditorSettings {
       if (one.include) values.include = one.include;
       if (one.exclude) values.exclude = one.exclude;
     } catch (err) {
-      const detail = err instanceof Error ? err.message.replace(/^settings: /, '') : String(err);
+      // The problems themselves, without the source label the error's message puts before each.
+      const detail = err instanceof ConfigError ? err.problems.map((p) => p.message).join('; ') : err instanceof Error ? err.message : String(err);
       problems.push(`user setting gradientProbe.${key} ignored: ${detail}`);
     }
   }

@@ -1,16 +1,18 @@
 // Data for the client's Testing view and status bar: every op of a file with where it stands,
 // computed from the same facts as the diagnostics.
 
+import { oneLine } from '../present/format';
 import type { DocumentFacts } from './documentFacts';
-import { oneLine, opNameRange, verdictSentence } from './format';
+import { opNameRange, verdictSentence } from './format';
+import { opStanding } from './opStanding';
 import type { FileOps, OpSummary, StatusParams } from './protocol';
 
 export function opSummaries(facts: DocumentFacts): FileOps {
   const ops: OpSummary[] = facts.snapshot.ops.map((op) => {
     const range = opNameRange(op, facts.snapshot.lines);
-    if (op.problems.length > 0) return { forward: op.forward, range, state: 'error', message: `annotation error: ${oneLine(op.problems[0]!.message)}` };
-    if (facts.configError) return { forward: op.forward, range, state: 'not-run', message: `not checked: ${oneLine(facts.configError.message)}` };
-    if (!facts.trusted && !facts.isolated) return { forward: op.forward, range, state: 'not-run', message: 'not checked: the workspace is not trusted' };
+    const standing = opStanding(op, facts);
+    if (!standing.may && standing.code === 'annotation-error') return { forward: op.forward, range, state: 'error', message: `annotation error: ${oneLine(op.problems[0]!.message)}` };
+    if (!standing.may) return { forward: op.forward, range, state: 'not-run', message: `not checked: ${oneLine(standing.reason)}` };
     if (facts.isRunning(op.forward)) return { forward: op.forward, range, state: 'checking', message: 'checking…' };
     const result = facts.latest(op.forward);
     if (!result) return { forward: op.forward, range, state: 'unchecked', message: 'not checked yet' };

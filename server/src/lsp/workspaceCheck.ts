@@ -8,6 +8,7 @@ import { CheckRefused } from './checkService';
 import type { FileOps, CheckWorkspaceResult, WorkspaceProgressParams } from './protocol';
 import type { Session } from './session';
 import { opSummaries } from './testsView';
+import { UNTRUSTED_REASON } from './opStanding';
 
 /** Files checked at the same time; the Checker spreads each file's ops over its runner processes. */
 const FILES_IN_FLIGHT = 2;
@@ -53,7 +54,7 @@ export async function checkWorkspace(
   const { files, problems } = await workspaceFiles(session, folders);
   const isolatedAllowed = await Promise.all(folders.map(async (f) => (await session.effectiveSettings(f, true)).isolatedWhenUntrusted));
   if (!session.checks.isTrusted && !isolatedAllowed.some(Boolean)) {
-    return { ...summary, files: files.length, cancelled: false, reason: 'the workspace is not trusted, so no code from it runs' };
+    return { ...summary, files: files.length, cancelled: false, reason: UNTRUSTED_REASON, reasonCode: 'untrusted' };
   }
   let done = 0;
   let next = 0;

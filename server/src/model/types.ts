@@ -32,8 +32,12 @@ export interface Problem extends SourcePosition {
   message: string;
   endLine?: number;
   endColumn?: number;
-  /** A fix the editor can offer as a quick fix; where absent it reads the message's wording. */
-  fix?: ProblemFix;
+  /**
+   * The fixes the editor can offer as quick fixes, the likeliest first (a misspelt backward can
+   * be renamed or created). Discovery fills it where it makes the problem; nothing reads a fix
+   * back out of the message.
+   */
+  fixes?: ProblemFix[];
 }
 
 /**
@@ -235,6 +239,12 @@ export interface ParamResult {
    * size: an element of about that size). Absent when no check of the elements ran.
    */
   detectionFloor?: number;
+  /**
+   * The relative tolerance this parameter was judged with: the op's `@tolerance`, else the
+   * setting for float32 when a differentiated parameter or the output is float32, else float64's.
+   * Absent when the check stopped before it chose one.
+   */
+  tolerance?: number;
   /** Error against step size at the worst element (for the report). */
   stepScan?: StepScan;
   /** Per-element relative error for 2-D parameters up to a size cap, row-major (for the report). */
@@ -247,11 +257,33 @@ export interface CallCounts {
   backward: number;
 }
 
+/**
+ * Why an op ended with verdict `error`, as data; the message words it for a reader. Set on every
+ * error the engine, the sandbox or the Checker makes (absent in reports of older versions).
+ */
+export type FailureKind =
+  | 'annotation' // the op's tags have problems; nothing ran
+  | 'syntax' // the file has a syntax error; nothing ran
+  | 'unreadable' // the file could not be read
+  | 'bundle' // the module could not be bundled
+  | 'load' // the module's own top-level code threw or hung while it loaded
+  | 'threw' // the op's own code threw during the check (see thrownAt)
+  | 'refused' // the op cannot be checked as written (it changes its input, returns too much, ...)
+  | 'timed-out' // the runner stopped the op at its time limit
+  | 'file-time-limit' // the file's checks together reached their total time limit
+  | 'memory-limit' // the runner was stopped because the op used too much memory
+  | 'runner-crashed' // the process running the op died under it
+  | 'runner' // the runner could not start or answered nonsense
+  | 'cancelled' // stopped by the caller, or the checker was closed
+  | 'internal'; // a bug in the check engine
+
 /** What the engine returns for one op (the sandbox adds nothing numeric). */
 export interface CheckOutcome {
   verdict: Verdict;
   seed: number;
   message: string;
+  /** Why the op could not be checked; set exactly when the verdict is `error`. */
+  failure?: FailureKind;
   hints: string[];
   params: ParamResult[];
   calls: CallCounts;
@@ -283,7 +315,11 @@ export interface TimeLimitStop {
   /** The parameter being checked when time ran out. */
   param: string;
   /** What `done` and `total` count. */
-  stage: 'elements' | 'grouped perturbations' | 'suspicious elements refined';
+  /**
+   * 'dot-product probes': the root probes of a probed parameter (done of total); 'forward calls':
+   * the engine's hard stop between calls (done = total = the calls of the op made).
+   */
+  stage: 'elements' | 'grouped perturbations' | 'suspicious elements refined' | 'dot-product probes' | 'forward calls';
   done: number;
   total: number;
   /** The op's time limit (settings.timeLimitMs), in milliseconds. */
