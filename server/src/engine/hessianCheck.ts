@@ -13,7 +13,8 @@ import { checkUnchanged, readingResult, runAttempts, takeBaseline, unitVectors, 
 import { kindAttemptResult, type KindParamCheck } from './kindResult';
 import { checkMatrixBlock, type MatrixNaming } from './matrixCompare';
 import { readMatrix } from './matrixRead';
-import { OpHarness, elementName } from './opHarness';
+import { OpHarness } from './opHarness';
+import { elementName } from './paramSlot';
 import { STREAM } from './random';
 import { requireNumberOutput } from './secondDifferences';
 import type { CheckSettings } from './settings';

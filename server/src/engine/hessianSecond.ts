@@ -9,8 +9,8 @@ import { ElementState, compareElements, excessOf, floorsFor, type ElementEstimat
 import type { Baseline } from './kindBaseline';
 import type { DirectionFinding, KindParamCheck } from './kindResult';
 import { summariseBlock, type MatrixNaming } from './matrixCompare';
-import { elementName, type OpHarness } from './opHarness';
-import type { ParamSlot } from './paramSlot';
+import type { OpHarness } from './opHarness';
+import { elementName, type ParamSlot } from './paramSlot';
 import { relativeFloorFactor } from './precision';
 import { MAX_REFINED_ELEMENTS, type KinkReport } from './refine';
 import { refineSecond, secondDifference, secondKink, secondStep, maxSecondStep, type Move } from './secondDifferences';

@@ -5,8 +5,7 @@
 
 import { abs, formatIndex, formatNumber, fround, isInteger, max, round } from './builtins';
 import { ElementState, type Comparison, type ElementEstimates } from './judge';
-import { unravelSlot } from './opHarness';
-import type { ParamSlot } from './paramSlot';
+import { unravelSlot, type ParamSlot } from './paramSlot';
 
 /**
  * A hypothesis "analytic ≈ T(numeric)" holds at an element when the gap is within this many

@@ -6,9 +6,9 @@
 import { F64, abs, describeThrown, formatNumber, max, min } from './builtins';
 import { CheckStop, EngineFault, fail, giveUp } from './failure';
 import type { InputGuard } from './inputGuard';
-import { elementName, type OpHarness } from './opHarness';
+import type { OpHarness } from './opHarness';
+import { elementName, type ParamSlot } from './paramSlot';
 import { describeOutputIndex, layoutPrecision, type OutputLayout } from './outputLayout';
-import type { ParamSlot } from './paramSlot';
 import { unitRoundoff, type Precision } from './precision';
 import { STREAM_STRIDE, substream, type RandomSource } from './random';
 import type { KinkReport } from './refine';

@@ -10,7 +10,7 @@ import { readGradients } from './gradients';
 import { InputGuard } from './inputGuard';
 import { InstanceSnapshot } from './instanceState';
 import { buildValue, describeOutputIndex, detectLayout, firstNonFinite, flattenInto, nonFiniteName, type OutputLayout } from './outputLayout';
-import type { ParamSlot } from './paramSlot';
+import { unravelSlot, type ParamSlot } from './paramSlot';
 import type { RandomSource } from './random';
 import { drawSample, type Sample } from './sampling';
 import { TensorBridge } from './tensorBridge';
@@ -338,21 +338,3 @@ export class OpHarness extends ForwardMap {
     return this.op.target.kind === 'method';
   }
 }
-
-/** Multi-index of element i of a slot. */
-export function unravelSlot(slot: ParamSlot, i: number): number[] {
-  const idx: number[] = [];
-  let j = i;
-  for (let d = slot.shape.length - 1; d >= 0; d--) {
-    const s = slot.shape[d];
-    idx[d] = j % s;
-    j = (j - idx[d]) / s;
-  }
-  return idx;
-}
-
-/** `x[2, 1]` or `b` for element i of a slot. */
-export function elementName(slot: ParamSlot, i: number): string {
-  return slot.shape.length ? `${slot.name}${formatIndex(unravelSlot(slot, i))}` : slot.name;
-}
-

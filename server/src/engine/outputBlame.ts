@@ -6,9 +6,8 @@
 import { F64, abs, formatIndex, formatNumber, max } from './builtins';
 import { centralOnLine, elementLine } from './lines';
 import type { OpHarness } from './opHarness';
-import { unravelSlot } from './opHarness';
+import { unravelSlot, type ParamSlot } from './paramSlot';
 import type { OutputLayout } from './outputLayout';
-import type { ParamSlot } from './paramSlot';
 import { ridders } from './ridders';
 
 /**

@@ -2,7 +2,7 @@
 // number[], or a scalar held in the argument list or on the instance) and in-place access to
 // element i, so perturbations write into the very object the forward reads (no copies).
 
-import { F64, fround, isArray, isF32 } from './builtins';
+import { F64, formatIndex, fround, isArray, isF32 } from './builtins';
 import type { Precision } from './precision';
 import type { SampleDtype } from '../model/types';
 
@@ -104,4 +104,21 @@ export function nestedLeaves(value: unknown[], shape: number[]): number[][] {
 export function precisionOf(dtype: SampleDtype, value: unknown): Precision {
   if (isF32(value)) return 'f32';
   return dtype === 'f32' ? 'f32' : 'f64';
+}
+
+/** Multi-index of element i of a slot. */
+export function unravelSlot(slot: ParamSlot, i: number): number[] {
+  const idx: number[] = [];
+  let j = i;
+  for (let d = slot.shape.length - 1; d >= 0; d--) {
+    const s = slot.shape[d];
+    idx[d] = j % s;
+    j = (j - idx[d]) / s;
+  }
+  return idx;
+}
+
+/** `x[2, 1]` or `b` for element i of a slot. */
+export function elementName(slot: ParamSlot, i: number): string {
+  return slot.shape.length ? `${slot.name}${formatIndex(unravelSlot(slot, i))}` : slot.name;
 }

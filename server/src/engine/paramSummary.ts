@@ -6,8 +6,7 @@ import { abs, copyList, formatNumber, max } from './builtins';
 import type { DotProbeResult } from './dotProductCheck';
 import type { ParamEvidence } from './hints';
 import { ElementState, type Comparison, type ElementEstimates } from './judge';
-import { elementName, unravelSlot } from './opHarness';
-import type { ParamSlot } from './paramSlot';
+import { elementName, unravelSlot, type ParamSlot } from './paramSlot';
 import type { KinkReport, RefineSummary } from './refine';
 import type { CheckMethod, ParamResult, TimeLimitStop, Verdict } from '../model/types';
 
