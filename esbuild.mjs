@@ -32,8 +32,13 @@ const builds = [
   { ...node, entryPoints: { 'isolated-worker': 'server/src/sandbox/isolatedWorker.ts' }, outdir: 'dist', packages: 'external' },
   // Evaluated inside the sandbox's vm context: no Node, no packages; defines one global.
   {
-    bundle: true, platform: 'neutral', format: 'iife', target: 'es2022', logLevel: 'warning',
-    entryPoints: { 'engine-in-sandbox': 'server/src/engine/sandboxEntry.ts' }, outdir: 'dist',
+    bundle: true,
+    platform: 'neutral',
+    format: 'iife',
+    target: 'es2022',
+    logLevel: 'warning',
+    entryPoints: { 'engine-in-sandbox': 'server/src/engine/sandboxEntry.ts' },
+    outdir: 'dist',
   },
   { ...node, entryPoints: testFiles('test'), outdir: 'dist/test', outbase: 'test', packages: 'external' },
 ];

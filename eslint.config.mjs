@@ -19,18 +19,90 @@ import tseslint from 'typescript-eslint';
 //   before any user code.
 // test/hostile/arrayPatches.test.ts patches these in an op's module and expects correct verdicts.
 const ARRAY_AND_STRING_METHODS = [
-  'at', 'concat', 'copyWithin', 'entries', 'every', 'fill', 'filter', 'find', 'findIndex', 'findLast',
-  'findLastIndex', 'flat', 'flatMap', 'forEach', 'includes', 'indexOf', 'join', 'keys', 'lastIndexOf',
-  'map', 'pop', 'push', 'reduce', 'reduceRight', 'reverse', 'shift', 'slice', 'some', 'sort', 'splice',
-  'subarray', 'toReversed', 'toSorted', 'toSpliced', 'unshift', 'values', 'with',
-  'endsWith', 'padEnd', 'padStart', 'repeat', 'replace', 'replaceAll', 'split', 'startsWith', 'toFixed',
-  'toPrecision', 'toString', 'trim',
+  'at',
+  'concat',
+  'copyWithin',
+  'entries',
+  'every',
+  'fill',
+  'filter',
+  'find',
+  'findIndex',
+  'findLast',
+  'findLastIndex',
+  'flat',
+  'flatMap',
+  'forEach',
+  'includes',
+  'indexOf',
+  'join',
+  'keys',
+  'lastIndexOf',
+  'map',
+  'pop',
+  'push',
+  'reduce',
+  'reduceRight',
+  'reverse',
+  'shift',
+  'slice',
+  'some',
+  'sort',
+  'splice',
+  'subarray',
+  'toReversed',
+  'toSorted',
+  'toSpliced',
+  'unshift',
+  'values',
+  'with',
+  'endsWith',
+  'padEnd',
+  'padStart',
+  'repeat',
+  'replace',
+  'replaceAll',
+  'split',
+  'startsWith',
+  'toFixed',
+  'toPrecision',
+  'toString',
+  'trim',
 ];
 const ENGINE_GLOBALS = [
-  'Array', 'ArrayBuffer', 'Boolean', 'DataView', 'Date', 'Error', 'Float32Array', 'Float64Array', 'Int8Array',
-  'Int16Array', 'Int32Array', 'JSON', 'Map', 'Math', 'Number', 'Object', 'Promise', 'Proxy', 'Reflect', 'RegExp',
-  'Set', 'String', 'Symbol', 'Uint8Array', 'Uint16Array', 'Uint32Array', 'WeakMap', 'WeakSet', 'globalThis',
-  'isFinite', 'isNaN', 'parseFloat', 'parseInt',
+  'Array',
+  'ArrayBuffer',
+  'Boolean',
+  'DataView',
+  'Date',
+  'Error',
+  'Float32Array',
+  'Float64Array',
+  'Int8Array',
+  'Int16Array',
+  'Int32Array',
+  'JSON',
+  'Map',
+  'Math',
+  'Number',
+  'Object',
+  'Promise',
+  'Proxy',
+  'Reflect',
+  'RegExp',
+  'Set',
+  'String',
+  'Symbol',
+  'Uint8Array',
+  'Uint16Array',
+  'Uint32Array',
+  'WeakMap',
+  'WeakSet',
+  'globalThis',
+  'isFinite',
+  'isNaN',
+  'parseFloat',
+  'parseInt',
 ];
 const ENGINE_SYNTAX = [
   { selector: 'ForOfStatement', message: 'No for...of in the engine: it runs the array iterator, which user code may replace. Use an indexed loop.' },
@@ -67,7 +139,10 @@ const MAY_IMPORT = {
   cli: ['model', 'engine', 'core', 'project', 'lsp', 'text', 'present'],
   lsp: ['model', 'engine', 'core', 'project', 'discovery', 'text', 'present'],
 };
-const EDITOR_LIBRARIES = { regex: '^vscode(-languageserver|-languageclient)?(/|-|$)', message: 'Only server/src/lsp (vscode-languageserver) and client/src (vscode, vscode-languageclient) speak to the editor.' };
+const EDITOR_LIBRARIES = {
+  regex: '^vscode(-languageserver|-languageclient)?(/|-|$)',
+  message: 'Only server/src/lsp (vscode-languageserver) and client/src (vscode, vscode-languageclient) speak to the editor.',
+};
 
 function layering(folder) {
   const forbidden = SERVER_FOLDERS.filter((f) => f !== folder && !MAY_IMPORT[folder].includes(f));
@@ -105,20 +180,39 @@ function layering(folder) {
 const CLIENT_LAYERING = {
   files: ['client/src/**/*.ts'],
   rules: {
-    'no-restricted-imports': ['error', {
-      patterns: [
-        {
-          regex: '^(\\.\\./)+server/src/(?!model/types$|lsp/protocol$|present/format$)',
-          message: 'client/src shares only the data shapes (server/src/model/types), the custom messages (server/src/lsp/protocol) and the presentation of figures (server/src/present/format) with the server; everything else goes over LSP.',
-        },
-        { regex: '^vscode-languageserver', message: 'The client uses vscode-languageclient; the server side of LSP stays in server/src/lsp.' },
-      ],
-    }],
+    'no-restricted-imports': [
+      'error',
+      {
+        patterns: [
+          {
+            regex: '^(\\.\\./)+server/src/(?!model/types$|lsp/protocol$|present/format$)',
+            message:
+              'client/src shares only the data shapes (server/src/model/types), the custom messages (server/src/lsp/protocol) and the presentation of figures (server/src/present/format) with the server; everything else goes over LSP.',
+          },
+          { regex: '^vscode-languageserver', message: 'The client uses vscode-languageclient; the server side of LSP stays in server/src/lsp.' },
+        ],
+      },
+    ],
   },
 };
 
 export default tseslint.config(
-  { ignores: ['tmp/**', '**/*.mjs', 'dist/**', 'node_modules/**', 'test/corpus/**', 'test/fixtures/**', 'test/outside/**', 'examples/**', '.editor-host/**', 'bench/results/**', '*.mjs', 'bin/**'] },
+  {
+    ignores: [
+      'tmp/**',
+      '**/*.mjs',
+      'dist/**',
+      'node_modules/**',
+      'test/corpus/**',
+      'test/fixtures/**',
+      'test/outside/**',
+      'examples/**',
+      '.editor-host/**',
+      'bench/results/**',
+      '*.mjs',
+      'bin/**',
+    ],
+  },
   ...tseslint.configs.recommended,
   {
     files: ['**/*.ts'],

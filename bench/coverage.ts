@@ -60,7 +60,9 @@ async function perOp(): Promise<void> {
         }
         const ratio = median(b) / median(a);
         ratios.push(ratio);
-        console.log(`${op.forward.padEnd(30)}  ${median(a).toFixed(1).padStart(9)} ms  ${median(b).toFixed(1).padStart(12)} ms  ${ratio.toFixed(2).padStart(5)}×  ${median(m).toFixed(1).padStart(5)} ms`);
+        console.log(
+          `${op.forward.padEnd(30)}  ${median(a).toFixed(1).padStart(9)} ms  ${median(b).toFixed(1).padStart(12)} ms  ${ratio.toFixed(2).padStart(5)}×  ${median(m).toFixed(1).padStart(5)} ms`,
+        );
       }
     }
   } finally {

@@ -73,9 +73,22 @@ async function main(): Promise<void> {
       }
     }
     const m: DetectionMeasurement = {
-      kind: op.kind, forward: op.forward, elements: op.elements, bugParam: op.bugParam, bugCount: bug.count, bugRelative: bug.relative,
-      trials, firstSeed, caught, located, missed, missedSeeds, lowerBound95: clopperPearsonLower(caught, trials, 0.05),
-      medianMs: median(times), maxMs: Math.max(...times), methods: [...methods],
+      kind: op.kind,
+      forward: op.forward,
+      elements: op.elements,
+      bugParam: op.bugParam,
+      bugCount: bug.count,
+      bugRelative: bug.relative,
+      trials,
+      firstSeed,
+      caught,
+      located,
+      missed,
+      missedSeeds,
+      lowerBound95: clopperPearsonLower(caught, trials, 0.05),
+      medianMs: median(times),
+      maxMs: Math.max(...times),
+      methods: [...methods],
     };
     process.stdout.write(`${JSON.stringify(m)}\n`);
   } finally {
@@ -85,6 +98,6 @@ async function main(): Promise<void> {
 }
 
 main().catch((e: unknown) => {
-  process.stderr.write(`${e instanceof Error ? e.stack ?? e.message : String(e)}\n`);
+  process.stderr.write(`${e instanceof Error ? (e.stack ?? e.message) : String(e)}\n`);
   process.exitCode = 1;
 });

@@ -17,8 +17,14 @@ export interface DirectOp {
 
 /** Sample ranges of each kind's parameters, as in the `@sample` tags of opSources.ts. */
 const RANGES: Record<string, [number, number]> = {
-  x: [-3, 3], weight: [-1, 1], z: [-2, 2], signal: [-1, 1], kernel: [-1, 1],
-  'layer:x': [-2, 2], 'this.gain': [0.5, 1.5], 'this.shift': [-0.5, 0.5],
+  x: [-3, 3],
+  weight: [-1, 1],
+  z: [-2, 2],
+  signal: [-1, 1],
+  kernel: [-1, 1],
+  'layer:x': [-2, 2],
+  'this.gain': [0.5, 1.5],
+  'this.shift': [-0.5, 0.5],
 };
 
 /** mulberry32: a small seeded generator (public domain, T. Ettinger) for the inputs. */
@@ -58,7 +64,8 @@ export function directOp(op: BenchOp, loaded: LoadedModule, seed: number): Direc
       const f = fn(e, 'matVec');
       const b = fn(e, 'matVecBackward');
       return {
-        params, outputs: op.outputs,
+        params,
+        outputs: op.outputs,
         forward: () => f(params[0], params[1]) as Float64Array,
         backward: (dy) => {
           const g = b(params[0], params[1], dy) as { weight: Float64Array; x: Float64Array };
@@ -72,7 +79,8 @@ export function directOp(op: BenchOp, loaded: LoadedModule, seed: number): Direc
       // The backward takes the output too; computed once at the sample point.
       let y: Float64Array | null = null;
       return {
-        params, outputs: op.outputs,
+        params,
+        outputs: op.outputs,
         forward: () => f(params[0]) as Float64Array,
         backward: (dy) => {
           y ??= f(params[0]) as Float64Array;
@@ -85,7 +93,8 @@ export function directOp(op: BenchOp, loaded: LoadedModule, seed: number): Direc
       const b = fn(e, 'softmaxAllBackward');
       let y: Float64Array | null = null;
       return {
-        params, outputs: op.outputs,
+        params,
+        outputs: op.outputs,
         forward: () => f(params[0]) as Float64Array,
         backward: (dy) => {
           y ??= f(params[0]) as Float64Array;
@@ -97,7 +106,8 @@ export function directOp(op: BenchOp, loaded: LoadedModule, seed: number): Direc
       const f = fn(e, 'conv1d');
       const b = fn(e, 'conv1dBackward');
       return {
-        params, outputs: op.outputs,
+        params,
+        outputs: op.outputs,
         forward: () => f(params[0], params[1]) as Float64Array,
         backward: (dy) => {
           const g = b(params[0], params[1], dy) as { signal: Float64Array; kernel: Float64Array };
@@ -112,7 +122,8 @@ export function directOp(op: BenchOp, loaded: LoadedModule, seed: number): Direc
       layer.gain = params[1];
       layer.shift = params[2];
       return {
-        params, outputs: op.outputs,
+        params,
+        outputs: op.outputs,
         forward: () => layer.forward(params[0]) as Float64Array,
         backward: (dy) => {
           const g = layer.backward(dy) as { x: Float64Array; gain: Float64Array; shift: Float64Array };

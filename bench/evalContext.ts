@@ -2,7 +2,8 @@
 // bundle wrapped so built-ins arrive as parameters), holding one op file's bundle, so the
 // benchmark's own loops call the very same compiled forward and backward the check calls.
 import * as vm from 'node:vm';
-import { CONTEXT_BUILTINS, CONTEXT_SETUP_SOURCE, FIXED_DATE_MS, wrapWithBuiltins } from '../server/src/sandbox/contextSetup';
+import { CONTEXT_BUILTINS, CONTEXT_SETUP_SOURCE, FIXED_DATE_MS } from '../server/src/sandbox/contextSetup';
+import { wrapWithBuiltins } from '../server/src/sandbox/bundleWrapper';
 
 /** Console text the context may collect, in characters (the benchmark's ops print nothing). */
 const OUTPUT_LIMIT_CHARS = 64 * 1024;

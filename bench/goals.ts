@@ -57,7 +57,10 @@ export function evaluateGoals(r: BenchReport): GoalLine[] {
       const key = Math.pow(10, Math.round(Math.log10(m.elements)));
       bySize.set(key, [...(bySize.get(key) ?? []), floorRatio(m)]);
     }
-    const trend = [...bySize.entries()].sort((a, b) => a[0] - b[0]).map(([n, xs]) => `${n.toLocaleString('en-US')}: ${f1(Math.min(...xs))}–${f1(Math.max(...xs))}×`).join('; ');
+    const trend = [...bySize.entries()]
+      .sort((a, b) => a[0] - b[0])
+      .map(([n, xs]) => `${n.toLocaleString('en-US')}: ${f1(Math.min(...xs))}–${f1(Math.max(...xs))}×`)
+      .join('; ');
     goals.push({
       goal: `full check of a passing op ≤ ${GOALS.floorRatio}× its evaluation floor (warm)`,
       figure: `${within.length} of ${passing.length} op sizes within; check ÷ floor by size ${trend}${passing.length < r.ops.length ? `; ${r.ops.length - passing.length} op sizes did not pass` : ''}`,
@@ -75,7 +78,9 @@ export function evaluateGoals(r: BenchReport): GoalLine[] {
     });
     goals.push({
       goal: `≥ ${GOALS.bigSpeedup}× faster than the hand-written loop from ${GOALS.bigElements.toLocaleString('en-US')} elements`,
-      figure: big.length ? `smallest speed-up ${f1(minBig)}× (${big.length} op sizes; the loop's time is extrapolated from the elements it reached)${bigShort.length ? `; short: ${bigShort.map((m) => `${m.kind} ${m.elements.toLocaleString('en-US')} ${f1(handSpeedup(m))}×`).join(', ')}` : ''}` : 'not measured',
+      figure: big.length
+        ? `smallest speed-up ${f1(minBig)}× (${big.length} op sizes; the loop's time is extrapolated from the elements it reached)${bigShort.length ? `; short: ${bigShort.map((m) => `${m.kind} ${m.elements.toLocaleString('en-US')} ${f1(handSpeedup(m))}×`).join(', ')}` : ''}`
+        : 'not measured',
       met: big.length > 0 ? bigShort.length === 0 : null,
     });
     // The ops of about 10 elements (elementwise 10, y = W x 12, softmax 10, conv1d 10, layer 9).
@@ -147,7 +152,9 @@ function exactForwards(kind: string, elements: number): number {
 /** The exact scheme's time for an op, from its measured forward time, as text. */
 function exactText(m: OpMeasurement | undefined, kind: string, elements: number): string {
   const f = exactForwards(kind, elements);
-  return m ? `exact scheme: ${f.toLocaleString('en-US')} forward calls ≈ ${ms(f * m.floor.forwardMs)} at ${m.floor.forwardMs.toFixed(2)} ms per call` : `exact scheme: ${f.toLocaleString('en-US')} forward calls`;
+  return m
+    ? `exact scheme: ${f.toLocaleString('en-US')} forward calls ≈ ${ms(f * m.floor.forwardMs)} at ${m.floor.forwardMs.toFixed(2)} ms per call`
+    : `exact scheme: ${f.toLocaleString('en-US')} forward calls`;
 }
 
 function caughtText(d: DetectionMeasurement): string {

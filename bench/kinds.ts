@@ -10,10 +10,20 @@ type Fn = (...args: any[]) => any;
 
 function op(kind: OpKind, n: number, args: BackwardArg[], gradient?: boolean): OpDescriptor {
   const descriptor: OpDescriptor = {
-    kind, file: '/bench/ops.ts', line: 1, column: 1, endLine: 1, endColumn: 2, forward: `f @${kind}`, backward: 'd',
+    kind,
+    file: '/bench/ops.ts',
+    line: 1,
+    column: 1,
+    endLine: 1,
+    endColumn: 2,
+    forward: `f @${kind}`,
+    backward: 'd',
     target: { kind: 'function', forwardName: 'f', backwardName: 'd', backwardIsMethod: false },
     params: [{ name: 'x', isField: false, sample: { kind: 'random', dtype: 'f64', shape: [n], range: [-1, 1], avoid: [], fixed: false } }],
-    backwardArgs: args, fixed: [], tags: [], problems: [],
+    backwardArgs: args,
+    fixed: [],
+    tags: [],
+    problems: [],
   };
   if (gradient) descriptor.gradient = { name: 'g', backwardName: 'g', backwardIsMethod: false, args: [{ kind: 'param', name: 'x' }] };
   return descriptor;
@@ -40,7 +50,11 @@ for (const n of [10, 50, 200]) {
   };
   const tan = (x: Float64Array, dx: Float64Array): Float64Array => {
     const J = jac(x);
-    return Float64Array.from({ length: n }, (_, i) => { let s = 0; for (let j = 0; j < n; j++) s += J[i * n + j]! * dx[j]!; return s; });
+    return Float64Array.from({ length: n }, (_, i) => {
+      let s = 0;
+      for (let j = 0; j < n; j++) s += J[i * n + j]! * dx[j]!;
+      return s;
+    });
   };
   console.log(`@jacobian tanh(Ax), ${n}×${n}`.padEnd(40), time({ f, d: jac }, op('jacobian', n, X)));
   console.log(`@tangent  tanh(Ax), n = ${n}`.padEnd(40), time({ f, d: tan }, op('tangent', n, [...X, { kind: 'tangent', name: 'x' }])));
@@ -48,8 +62,15 @@ for (const n of [10, 50, 200]) {
 // f(x) = Σ cosh(x_i) + (Σ x_i)²/2: H = diag(cosh x) + 1·1ᵀ.
 for (const n of [5, 20, 50]) {
   const f = (x: Float64Array): number => x.reduce((s, v) => s + Math.cosh(v), 0) + x.reduce((s, v) => s + v, 0) ** 2 / 2;
-  const g = (x: Float64Array): Float64Array => { const sum = x.reduce((s, v) => s + v, 0); return x.map((v) => Math.sinh(v) + sum); };
-  const H = (x: Float64Array): Float64Array => { const out = new Float64Array(n * n).fill(1); for (let i = 0; i < n; i++) out[i * n + i] = 1 + Math.cosh(x[i]!); return out; };
+  const g = (x: Float64Array): Float64Array => {
+    const sum = x.reduce((s, v) => s + v, 0);
+    return x.map((v) => Math.sinh(v) + sum);
+  };
+  const H = (x: Float64Array): Float64Array => {
+    const out = new Float64Array(n * n).fill(1);
+    for (let i = 0; i < n; i++) out[i * n + i] = 1 + Math.cosh(x[i]!);
+    return out;
+  };
   console.log(`@hessian second differences, n = ${n}`.padEnd(40), time({ f, d: H }, op('hessian', n, X)));
   console.log(`@hessian via passing @backward, n = ${n}`.padEnd(40), time({ f, d: H, g }, op('hessian', n, X, true)));
 }

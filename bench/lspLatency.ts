@@ -11,8 +11,15 @@ import { jsonrpc, lsp, type ProtocolConnection, type PublishDiagnosticsParams } 
 import type { LatencyMeasurement } from './results';
 
 const {
-  createProtocolConnection, DidChangeTextDocumentNotification, DidOpenTextDocumentNotification, DidSaveTextDocumentNotification,
-  ExitNotification, InitializedNotification, InitializeRequest, PublishDiagnosticsNotification, ShutdownRequest,
+  createProtocolConnection,
+  DidChangeTextDocumentNotification,
+  DidOpenTextDocumentNotification,
+  DidSaveTextDocumentNotification,
+  ExitNotification,
+  InitializedNotification,
+  InitializeRequest,
+  PublishDiagnosticsNotification,
+  ShutdownRequest,
 } = lsp;
 const { StreamMessageReader, StreamMessageWriter } = jsonrpc;
 
@@ -70,7 +77,13 @@ export class ServerUnderTest {
   nextFinished(uri: string): Promise<number> {
     return new Promise((resolve, reject) => {
       const timer = setTimeout(() => reject(new Error(`no finished check of ${uri} within ${WAIT_LIMIT_MS} ms`)), WAIT_LIMIT_MS);
-      this.waiters.push({ uri, resolve: (at) => { clearTimeout(timer); resolve(at); } });
+      this.waiters.push({
+        uri,
+        resolve: (at) => {
+          clearTimeout(timer);
+          resolve(at);
+        },
+      });
     });
   }
 
@@ -119,8 +132,14 @@ async function measureFile(root: string, cliPath: string, file: string, saves: n
     const warm = times.slice(1);
     const sorted = [...warm].sort((a, b) => a - b);
     return {
-      file: `examples/src/${file}`, ops, coldStartMs: opened - started, coldOpenMs, firstSaveMs: times[0], warmSavesMs: warm,
-      warmMedianMs: median(warm), warmP90Ms: sorted[Math.min(sorted.length - 1, Math.ceil(0.9 * sorted.length) - 1)] ?? NaN,
+      file: `examples/src/${file}`,
+      ops,
+      coldStartMs: opened - started,
+      coldOpenMs,
+      firstSaveMs: times[0],
+      warmSavesMs: warm,
+      warmMedianMs: median(warm),
+      warmP90Ms: sorted[Math.min(sorted.length - 1, Math.ceil(0.9 * sorted.length) - 1)] ?? NaN,
     };
   } finally {
     writeFileSync(path, original);

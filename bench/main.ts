@@ -90,7 +90,11 @@ function runWorker(script: string, args: string[]): Promise<string> {
 function machine(): BenchReport['machine'] {
   let memory = '';
   try {
-    memory = execFileSync('free', ['-h'], { encoding: 'utf8' }).split('\n').find((l) => l.startsWith('Mem:'))?.split(/\s+/)[1] ?? '';
+    memory =
+      execFileSync('free', ['-h'], { encoding: 'utf8' })
+        .split('\n')
+        .find((l) => l.startsWith('Mem:'))
+        ?.split(/\s+/)[1] ?? '';
   } catch {
     memory = 'unknown';
   }
@@ -113,7 +117,13 @@ function source(): BenchReport['source'] {
       return '';
     }
   };
-  return { commit: git(['rev-parse', '--short', 'HEAD']).trim(), modified: git(['status', '--porcelain', '--', 'server']).split('\n').filter(Boolean).map((l) => l.slice(3)) };
+  return {
+    commit: git(['rev-parse', '--short', 'HEAD']).trim(),
+    modified: git(['status', '--porcelain', '--', 'server'])
+      .split('\n')
+      .filter(Boolean)
+      .map((l) => l.slice(3)),
+  };
 }
 
 async function main(): Promise<void> {
@@ -142,11 +152,22 @@ async function main(): Promise<void> {
   const wantSize = (n: number): boolean => sizes === null || sizes.includes(n);
   const overrides = process.argv.find((a) => a.startsWith('--settings='))?.slice(11);
   const report: BenchReport = {
-    version: 1, startedAt: new Date().toISOString(), machine: machine(), settings: { ...DEFAULT_SETTINGS, ...(overrides ? (JSON.parse(overrides) as object) : {}) }, source: source(), ops: [], detection: [], latency: [],
-    throughput: null, memory: null, goals: [],
+    version: 1,
+    startedAt: new Date().toISOString(),
+    machine: machine(),
+    settings: { ...DEFAULT_SETTINGS, ...(overrides ? (JSON.parse(overrides) as object) : {}) },
+    source: source(),
+    ops: [],
+    detection: [],
+    latency: [],
+    throughput: null,
+    memory: null,
+    goals: [],
   };
   const log = (line: string): void => void process.stderr.write(`${line}\n`);
-  log(`bench: ${report.machine.cpu}, ${report.machine.cores} cores, ${report.machine.memory}, node ${report.machine.node}, load ${report.machine.loadBefore.map((l) => l.toFixed(2)).join(' ')}${quick ? ' (quick)' : ''}`);
+  log(
+    `bench: ${report.machine.cpu}, ${report.machine.cores} cores, ${report.machine.memory}, node ${report.machine.node}, load ${report.machine.loadBefore.map((l) => l.toFixed(2)).join(' ')}${quick ? ' (quick)' : ''}`,
+  );
 
   if (!skip.has('ops')) {
     for (const kind of [...OP_KINDS, ...DENSE_KINDS]) {
@@ -165,7 +186,15 @@ async function main(): Promise<void> {
       if (!wantKind(kind) || !wantSize(size)) continue;
       const trials = Math.min(planned, maxTrials);
       log(`  seeded bugs ${kind} ${size} ×${count}${param ? ` in ${param}` : ''}, ${trials} trials…`);
-      const line = await runWorker('detectWorker.js', [kind, String(size), String(count), String(BUG_RELATIVE), String(trials), String(FIRST_TRIAL_SEED), ...(param ? [param] : [])]);
+      const line = await runWorker('detectWorker.js', [
+        kind,
+        String(size),
+        String(count),
+        String(BUG_RELATIVE),
+        String(trials),
+        String(FIRST_TRIAL_SEED),
+        ...(param ? [param] : []),
+      ]);
       report.detection.push(JSON.parse(line) as DetectionMeasurement);
     }
   }
@@ -207,6 +236,6 @@ async function main(): Promise<void> {
 }
 
 main().catch((e: unknown) => {
-  process.stderr.write(`${e instanceof Error ? e.stack ?? e.message : String(e)}\n`);
+  process.stderr.write(`${e instanceof Error ? (e.stack ?? e.message) : String(e)}\n`);
   process.exitCode = 1;
 });

@@ -130,9 +130,16 @@ ${b.apply('g')}  return g;
 }
 `;
   return {
-    kind: 'elementwise', forward: 'softplus', fileName: `elementwise_${n}.ts`, text,
+    kind: 'elementwise',
+    forward: 'softplus',
+    fileName: `elementwise_${n}.ts`,
+    text,
     params: [{ name: 'x', elements: n, optimalColours: 1 }],
-    elements: n, outputs: n, bugParam: 'x', shape: `x ${fmt(n)}`, isMethod: false,
+    elements: n,
+    outputs: n,
+    bugParam: 'x',
+    shape: `x ${fmt(n)}`,
+    isMethod: false,
   };
 }
 
@@ -178,12 +185,19 @@ ${b.apply(inX ? 'dx' : 'dWeight')}  return { weight: dWeight, x: dx };
 }
 `;
   return {
-    kind: 'matmul', forward: 'matVec', fileName: `matmul_${c}.ts`, text,
+    kind: 'matmul',
+    forward: 'matVec',
+    fileName: `matmul_${c}.ts`,
+    text,
     params: [
       { name: 'weight', elements: r * c, optimalColours: c },
       { name: 'x', elements: c, optimalColours: c },
     ],
-    elements: r * c + c, outputs: r, bugParam: inX ? 'x' : 'weight', shape: `W ${r}×${c}, x ${c}`, isMethod: false,
+    elements: r * c + c,
+    outputs: r,
+    bugParam: inX ? 'x' : 'weight',
+    shape: `W ${r}×${c}, x ${c}`,
+    isMethod: false,
   };
 }
 
@@ -227,9 +241,16 @@ ${b.apply('g')}  return g;
 }
 `;
   return {
-    kind: 'softmax', forward: 'rowSoftmax', fileName: `softmax_${rows}.ts`, text,
+    kind: 'softmax',
+    forward: 'rowSoftmax',
+    fileName: `softmax_${rows}.ts`,
+    text,
     params: [{ name: 'z', elements: n, optimalColours: k }],
-    elements: n, outputs: n, bugParam: 'z', shape: `z ${fmt(rows)}×${k}`, isMethod: false,
+    elements: n,
+    outputs: n,
+    bugParam: 'z',
+    shape: `z ${fmt(rows)}×${k}`,
+    isMethod: false,
   };
 }
 
@@ -277,12 +298,19 @@ ${b.apply('dSignal')}  return { signal: dSignal, kernel: dKernel };
 }
 `;
   return {
-    kind: 'conv1d', forward: 'conv1d', fileName: `conv1d_${n}.ts`, text,
+    kind: 'conv1d',
+    forward: 'conv1d',
+    fileName: `conv1d_${n}.ts`,
+    text,
     params: [
       { name: 'signal', elements: n, optimalColours: Math.min(n, t) },
       { name: 'kernel', elements: t, optimalColours: t },
     ],
-    elements: n + t, outputs: n, bugParam: 'signal', shape: `signal ${fmt(n)}, kernel ${t}`, isMethod: false,
+    elements: n + t,
+    outputs: n,
+    bugParam: 'signal',
+    shape: `signal ${fmt(n)}, kernel ${t}`,
+    isMethod: false,
   };
 }
 
@@ -329,13 +357,20 @@ ${b.apply('dGain')}    return { x: dx, gain: dGain, shift: dShift };
 }
 `.replace(/^ {2}for \(const i of BUG_AT\)/m, '    for (const i of BUG_AT)');
   return {
-    kind: 'layer', forward: 'GainLayer.forward', fileName: `layer_${n}.ts`, text,
+    kind: 'layer',
+    forward: 'GainLayer.forward',
+    fileName: `layer_${n}.ts`,
+    text,
     params: [
       { name: 'x', elements: n, optimalColours: 1 },
       { name: 'this.gain', elements: n, optimalColours: 1 },
       { name: 'this.shift', elements: n, optimalColours: 1 },
     ],
-    elements: 3 * n, outputs: n, bugParam: 'this.gain', shape: `x, gain, shift ${fmt(n)} each`, isMethod: true,
+    elements: 3 * n,
+    outputs: n,
+    bugParam: 'this.gain',
+    shape: `x, gain, shift ${fmt(n)} each`,
+    isMethod: true,
   };
 }
 
@@ -371,9 +406,16 @@ ${b.apply('g')}  return g;
 }
 `;
   return {
-    kind: 'softmaxVector', forward: 'softmaxAll', fileName: `softmax_vector_${n}.ts`, text,
+    kind: 'softmaxVector',
+    forward: 'softmaxAll',
+    fileName: `softmax_vector_${n}.ts`,
+    text,
     // The exact scheme: no two elements are structurally orthogonal, one column per element.
     params: [{ name: 'z', elements: n, optimalColours: n }],
-    elements: n, outputs: n, bugParam: 'z', shape: `z ${fmt(n)}`, isMethod: false,
+    elements: n,
+    outputs: n,
+    bugParam: 'z',
+    shape: `z ${fmt(n)}`,
+    isMethod: false,
   };
 }

@@ -78,9 +78,15 @@ async function main(): Promise<void> {
   const times: number[] = [];
   for (let id = 1; id <= jobs; id++) {
     const job: JobMessage = {
-      type: 'job', id, bundleKey: bundle.key, bundleCode: id === 1 ? bundle.code : undefined,
-      requestJson: JSON.stringify({ op: target, settings: DEFAULT_SETTINGS }), seed: DEFAULT_SETTINGS.seed,
-      timeLimitMs: DEFAULT_SETTINGS.timeLimitMs, outputLimitChars: 65536, warmEngine,
+      type: 'job',
+      id,
+      bundleKey: bundle.key,
+      bundleCode: id === 1 ? bundle.code : undefined,
+      requestJson: JSON.stringify({ op: target, settings: DEFAULT_SETTINGS }),
+      seed: DEFAULT_SETTINGS.seed,
+      timeLimitMs: DEFAULT_SETTINGS.timeLimitMs,
+      outputLimitChars: 65536,
+      warmEngine,
     };
     child.send(job);
     const reply = await next();
@@ -96,7 +102,9 @@ async function main(): Promise<void> {
   child.disconnect();
   await exited;
   const warm = times.slice(1);
-  console.log(`${op.kind} ${op.shape}${extraFlags.length ? ` with ${extraFlags.join(' ')}` : ''}: median of jobs 2–${jobs} inside the runner ${median(warm).toFixed(1)} ms${profiling ? ' (profiled)' : ''}`);
+  console.log(
+    `${op.kind} ${op.shape}${extraFlags.length ? ` with ${extraFlags.join(' ')}` : ''}: median of jobs 2–${jobs} inside the runner ${median(warm).toFixed(1)} ms${profiling ? ' (profiled)' : ''}`,
+  );
   if (!profiling) {
     rmSync(dir, { recursive: true, force: true });
     return;
@@ -110,6 +118,6 @@ async function main(): Promise<void> {
 }
 
 main().catch((e: unknown) => {
-  process.stderr.write(`${e instanceof Error ? e.stack ?? e.message : String(e)}\n`);
+  process.stderr.write(`${e instanceof Error ? (e.stack ?? e.message) : String(e)}\n`);
   process.exitCode = 1;
 });

@@ -47,7 +47,22 @@ export function opTable(r: BenchReport): string {
     prev = m;
   }
   return table(
-    ['op', 'shape', 'elements', 'method', 'verdict', 'check calls F/B', 'floor calls F/B', 'floor ms', 'check ms', 'in runner ms', 'check ÷ floor', 'hand loop ms', 'hand ÷ check', 'growth'],
+    [
+      'op',
+      'shape',
+      'elements',
+      'method',
+      'verdict',
+      'check calls F/B',
+      'floor calls F/B',
+      'floor ms',
+      'check ms',
+      'in runner ms',
+      'check ÷ floor',
+      'hand loop ms',
+      'hand ÷ check',
+      'growth',
+    ],
     rows,
   );
 }
@@ -60,7 +75,13 @@ export function detectionTable(r: BenchReport): string {
       `${d.bugCount} element${d.bugCount > 1 ? 's' : ''} × (1 + ${d.bugRelative})`,
       n(d.elements),
       String(d.trials),
-      `${d.caught}${Object.keys(d.missed).length ? ` (${Object.entries(d.missed).map(([v, c]) => `${c} ${v}`).join(', ')})` : ''}`,
+      `${d.caught}${
+        Object.keys(d.missed).length
+          ? ` (${Object.entries(d.missed)
+              .map(([v, c]) => `${c} ${v}`)
+              .join(', ')})`
+          : ''
+      }`,
       String(d.located),
       d.lowerBound95.toFixed(3),
       ms(d.medianMs),
@@ -74,7 +95,9 @@ export function formatReport(r: BenchReport): string {
   const out: string[] = [];
   const mc = r.machine;
   out.push(`Gradient Probe benchmark, ${r.startedAt}`);
-  out.push(`machine: ${mc.cpu}, ${mc.cores} cores (nproc), ${mc.memory} memory (free -h), ${mc.platform}, node ${mc.node}; load average before ${mc.loadBefore.map((x) => x.toFixed(2)).join(' ')}, after ${mc.loadAfter.map((x) => x.toFixed(2)).join(' ')}`);
+  out.push(
+    `machine: ${mc.cpu}, ${mc.cores} cores (nproc), ${mc.memory} memory (free -h), ${mc.platform}, node ${mc.node}; load average before ${mc.loadBefore.map((x) => x.toFixed(2)).join(' ')}, after ${mc.loadAfter.map((x) => x.toFixed(2)).join(' ')}`,
+  );
   out.push(`source: commit ${r.source.commit}${r.source.modified.length ? ` plus uncommitted changes in ${r.source.modified.join(', ')}` : ''}`);
   out.push(`settings of the op checks: ${JSON.stringify(r.settings)} (server/src/engine/settings.ts defaults unless a --settings run says otherwise)`);
   if (r.ops.length) {
@@ -82,7 +105,7 @@ export function formatReport(r: BenchReport): string {
     out.push('');
     const warm = [...new Set(r.ops.map((m) => m.check.warmupRuns ?? 0))].join('/');
     out.push(`Ops (each size in its own process; check = Checker.checkFile wall time, median of ${reps} runs after one cold run and ${warm} untimed warm-up runs;`);
-    out.push('floor = the forward/backward calls the picked method needs, timed directly on the same bundle in a vm context set up like the runner\'s, median;');
+    out.push("floor = the forward/backward calls the picked method needs, timed directly on the same bundle in a vm context set up like the runner's, median;");
     out.push(`† = floor above ${FLOOR_FULL_RUN_MS / 1000} s: call count × median time of one call instead of a timed run of every call;`);
     out.push('hand loop = per-element central difference, fixed step 1e-6, over a scalar projection; * = extrapolated from the elements reached in the time budget;');
     out.push('growth = exponent of check time against elements from the previous size)');
@@ -96,46 +119,78 @@ export function formatReport(r: BenchReport): string {
   if (r.latency.length) {
     out.push('');
     out.push('Editor latency over LSP (node dist/bench/cli.js lsp --stdio, the CLI of bin/gradient-probe.js; edit + didSave → publishDiagnostics of the finished check)');
-    out.push(table(
-      ['file', 'ops', 'spawn → initialized', 'cold didOpen → diagnostics', 'first save', 'warm saves median', 'warm p90'],
-      r.latency.map((l) => [l.file, String(l.ops), ms(l.coldStartMs), ms(l.coldOpenMs), ms(l.firstSaveMs), ms(l.warmMedianMs), ms(l.warmP90Ms)]),
-      1,
-    ));
+    out.push(
+      table(
+        ['file', 'ops', 'spawn → initialized', 'cold didOpen → diagnostics', 'first save', 'warm saves median', 'warm p90'],
+        r.latency.map((l) => [l.file, String(l.ops), ms(l.coldStartMs), ms(l.coldOpenMs), ms(l.firstSaveMs), ms(l.warmMedianMs), ms(l.warmP90Ms)]),
+        1,
+      ),
+    );
   }
   if (r.throughput) {
     const t = r.throughput;
     out.push('');
     out.push(`Workspace: ${t.ops} ops in ${t.files} files (generated)`);
-    out.push(table(
-      ['how', 'workers', 'runs (ms)', 'median ms', 'machine idle'],
-      [
-        ...t.checker.map((c) => ['Checker, warm runners, all files in flight', String(c.workers), c.runsMs.map(ms).join(' '), ms(c.medianMs), c.idleShare === undefined ? '' : `${(100 * c.idleShare).toFixed(0)} %`]),
-        ...t.cli.map((c) => ['CLI end to end (check DIR --workers N --json)', String(c.workers), c.runsMs.map(ms).join(' '), ms(c.medianMs), '']),
-      ],
-      1,
-    ));
+    out.push(
+      table(
+        ['how', 'workers', 'runs (ms)', 'median ms', 'machine idle'],
+        [
+          ...t.checker.map((c) => [
+            'Checker, warm runners, all files in flight',
+            String(c.workers),
+            c.runsMs.map(ms).join(' '),
+            ms(c.medianMs),
+            c.idleShare === undefined ? '' : `${(100 * c.idleShare).toFixed(0)} %`,
+          ]),
+          ...t.cli.map((c) => ['CLI end to end (check DIR --workers N --json)', String(c.workers), c.runsMs.map(ms).join(' '), ms(c.medianMs), '']),
+        ],
+        1,
+      ),
+    );
   }
   if (r.memory) {
     const m = r.memory;
     out.push('');
     out.push('Server memory over forced checks of one file (gradientProbe/checkOps, RSS from /proc)');
-    out.push(table(['after checks', 'server RSS MiB', 'runners RSS MiB'], m.checks.map((c, i) => [String(c), m.serverRssMb[i].toFixed(1), m.runnerRssMb[i].toFixed(1)])));
+    out.push(
+      table(
+        ['after checks', 'server RSS MiB', 'runners RSS MiB'],
+        m.checks.map((c, i) => [String(c), m.serverRssMb[i].toFixed(1), m.runnerRssMb[i].toFixed(1)]),
+      ),
+    );
   }
   if (r.goals.length) {
     out.push('');
     const verdict = (g: { met: boolean | null } | undefined): string => (g === undefined ? 'not measured' : g.met === null ? 'n/a' : g.met ? 'met' : 'NOT MET');
-    if (r.filters) out.push(`(partial run: ${Object.entries(r.filters).map(([k, v]) => `--${k}=${v}`).join(' ')})`);
+    if (r.filters)
+      out.push(
+        `(partial run: ${Object.entries(r.filters)
+          .map(([k, v]) => `--${k}=${v}`)
+          .join(' ')})`,
+      );
     if (r.previous) {
       // The run of record before this one, judged by the same rules, beside each goal.
       const prev = r.previous;
       out.push(`Goals (previous = the run of record of ${prev.startedAt}, commit ${prev.commit}, judged by the same rules)`);
-      out.push(table(['goal', 'met', 'figure', 'previous', 'previous figure'], r.goals.map((g) => {
-        const p = prev.goals.find((q) => q.goal === g.goal);
-        return [g.goal, verdict(g), g.figure, verdict(p), p?.figure ?? ''];
-      }), 5));
+      out.push(
+        table(
+          ['goal', 'met', 'figure', 'previous', 'previous figure'],
+          r.goals.map((g) => {
+            const p = prev.goals.find((q) => q.goal === g.goal);
+            return [g.goal, verdict(g), g.figure, verdict(p), p?.figure ?? ''];
+          }),
+          5,
+        ),
+      );
     } else {
       out.push('Goals');
-      out.push(table(['goal', 'met', 'figure'], r.goals.map((g) => [g.goal, verdict(g), g.figure]), 3));
+      out.push(
+        table(
+          ['goal', 'met', 'figure'],
+          r.goals.map((g) => [g.goal, verdict(g), g.figure]),
+          3,
+        ),
+      );
     }
   }
   return `${out.join('\n')}\n`;

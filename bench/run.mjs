@@ -12,11 +12,18 @@ const builds = [
   { ...node, entryPoints: { cli: 'server/src/cli/main.ts' }, outdir: out, packages: 'external' },
   { ...node, entryPoints: { 'sandbox-child': 'server/src/sandbox/child.ts' }, outdir: out },
   {
-    bundle: true, platform: 'neutral', format: 'iife', target: 'es2022', logLevel: 'warning',
-    entryPoints: { 'engine-in-sandbox': 'server/src/engine/sandboxEntry.ts' }, outdir: out,
+    bundle: true,
+    platform: 'neutral',
+    format: 'iife',
+    target: 'es2022',
+    logLevel: 'warning',
+    entryPoints: { 'engine-in-sandbox': 'server/src/engine/sandboxEntry.ts' },
+    outdir: out,
   },
   {
-    ...node, packages: 'external', outdir: out,
+    ...node,
+    packages: 'external',
+    outdir: out,
     entryPoints: ['bench/main.ts', 'bench/opWorker.ts', 'bench/detectWorker.ts', 'bench/profileRunner.ts'],
   },
 ];

@@ -59,7 +59,9 @@ async function warmOverhead(): Promise<void> {
       inRunner.push(r.elapsedMs);
     }
   }
-  console.log(`warm trivial op, ${WARM_RUNS} runs on one runner: round trip median ${ms(median(roundTrips))}; inside the runner (fresh context + engine + module + check) median ${ms(median(inRunner))}; IPC and scheduling ≈ ${ms(median(roundTrips) - median(inRunner))}`);
+  console.log(
+    `warm trivial op, ${WARM_RUNS} runs on one runner: round trip median ${ms(median(roundTrips))}; inside the runner (fresh context + engine + module + check) median ${ms(median(inRunner))}; IPC and scheduling ≈ ${ms(median(roundTrips) - median(inRunner))}`,
+  );
   await pool.dispose();
 }
 
@@ -83,7 +85,9 @@ async function bundleTimes(): Promise<void> {
     await bundler.bundle({ file, text, bindings });
     hits.push(performance.now() - t);
   }
-  console.log(`bundle (relative import + package): first in process ${ms(firstInProcess)}; changed text median ${ms(median(rebuilds))}; cache hit (re-validating inputs) median ${ms(median(hits))}  [builds ${bundler.stats.builds}, hits ${bundler.stats.cacheHits}]`);
+  console.log(
+    `bundle (relative import + package): first in process ${ms(firstInProcess)}; changed text median ${ms(median(rebuilds))}; cache hit (re-validating inputs) median ${ms(median(hits))}  [builds ${bundler.stats.builds}, hits ${bundler.stats.cacheHits}]`,
+  );
 }
 
 /** The same check in this process (plain functions) and in a warm runner (vm context, bundle). */

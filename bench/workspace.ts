@@ -100,8 +100,12 @@ export async function measureThroughput(dir: string, runs: number): Promise<Thro
     cli.push({ workers, runsMs: times, medianMs: median(times) });
   }
   return {
-    files: files.length, ops: files.length * OPS_PER_FILE, checker, cli,
-    speedup: checker[0].medianMs / checker[1].medianMs, cliSpeedup: cli[0].medianMs / cli[1].medianMs,
+    files: files.length,
+    ops: files.length * OPS_PER_FILE,
+    checker,
+    cli,
+    speedup: checker[0].medianMs / checker[1].medianMs,
+    cliSpeedup: cli[0].medianMs / cli[1].medianMs,
   };
 }
 
@@ -119,7 +123,10 @@ function rssMb(pid: number): number {
 function childrenRssMb(pid: number): number {
   try {
     const out = execFileSync('ps', ['-o', 'rss=', '--ppid', String(pid)], { encoding: 'utf8' });
-    return out.split('\n').filter((l) => l.trim()).reduce((a, l) => a + Number(l.trim()) / 1024, 0);
+    return out
+      .split('\n')
+      .filter((l) => l.trim())
+      .reduce((a, l) => a + Number(l.trim()) / 1024, 0);
   } catch {
     return NaN;
   }
@@ -141,7 +148,7 @@ export async function measureServerMemory(dir: string, checks: number): Promise<
     await server.connection.sendNotification(lsp.DidOpenTextDocumentNotification.type, { textDocument: { uri, languageId: 'typescript', version: 1, text: op.text } });
     await opened;
     for (let i = 1; i <= checks; i++) {
-      const reply = await server.connection.sendRequest('gradientProbe/checkOps', { uri, force: true }) as { results?: { verdict: string }[] };
+      const reply = (await server.connection.sendRequest('gradientProbe/checkOps', { uri, force: true })) as { results?: { verdict: string }[] };
       if (!reply.results || reply.results.length === 0) throw new Error(`check ${i} returned no result`);
       if (i % 100 === 0) {
         points.push(i);

@@ -16,7 +16,12 @@ function blend(x, y, [r, g, b], a) {
   const i = (y * SIZE + x) * 4;
   const da = px[i + 3];
   const oa = a + da * (1 - a);
-  for (const [k, c] of [[0, r], [1, g], [2, b]]) px[i + k] = oa > 0 ? (c * a + px[i + k] * da * (1 - a)) / oa : 0;
+  for (const [k, c] of [
+    [0, r],
+    [1, g],
+    [2, b],
+  ])
+    px[i + k] = oa > 0 ? (c * a + px[i + k] * da * (1 - a)) / oa : 0;
   px[i + 3] = oa;
 }
 
@@ -49,19 +54,37 @@ function stroke(points, width, colour) {
 
 // The tile: a rounded square.
 const R = 44;
-fill((x, y) => {
-  const qx = Math.abs(x - SIZE / 2) - (SIZE / 2 - 8 - R);
-  const qy = Math.abs(y - SIZE / 2) - (SIZE / 2 - 8 - R);
-  return Math.hypot(Math.max(qx, 0), Math.max(qy, 0)) + Math.min(Math.max(qx, qy), 0) - R;
-}, [0.09, 0.13, 0.2]);
+fill(
+  (x, y) => {
+    const qx = Math.abs(x - SIZE / 2) - (SIZE / 2 - 8 - R);
+    const qy = Math.abs(y - SIZE / 2) - (SIZE / 2 - 8 - R);
+    return Math.hypot(Math.max(qx, 0), Math.max(qy, 0)) + Math.min(Math.max(qx, qy), 0) - R;
+  },
+  [0.09, 0.13, 0.2],
+);
 
 // Axes.
-stroke([[56, 48], [56, 204], [212, 204]], 6, [0.55, 0.62, 0.72]);
+stroke(
+  [
+    [56, 48],
+    [56, 204],
+    [212, 204],
+  ],
+  6,
+  [0.55, 0.62, 0.72],
+);
 // Error in decades against log step: h from 1e-1 to 1e-13, rounding 1e-16/h plus truncation h²
 // (the shape of Nocedal & Wright, 2nd ed., §8.1), drawn from e = -2 (top) to e = -11 (bottom).
 const yOf = (e) => 60 + ((-2 - e) / 9) * 130;
 // A wrong gradient: a flat floor well above the V's bottom.
-stroke([[66, yOf(-4.5)], [204, yOf(-4.5)]], 8, [0.93, 0.36, 0.33]);
+stroke(
+  [
+    [66, yOf(-4.5)],
+    [204, yOf(-4.5)],
+  ],
+  8,
+  [0.93, 0.36, 0.33],
+);
 // A correct gradient: the V.
 const v = [];
 for (let i = 0; i <= 60; i++) {
@@ -100,7 +123,12 @@ header.writeUInt32BE(SIZE, 0);
 header.writeUInt32BE(SIZE, 4);
 header[8] = 8; // bit depth
 header[9] = 6; // RGBA
-const png = Buffer.concat([Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]), chunk('IHDR', header), chunk('IDAT', deflateSync(raw, { level: 9 })), chunk('IEND', Buffer.alloc(0))]);
+const png = Buffer.concat([
+  Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]),
+  chunk('IHDR', header),
+  chunk('IDAT', deflateSync(raw, { level: 9 })),
+  chunk('IEND', Buffer.alloc(0)),
+]);
 const out = join(root, 'client', 'marketplace', 'icon.png');
 writeFileSync(out, png);
 console.log(`${out} (${png.length} bytes)`);

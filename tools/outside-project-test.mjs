@@ -28,11 +28,20 @@ function run(cmd, args, cwd) {
 function writeUserProject(dir) {
   mkdirSync(join(dir, 'src'), { recursive: true });
   writeFileSync(join(dir, 'package.json'), JSON.stringify({ name: 'quillmere-controller', version: '1.0.0', private: true, type: 'module' }, null, 2));
-  writeFileSync(join(dir, 'tsconfig.json'), JSON.stringify({
-    compilerOptions: { target: 'ES2022', module: 'NodeNext', moduleResolution: 'NodeNext', strict: true, noEmit: true },
-  }, null, 2));
+  writeFileSync(
+    join(dir, 'tsconfig.json'),
+    JSON.stringify(
+      {
+        compilerOptions: { target: 'ES2022', module: 'NodeNext', moduleResolution: 'NodeNext', strict: true, noEmit: true },
+      },
+      null,
+      2,
+    ),
+  );
   writeFileSync(join(dir, 'src', 'scale.ts'), 'export const VENT_SCALE = 3;\n');
-  writeFileSync(join(dir, 'src', 'vents.ts'), `import { VENT_SCALE } from './scale.js';
+  writeFileSync(
+    join(dir, 'src', 'vents.ts'),
+    `import { VENT_SCALE } from './scale.js';
 
 /**
  * Cubic vent response, scaled. d/dx (s x^3) = 3 s x^2.
@@ -59,7 +68,8 @@ export function ventSquare(x: Float64Array): Float64Array {
 export function ventSquareBackward(x: Float64Array, dy: Float64Array): Float64Array {
   return x.map((v, i) => dy[i]! * v);
 }
-`);
+`,
+  );
 }
 
 /** Runs the installed CLI in `dir` and checks the verdicts, the exit code and clean streams. */
@@ -87,7 +97,15 @@ try {
   const tarball = join(temp, info.filename);
   const paths = info.files.map((f) => f.path);
   console.log(`      ${info.filename}: ${(info.size / 1024).toFixed(0)} KiB packed, ${paths.length} files`);
-  for (const needed of ['bin/gradient-probe.js', 'dist/cli.js', 'dist/server.js', 'dist/sandbox-child.js', 'dist/engine-in-sandbox.js', 'dist/isolated-worker.js', 'schemas/gradient-probe.schema.json']) {
+  for (const needed of [
+    'bin/gradient-probe.js',
+    'dist/cli.js',
+    'dist/server.js',
+    'dist/sandbox-child.js',
+    'dist/engine-in-sandbox.js',
+    'dist/isolated-worker.js',
+    'schemas/gradient-probe.schema.json',
+  ]) {
     expect(paths.includes(needed), `the tarball holds ${needed}`);
   }
   const stray = paths.filter((p) => /^(test|bench|server|client|tools|examples|dist\/test)\//.test(p) || p.endsWith('.map'));

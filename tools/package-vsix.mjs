@@ -52,8 +52,13 @@ for (const file of ['client.js', 'sandbox-child.js', 'engine-in-sandbox.js', 'is
 await esbuild.build({
   entryPoints: [join(root, 'server/src/lsp/main.ts')],
   outfile: join(stage, 'dist', 'server.js'),
-  bundle: true, platform: 'node', target: 'node20', format: 'cjs', external: ['esbuild'],
-  logLevel: 'warning', legalComments: 'none',
+  bundle: true,
+  platform: 'node',
+  target: 'node20',
+  format: 'cjs',
+  external: ['esbuild'],
+  logLevel: 'warning',
+  legalComments: 'none',
 });
 
 // esbuild's JavaScript API and this platform's binary, where require('esbuild') from dist/ finds them.
@@ -65,8 +70,15 @@ for (const f of ['package.json', 'LICENSE.md', 'lib/main.js']) {
 cpSync(join(root, 'node_modules', platformPackage), join(modules, platformPackage), { recursive: true, dereference: true });
 // The isolated interpreter's worker (dist/isolated-worker.js) loads QuickJS and its WebAssembly
 // builds from node_modules at run time.
-for (const name of ['quickjs-emscripten', 'quickjs-emscripten-core', '@jitl/quickjs-ffi-types', '@jitl/quickjs-wasmfile-release-sync',
-  '@jitl/quickjs-wasmfile-release-asyncify', '@jitl/quickjs-wasmfile-debug-sync', '@jitl/quickjs-wasmfile-debug-asyncify']) {
+for (const name of [
+  'quickjs-emscripten',
+  'quickjs-emscripten-core',
+  '@jitl/quickjs-ffi-types',
+  '@jitl/quickjs-wasmfile-release-sync',
+  '@jitl/quickjs-wasmfile-release-asyncify',
+  '@jitl/quickjs-wasmfile-debug-sync',
+  '@jitl/quickjs-wasmfile-debug-asyncify',
+]) {
   cpSync(join(root, 'node_modules', name), join(modules, name), { recursive: true, dereference: true });
 }
 

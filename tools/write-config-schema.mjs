@@ -9,7 +9,12 @@ import { fileURLToPath } from 'node:url';
 const root = resolve(dirname(fileURLToPath(import.meta.url)), '..');
 const built = await esbuild.build({
   entryPoints: [join(root, 'server/src/project/configSchema.ts')],
-  bundle: true, write: false, format: 'esm', platform: 'node', logLevel: 'warning', packages: 'external',
+  bundle: true,
+  write: false,
+  format: 'esm',
+  platform: 'node',
+  logLevel: 'warning',
+  packages: 'external',
 });
 const { projectConfigSchema } = await import(`data:text/javascript;base64,${Buffer.from(built.outputFiles[0].text).toString('base64')}`);
 const out = join(root, 'schemas', 'gradient-probe.schema.json');

@@ -4,7 +4,12 @@
 import * as vscode from 'vscode';
 import type { LanguageClient } from 'vscode-languageclient/node';
 import {
-  ClientCommands, Methods, type CheckOpsParams, type CheckOpsResult, type CheckWorkspaceResult, type OpReportParams,
+  ClientCommands,
+  Methods,
+  type CheckOpsParams,
+  type CheckOpsResult,
+  type CheckWorkspaceResult,
+  type OpReportParams,
   type RegressionTestResult,
 } from '../../server/src/lsp/protocol';
 import type { CommandId } from './commandIds';
@@ -41,7 +46,8 @@ export function registerCommands(ctx: ProbeContext): vscode.Disposable[] {
         void vscode.window.showErrorMessage(`Gradient Probe: ${message}`);
         return undefined;
       }
-    }));
+    }),
+  );
 }
 
 function needClient(ctx: ProbeContext): LanguageClient | undefined {
@@ -62,7 +68,8 @@ async function checkFile(ctx: ProbeContext, uriArg: unknown): Promise<CheckOpsRe
   const answer = await client.sendRequest<CheckOpsResult>(Methods.checkOps, params);
   if (answer.reason) void vscode.window.showWarningMessage(`Gradient Probe: nothing checked: ${answer.reason}.`);
   else if (answer.results.length === 0) void vscode.window.showInformationMessage('Gradient Probe: this file has no annotated ops (a forward with a @backward tag).');
-  else void vscode.window.showInformationMessage(`Gradient Probe: ${countsText(answer.results.map((r) => r.verdict))} in ${vscode.workspace.asRelativePath(vscode.Uri.parse(uri))}.`);
+  else
+    void vscode.window.showInformationMessage(`Gradient Probe: ${countsText(answer.results.map((r) => r.verdict))} in ${vscode.workspace.asRelativePath(vscode.Uri.parse(uri))}.`);
   return answer;
 }
 
@@ -143,7 +150,10 @@ async function pickOp(ctx: ProbeContext, uriArg: unknown, forwardArg: unknown): 
   const line = editor.selection.active.line;
   const above = ops.filter((o) => o.range.start.line <= line).sort((a, b) => b.range.start.line - a.range.start.line)[0];
   if (above && line - above.range.start.line < OP_REACH_LINES) return { uri, forward: above.forward };
-  const pick = await vscode.window.showQuickPick(ops.map((o) => ({ label: o.forward, description: o.state })), { placeHolder: 'Which op?' });
+  const pick = await vscode.window.showQuickPick(
+    ops.map((o) => ({ label: o.forward, description: o.state })),
+    { placeHolder: 'Which op?' },
+  );
   return pick ? { uri, forward: pick.label } : undefined;
 }
 

@@ -6,8 +6,13 @@ import * as path from 'node:path';
 import * as vscode from 'vscode';
 import { LanguageClient, TransportKind, type LanguageClientOptions, type ServerOptions } from 'vscode-languageclient/node';
 import {
-  Methods, type FileOps, type OpStatesParams, type ProbeInitializationOptions, type StatusParams,
-  type TrustChangedParams, type WorkspaceProgressParams,
+  Methods,
+  type FileOps,
+  type OpStatesParams,
+  type ProbeInitializationOptions,
+  type StatusParams,
+  type TrustChangedParams,
+  type WorkspaceProgressParams,
 } from '../../server/src/lsp/protocol';
 import { registerCommands } from './commands';
 import { RecordingOutputChannel } from './outputChannel';
@@ -53,10 +58,12 @@ export class ProbeContext implements vscode.Disposable {
     this.disposables.push(this.output, this.statusBar, this.tests, this.reports);
     this.disposables.push(...registerCommands(this));
     // Trust can only be granted while the window lives (withdrawing it reloads the window).
-    this.disposables.push(vscode.workspace.onDidGrantWorkspaceTrust(() => {
-      const params: TrustChangedParams = { workspaceTrusted: true };
-      void this.client?.sendNotification(Methods.trustChanged, params);
-    }));
+    this.disposables.push(
+      vscode.workspace.onDidGrantWorkspaceTrust(() => {
+        const params: TrustChangedParams = { workspaceTrusted: true };
+        void this.client?.sendNotification(Methods.trustChanged, params);
+      }),
+    );
   }
 
   readonly api: ProbeApi = {

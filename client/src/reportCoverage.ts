@@ -23,7 +23,10 @@ export function coverageSection(result: OpResult, esc: Escape): string {
   if (c.gaps.length === 0) {
     return `<section class="coverage"><h2>Coverage</h2><p class="meta">${esc(share)}. Every block of the forward and the backward ran during the check.</p></section>`;
   }
-  const items = c.gaps.map((g) => `<li><span class="where">${esc(gapWhere(g, result.file))}</span> in <code>${esc(g.function)}</code> (${esc(g.side)}): ${esc(g.what)}${g.reach ? `<br><span class="reach">${esc(g.reach)}</span>` : ''}</li>`);
+  const items = c.gaps.map(
+    (g) =>
+      `<li><span class="where">${esc(gapWhere(g, result.file))}</span> in <code>${esc(g.function)}</code> (${esc(g.side)}): ${esc(g.what)}${g.reach ? `<br><span class="reach">${esc(g.reach)}</span>` : ''}</li>`,
+  );
   return `<section class="coverage"><h2>Coverage</h2>
 <p class="meta">${esc(share)}. The check says nothing about code it never ran:</p>
 <ul class="gaps">${items.join('')}</ul></section>`;

@@ -73,7 +73,12 @@ function detectionFloorOf(p: ParamResult): number | undefined {
 
 function paramSection(p: ParamResult, tolerance: number | undefined): string {
   const floor = detectionFloorOf(p);
-  const context: StepPlotContext = { worst: p.worst, elementwise: p.method !== 'dot-product', ...(tolerance !== undefined ? { tolerance } : {}), ...(floor !== undefined ? { detectionFloor: floor } : {}) };
+  const context: StepPlotContext = {
+    worst: p.worst,
+    elementwise: p.method !== 'dot-product',
+    ...(tolerance !== undefined ? { tolerance } : {}),
+    ...(floor !== undefined ? { detectionFloor: floor } : {}),
+  };
   const plot = p.stepScan && p.stepScan.steps.length > 1 ? stepPlot(p.stepScan, p.name, context) : '<p class="none">No step scan recorded for this parameter.</p>';
   const map = p.shape.length === 2 && p.errorMap && p.errorMap.length === p.shape[0]! * p.shape[1]! ? errorMapSvg(p.errorMap, p.shape[0]!, p.shape[1]!, p.name) : '';
   return `<section class="param">
@@ -136,9 +141,8 @@ export function stepPlot(scan: StepScan, name: string, context: StepPlotContext 
   const tolLevel = context.tolerance !== undefined && magnitude > 0 ? context.tolerance * magnitude : undefined;
   const floorLevel = context.detectionFloor !== undefined && magnitude > 0 ? context.detectionFloor * magnitude : undefined;
   // The reference curve only where it differs from the observed one (a mismatch); for a pass they coincide.
-  const reference = worst && context.elementwise !== false && Math.abs(worst.analytic - worst.numeric) > 0
-    ? logPoints({ steps: scan.steps, absErrors: referenceErrors(scan, worst) })
-    : [];
+  const reference =
+    worst && context.elementwise !== false && Math.abs(worst.analytic - worst.numeric) > 0 ? logPoints({ steps: scan.steps, absErrors: referenceErrors(scan, worst) }) : [];
   const showReference = reference.length >= 2 && reference.some((r, i) => pts[i] !== undefined && Math.abs(r.y - pts[i]!.y) > 0.5);
   const levels = [tolLevel, floorLevel].filter((v): v is number => v !== undefined && v > 0).map(Math.log10);
   const xr = decadeRange(pts.map((p) => p.x));
@@ -154,15 +158,30 @@ export function stepPlot(scan: StepScan, name: string, context: StepPlotContext 
     return out;
   };
   const grid = [
-    ...ticks(xr.lo, xr.hi).map((d) => `<line class="grid" x1="${f(sx(d))}" y1="${PLOT.top}" x2="${f(sx(d))}" y2="${PLOT.top + h}"/><text class="tick" x="${f(sx(d))}" y="${PLOT.top + h + 14}" text-anchor="middle">1e${d}</text>`),
-    ...ticks(yr.lo, yr.hi).map((d) => `<line class="grid" x1="${PLOT.left}" y1="${f(sy(d))}" x2="${PLOT.left + w}" y2="${f(sy(d))}"/><text class="tick" x="${PLOT.left - 6}" y="${f(sy(d) + 4)}" text-anchor="end">1e${d}</text>`),
+    ...ticks(xr.lo, xr.hi).map(
+      (d) =>
+        `<line class="grid" x1="${f(sx(d))}" y1="${PLOT.top}" x2="${f(sx(d))}" y2="${PLOT.top + h}"/><text class="tick" x="${f(sx(d))}" y="${PLOT.top + h + 14}" text-anchor="middle">1e${d}</text>`,
+    ),
+    ...ticks(yr.lo, yr.hi).map(
+      (d) =>
+        `<line class="grid" x1="${PLOT.left}" y1="${f(sy(d))}" x2="${PLOT.left + w}" y2="${f(sy(d))}"/><text class="tick" x="${PLOT.left - 6}" y="${f(sy(d) + 4)}" text-anchor="end">1e${d}</text>`,
+    ),
   ].join('');
   const sorted = [...pts].sort((a, b) => a.x - b.x);
   const line = sorted.map((p) => `${f(sx(p.x))},${f(sy(p.y))}`).join(' ');
-  const dots = sorted.map((p) => `<circle class="dot" cx="${f(sx(p.x))}" cy="${f(sy(p.y))}" r="3"><title>step ${sci(10 ** p.x)}: error ${sci(10 ** p.y)}</title></circle>`).join('');
+  const dots = sorted
+    .map((p) => `<circle class="dot" cx="${f(sx(p.x))}" cy="${f(sy(p.y))}" r="3"><title>step ${sci(10 ** p.x)}: error ${sci(10 ** p.y)}</title></circle>`)
+    .join('');
   const level = (v: number | undefined, cls: string, label: string): string =>
-    v === undefined || v <= 0 ? '' : `<line class="${cls}" x1="${PLOT.left}" y1="${f(sy(Math.log10(v)))}" x2="${PLOT.left + w}" y2="${f(sy(Math.log10(v)))}"><title>${esc(label)}: ${sci(v)}</title></line>`;
-  const refLine = showReference ? `<polyline class="reference" points="${[...reference].sort((a, b) => a.x - b.x).map((p) => `${f(sx(p.x))},${f(sy(p.y))}`).join(' ')}"/>` : '';
+    v === undefined || v <= 0
+      ? ''
+      : `<line class="${cls}" x1="${PLOT.left}" y1="${f(sy(Math.log10(v)))}" x2="${PLOT.left + w}" y2="${f(sy(Math.log10(v)))}"><title>${esc(label)}: ${sci(v)}</title></line>`;
+  const refLine = showReference
+    ? `<polyline class="reference" points="${[...reference]
+        .sort((a, b) => a.x - b.x)
+        .map((p) => `${f(sx(p.x))},${f(sy(p.y))}`)
+        .join(' ')}"/>`
+    : '';
   const legend = [
     `<li><span class="swatch observed"></span>observed |backward − numeric|</li>`,
     showReference ? `<li><span class="swatch reference"></span>finite-difference error alone (a correct backward)</li>` : '',
@@ -193,7 +212,9 @@ export function errorMapSvg(errors: number[], rows: number, cols: number, name: 
       const v = logs[i]!;
       // Opacity from 0.08 (smallest error, still visible) to 1 (largest).
       const opacity = Number.isFinite(v) ? (hi > lo ? 0.08 + (0.92 * (v - lo)) / (hi - lo) : 1) : 0;
-      rects.push(`<rect class="cell" x="${c * cell}" y="${r * cell}" width="${cell}" height="${cell}" fill-opacity="${opacity.toFixed(3)}"><title>${esc(name)}[${r}, ${c}]: ${sci(errors[i]!)}</title></rect>`);
+      rects.push(
+        `<rect class="cell" x="${c * cell}" y="${r * cell}" width="${cell}" height="${cell}" fill-opacity="${opacity.toFixed(3)}"><title>${esc(name)}[${r}, ${c}]: ${sci(errors[i]!)}</title></rect>`,
+      );
     }
   }
   return `<figure class="map"><svg role="img" aria-label="relative error per element of ${esc(name)}" width="${cols * cell}" height="${rows * cell}" viewBox="0 0 ${cols * cell} ${rows * cell}"><rect class="mapframe" x="0" y="0" width="${cols * cell}" height="${rows * cell}"/>${rects.join('')}</svg>

@@ -45,7 +45,9 @@ export class ProbeStatusBar implements vscode.Disposable {
       status.isolated ? 'Gradient Probe — untrusted workspace: checks run in the isolated interpreter (slower, small ops only)' : 'Gradient Probe',
       `${status.pass} pass · ${status.mismatch} mismatch · ${status.inconclusive} inconclusive · ${status.error} error`,
       status.checking > 0 ? `${status.checking} being checked now` : '',
-    ].filter(Boolean).join('\n');
+    ]
+      .filter(Boolean)
+      .join('\n');
     this.item.backgroundColor = status.mismatch > 0 ? new vscode.ThemeColor('statusBarItem.errorBackground') : undefined;
   }
 

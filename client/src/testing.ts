@@ -26,9 +26,7 @@ export class ProbeTests implements vscode.Disposable {
       if (!item) await this.loadWorkspace();
     };
     this.controller.refreshHandler = () => this.loadWorkspace();
-    this.disposables.push(
-      this.controller.createRunProfile('Check gradients', vscode.TestRunProfileKind.Run, (request, token) => this.run(request, token), true),
-    );
+    this.disposables.push(this.controller.createRunProfile('Check gradients', vscode.TestRunProfileKind.Run, (request, token) => this.run(request, token), true));
   }
 
   /** Asks the server for every op of the workspace (discovery only, nothing runs). */

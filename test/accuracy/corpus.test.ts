@@ -76,8 +76,16 @@ describe('accuracy corpus through the command line', function () {
 
   it('reports every labelled op, and nothing unlabelled', function () {
     const absent = ops.filter((o) => o.verdict === 'absent');
-    assert.deepEqual(absent.map((o) => `${o.file} ${o.forward}`), [], 'labelled ops missing from the report');
-    assert.deepEqual(unlabelled.map((p) => `${p.file}:${p.line} ${p.forward} ${p.verdict} ${p.message}`), [], 'reported ops without a label');
+    assert.deepEqual(
+      absent.map((o) => `${o.file} ${o.forward}`),
+      [],
+      'labelled ops missing from the report',
+    );
+    assert.deepEqual(
+      unlabelled.map((p) => `${p.file}:${p.line} ${p.forward} ${p.verdict} ${p.message}`),
+      [],
+      'reported ops without a label',
+    );
   });
 
   it('passes every correct op', function () {

@@ -67,7 +67,10 @@ describe('demo workspace through the command line', function () {
     const lines = readFileSync(join(root, 'examples', 'src', 'dawn.ts'), 'utf8').split('\n');
     const gapLine = lines.findIndex((l) => l.includes('// DEMO GAP:')) + 2;
     const withBackwardGaps = pairs.filter((p) => p.coverage?.collected && p.coverage.gaps.some((g) => g.side !== 'forward'));
-    assert.deepEqual(withBackwardGaps.map((p) => p.forward), ['dawnRamp']);
+    assert.deepEqual(
+      withBackwardGaps.map((p) => p.forward),
+      ['dawnRamp'],
+    );
     const dawn = pairs.find((p) => p.forward === 'dawnRamp')!.coverage;
     assert.ok(dawn?.collected);
     const gap = dawn.gaps.find((g) => g.side === 'backward')!;
@@ -81,6 +84,9 @@ describe('demo workspace through the command line', function () {
 
   it('explains each demo bug with at least one hint', function () {
     const bare = pairs.filter((p) => EXPECTED[`${p.file}#${p.forward}`] === 'mismatch' && allHints(p).length === 0);
-    assert.deepEqual(bare.map((p) => `${p.file} ${p.forward}`), []);
+    assert.deepEqual(
+      bare.map((p) => `${p.file} ${p.forward}`),
+      [],
+    );
   });
 });

@@ -94,7 +94,9 @@ export function flatten(value: unknown): number[] {
   if (Array.isArray(value)) return value.flatMap((v) => flatten(v));
   if (typeof value === 'object' && value !== null) {
     const rec = value as Record<string, unknown>;
-    return Object.keys(rec).sort().flatMap((k) => flatten(rec[k]));
+    return Object.keys(rec)
+      .sort()
+      .flatMap((k) => flatten(rec[k]));
   }
   return [NaN];
 }

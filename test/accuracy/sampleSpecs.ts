@@ -6,8 +6,7 @@ import ts from 'typescript';
 
 /** One `@sample` spec, as far as the contrast needs it. */
 export type ContrastSpec =
-  | { kind: 'literal'; value: unknown }
-  | { kind: 'random'; dtype: 'f64' | 'f32' | 'num' | 'i32' | 'int'; shape: number[]; range: [number, number]; fixed: boolean };
+  { kind: 'literal'; value: unknown } | { kind: 'random'; dtype: 'f64' | 'f32' | 'num' | 'i32' | 'int'; shape: number[]; range: [number, number]; fixed: boolean };
 
 /** A top-level function op with a sample spec for every parameter. */
 export interface SimpleOp {
@@ -64,7 +63,13 @@ export function findSimpleOps(fileName: string, text: string): SimpleOp[] {
     if (!paramNames.every((p) => specs.get(p))) continue;
     const bm = /^([A-Za-z_$][\w$]*)\s*(?:\(([^)]*)\))?\s*$/.exec(backwardTag.text);
     if (!bm) continue;
-    const backwardArgs = bm[2] !== undefined ? bm[2].split(',').map((a) => a.trim()).filter(Boolean) : [...paramNames, '$dy'];
+    const backwardArgs =
+      bm[2] !== undefined
+        ? bm[2]
+            .split(',')
+            .map((a) => a.trim())
+            .filter(Boolean)
+        : [...paramNames, '$dy'];
     ops.push({
       forward: name,
       backward: bm[1],

@@ -65,7 +65,7 @@ describe('gradient-probe command (spawned)', function () {
       assert.deepEqual(report.summary, { pass: 3, mismatch: 1, inconclusive: 0, error: 2 });
     });
 
-    it('gives paths relative to the current folder and the line of the forward\'s name', () => {
+    it("gives paths relative to the current folder and the line of the forward's name", () => {
       const glaze = pairNamed(report, 'glazeResponse');
       assert.equal(glaze.file, `${FIXTURES}/basic/passing.ts`);
       assert.equal(glaze.line, lineOf(fixtureText('basic/passing.ts'), 'export function glazeResponse'));
@@ -113,7 +113,10 @@ describe('gradient-probe command (spawned)', function () {
     it('reports a file with a syntax error as an error on its op, at the broken line', () => {
       const vent = pairNamed(report, 'ventOpening');
       assert.equal(vent.verdict, 'error');
-      assert.ok(vent.problems?.some((p) => p.line === lineOf(fixtureText('basic/syntax.ts'), 'x * (x + ;')), JSON.stringify(vent.problems));
+      assert.ok(
+        vent.problems?.some((p) => p.line === lineOf(fixtureText('basic/syntax.ts'), 'x * (x + ;')),
+        JSON.stringify(vent.problems),
+      );
     });
 
     it('keeps what ops print in their output field, off stdout', () => {
@@ -172,7 +175,10 @@ describe('gradient-probe command (spawned)', function () {
     const a = JSON.parse(inRunner.stdout) as Report;
     const b = JSON.parse(isolated.stdout) as Report;
     assert.equal(isolated.code, inRunner.code);
-    assert.deepEqual(b.pairs.map((p) => [p.forward, p.verdict]), a.pairs.map((p) => [p.forward, p.verdict]));
+    assert.deepEqual(
+      b.pairs.map((p) => [p.forward, p.verdict]),
+      a.pairs.map((p) => [p.forward, p.verdict]),
+    );
     assert.ok(b.pairs.length > 0 && b.pairs.every((p) => p.isolation === 'interpreter'), isolated.stdout);
     assert.ok(a.pairs.every((p) => p.isolation === undefined));
   });
@@ -180,19 +186,28 @@ describe('gradient-probe command (spawned)', function () {
   it('checks only the ops the filter names', async () => {
     const fuel = await runCli(['check', `${FIXTURES}/basic`, '--json', '--filter', 'fuel']);
     assert.equal(fuel.code, 1);
-    assert.deepEqual((JSON.parse(fuel.stdout) as Report).pairs.map((p) => p.forward), ['fuelLog']);
+    assert.deepEqual(
+      (JSON.parse(fuel.stdout) as Report).pairs.map((p) => p.forward),
+      ['fuelLog'],
+    );
     const none = await runCli(['check', `${FIXTURES}/basic/passing.ts`, '--json', '--filter', 'glazr']);
     assert.equal(none.code, 2, 'a filter that matches nothing checked nothing: the run fails');
     assert.match(none.stderr, /--filter "glazr" matches no op's forward name/);
     const glaze = await runCli(['check', `${FIXTURES}/basic`, '--json', '--filter', 'glaze']);
     assert.equal(glaze.code, 0, glaze.stdout);
-    assert.deepEqual((JSON.parse(glaze.stdout) as Report).pairs.map((p) => p.forward), ['glazeResponse']);
+    assert.deepEqual(
+      (JSON.parse(glaze.stdout) as Report).pairs.map((p) => p.forward),
+      ['glazeResponse'],
+    );
   });
 
   it('checks the current folder by default, with paths relative to it', async () => {
     const run = await runCli(['check', '--json', '--filter', 'cooling'], { cwd: join(ROOT, FIXTURES, 'basic') });
     const report = JSON.parse(run.stdout) as Report;
-    assert.deepEqual(report.pairs.map((p) => [p.file, p.forward, p.verdict]), [['passing.ts', 'coolingCurve', 'pass']]);
+    assert.deepEqual(
+      report.pairs.map((p) => [p.file, p.forward, p.verdict]),
+      [['passing.ts', 'coolingCurve', 'pass']],
+    );
     assert.equal(run.code, 0);
   });
 
@@ -227,11 +242,14 @@ describe('gradient-probe command (spawned)', function () {
     assert.match(run.stderr, /test\/fixtures\/cli\/config-error\/gradient-probe\.json: "tolerance\.f64" must be a positive number below 1, got "abc"/);
   });
 
-  it('uses the project file\'s seed and excludes, and a flag wins over the file', async () => {
+  it("uses the project file's seed and excludes, and a flag wins over the file", async () => {
     const run = await runCli(['check', `${FIXTURES}/configured`, '--json']);
     assert.equal(run.code, 0, run.stdout + run.stderr);
     const report = JSON.parse(run.stdout) as Report;
-    assert.deepEqual(report.pairs.map((p) => p.file), [`${FIXTURES}/configured/passing.ts`, `${FIXTURES}/configured/passing.ts`]);
+    assert.deepEqual(
+      report.pairs.map((p) => p.file),
+      [`${FIXTURES}/configured/passing.ts`, `${FIXTURES}/configured/passing.ts`],
+    );
     assert.ok(report.pairs.every((p) => p.seed === 4242));
     const flagged = JSON.parse((await runCli(['check', `${FIXTURES}/configured`, '--json', '--seed', '7'])).stdout) as Report;
     assert.ok(flagged.pairs.every((p) => p.seed === 7));
@@ -323,7 +341,10 @@ describe('gradient-probe command (spawned)', function () {
     const timer = setTimeout(() => child.kill('SIGKILL'), SPAWN_LIMIT_MS);
     try {
       const init = await request(1, 'initialize', {
-        processId: null, rootUri: null, capabilities: {}, initializationOptions: { workspaceTrusted: false },
+        processId: null,
+        rootUri: null,
+        capabilities: {},
+        initializationOptions: { workspaceTrusted: false },
       });
       assert.ok((init.result as { capabilities?: object }).capabilities, `initialize answered without capabilities; stderr: ${stderr}`);
       send({ method: 'initialized', params: {} });

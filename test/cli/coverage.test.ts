@@ -28,7 +28,10 @@ describe('coverage through the command line', function () {
     const report = JSON.parse(run.stdout) as Report;
     const c = report.pairs[0]!.coverage;
     assert.ok(c && c.collected);
-    assert.deepEqual(c.gaps.map((g) => [g.file, g.startLine, g.endLine, g.function, g.side]), [['test/fixtures/coverage/helpers.ts', 5, 5, 'clampedGain', 'backward']]);
+    assert.deepEqual(
+      c.gaps.map((g) => [g.file, g.startLine, g.endLine, g.function, g.side]),
+      [['test/fixtures/coverage/helpers.ts', 5, 5, 'clampedGain', 'backward']],
+    );
   });
 
   it('fails the run on unreached backward code only when asked', async () => {

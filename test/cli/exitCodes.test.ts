@@ -128,7 +128,7 @@ describe('exit codes and streams (spawned CLI)', function () {
       assert.match(run.stdout, /^configuration file: test\/fixtures\/cli\/configured\/gradient-probe\.json$/m);
     });
 
-    it('says when none was found, and a parent folder\'s file does not reach into a package of its own', async () => {
+    it("says when none was found, and a parent folder's file does not reach into a package of its own", async () => {
       const outer = project({ 'gradient-probe.json': '{ "seed": 7 }\n' });
       // `inner` is its own package: the outer file (seed 7) must not apply.
       writeFileSync(join(outer, 'package.json'), '{}');
@@ -140,7 +140,7 @@ describe('exit codes and streams (spawned CLI)', function () {
       assert.equal(run.code, 0, run.stdout + run.stderr);
       assert.match(run.stdout, /^no configuration file found; built-in defaults and flags apply$/m);
       const json = JSON.parse((await runCli(['check', 'src', '--json'], { cwd: inner })).stdout) as Report;
-      assert.equal(json.pairs[0]!.seed, 1234, 'the default seed, not the outer file\'s 7');
+      assert.equal(json.pairs[0]!.seed, 1234, "the default seed, not the outer file's 7");
       assert.equal(json.run?.config, null);
     });
   });

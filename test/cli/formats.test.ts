@@ -19,15 +19,31 @@ const CWD = join('/', 'work', 'proj');
 
 function param(name: string, verdict: ParamResult['verdict'], maxRelError: number, index: number[], hints: string[] = []): ParamResult {
   return {
-    name, verdict, maxAbsError: maxRelError / 2, maxRelError, worst: { index, analytic: 0.5, numeric: 0.25 },
-    shape: [4, 4], dtype: 'f64', method: 'full', elements: 16, checkedElements: 16, hints,
+    name,
+    verdict,
+    maxAbsError: maxRelError / 2,
+    maxRelError,
+    worst: { index, analytic: 0.5, numeric: 0.25 },
+    shape: [4, 4],
+    dtype: 'f64',
+    method: 'full',
+    elements: 16,
+    checkedElements: 16,
+    hints,
   };
 }
 
 function result(partial: Partial<OpResult> & Pick<OpResult, 'file' | 'line' | 'verdict'>): OpResult {
   return {
-    forward: 'op', backward: 'opBackward', seed: 1234, message: '', hints: [], params: [],
-    calls: { forward: 10, backward: 2 }, elapsedMs: 3.4, ...partial,
+    forward: 'op',
+    backward: 'opBackward',
+    seed: 1234,
+    message: '',
+    hints: [],
+    params: [],
+    calls: { forward: 10, backward: 2 },
+    elapsedMs: 3.4,
+    ...partial,
   };
 }
 
@@ -35,27 +51,46 @@ function result(partial: Partial<OpResult> & Pick<OpResult, 'file' | 'line' | 'v
 const RESULTS: OpResult[] = [
   result({ file: join(CWD, 'src', 'c.ts'), line: 2, verdict: 'inconclusive', forward: 'clampedRamp', message: 'non-differentiable point near x[3] = 0' }),
   result({
-    file: join(CWD, 'src', 'a.ts'), line: 20, verdict: 'mismatch', forward: 'Dense.forward', backward: 'backward',
+    file: join(CWD, 'src', 'a.ts'),
+    line: 20,
+    verdict: 'mismatch',
+    forward: 'Dense.forward',
+    backward: 'backward',
     params: [param('bias', 'pass', 1e-11, [1]), param('weight', 'mismatch', 0.5, [2, 3], ['gradient is the transpose of the numeric one'])],
-    hints: ['gradients of weight and bias look swapped'], elapsedMs: 1534,
+    hints: ['gradients of weight and bias look swapped'],
+    elapsedMs: 1534,
   }),
   result({ file: join(CWD, 'src', 'a.ts'), line: 3, verdict: 'pass', forward: 'softplus', params: [param('x', 'pass', 3.1e-10, [5])] }),
   result({
-    file: join(CWD, 'src', 'b & <c>.ts'), line: 5, verdict: 'error', forward: 'odd"name', backward: null,
-    message: 'annotation problem: unknown tag @sampel; did you mean @sample? (line 7, column 12)', failure: 'annotation',
+    file: join(CWD, 'src', 'b & <c>.ts'),
+    line: 5,
+    verdict: 'error',
+    forward: 'odd"name',
+    backward: null,
+    message: 'annotation problem: unknown tag @sampel; did you mean @sample? (line 7, column 12)',
+    failure: 'annotation',
     problems: [{ line: 7, column: 12, message: 'unknown tag @sampel; did you mean @sample?' }],
     output: '\x1b[31mred\x1b[0m\u0001 and ]]> & <tag>\r\nsecond line',
   }),
-  result({ file: join(CWD, 'src', 'd.ts'), line: 1, verdict: 'error', forward: null, backward: null, message: 'the module could not be bundled: Could not resolve "./missing"', failure: 'bundle' }),
+  result({
+    file: join(CWD, 'src', 'd.ts'),
+    line: 1,
+    verdict: 'error',
+    forward: null,
+    backward: null,
+    message: 'the module could not be bundled: Could not resolve "./missing"',
+    failure: 'bundle',
+  }),
 ];
 
 describe('report assembly', () => {
   const report = buildReport(RESULTS, CWD);
 
   it('makes paths relative with "/" and orders pairs by file, then line', () => {
-    assert.deepEqual(report.pairs.map((p) => `${p.file}:${p.line}`), [
-      'src/a.ts:3', 'src/a.ts:20', 'src/b & <c>.ts:5', 'src/c.ts:2', 'src/d.ts:1',
-    ]);
+    assert.deepEqual(
+      report.pairs.map((p) => `${p.file}:${p.line}`),
+      ['src/a.ts:3', 'src/a.ts:20', 'src/b & <c>.ts:5', 'src/c.ts:2', 'src/d.ts:1'],
+    );
     assert.deepEqual(reportViolations(report), []);
   });
 
@@ -129,7 +164,10 @@ describe('human output', () => {
     }
     const mismatchRow = rows.find((r) => r.includes('Dense.forward'))!;
     assert.match(mismatchRow, /MISMATCH\s+weight\s+5\.0e-1\s+\[2, 3\]\s+1\.5 s$/);
-    assert.match(rows.find((r) => r.includes('softplus'))!, /pass\s+x\s+3\.1e-10\s+\[5\]\s+3 ms$/);
+    assert.match(
+      rows.find((r) => r.includes('softplus'))!,
+      /pass\s+x\s+3\.1e-10\s+\[5\]\s+3 ms$/,
+    );
   });
 
   it('explains rows that did not pass: evidence, hints, problems at file:line:column, seed, output', () => {
@@ -165,7 +203,12 @@ describe('human output', () => {
 describe('SARIF output', () => {
   const report = buildReport(RESULTS, CWD);
   const log = JSON.parse(formatSarif(report, { toolVersion: '9.8.7', rootDir: CWD }));
-  const results = log.runs[0].results as { ruleId: string; level: string; message: { text: string }; locations: { physicalLocation: { artifactLocation: { uri: string; uriBaseId?: string }; region: { startLine: number; startColumn: number } } }[] }[];
+  const results = log.runs[0].results as {
+    ruleId: string;
+    level: string;
+    message: { text: string };
+    locations: { physicalLocation: { artifactLocation: { uri: string; uriBaseId?: string }; region: { startLine: number; startColumn: number } } }[];
+  }[];
 
   it('has the structure SARIF 2.1.0 requires', () => {
     assert.deepEqual(sarifViolations(log), []);
@@ -175,9 +218,15 @@ describe('SARIF output', () => {
   });
 
   it('reports every op that did not pass, at its place, with a level by verdict', () => {
-    assert.deepEqual(results.map((r) => [r.ruleId, r.level]), [
-      ['gradient-mismatch', 'error'], ['annotation-problem', 'error'], ['check-inconclusive', 'warning'], ['check-error', 'error'],
-    ]);
+    assert.deepEqual(
+      results.map((r) => [r.ruleId, r.level]),
+      [
+        ['gradient-mismatch', 'error'],
+        ['annotation-problem', 'error'],
+        ['check-inconclusive', 'warning'],
+        ['check-error', 'error'],
+      ],
+    );
     const [mismatch, problem] = results;
     assert.deepEqual(mismatch!.locations[0]!.physicalLocation.region, { startLine: 20, startColumn: 1 });
     assert.deepEqual(problem!.locations[0]!.physicalLocation.region, { startLine: 7, startColumn: 12 });
@@ -193,7 +242,10 @@ describe('SARIF output', () => {
     const stopped = { ...RESULTS[0]!, stoppedAtTimeLimit: { param: 'x', stage: 'elements' as const, done: 64, total: 900, timeLimitMs: 500 } };
     const unfinished = JSON.parse(formatSarif(buildReport([stopped], CWD), { toolVersion: '9.8.7', rootDir: CWD }));
     assert.deepEqual(sarifViolations(unfinished), []);
-    assert.deepEqual(unfinished.runs[0].results.map((r: { ruleId: string; level: string }) => [r.ruleId, r.level]), [['check-unfinished', 'error']]);
+    assert.deepEqual(
+      unfinished.runs[0].results.map((r: { ruleId: string; level: string }) => [r.ruleId, r.level]),
+      [['check-unfinished', 'error']],
+    );
     // JUnit follows the same policy as the exit code: a failure, or skipped with --allow-unfinished.
     const junit = parseXml(formatJunit(buildReport([stopped], CWD)));
     assert.equal(junit.attributes['failures'], '1');
@@ -217,12 +269,12 @@ describe('JUnit output', () => {
 
   it('is well-formed, with counts that add up', () => {
     assert.equal(doc.name, 'testsuites');
-    assert.deepEqual(
-      [doc.attributes['tests'], doc.attributes['failures'], doc.attributes['errors'], doc.attributes['skipped']],
-      ['5', '1', '2', '1'],
-    );
+    assert.deepEqual([doc.attributes['tests'], doc.attributes['failures'], doc.attributes['errors'], doc.attributes['skipped']], ['5', '1', '2', '1']);
     const suites = findAll(doc, 'testsuite');
-    assert.deepEqual(suites.map((s) => s.attributes['name']), ['src/a.ts', 'src/b & <c>.ts', 'src/c.ts', 'src/d.ts']);
+    assert.deepEqual(
+      suites.map((s) => s.attributes['name']),
+      ['src/a.ts', 'src/b & <c>.ts', 'src/c.ts', 'src/d.ts'],
+    );
     assert.equal(findAll(doc, 'testcase').length, 5);
     assert.equal(suites[0]!.attributes['time'], '1.537');
   });

@@ -47,8 +47,14 @@ describe('README and docs commands', () => {
   const lines = userDocs().flatMap((page) => shellLines(readFileSync(page, 'utf8')));
 
   it('has shell commands to look at (install, CI, merge)', () => {
-    assert.ok(lines.some((l) => l.includes('npm pack')), 'the tarball install');
-    assert.ok(lines.some((l) => l.includes('gradient-probe merge')), 'the CI join');
+    assert.ok(
+      lines.some((l) => l.includes('npm pack')),
+      'the tarball install',
+    );
+    assert.ok(
+      lines.some((l) => l.includes('gradient-probe merge')),
+      'the CI join',
+    );
   });
 
   it('fetches no package by a bare name', () => {

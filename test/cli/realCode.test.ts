@@ -40,7 +40,7 @@ describe('cli: exceptions in user code point at the line', function () {
     human = (await runCli(['check', `${FIXTURES}/thrown/ops.ts`, '--no-color'])).stdout;
   });
 
-  it('a helper in another file that throws: the helper\'s line, in JSON, human output and SARIF', () => {
+  it("a helper in another file that throws: the helper's line, in JSON, human output and SARIF", () => {
     const pair = report.pairs.find((p) => p.forward === 'lightLog')!;
     assert.equal(pair.verdict, 'error');
     // `new RangeError(...)` is where V8 places the throw.
@@ -51,14 +51,17 @@ describe('cli: exceptions in user code point at the line', function () {
     assert.ok(pair.inputs && (pair.inputs.args[0] as { dtype: string }).dtype === 'f64', JSON.stringify(pair.inputs));
   });
 
-  it('a backward that throws: its own line in the op\'s file, and a SARIF related location', () => {
+  it("a backward that throws: its own line in the op's file, and a SARIF related location", () => {
     const pair = report.pairs.find((p) => p.forward === 'mistSquare')!;
     assert.equal(pair.verdict, 'error');
     const where = placeOf(`${FIXTURES}/thrown/ops.ts`, 'table.length');
     assert.equal(pair.thrownAt?.file, `${FIXTURES}/thrown/ops.ts`);
     assert.equal(pair.thrownAt?.line, where.line);
     const related = sarif.runs[0]!.results.map((r) => r.relatedLocations?.[0]?.physicalLocation);
-    assert.ok(related.some((l) => l?.artifactLocation.uri === `${FIXTURES}/thrown/ops.ts` && l.region.startLine === where.line), JSON.stringify(related));
+    assert.ok(
+      related.some((l) => l?.artifactLocation.uri === `${FIXTURES}/thrown/ops.ts` && l.region.startLine === where.line),
+      JSON.stringify(related),
+    );
   });
 });
 

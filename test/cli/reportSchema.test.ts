@@ -27,7 +27,10 @@ describe('the JSON report matches docs/report.schema.json', function () {
     assert.equal(violations(report), '');
     const verdicts = new Set(report.pairs.map((p) => p.verdict));
     for (const v of ['pass', 'mismatch', 'error']) assert.ok(verdicts.has(v), `the workspace gives a ${v}`);
-    assert.ok(report.pairs.some((p) => Array.isArray(p.problems)), 'some pair carries problems');
+    assert.ok(
+      report.pairs.some((p) => Array.isArray(p.problems)),
+      'some pair carries problems',
+    );
     // Why an op could not be checked is a field, set exactly on the errors.
     for (const p of report.pairs) assert.equal(p.failure !== undefined, p.verdict === 'error', `${String(p.forward)}: ${String(p.failure)}`);
     assert.ok(report.pairs.some((p) => p.failure === 'annotation') && report.pairs.some((p) => p.failure === 'syntax'), JSON.stringify(report.pairs.map((p) => p.failure)));

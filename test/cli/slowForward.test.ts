@@ -10,7 +10,7 @@ import { runCli, SPAWN_LIMIT_MS } from '../helpers/cli';
 describe('a slow forward under a short time limit (spawned CLI)', function () {
   this.timeout(2 * SPAWN_LIMIT_MS);
 
-  it('ends in the engine\'s own time-limit stop, not a watchdog kill', async () => {
+  it("ends in the engine's own time-limit stop, not a watchdog kill", async () => {
     const run = await runCli(['check', 'test/fixtures/cli/slowProbes', '--time-limit', '3000', '--no-coverage', '--json', '--allow-unfinished']);
     assert.equal(run.code, 0, run.stdout + run.stderr);
     const pair = (JSON.parse(run.stdout) as Report).pairs[0]!;

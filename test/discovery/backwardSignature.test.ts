@@ -20,7 +20,10 @@ describe('discovery: backward signature against the call', () => {
 
   it('backward (dy, x): the upstream gradient declared first', () => {
     // Shape: upstream gradient first, as some frameworks order it.
-    const text = withDoc(['@backward cubeBackward', '@sample x f64[4]'], 'export function cube(x: Float64Array) { return x.map((v) => v ** 3); }\nexport function cubeBackward(dy: Float64Array, x: Float64Array) { return x.map((v, i) => 3 * v * v * dy[i]); }');
+    const text = withDoc(
+      ['@backward cubeBackward', '@sample x f64[4]'],
+      'export function cube(x: Float64Array) { return x.map((v) => v ** 3); }\nexport function cubeBackward(dy: Float64Array, x: Float64Array) { return x.map((v, i) => 3 * v * v * dy[i]); }',
+    );
     const p = expectProblem(text, opNamed(discover(text), 'cube'), '@backward', /parameter 1 is 'dy', which looks like the upstream gradient/);
     assert.match(p.message, /`@backward cubeBackward\(\$dy, x\)`/);
   });
@@ -36,21 +39,31 @@ describe('discovery: backward signature against the call', () => {
 
   it('a method backward (x, dy) under the method default ($dy alone) says which default applies', () => {
     // Shape: a layer method whose backward takes the input again.
-    const text = 'export class Gate {\n  w = new Float64Array(3);\n  /**\n   * @backward back\n   * @sample x f64[3]\n   */\n  run(x: Float64Array) { return x.map((v, i) => v * this.w[i]); }\n  back(x: Float64Array, dy: Float64Array) { return dy.map((g, i) => g * this.w[i]); }\n}\n';
+    const text =
+      'export class Gate {\n  w = new Float64Array(3);\n  /**\n   * @backward back\n   * @sample x f64[3]\n   */\n  run(x: Float64Array) { return x.map((v, i) => v * this.w[i]); }\n  back(x: Float64Array, dy: Float64Array) { return dy.map((g, i) => g * this.w[i]); }\n}\n';
     const p = expectProblem(text, opNamed(discover(text), 'Gate.run'), '@backward', /will call back\(\$dy\) \(the default for a method: `\$dy` alone\)/);
     assert.match(p.message, /`@backward back\(x, \$dy\)`/);
   });
 
   it('declared types: a number where the call passes an array', () => {
     // Shape: parameter names that say nothing, types that do.
-    const text = withDoc(['@backward sqBackward', '@sample x f64[4]'], 'export function sq(x: Float64Array): Float64Array { return x.map((v) => v * v); }\nexport function sqBackward(a: number, g: Float64Array) { return g; }');
+    const text = withDoc(
+      ['@backward sqBackward', '@sample x f64[4]'],
+      'export function sq(x: Float64Array): Float64Array { return x.map((v) => v * v); }\nexport function sqBackward(a: number, g: Float64Array) { return g; }',
+    );
     expectProblem(text, opNamed(discover(text), 'sq'), '@backward', /parameter 1 \('a'\) is declared a number, but 'x' is an array/);
   });
 
   it('leaves fitting declarations alone: defaults, explicit lists, optional extras, rest parameters', () => {
     const text = [
-      withDoc(['@backward aBack', '@sample x f64[2]'], 'export function a(x: Float64Array) { return x; }\nexport function aBack(x: Float64Array, dy: Float64Array, scratch?: Float64Array) { return dy; }'),
-      withDoc(['@backward bBack($y, $dy)', '@sample x f64[2]'], 'export function b(x: Float64Array) { return x; }\nexport function bBack(y: Float64Array, gradOutput: Float64Array) { return gradOutput; }'),
+      withDoc(
+        ['@backward aBack', '@sample x f64[2]'],
+        'export function a(x: Float64Array) { return x; }\nexport function aBack(x: Float64Array, dy: Float64Array, scratch?: Float64Array) { return dy; }',
+      ),
+      withDoc(
+        ['@backward bBack($y, $dy)', '@sample x f64[2]'],
+        'export function b(x: Float64Array) { return x; }\nexport function bBack(y: Float64Array, gradOutput: Float64Array) { return gradOutput; }',
+      ),
       withDoc(['@backward cBack', '@sample x f64[2]'], 'export function c(x: Float64Array) { return x; }\nexport function cBack(...args: Float64Array[]) { return args[1]; }'),
       'export class L {\n  /**\n   * @backward back\n   * @sample x f64[2]\n   */\n  f(x: Float64Array) { return x; }\n  back(dy: Float64Array) { return dy; }\n}\n',
     ].join('\n');

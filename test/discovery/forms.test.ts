@@ -68,7 +68,10 @@ describe('discovery: forward forms', () => {
   it('finds every annotated forward, in source order, and nothing else', () => {
     // Spec: docs/annotations.md — function declarations, const arrows, const function
     // expressions and class methods, exported or not.
-    assert.deepEqual(r.ops.map((o) => o.forward), ['heatLoss', 'humidity', 'vent', 'shade', 'Damper.step', 'Heater.power', 'Heater.warm']);
+    assert.deepEqual(
+      r.ops.map((o) => o.forward),
+      ['heatLoss', 'humidity', 'vent', 'shade', 'Damper.step', 'Heater.power', 'Heater.warm'],
+    );
     assert.deepEqual(r.fileProblems, []);
     for (const op of r.ops) assert.deepEqual(op.problems, [], `${op.forward}: ${JSON.stringify(op.problems)}`);
   });
@@ -120,7 +123,13 @@ describe('discovery: forward forms', () => {
 
   it('lists parameters in declaration order, then this.FIELD entries', () => {
     const step = opNamed(r, 'Damper.step');
-    assert.deepEqual(step.params.map((p) => [p.name, p.isField]), [['x', false], ['this.gain', true]]);
+    assert.deepEqual(
+      step.params.map((p) => [p.name, p.isField]),
+      [
+        ['x', false],
+        ['this.gain', true],
+      ],
+    );
     assert.deepEqual(step.params[1]!.sample, { kind: 'random', dtype: 'num', shape: [2, 3], range: [-1, 1], avoid: [], fixed: false });
   });
 
@@ -175,11 +184,13 @@ export function makeCell() { return new Cell(); }
     // (ECMA-262 NumericLiteral, round to nearest).
     assert.equal(loss.tolerance, 2.5e-7);
     assert.equal(loss.seed, 4242);
-    assert.deepEqual(loss.backwardArgs, [
-      { kind: 'param', name: 'pred' }, { kind: 'param', name: 'target' }, { kind: 'output' }, { kind: 'upstream' },
-    ]);
+    assert.deepEqual(loss.backwardArgs, [{ kind: 'param', name: 'pred' }, { kind: 'param', name: 'target' }, { kind: 'output' }, { kind: 'upstream' }]);
     // With @samples, parameters carry no spec.
-    assert.deepEqual(loss.params, [{ name: 'pred', isField: false }, { name: 'target', isField: false }, { name: 'weights', isField: false }]);
+    assert.deepEqual(loss.params, [
+      { name: 'pred', isField: false },
+      { name: 'target', isField: false },
+      { name: 'weights', isField: false },
+    ]);
   });
 
   it('reads @construct on a method', () => {
@@ -215,10 +226,16 @@ export function withDocs(x: number) { return x; }
 function b() {}
 `;
     const res = discover(plain);
-    assert.deepEqual(res.ops.map((o) => o.forward), ['withDocs']);
+    assert.deepEqual(
+      res.ops.map((o) => o.forward),
+      ['withDocs'],
+    );
     assert.deepEqual(res.ops[0]!.problems, []);
     // Only our tags are listed on the op.
-    assert.deepEqual(res.ops[0]!.tags.map((t) => t.tag), ['backward', 'sample']);
+    assert.deepEqual(
+      res.ops[0]!.tags.map((t) => t.tag),
+      ['backward', 'sample'],
+    );
   });
 
   it('reads one-line JSDoc comments and tags from stacked JSDoc blocks', () => {
@@ -264,7 +281,10 @@ function b() {}
     const op = opNamed(res, 'f');
     assert.deepEqual(op.problems, []);
     assert.equal(op.backward, 'b');
-    assert.deepEqual(op.tags.map((t) => t.param ?? t.tag), ['backward', 'x']);
+    assert.deepEqual(
+      op.tags.map((t) => t.param ?? t.tag),
+      ['backward', 'x'],
+    );
   });
 
   it('rejects a class field holding a function, forward or backward: the engine calls prototype methods', () => {
@@ -305,13 +325,16 @@ class Child extends Base {
   });
 
   it('reads .tsx and .js files with the matching parser', () => {
-    const res = discover(`/**
+    const res = discover(
+      `/**
  * @backward gb
  * @sample x num
  */
 export function g(x) { return <b>{x}</b>; }
 function gb() {}
-`, '/work/fixture/view.tsx');
+`,
+      '/work/fixture/view.tsx',
+    );
     assert.deepEqual(res.fileProblems, []);
     assert.equal(opNamed(res, 'g').problems.length, 0);
   });

@@ -16,12 +16,12 @@ function parses(text: string): boolean {
 describe('discovery: JSON grammar check', () => {
   it('accepts what JSON.parse accepts and rejects what it rejects (fast-check, seeded)', () => {
     // Valid texts from fc.json(), then single-character edits that often break them.
-    const edited = fc.tuple(fc.json(), fc.nat(), fc.constantFrom('', ',', ']', '}', '"', ':', '0', '-', '.', 'e', '\\', ' ', 't', '\n', '\u0001'), fc.boolean()).map(
-      ([s, k, ch, replace]) => {
+    const edited = fc
+      .tuple(fc.json(), fc.nat(), fc.constantFrom('', ',', ']', '}', '"', ':', '0', '-', '.', 'e', '\\', ' ', 't', '\n', '\u0001'), fc.boolean())
+      .map(([s, k, ch, replace]) => {
         const i = s.length ? k % s.length : 0;
         return s.slice(0, i) + ch + s.slice(replace ? i + 1 : i);
-      },
-    );
+      });
     fc.assert(
       fc.property(fc.oneof(fc.json(), edited, fc.string()), (text) => {
         const err = findJsonSyntaxError(text);

@@ -45,31 +45,49 @@ describe('discovery: derivative kinds', () => {
   };
 
   it('gives one op per derivative tag, the kind in the op and in its display name', () => {
-    assert.deepEqual(r.ops.map((o) => [o.forward, o.kind ?? 'backward']), [
-      ['reach @jacobian', 'jacobian'],
-      ['reach @tangent', 'tangent'],
-      ['cost', 'backward'],
-      ['cost @hessian', 'hessian'],
-      ['wobble @tangent', 'tangent'],
-      ['wobble @hessian', 'hessian'],
-    ]);
+    assert.deepEqual(
+      r.ops.map((o) => [o.forward, o.kind ?? 'backward']),
+      [
+        ['reach @jacobian', 'jacobian'],
+        ['reach @tangent', 'tangent'],
+        ['cost', 'backward'],
+        ['cost @hessian', 'hessian'],
+        ['wobble @tangent', 'tangent'],
+        ['wobble @hessian', 'hessian'],
+      ],
+    );
     for (const op of r.ops) assert.deepEqual(op.problems, [], `${op.forward}: ${JSON.stringify(op.problems)}`);
   });
 
   it('default lists: every parameter (fixed ones too); @tangent adds one $d per differentiated parameter', () => {
-    assert.deepEqual(byName('reach @jacobian').backwardArgs, [{ kind: 'param', name: 'q' }, { kind: 'param', name: 'link' }]);
-    assert.deepEqual(byName('wobble @tangent').backwardArgs, [{ kind: 'param', name: 'x' }, { kind: 'param', name: 'k' }, { kind: 'tangent', name: 'x' }]);
+    assert.deepEqual(byName('reach @jacobian').backwardArgs, [
+      { kind: 'param', name: 'q' },
+      { kind: 'param', name: 'link' },
+    ]);
+    assert.deepEqual(byName('wobble @tangent').backwardArgs, [
+      { kind: 'param', name: 'x' },
+      { kind: 'param', name: 'k' },
+      { kind: 'tangent', name: 'x' },
+    ]);
     assert.deepEqual(byName('cost @hessian').backwardArgs, [{ kind: 'param', name: 'x' }]);
   });
 
   it('explicit lists: $dNAME and $v', () => {
-    assert.deepEqual(byName('reach @tangent').backwardArgs, [{ kind: 'param', name: 'q' }, { kind: 'tangent', name: 'q' }]);
+    assert.deepEqual(byName('reach @tangent').backwardArgs, [
+      { kind: 'param', name: 'q' },
+      { kind: 'tangent', name: 'q' },
+    ]);
     assert.deepEqual(byName('wobble @hessian').backwardArgs, [{ kind: 'param', name: 'x' }, { kind: 'vector' }]);
     assert.equal(byName('reach @tangent').target.backwardName, 'reachTangent');
   });
 
   it('a @hessian beside a @backward knows that backward (its reference when it passes)', () => {
-    assert.deepEqual(byName('cost @hessian').gradient, { name: 'costGrad', backwardName: 'costGrad', backwardIsMethod: false, args: [{ kind: 'param', name: 'x' }, { kind: 'upstream' }] });
+    assert.deepEqual(byName('cost @hessian').gradient, {
+      name: 'costGrad',
+      backwardName: 'costGrad',
+      backwardIsMethod: false,
+      args: [{ kind: 'param', name: 'x' }, { kind: 'upstream' }],
+    });
     assert.equal(byName('wobble @hessian').gradient, undefined);
   });
 
@@ -92,7 +110,12 @@ export function armH() { return 0; }
     const hessian = res.ops.find((o) => o.kind === 'hessian')!;
     expectProblem(text, hessian, '$dy', /\$dy \(an upstream gradient\) belongs to @backward/);
     const missing = discover(text.replace('armH(q, $dy)', 'armHess'));
-    expectProblem(text.replace('armH(q, $dy)', 'armHess'), missing.ops.find((o) => o.kind === 'hessian')!, 'armHess', /hessian 'armHess' not found/);
+    expectProblem(
+      text.replace('armH(q, $dy)', 'armHess'),
+      missing.ops.find((o) => o.kind === 'hessian')!,
+      'armHess',
+      /hessian 'armHess' not found/,
+    );
   });
 
   it('a @hessian on a forward declared to return an array is an error on the tag', () => {

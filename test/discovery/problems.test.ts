@@ -39,7 +39,8 @@ describe('discovery: annotation mistakes', () => {
   });
 
   it('missing backward name, bad name, dotted name', () => {
-    const text = withDoc(['@backward', '@sample x num'], 'export function f(x: number) { return x; }') +
+    const text =
+      withDoc(['@backward', '@sample x num'], 'export function f(x: number) { return x; }') +
       withDoc(['@backward (x, $dy)', '@sample x num'], 'export function g(x: number) { return x; }') +
       withDoc(['@backward lib.gb', '@sample x num'], 'export function h(x: number) { return x; }');
     const r = discover(text);
@@ -60,7 +61,12 @@ ${withDoc(['@backward flowBackward', '@sample x num'], 'flow(x: number) { return
 }
 ${withDoc(['@backward Pump', '@sample x num'], 'export function k(x: number) { return x; }')}`;
     const r = discover(text);
-    expectProblem(text, opNamed(r, 'softplus'), 'softplusBackwrd', /backward 'softplusBackwrd' not found: it must be a top-level function of this module or an import; did you mean 'softplusBackward'\?/);
+    expectProblem(
+      text,
+      opNamed(r, 'softplus'),
+      'softplusBackwrd',
+      /backward 'softplusBackwrd' not found: it must be a top-level function of this module or an import; did you mean 'softplusBackward'\?/,
+    );
     // A static method cannot be called on the instance: not a match.
     expectProblem(text, opNamed(r, 'Pump.flow'), 'flowBackward\n', /backward 'flowBackward' not found: it must be a method of Pump/);
     expectProblem(text, opNamed(r, 'k'), 'Pump\n', /backward 'Pump' is a class, not a function/);
@@ -74,17 +80,24 @@ ${withDoc(['@backward Pump', '@sample x num'], 'export function k(x: number) { r
   });
 
   it('@sample for a name that is not a parameter, and a duplicate @sample', () => {
-    const text = withDoc(['@backward fb', '@sample rate num', '@sample rat num', '@sample rate num', '@sample zzz num'], 'export function f(rate: number) { return rate; }\nfunction fb() {}');
+    const text = withDoc(
+      ['@backward fb', '@sample rate num', '@sample rat num', '@sample rate num', '@sample zzz num'],
+      'export function f(rate: number) { return rate; }\nfunction fb() {}',
+    );
     const op = opNamed(discover(text), 'f');
     expectProblem(text, op, 'rat num', /'rat' is not a parameter of f; did you mean 'rate'\?/);
     expectProblem(text, op, 'rate num', /@sample rate is given twice/, 1);
     expectProblem(text, op, 'zzz', /'zzz' is not a parameter of f$/);
     assert.equal(op.problems.length, 3);
-    assert.deepEqual(op.params.map((p) => p.name), ['rate']);
+    assert.deepEqual(
+      op.params.map((p) => p.name),
+      ['rate'],
+    );
   });
 
   it('@fixed without @samples, and an unknown @fixed name', () => {
-    const text = withDoc(['@backward fb', '@sample x num', '@fixed x'], 'export function f(x: number) { return x; }\nfunction fb() {}') +
+    const text =
+      withDoc(['@backward fb', '@sample x num', '@fixed x'], 'export function f(x: number) { return x; }\nfunction fb() {}') +
       withDoc(['@backward gb', '@samples gIn', '@fixed y, nope'], 'export function g(x: number, y: number) { return x; }\nfunction gb() {}\nfunction gIn() { return []; }');
     const r = discover(text);
     expectProblem(text, opNamed(r, 'f'), '@fixed', /@fixed goes with @samples/);
@@ -100,7 +113,8 @@ ${withDoc(['@backward Pump', '@sample x num'], 'export function k(x: number) { r
   });
 
   it('a backward list naming an unknown parameter, an unknown placeholder, a repeat', () => {
-    const text = withDoc(['@backward fb(x, yy, $z, $dy)', '@sample x num'], 'export function f(x: number) { return x; }\nfunction fb() {}') +
+    const text =
+      withDoc(['@backward fb(x, yy, $z, $dy)', '@sample x num'], 'export function f(x: number) { return x; }\nfunction fb() {}') +
       withDoc(['@backward gb(x, yy, $dy, $dy)', '@sample x num'], 'export function g(x: number) { return x; }\nfunction gb() {}') +
       withDoc(['@backward hb(x $dy)', '@sample x num'], 'export function h(x: number) { return x; }\nfunction hb() {}');
     const r = discover(text);
@@ -111,7 +125,10 @@ ${withDoc(['@backward Pump', '@sample x num'], 'export function k(x: number) { r
   });
 
   it('@construct on a function, and this.FIELD on a function', () => {
-    const text = withDoc(['@backward fb(this.w, $dy)', '@construct make', '@sample x num', '@sample this.w num'], 'export function f(x: number) { return x; }\nfunction fb() {}\nfunction make() {}');
+    const text = withDoc(
+      ['@backward fb(this.w, $dy)', '@construct make', '@sample x num', '@sample this.w num'],
+      'export function f(x: number) { return x; }\nfunction fb() {}\nfunction make() {}',
+    );
     const op = opNamed(discover(text), 'f');
     expectProblem(text, op, '@construct', /@construct only applies to methods/);
     expectProblem(text, op, 'this.w num', /'this.w': this.FIELD samples only apply to methods/);
@@ -148,7 +165,8 @@ ${withDoc(['@backward back(this.bias, $dy)', '@sample x num'], 'run(x: number) {
   });
 
   it('rest and destructured parameters', () => {
-    const text = withDoc(['@backward fb', '@sample x num'], 'export function f(x: number, ...rest: number[]) { return x; }\nfunction fb() {}') +
+    const text =
+      withDoc(['@backward fb', '@sample x num'], 'export function f(x: number, ...rest: number[]) { return x; }\nfunction fb() {}') +
       withDoc(['@backward gb'], 'export const g = ({ a, b }: { a: number; b: number }) => a + b;\nfunction gb() {}');
     const r = discover(text);
     expectProblem(text, opNamed(r, 'f'), '...rest', /a rest parameter \(found '\.\.\.rest: number\[\]'\) cannot be sampled/);

@@ -26,7 +26,8 @@ function lineLengths(text: string): number[] {
 
 function assertInside(text: string, what: string, p: { line: number; column: number; endLine?: number; endColumn?: number }): void {
   const lines = lineLengths(text);
-  const ok = (line: number, column: number) => Number.isInteger(line) && Number.isInteger(column) && line >= 1 && line <= lines.length && column >= 1 && column <= lines[line - 1]! + 1;
+  const ok = (line: number, column: number) =>
+    Number.isInteger(line) && Number.isInteger(column) && line >= 1 && line <= lines.length && column >= 1 && column <= lines[line - 1]! + 1;
   assert.ok(ok(p.line, p.column), `${what} starts outside the text: ${JSON.stringify(p)}`);
   if (p.endLine !== undefined && p.endColumn !== undefined) {
     assert.ok(ok(p.endLine, p.endColumn), `${what} ends outside the text: ${JSON.stringify(p)}`);
@@ -57,7 +58,51 @@ function run(text: string): void {
 // Pieces of annotation: tag names (ours, near misses, ordinary ones) and body tokens.
 const tagName = fc.constantFrom('backward', 'sample', 'samples', 'fixed', 'construct', 'tolerance', 'seed', 'sampel', 'backwards', 'Seed', 'param', 'example', 'returns', 'x', '');
 const bodyToken = fc.oneof(
-  fc.constantFrom('x', 'y', 'this.w', 'this', '.', '$y', '$dy', '$q', 'fb', 'f64', 'f32', 'num', 'i32', 'int', 'f16', '[', ']', '(', ')', ',', '=', 'in', 'avoid', 'fixed', '-1', '1e-5', '0', '3', '2.5', '{', '}', '"a"', ':', 'null', '```', '*/', '/*', '@', '\n', ' * ', '\\', '\u2028', '𝑥'),
+  fc.constantFrom(
+    'x',
+    'y',
+    'this.w',
+    'this',
+    '.',
+    '$y',
+    '$dy',
+    '$q',
+    'fb',
+    'f64',
+    'f32',
+    'num',
+    'i32',
+    'int',
+    'f16',
+    '[',
+    ']',
+    '(',
+    ')',
+    ',',
+    '=',
+    'in',
+    'avoid',
+    'fixed',
+    '-1',
+    '1e-5',
+    '0',
+    '3',
+    '2.5',
+    '{',
+    '}',
+    '"a"',
+    ':',
+    'null',
+    '```',
+    '*/',
+    '/*',
+    '@',
+    '\n',
+    ' * ',
+    '\\',
+    '\u2028',
+    '𝑥',
+  ),
   fc.string({ maxLength: 6 }),
   fc.double().map(String),
 );
@@ -121,7 +166,33 @@ describe('discovery: never throws, positions always inside the text (fast-check)
   it('random source garbage, including lone surrogates and unusual line ends', () => {
     const garbage = fc.oneof(
       fc.string({ unit: 'binary', maxLength: 300 }),
-      fc.array(fc.constantFrom('/**', '*/', ' * @backward', ' @sample x', 'function', 'class', '{', '}', '(', ')', '\n', '\r', '\u2029', '\ud800', '`', '"', "'", '=>', 'const f =', '@seed'), { maxLength: 60 }).map((a) => a.join(' ')),
+      fc
+        .array(
+          fc.constantFrom(
+            '/**',
+            '*/',
+            ' * @backward',
+            ' @sample x',
+            'function',
+            'class',
+            '{',
+            '}',
+            '(',
+            ')',
+            '\n',
+            '\r',
+            '\u2029',
+            '\ud800',
+            '`',
+            '"',
+            "'",
+            '=>',
+            'const f =',
+            '@seed',
+          ),
+          { maxLength: 60 },
+        )
+        .map((a) => a.join(' ')),
     );
     fc.assert(fc.property(garbage, run), { seed: 3303, numRuns: 400 });
   });

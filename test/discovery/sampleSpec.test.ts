@@ -49,7 +49,13 @@ describe('discovery: @sample specs', () => {
     // RFC 8259 JSON texts: numbers, objects, arrays, strings, null.
     assert.deepEqual(specOf('= 1'), { kind: 'literal', value: 1 });
     assert.deepEqual(specOf('= {"eps": 1e-5}'), { kind: 'literal', value: { eps: 1e-5 } });
-    assert.deepEqual(specOf('= [[1, 2], [3, 4]]'), { kind: 'literal', value: [[1, 2], [3, 4]] });
+    assert.deepEqual(specOf('= [[1, 2], [3, 4]]'), {
+      kind: 'literal',
+      value: [
+        [1, 2],
+        [3, 4],
+      ],
+    });
     assert.deepEqual(specOf('= "mean"'), { kind: 'literal', value: 'mean' });
     assert.deepEqual(specOf('= null'), { kind: 'literal', value: null });
     const text = withDoc(['@backward fb', '@sample opts = {', '  "axis": 1,', '  "keep": [true, false]', '}'], 'export function f(opts: object) { return 0; }\nfunction fb() {}');

@@ -4,7 +4,7 @@ import assert from 'node:assert/strict';
 import { at, discover, expectProblem, opNamed, withDoc } from './helpers';
 
 describe('discovery: syntax errors and positions', () => {
-  it('reports the parser\'s syntax errors as file problems at their place, and still finds the ops', () => {
+  it("reports the parser's syntax errors as file problems at their place, and still finds the ops", () => {
     const text = withDoc(['@backward fb', '@sample x num'], 'export function f(x: number) { return x; }\nfunction fb() {}') + 'const broken = (1 + ;\n';
     const r = discover(text);
     assert.equal(r.fileProblems.length, 1, JSON.stringify(r.fileProblems));
@@ -19,7 +19,10 @@ describe('discovery: syntax errors and positions', () => {
     const text = 'export function f(x: number) {\n  return x;\n';
     const r = discover(text);
     // TypeScript's diagnostic 1005 "'}' expected." sits at the end of the text.
-    assert.deepEqual(r.fileProblems.map((p) => [p.line, p.column, p.message]), [[3, 1, "'}' expected."]]);
+    assert.deepEqual(
+      r.fileProblems.map((p) => [p.line, p.column, p.message]),
+      [[3, 1, "'}' expected."]],
+    );
     assert.deepEqual(r.ops, []);
   });
 

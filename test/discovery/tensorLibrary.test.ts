@@ -21,7 +21,14 @@ export function mixPanes(a: Grid, b: tf.Tensor1D, k: number): tf.Tensor { return
 `;
     const op = opNamed(discover(text), 'mixPanes');
     assert.deepEqual(op.problems, []);
-    assert.deepEqual(op.params.map((p) => [p.name, p.tensor === true]), [['a', true], ['b', true], ['k', false]]);
+    assert.deepEqual(
+      op.params.map((p) => [p.name, p.tensor === true]),
+      [
+        ['a', true],
+        ['b', true],
+        ['k', false],
+      ],
+    );
     assert.equal(op.backward, 'library-gradient');
     assert.equal(op.target.libraryGradient, true);
     assert.equal(op.target.backwardName, '');
@@ -52,10 +59,16 @@ const shadeBlend = customGrad((a: tf.Tensor, b: tf.Tensor, keep: GradSaveFunc) =
     const r = discover(text);
     const clip = opNamed(r, 'ventClip');
     assert.deepEqual(clip.problems, []);
-    assert.deepEqual(clip.params.map((p) => [p.name, p.tensor]), [['x', true]]);
+    assert.deepEqual(
+      clip.params.map((p) => [p.name, p.tensor]),
+      [['x', true]],
+    );
     const blend = opNamed(r, 'shadeBlend');
     assert.deepEqual(blend.problems, []);
-    assert.deepEqual(blend.params.map((p) => p.name), ['a', 'b']);
+    assert.deepEqual(
+      blend.params.map((p) => p.name),
+      ['a', 'b'],
+    );
   });
 
   it('puts the float32 message on the @sample tag of a tensor sampled as f64 or num', () => {
@@ -113,7 +126,10 @@ export function plain(x: Float64Array): Float64Array { return x; }
     assert.equal(op.target.libraryGradient, undefined);
     // Every op of a module that imports the library calls through it (tensor outputs read back).
     assert.equal(op.target.tensorLibrary, '@tensorflow/tfjs');
-    assert.deepEqual(op.params.map((p) => p.tensor), [undefined]);
+    assert.deepEqual(
+      op.params.map((p) => p.tensor),
+      [undefined],
+    );
   });
 
   it('says when library-gradient has no library to take the gradient from', () => {

@@ -14,7 +14,8 @@ import { repoRoot } from '../lsp/lspSession';
 type Schema = Record<string, unknown>;
 const root = repoRoot();
 const manifest = JSON.parse(readFileSync(join(root, 'package.json'), 'utf8')) as {
-  main: string; activationEvents: string[];
+  main: string;
+  activationEvents: string[];
   capabilities: { untrustedWorkspaces: { supported: unknown; description?: string; restrictedConfigurations?: string[] } };
   contributes: { commands: { command: string; title: string }[]; configuration: { properties: Record<string, Schema> } };
   scripts: Record<string, string>;
@@ -38,7 +39,7 @@ describe('extension manifest', () => {
     }
   });
 
-  it('gives each check setting the project file\'s type, bounds and default (DEFAULT_SETTINGS)', () => {
+  it("gives each check setting the project file's type, bounds and default (DEFAULT_SETTINGS)", () => {
     for (const key of EDITOR_CHECK_KEYS) {
       const mine = properties[`gradientProbe.${key}`]!;
       const theirs = projectSchemaOf(key);
@@ -55,7 +56,7 @@ describe('extension manifest', () => {
     assert.equal(properties['gradientProbe.largeParamElements']!.default, DEFAULT_SETTINGS.largeParamElements);
   });
 
-  it('gives the editor-only settings the reader\'s values, defaults and bounds', () => {
+  it("gives the editor-only settings the reader's values, defaults and bounds", () => {
     const when = properties['gradientProbe.checkWhen']!;
     assert.deepEqual(when.enum, [...CHECK_WHEN_VALUES]);
     assert.equal((when.enumDescriptions as string[]).length, CHECK_WHEN_VALUES.length);
@@ -112,7 +113,10 @@ describe('extension manifest', () => {
   });
 
   it('ships only the bundles through an allow-list .vscodeignore', () => {
-    const lines = readFileSync(join(root, '.vscodeignore'), 'utf8').split('\n').map((l) => l.trim()).filter((l) => l && !l.startsWith('#'));
+    const lines = readFileSync(join(root, '.vscodeignore'), 'utf8')
+      .split('\n')
+      .map((l) => l.trim())
+      .filter((l) => l && !l.startsWith('#'));
     assert.equal(lines[0], '**', 'ignore everything first');
     const included = lines.filter((l) => l.startsWith('!')).map((l) => l.slice(1));
     for (const needed of ['package.json', 'README.md', 'dist/client.js', 'dist/server.js', 'dist/sandbox-child.js', 'dist/engine-in-sandbox.js', 'dist/isolated-worker.js']) {

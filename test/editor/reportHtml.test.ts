@@ -12,8 +12,7 @@ import { FIXTURES } from '../lsp/lspSession';
 
 /** Reads the decade ticks of one axis back from the SVG: pixel position per log10 value. */
 function axis(svg: string, which: 'x' | 'y'): (log10: number) => number {
-  const ticks = [...svg.matchAll(/<text class="tick" x="([\d.]+)" y="([\d.]+)"[^>]*>1e(-?\d+)<\/text>/g)]
-    .map((m) => ({ x: Number(m[1]), y: Number(m[2]), d: Number(m[3]) }));
+  const ticks = [...svg.matchAll(/<text class="tick" x="([\d.]+)" y="([\d.]+)"[^>]*>1e(-?\d+)<\/text>/g)].map((m) => ({ x: Number(m[1]), y: Number(m[2]), d: Number(m[3]) }));
   const along = which === 'x' ? ticks.filter((t, _i, all) => all.filter((u) => u.y === t.y).length > 1) : ticks.filter((t, _i, all) => all.filter((u) => u.x === t.x).length > 1);
   assert.ok(along.length >= 2, `${which} axis ticks`);
   const [a, b] = [along[0]!, along.at(-1)!];
@@ -46,13 +45,16 @@ describe('report page', function () {
     assert.equal(mismatch.verdict, 'mismatch');
   });
 
-  it('has a strict content security policy, no script, and only its nonce\'d style', () => {
+  it("has a strict content security policy, no script, and only its nonce'd style", () => {
     const html = reportPage({ result: mismatch, fileLabel: 'mismatch.ts', nonce: 'n0nce', cspSource: 'vscode-webview:' });
     const csp = /<meta http-equiv="Content-Security-Policy" content="([^"]+)">/.exec(html)?.[1] ?? '';
     assert.match(csp, /^default-src 'none'; style-src 'nonce-n0nce';/);
     assert.doesNotMatch(html, /<script/i);
     assert.doesNotMatch(html, /\sstyle="/, 'inline style attributes would be blocked by the policy');
-    assert.deepEqual([...html.matchAll(/<style([^>]*)>/g)].map((m) => m[1]), [' nonce="n0nce"']);
+    assert.deepEqual(
+      [...html.matchAll(/<style([^>]*)>/g)].map((m) => m[1]),
+      [' nonce="n0nce"'],
+    );
     assert.match(html, /var\(--vscode-editor-foreground\)/);
   });
 
@@ -69,7 +71,10 @@ describe('report page', function () {
     const toX = axis(svg, 'x');
     const toY = axis(svg, 'y');
     const pts = polyline(svg);
-    const data = scan.steps.map((h, i) => ({ h, e: scan.absErrors[i]! })).filter((p) => p.e > 0).sort((a, b) => a.h - b.h);
+    const data = scan.steps
+      .map((h, i) => ({ h, e: scan.absErrors[i]! }))
+      .filter((p) => p.e > 0)
+      .sort((a, b) => a.h - b.h);
     assert.equal(pts.length, data.length);
     data.forEach((p, i) => {
       assert.ok(Math.abs(pts[i]!.x - toX(Math.log10(p.h))) < 0.2, `x of step ${p.h}`);
@@ -102,7 +107,7 @@ describe('report page', function () {
     assert.ok(reportPage({ result: mismatch, fileLabel: 'm.ts', nonce: 'n', cspSource: 's' }).includes('<figure class="map">'));
   });
 
-  it('escapes text that comes from the user\'s code', () => {
+  it("escapes text that comes from the user's code", () => {
     const html = reportPage({ result: { ...pass, forward: '<img src=x>', hints: ['a & b'] }, fileLabel: 'f.ts', nonce: 'n', cspSource: 's' });
     assert.doesNotMatch(html, /<img/);
     assert.match(html, /&lt;img src=x&gt;/);
@@ -133,7 +138,7 @@ describe('report page: tolerance, reference curve, legend and detection floor', 
     assert.match(svg, /tolerance 1\.0e-6 × \|value\|/);
   });
 
-  it('beside a wrong backward\'s flat floor, draws the V a correct one would show', () => {
+  it("beside a wrong backward's flat floor, draws the V a correct one would show", () => {
     // Nocedal & Wright, 2nd ed., §8.1: the central difference's own error is lowest at a middle
     // step (truncation ∝ h² against roundoff ∝ u/h); the observed error of a wrong backward is flat.
     const p = mismatch.params[0]!;

@@ -104,11 +104,12 @@ describe('engine: badly scaled correct ops pass (and a hand-written loop false-a
   it('a function that changes on a scale of 1e-3 (exp(1000·m), m in ±0.01) passes, and a 1e-4 bug in it is a mismatch', () => {
     // Ridders' initial step must be one over which the function changes substantially but not
     // wildly (Numerical Recipes 3rd ed. §5.7); 0.05·max(1, |m|) is 50 e-foldings here.
-    const steep = (bug: number) => functionOp({
-      forward: (m: Float64Array) => m.map((v) => Math.exp(1000 * v)),
-      backward: (m: Float64Array, dy: Float64Array) => m.map((v, i) => bug * 1000 * Math.exp(1000 * v) * dy[i]),
-      params: [['m', spec('f64', [8], [-0.01, 0.01])]],
-    });
+    const steep = (bug: number) =>
+      functionOp({
+        forward: (m: Float64Array) => m.map((v) => Math.exp(1000 * v)),
+        backward: (m: Float64Array, dy: Float64Array) => m.map((v, i) => bug * 1000 * Math.exp(1000 * v) * dy[i]),
+        params: [['m', spec('f64', [8], [-0.01, 0.01])]],
+      });
     const ok = check(steep(1));
     assert.equal(ok.verdict, 'pass', show(ok));
     const bad = check(steep(1 + 1e-4));

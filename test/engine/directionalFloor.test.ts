@@ -85,7 +85,14 @@ describe('engine: detection floor of @tangent (J·t), against a mathjs Jacobian'
       for (let j = 0; j < VARS.length; j++) {
         const delta = promisedError(floor, m0[i], j);
         for (const seed of SEEDS) {
-          const o = check(tangentOp((x) => { const w = exact(x); w[i][j] += delta; return w; }), { seed });
+          const o = check(
+            tangentOp((x) => {
+              const w = exact(x);
+              w[i][j] += delta;
+              return w;
+            }),
+            { seed },
+          );
           assert.equal(o.verdict, 'mismatch', `entry [${i}, ${j}] + ${delta} (seed ${seed}): ${show(o)}`);
         }
       }
@@ -130,7 +137,14 @@ describe('engine: detection floor of @hessian H·v, against a mathjs Hessian', (
         for (let j = 0; j < n; j++) {
           const delta = promisedError(floor, m0[i], j);
           for (const seed of SEEDS) {
-            const o = check(hvpOp((x) => { const w = exact(x); w[i][j] += delta; return w; }, reference), { seed });
+            const o = check(
+              hvpOp((x) => {
+                const w = exact(x);
+                w[i][j] += delta;
+                return w;
+              }, reference),
+              { seed },
+            );
             assert.equal(o.verdict, 'mismatch', `H[${i}, ${j}] + ${delta} (seed ${seed}): ${show(o)}`);
           }
         }

@@ -90,21 +90,22 @@ describe('engine: dot-product test on random linear maps (Griewank & Walther)', 
         (m, n, matrixSeed, seed, pick) => {
           const A = randomMatrix(m, n, matrixSeed);
           const wrong = pick % n;
-          const op = (bug: boolean) => functionOp({
-            forward: (x: Float64Array) => {
-              const y = new Float64Array(m);
-              for (let i = 0; i < m; i++) for (let j = 0; j < n; j++) y[i] += A[i * n + j] * x[j];
-              return y;
-            },
-            backward: (_x: Float64Array, dy: Float64Array) => {
-              const g = new Float64Array(n);
-              for (let j = 0; j < n; j++) for (let i = 0; i < m; i++) g[j] += A[i * n + j] * dy[i];
-              if (bug) g[wrong] *= 1 + 1e-3;
-              return g;
-            },
-            params: [['x', spec('f64', [n], [-3, 3])]],
-            seed,
-          });
+          const op = (bug: boolean) =>
+            functionOp({
+              forward: (x: Float64Array) => {
+                const y = new Float64Array(m);
+                for (let i = 0; i < m; i++) for (let j = 0; j < n; j++) y[i] += A[i * n + j] * x[j];
+                return y;
+              },
+              backward: (_x: Float64Array, dy: Float64Array) => {
+                const g = new Float64Array(n);
+                for (let j = 0; j < n; j++) for (let i = 0; i < m; i++) g[j] += A[i * n + j] * dy[i];
+                if (bug) g[wrong] *= 1 + 1e-3;
+                return g;
+              },
+              params: [['x', spec('f64', [n], [-3, 3])]],
+              seed,
+            });
           const ok = check(op(false));
           assert.equal(ok.verdict, 'pass', show(ok));
           const bad = check(op(true));

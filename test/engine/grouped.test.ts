@@ -60,7 +60,7 @@ function rowSoftmax(rows: number, width: number, wrongAt: number | null) {
       const y = new Float64Array(z.length);
       for (let b = 0; b < z.length; b += width) {
         let sum = 0;
-        for (let j = 0; j < width; j++) sum += (y[b + j] = Math.exp(z[b + j]));
+        for (let j = 0; j < width; j++) sum += y[b + j] = Math.exp(z[b + j]);
         for (let j = 0; j < width; j++) y[b + j] /= sum;
       }
       return y;
@@ -101,7 +101,10 @@ describe('engine: grouped check (Curtis, Powell & Reid 1974)', () => {
     const ms = performance.now() - t0;
     assert.equal(o.verdict, 'mismatch', show(o));
     assert.deepEqual(o.params[0].worst?.index, [654_321]);
-    assert.ok(o.params[0].hints.some((h) => h.includes('wrong only at x[654321]')), show(o));
+    assert.ok(
+      o.params[0].hints.some((h) => h.includes('wrong only at x[654321]')),
+      show(o),
+    );
     console.log(`      1e6 elementwise, one wrong element: ${ms.toFixed(0)} ms in-process, ${o.calls.forward} forward calls`);
   });
 
@@ -131,13 +134,17 @@ describe('engine: grouped check (Curtis, Powell & Reid 1974)', () => {
       backward: (W: Float64Array, x: Float64Array, dy: Float64Array) => {
         const dW = new Float64Array(rows * cols);
         const dx = new Float64Array(cols);
-        for (let r = 0; r < rows; r++) for (let c = 0; c < cols; c++) {
-          dW[r * cols + c] = dy[r] * x[c];
-          dx[c] += W[r * cols + c] * dy[r];
-        }
+        for (let r = 0; r < rows; r++)
+          for (let c = 0; c < cols; c++) {
+            dW[r * cols + c] = dy[r] * x[c];
+            dx[c] += W[r * cols + c] * dy[r];
+          }
         return [dW, dx];
       },
-      params: [['W', spec('f64', [rows, cols])], ['x', spec('f64', [cols])]],
+      params: [
+        ['W', spec('f64', [rows, cols])],
+        ['x', spec('f64', [cols])],
+      ],
     });
     const o = check(built);
     assert.equal(o.verdict, 'pass', show(o));
@@ -168,7 +175,7 @@ describe('engine: grouped check (Curtis, Powell & Reid 1974)', () => {
     assert.equal(o.params[0].checkedElements, n);
   });
 
-  it('a softmax over rows of 10 uses 10 colour classes (one per column of the block), not the band model\'s 19', () => {
+  it("a softmax over rows of 10 uses 10 colour classes (one per column of the block), not the band model's 19", () => {
     const o = check(rowSoftmax(300, 10, null), { stepScans: 'none' });
     assert.equal(o.verdict, 'pass', show(o));
     assert.equal(o.params[0].method, 'grouped');

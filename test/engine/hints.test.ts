@@ -39,7 +39,10 @@ describe('engine: evidence-backed hints', () => {
 
   it('wrong only where the input is negative', () => {
     const h = hintsOf(softplusWith((g, x) => (x < 0 ? 0.5 * g : g)));
-    assert.ok(h.param.some((t) => /^wrong only where x < 0 \(\d+ of \d+ such elements disagree; none where x ≥ 0\)$/.test(t)), JSON.stringify(h));
+    assert.ok(
+      h.param.some((t) => /^wrong only where x < 0 \(\d+ of \d+ such elements disagree; none where x ≥ 0\)$/.test(t)),
+      JSON.stringify(h),
+    );
     assert.ok(h.param.includes('gradient is 0.5× the numeric one'), 'the factor holds on the disagreeing elements too');
   });
 
@@ -66,13 +69,17 @@ describe('engine: evidence-backed hints', () => {
         const dW = new Float64Array(rows * cols);
         const dx = new Float64Array(cols);
         // Bug: dW laid out as cols×rows (the transpose), row-major.
-        for (let r = 0; r < rows; r++) for (let c = 0; c < cols; c++) {
-          dW[c * rows + r] = dy[r] * x[c];
-          dx[c] += W[r * cols + c] * dy[r];
-        }
+        for (let r = 0; r < rows; r++)
+          for (let c = 0; c < cols; c++) {
+            dW[c * rows + r] = dy[r] * x[c];
+            dx[c] += W[r * cols + c] * dy[r];
+          }
         return [dW, dx];
       },
-      params: [['W', spec('f64', [rows, cols])], ['x', spec('f64', [cols])]],
+      params: [
+        ['W', spec('f64', [rows, cols])],
+        ['x', spec('f64', [cols])],
+      ],
     });
     const o = check(built);
     assert.equal(o.verdict, 'mismatch', show(o));
@@ -85,7 +92,10 @@ describe('engine: evidence-backed hints', () => {
       forward: (a: Float64Array, b: Float64Array) => a.map((v, i) => v * Math.exp(b[i])),
       // Bug: the two gradients are returned in the wrong order.
       backward: (a: Float64Array, b: Float64Array, dy: Float64Array) => [a.map((v, i) => v * Math.exp(b[i]) * dy[i]), b.map((v, i) => Math.exp(v) * dy[i])],
-      params: [['a', spec('f64', [6])], ['b', spec('f64', [6])]],
+      params: [
+        ['a', spec('f64', [6])],
+        ['b', spec('f64', [6])],
+      ],
     });
     const h = hintsOf(built);
     assert.deepEqual(h.op, ["the gradients of 'a' and 'b' look swapped: each matches the other's numeric gradient"]);

@@ -86,14 +86,20 @@ describe('engine: Abramowitz & Stegun derivative identities', () => {
     it(`${id.name}: a flipped sign is a mismatch with the sign hint (${id.source}, perturbed)`, () => {
       const o = check(elementwise(id.f, id.df, (g) => -g, id.range));
       assert.equal(o.verdict, 'mismatch', show(o));
-      assert.ok(o.params[0].hints.some((h) => h.includes('sign is flipped')), show(o));
+      assert.ok(
+        o.params[0].hints.some((h) => h.includes('sign is flipped')),
+        show(o),
+      );
     });
 
     it(`${id.name}: wrong at one index is a mismatch naming that index (${id.source}, perturbed)`, () => {
       const o = check(elementwise(id.f, id.df, (g, i) => (i === 13 ? g * 1.001 : g), id.range));
       assert.equal(o.verdict, 'mismatch', show(o));
       assert.deepEqual(o.params[0].worst?.index, [13]);
-      assert.ok(o.params[0].hints.some((h) => h.includes('wrong only at x[13]')), show(o));
+      assert.ok(
+        o.params[0].hints.some((h) => h.includes('wrong only at x[13]')),
+        show(o),
+      );
     });
   }
 });

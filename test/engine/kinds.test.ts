@@ -12,7 +12,14 @@ import { check, functionOp, methodOp, show, spec } from './opBuilder';
 type Fn = (...args: any[]) => any;
 
 /** A function op of a derivative kind: `fn` is the @jacobian/@tangent/@hessian function. */
-function kindOp(kind: OpKind, forward: Fn, fn: Fn, params: [string, ReturnType<typeof spec>][], args: BackwardArg[], gradient?: { fn: Fn; args: BackwardArg[] }): { exposed: Record<string, unknown>; op: OpDescriptor } {
+function kindOp(
+  kind: OpKind,
+  forward: Fn,
+  fn: Fn,
+  params: [string, ReturnType<typeof spec>][],
+  args: BackwardArg[],
+  gradient?: { fn: Fn; args: BackwardArg[] },
+): { exposed: Record<string, unknown>; op: OpDescriptor } {
   const built = functionOp({ forward, backward: fn, params });
   built.op.kind = kind;
   built.op.backwardArgs = args;
@@ -66,7 +73,10 @@ describe('engine: @jacobian', () => {
     const o = check(kindOp('jacobian', reach, wrong, [['q', spec('f64', [2], [-3, 3])]], [p('q')]));
     assert.equal(o.verdict, 'mismatch', show(o));
     assert.match(o.message, /J\[1, 0\] \(output 1, q\[0\]\): jacobian gives/, show(o));
-    assert.ok(o.params[0].hints.some((h) => /only J\[1, 0\] is wrong/.test(h)), show(o));
+    assert.ok(
+      o.params[0].hints.some((h) => /only J\[1, 0\] is wrong/.test(h)),
+      show(o),
+    );
     // One rule for the worst element (model/types.ts WorstElement): the entry the message names,
     // with the relative error the message shows.
     const worst = o.params[0].worst;
@@ -77,7 +87,11 @@ describe('engine: @jacobian', () => {
 
   it('catches a transposed square Jacobian and says so', () => {
     // A 3×3 map whose Jacobian is far from symmetric: y_i = Σ_j A_ij sin(x_j).
-    const A = [[1, 2, 0], [0, 1, 3], [4, 0, 1]];
+    const A = [
+      [1, 2, 0],
+      [0, 1, 3],
+      [4, 0, 1],
+    ];
     const fwd = (x: Float64Array): Float64Array => Float64Array.from(A.map((row) => row.reduce((s, a, j) => s + a * Math.sin(x[j]), 0)));
     const jac = (x: Float64Array): number[][] => A.map((row) => row.map((a, j) => a * Math.cos(x[j])));
     const transposed = (x: Float64Array): number[][] => jac(x)[0].map((_, j) => jac(x).map((row) => row[j]));
@@ -85,20 +99,43 @@ describe('engine: @jacobian', () => {
     assert.equal(good.verdict, 'pass', show(good));
     const o = check(kindOp('jacobian', fwd, transposed, [['x', spec('f64', [3])]], [p('x')]));
     assert.equal(o.verdict, 'mismatch', show(o));
-    assert.ok(o.params[0].hints.some((h) => /looks transposed/.test(h)), show(o));
+    assert.ok(
+      o.params[0].hints.some((h) => /looks transposed/.test(h)),
+      show(o),
+    );
   });
 
   it('several parameters: an array or an object of matrices; a wrong sign in one is located', () => {
     // y = (a·b0, a + b1²): J_a is 2×1, J_b is 2×2.
     const fwd = (a: number, b: Float64Array): Float64Array => Float64Array.of(a * b[0], a + b[1] * b[1]);
     const ja = (_a: number, b: Float64Array): number[][] => [[b[0]], [1]];
-    const jb = (a: number, b: Float64Array): number[][] => [[a, 0], [0, 2 * b[1]]];
-    const params: [string, ReturnType<typeof spec>][] = [['a', spec('num')], ['b', spec('f64', [2])]];
+    const jb = (a: number, b: Float64Array): number[][] => [
+      [a, 0],
+      [0, 2 * b[1]],
+    ];
+    const params: [string, ReturnType<typeof spec>][] = [
+      ['a', spec('num')],
+      ['b', spec('f64', [2])],
+    ];
     const asArray = check(kindOp('jacobian', fwd, (a: number, b: Float64Array) => [ja(a, b), jb(a, b)], params, [p('a'), p('b')]));
     assert.equal(asArray.verdict, 'pass', show(asArray));
     const asObject = check(kindOp('jacobian', fwd, (a: number, b: Float64Array) => ({ b: jb(a, b), a: ja(a, b) }), params, [p('a'), p('b')]));
     assert.equal(asObject.verdict, 'pass', show(asObject));
-    const wrong = check(kindOp('jacobian', fwd, (a: number, b: Float64Array) => [ja(a, b), [[a, 0], [0, -2 * b[1]]]], params, [p('a'), p('b')]));
+    const wrong = check(
+      kindOp(
+        'jacobian',
+        fwd,
+        (a: number, b: Float64Array) => [
+          ja(a, b),
+          [
+            [a, 0],
+            [0, -2 * b[1]],
+          ],
+        ],
+        params,
+        [p('a'), p('b')],
+      ),
+    );
     assert.equal(wrong.verdict, 'mismatch', show(wrong));
     assert.equal(wrong.params[0].verdict, 'pass');
     assert.equal(wrong.params[1].verdict, 'mismatch');
@@ -108,7 +145,19 @@ describe('engine: @jacobian', () => {
   it('bad shapes are clear errors naming both shapes (and a transposed shape)', () => {
     // 2 outputs, 3 parameter elements: a 3×2 matrix is the transpose.
     const fwd = (x: Float64Array): Float64Array => Float64Array.of(x[0] * x[1], x[2]);
-    const o = check(kindOp('jacobian', fwd, () => [[1, 0], [0, 0], [0, 1]], [['x', spec('f64', [3])]], [p('x')]));
+    const o = check(
+      kindOp(
+        'jacobian',
+        fwd,
+        () => [
+          [1, 0],
+          [0, 0],
+          [0, 1],
+        ],
+        [['x', spec('f64', [3])]],
+        [p('x')],
+      ),
+    );
     assert.equal(o.verdict, 'error', show(o));
     assert.match(o.message, /has shape \[3, 2\], expected \[2, 3\].*looks transposed/, show(o));
     const o2 = check(kindOp('jacobian', fwd, () => new Float64Array(5), [['x', spec('f64', [3])]], [p('x')]));
@@ -155,7 +204,10 @@ describe('engine: @tangent', () => {
     // y = a·sin(b) (elementwise, b of 3): ẏ = ȧ·sin(b) + a·cos(b)·ḃ.
     const fwd = (a: number, b: Float64Array): Float64Array => b.map((v) => a * Math.sin(v));
     const good = (a: number, b: Float64Array, da: number, db: Float64Array): Float64Array => b.map((v, i) => da * Math.sin(v) + a * Math.cos(v) * db[i]);
-    const params: [string, ReturnType<typeof spec>][] = [['a', spec('num')], ['b', spec('f64', [3])]];
+    const params: [string, ReturnType<typeof spec>][] = [
+      ['a', spec('num')],
+      ['b', spec('f64', [3])],
+    ];
     const args = [p('a'), p('b'), d('a'), d('b')];
     const ok = check(kindOp('tangent', fwd, good, params, args));
     assert.equal(ok.verdict, 'pass', show(ok));
@@ -164,7 +216,10 @@ describe('engine: @tangent', () => {
     assert.equal(o.verdict, 'mismatch', show(o));
     assert.equal(o.params[0].verdict, 'pass', show(o));
     assert.equal(o.params[1].verdict, 'mismatch', show(o));
-    assert.ok(o.params[1].hints.some((h) => /term of 'b' looks missing/.test(h)), show(o));
+    assert.ok(
+      o.params[1].hints.some((h) => /term of 'b' looks missing/.test(h)),
+      show(o),
+    );
   });
 
   it('a result of the wrong shape is a clear error', () => {
@@ -184,7 +239,10 @@ describe('engine: @tangent', () => {
 describe('engine: @hessian', () => {
   it('Rosenbrock at (1, 1): the textbook Hessian [[802, −400], [−400, 200]] passes (both references)', () => {
     // Nocedal & Wright, Numerical Optimization, 2nd ed., ch. 2 (worked example).
-    const textbook = (): number[][] => [[802, -400], [-400, 200]];
+    const textbook = (): number[][] => [
+      [802, -400],
+      [-400, 200],
+    ];
     const params: [string, ReturnType<typeof spec>][] = [['v', spec('f64', [2], [1, 1])]];
     const second = check(kindOp('hessian', rosen, textbook, params, [p('v')]));
     assert.equal(second.verdict, 'pass', show(second));
@@ -201,10 +259,24 @@ describe('engine: @hessian', () => {
     assert.equal(away.params[0].method, 'gradient-differences', show(away));
     assert.match(away.message, /central differences of the @backward 'opGradient', which passes/);
     // One wrong textbook entry (−400 read as −40) is caught and placed.
-    const typo = check(kindOp('hessian', rosen, () => [[802, -40], [-400, 200]], params, [p('v')]));
+    const typo = check(
+      kindOp(
+        'hessian',
+        rosen,
+        () => [
+          [802, -40],
+          [-400, 200],
+        ],
+        params,
+        [p('v')],
+      ),
+    );
     assert.equal(typo.verdict, 'mismatch', show(typo));
     assert.match(typo.message, /H\[0, 1\] \(v\[0\], v\[1\]\)/, show(typo));
-    assert.ok(typo.params[0].hints.some((h) => /not symmetric/.test(h)), show(typo));
+    assert.ok(
+      typo.params[0].hints.some((h) => /not symmetric/.test(h)),
+      show(typo),
+    );
   });
 
   it('random points: correct Hessian passes; a non-symmetric one is caught with either reference', () => {
@@ -259,10 +331,25 @@ describe('engine: @hessian', () => {
       [2 * a, 0, 0],
       [Math.cos(b[1]), 0, -Math.sin(b[1]) * a],
     ];
-    const params: [string, ReturnType<typeof spec>][] = [['a', spec('num')], ['b', spec('f64', [2])]];
+    const params: [string, ReturnType<typeof spec>][] = [
+      ['a', spec('num')],
+      ['b', spec('f64', [2])],
+    ];
     const o = check(kindOp('hessian', f, H, params, [p('a'), p('b')]));
     assert.equal(o.verdict, 'pass', show(o));
-    const bad = check(kindOp('hessian', f, (a: number, b: Float64Array) => { const m = H(a, b); m[2][2] = Math.sin(b[1]) * a; return m; }, params, [p('a'), p('b')]));
+    const bad = check(
+      kindOp(
+        'hessian',
+        f,
+        (a: number, b: Float64Array) => {
+          const m = H(a, b);
+          m[2][2] = Math.sin(b[1]) * a;
+          return m;
+        },
+        params,
+        [p('a'), p('b')],
+      ),
+    );
     assert.equal(bad.verdict, 'mismatch', show(bad));
     assert.match(bad.message, /H\[2, 2\] \(b\[1\], b\[1\]\)/, show(bad));
   });
@@ -274,7 +361,10 @@ describe('engine: @hessian', () => {
       const [va, vb] = v;
       return [2 * b[0] * va + 2 * a * vb[0] + Math.cos(b[1]) * vb[1], Float64Array.of(2 * a * va, Math.cos(b[1]) * va - Math.sin(b[1]) * a * vb[1])];
     };
-    const params: [string, ReturnType<typeof spec>][] = [['a', spec('num')], ['b', spec('f64', [2])]];
+    const params: [string, ReturnType<typeof spec>][] = [
+      ['a', spec('num')],
+      ['b', spec('f64', [2])],
+    ];
     const o = check(kindOp('hessian', f, hvp, params, [p('a'), p('b'), V]));
     assert.equal(o.verdict, 'pass', show(o));
     const wrong = (a: number, b: Float64Array, v: [number, Float64Array]): { a: number; b: Float64Array } => {
@@ -291,7 +381,18 @@ describe('engine: @hessian', () => {
     const o = check(kindOp('hessian', rosen, () => [[1, 2, 3]], params, [p('v')]));
     assert.equal(o.verdict, 'error', show(o));
     assert.match(o.message, /has shape \[1, 3\], expected \[2, 2\]/);
-    const vec = check(kindOp('hessian', reach, () => [[1, 0], [0, 1]], [['q', spec('f64', [2])]], [p('q')]));
+    const vec = check(
+      kindOp(
+        'hessian',
+        reach,
+        () => [
+          [1, 0],
+          [0, 1],
+        ],
+        [['q', spec('f64', [2])]],
+        [p('q')],
+      ),
+    );
     assert.equal(vec.verdict, 'error');
     assert.match(vec.message, /@hessian needs a forward that returns a number; it returned 2 values/);
   });
@@ -326,7 +427,15 @@ describe('engine: derivative kinds on methods', () => {
     }
   }
   const build = (kind: OpKind, name: string, args: BackwardArg[]) => {
-    const built = methodOp({ cls: Squash, forwardName: 'forward', backwardName: name, params: [['x', spec('f64', [3])], ['this.w', spec('f64', [3], [0.5, 2])]] });
+    const built = methodOp({
+      cls: Squash,
+      forwardName: 'forward',
+      backwardName: name,
+      params: [
+        ['x', spec('f64', [3])],
+        ['this.w', spec('f64', [3], [0.5, 2])],
+      ],
+    });
     built.op.kind = kind;
     built.op.backwardArgs = args;
     return built;
@@ -339,10 +448,12 @@ describe('engine: derivative kinds on methods', () => {
     assert.equal(o.verdict, 'pass', show(o));
     const tan = check(build('tangent', 'tangent', [p('x'), d('x'), d('this.w')]));
     assert.equal(tan.verdict, 'pass', show(tan));
-    assert.deepEqual(tan.params.map((q) => q.name), ['x', 'this.w']);
+    assert.deepEqual(
+      tan.params.map((q) => q.name),
+      ['x', 'this.w'],
+    );
   });
 });
-
 
 describe('engine: derivative kinds, seeds and failures', () => {
   const params = (): [string, ReturnType<typeof spec>][] => [['q', spec('f64', [2], [-3, 3])]];
@@ -359,10 +470,31 @@ describe('engine: derivative kinds, seeds and failures', () => {
   });
 
   it('a derivative function that throws, or returns NaN, is an error naming it', () => {
-    const thrown = check(kindOp('tangent', reach, () => { throw new Error('no tangent here'); }, params(), [p('q'), d('q')]));
+    const thrown = check(
+      kindOp(
+        'tangent',
+        reach,
+        () => {
+          throw new Error('no tangent here');
+        },
+        params(),
+        [p('q'), d('q')],
+      ),
+    );
     assert.equal(thrown.verdict, 'error');
     assert.match(thrown.message, /tangent threw: .*no tangent here/);
-    const nan = check(kindOp('jacobian', reach, () => [[NaN, 0], [0, 1]], params(), [p('q')]));
+    const nan = check(
+      kindOp(
+        'jacobian',
+        reach,
+        () => [
+          [NaN, 0],
+          [0, 1],
+        ],
+        params(),
+        [p('q')],
+      ),
+    );
     assert.equal(nan.verdict, 'error');
     assert.match(nan.message, /jacobian 'opBackward' result has NaN at \[0, 0\]/);
     const missing = kindOp('hessian', rosen, rosenHess, [['v', spec('f64', [2])]], [p('v')]);
@@ -373,14 +505,33 @@ describe('engine: derivative kinds, seeds and failures', () => {
   });
 
   it('a result whose reading throws (a getter of user code) is an error naming the function', () => {
-    const trap = (): unknown => { const row = [1, 0]; Object.defineProperty(row, 0, { get() { throw new Error('trap'); } }); return [row, [0, 1]]; };
+    const trap = (): unknown => {
+      const row = [1, 0];
+      Object.defineProperty(row, 0, {
+        get() {
+          throw new Error('trap');
+        },
+      });
+      return [row, [0, 1]];
+    };
     const o = check(kindOp('jacobian', reach, trap, params(), [p('q')]));
     assert.equal(o.verdict, 'error', show(o));
     assert.match(o.message, /reading what jacobian 'opBackward' returned threw .*trap/);
   });
 
   it('a derivative function that changes its input is an error', () => {
-    const o = check(kindOp('jacobian', reach, (q: Float64Array) => { q[0] += 1; return reachJacobian(q); }, params(), [p('q')]));
+    const o = check(
+      kindOp(
+        'jacobian',
+        reach,
+        (q: Float64Array) => {
+          q[0] += 1;
+          return reachJacobian(q);
+        },
+        params(),
+        [p('q')],
+      ),
+    );
     assert.equal(o.verdict, 'error');
     assert.match(o.message, /jacobian 'opBackward' changed its input 'q' at \[0\]/);
   });

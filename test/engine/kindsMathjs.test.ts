@@ -15,15 +15,24 @@ function randomExpression(r: RandomSource, depth: number): string {
   if (depth === 0) return r() < 0.4 ? 'x' : r() < 0.8 ? 'y' : constant();
   const a = () => randomExpression(r, depth - 1);
   switch (Math.floor(r() * 9)) {
-    case 0: return `(${a()} + ${a()})`;
-    case 1: return `(${a()} - ${a()})`;
-    case 2: return `(${a()} * ${a()})`;
-    case 3: return `(${a()} / (${a()}^2 + 1))`;
-    case 4: return `sin(${a()})`;
-    case 5: return `cos(${a()})`;
-    case 6: return `exp(${a()} / 4)`;
-    case 7: return `log(${a()}^2 + 1)`;
-    default: return `tanh(${a()})`;
+    case 0:
+      return `(${a()} + ${a()})`;
+    case 1:
+      return `(${a()} - ${a()})`;
+    case 2:
+      return `(${a()} * ${a()})`;
+    case 3:
+      return `(${a()} / (${a()}^2 + 1))`;
+    case 4:
+      return `sin(${a()})`;
+    case 5:
+      return `cos(${a()})`;
+    case 6:
+      return `exp(${a()} / 4)`;
+    case 7:
+      return `log(${a()}^2 + 1)`;
+    default:
+      return `tanh(${a()})`;
   }
 }
 
@@ -61,7 +70,16 @@ describe('engine: mathjs derivatives as the oracle for @jacobian and @hessian', 
       let bi = 0;
       let bj = 0;
       for (let i = 0; i < 3; i++) for (let j = 0; j < 2; j++) if (Math.abs(m[i][j]) > Math.abs(m[bi][bj])) [bi, bj] = [i, j];
-      const wrong = functionOp({ forward, backward: (v: Float64Array) => { const w = exact(v); w[bi][bj] *= 1 + 1e-3; return w; }, params: [['v', undefined]], samples: () => [Float64Array.from(point)] });
+      const wrong = functionOp({
+        forward,
+        backward: (v: Float64Array) => {
+          const w = exact(v);
+          w[bi][bj] *= 1 + 1e-3;
+          return w;
+        },
+        params: [['v', undefined]],
+        samples: () => [Float64Array.from(point)],
+      });
       wrong.op.kind = 'jacobian';
       wrong.op.backwardArgs = P;
       const bad = check(wrong);
@@ -81,7 +99,10 @@ describe('engine: mathjs derivatives as the oracle for @jacobian and @hessian', 
       ({ text, point } = draw(r));
       gx = d(text, 'x');
       gy = d(text, 'y');
-      H = [[compile(d(gx, 'x')), compile(d(gx, 'y'))], [compile(d(gy, 'x')), compile(d(gy, 'y'))]];
+      H = [
+        [compile(d(gx, 'x')), compile(d(gx, 'y'))],
+        [compile(d(gy, 'x')), compile(d(gy, 'y'))],
+      ];
     } while (Math.max(...H.flat().map((h) => Math.abs(at(h, Float64Array.from(point))))) < 1e-2);
     const f = compile(text);
     const g = [compile(gx), compile(gy)];
@@ -106,7 +127,13 @@ describe('engine: mathjs derivatives as the oracle for @jacobian and @hessian', 
         let bi = 0;
         let bj = 0;
         for (let i = 0; i < 2; i++) for (let j = 0; j < 2; j++) if (Math.abs(m[i][j]) > Math.abs(m[bi][bj])) [bi, bj] = [i, j];
-        const bad = check(build((v) => { const w = exact(v); w[bi][bj] *= 1 + 1e-3; return w; }));
+        const bad = check(
+          build((v) => {
+            const w = exact(v);
+            w[bi][bj] *= 1 + 1e-3;
+            return w;
+          }),
+        );
         assert.equal(bad.verdict, 'mismatch', show(bad));
         assert.ok(bad.message.startsWith(`H[${bi}, ${bj}]`), show(bad));
       });

@@ -38,12 +38,17 @@ class AccumulatingDense {
 
 describe('engine: layer state between backward calls', () => {
   it('an accumulating backward (`this.gradW[k] += ...`) passes: every call sees the instance as the forward left it', () => {
-    const o = check(methodOp({
-      cls: AccumulatingDense,
-      forwardName: 'forward',
-      backwardName: 'backward',
-      params: [['x', spec('f64', [COLS])], ['this.weight', spec('f64', [ROWS * COLS])]],
-    }));
+    const o = check(
+      methodOp({
+        cls: AccumulatingDense,
+        forwardName: 'forward',
+        backwardName: 'backward',
+        params: [
+          ['x', spec('f64', [COLS])],
+          ['this.weight', spec('f64', [ROWS * COLS])],
+        ],
+      }),
+    );
     assert.equal(o.verdict, 'pass', show(o));
     assert.ok(o.calls.backward >= 2, 'the check calls the backward several times on one instance');
   });
@@ -56,7 +61,17 @@ describe('engine: layer state between backward calls', () => {
         return r;
       }
     }
-    const o = check(methodOp({ cls: Wrong, forwardName: 'forward', backwardName: 'backward', params: [['x', spec('f64', [COLS])], ['this.weight', spec('f64', [ROWS * COLS])]] }));
+    const o = check(
+      methodOp({
+        cls: Wrong,
+        forwardName: 'forward',
+        backwardName: 'backward',
+        params: [
+          ['x', spec('f64', [COLS])],
+          ['this.weight', spec('f64', [ROWS * COLS])],
+        ],
+      }),
+    );
     assert.equal(o.verdict, 'mismatch', show(o));
   });
 
@@ -83,7 +98,15 @@ describe('engine: layer state between backward calls', () => {
         return { x: dx, weight: this.#gradW };
       }
     }
-    const built = methodOp({ cls: PrivateDense, forwardName: 'forward', backwardName: 'backward', params: [['x', spec('f64', [COLS])], ['this.weight', spec('f64', [ROWS * COLS])]] });
+    const built = methodOp({
+      cls: PrivateDense,
+      forwardName: 'forward',
+      backwardName: 'backward',
+      params: [
+        ['x', spec('f64', [COLS])],
+        ['this.weight', spec('f64', [ROWS * COLS])],
+      ],
+    });
     // What discovery sets for a class with #private members (buildOp.declaresPrivateMembers).
     built.op.target.renewInstance = true;
     const o = check(built);
@@ -106,19 +129,21 @@ describe('engine: layer state between backward calls', () => {
         return x.map((v, j) => 2 * this.scale[j] * v * dy[j]);
       }
     }
-    const o = check(methodOp({
-      cls: CachesOnce,
-      forwardName: 'forward',
-      backwardName: 'backward',
-      params: [['x', spec('f64', [COLS], [0.5, 2])]],
-      // The instance has served an earlier step at another input, as in a training loop.
-      construct: () => {
-        const layer = new CachesOnce();
-        layer.scale.fill(1.5);
-        layer.forward(new Float64Array(COLS).fill(-3));
-        return layer;
-      },
-    }));
+    const o = check(
+      methodOp({
+        cls: CachesOnce,
+        forwardName: 'forward',
+        backwardName: 'backward',
+        params: [['x', spec('f64', [COLS], [0.5, 2])]],
+        // The instance has served an earlier step at another input, as in a training loop.
+        construct: () => {
+          const layer = new CachesOnce();
+          layer.scale.fill(1.5);
+          layer.forward(new Float64Array(COLS).fill(-3));
+          return layer;
+        },
+      }),
+    );
     assert.equal(o.verdict, 'mismatch', show(o));
   });
 

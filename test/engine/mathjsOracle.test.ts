@@ -15,16 +15,26 @@ function randomExpression(r: RandomSource, depth: number): string {
   const a = () => randomExpression(r, depth - 1);
   const pick = Math.floor(r() * 10);
   switch (pick) {
-    case 0: return `(${a()} + ${a()})`;
-    case 1: return `(${a()} - ${a()})`;
-    case 2: return `(${a()} * ${a()})`;
-    case 3: return `(${a()} / (${a()}^2 + 1))`;
-    case 4: return `sin(${a()})`;
-    case 5: return `cos(${a()})`;
-    case 6: return `exp(${a()} / 4)`;
-    case 7: return `log(${a()}^2 + 1)`;
-    case 8: return `sqrt(${a()}^2 + 1)`;
-    default: return `tanh(${a()})`;
+    case 0:
+      return `(${a()} + ${a()})`;
+    case 1:
+      return `(${a()} - ${a()})`;
+    case 2:
+      return `(${a()} * ${a()})`;
+    case 3:
+      return `(${a()} / (${a()}^2 + 1))`;
+    case 4:
+      return `sin(${a()})`;
+    case 5:
+      return `cos(${a()})`;
+    case 6:
+      return `exp(${a()} / 4)`;
+    case 7:
+      return `log(${a()}^2 + 1)`;
+    case 8:
+      return `sqrt(${a()}^2 + 1)`;
+    default:
+      return `tanh(${a()})`;
   }
 }
 

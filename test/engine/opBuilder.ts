@@ -36,10 +36,20 @@ function toBackwardArgs(list: string[]): BackwardArg[] {
 
 function baseOp(name: string, params: ParamDescriptor[], backwardArgs: BackwardArg[], extra: Partial<OpDescriptor>): OpDescriptor {
   return {
-    file: '/virtual/ops.ts', line: 1, column: 1, endLine: 1, endColumn: 10,
-    forward: name, backward: `${name}Backward`,
+    file: '/virtual/ops.ts',
+    line: 1,
+    column: 1,
+    endLine: 1,
+    endColumn: 10,
+    forward: name,
+    backward: `${name}Backward`,
     target: { kind: 'function', forwardName: name, backwardName: `${name}Backward`, backwardIsMethod: false },
-    params, backwardArgs, fixed: [], tags: [], problems: [], ...extra,
+    params,
+    backwardArgs,
+    fixed: [],
+    tags: [],
+    problems: [],
+    ...extra,
   };
 }
 
@@ -91,5 +101,11 @@ export function check(built: { exposed: Record<string, unknown>; op: OpDescripto
 
 /** One-line summary of an outcome for assertion messages. */
 export function show(o: CheckOutcome): string {
-  return JSON.stringify({ verdict: o.verdict, message: o.message, hints: o.hints, calls: o.calls, params: o.params.map((p) => ({ name: p.name, verdict: p.verdict, method: p.method, rel: p.maxRelError, worst: p.worst, hints: p.hints, checked: p.checkedElements })) });
+  return JSON.stringify({
+    verdict: o.verdict,
+    message: o.message,
+    hints: o.hints,
+    calls: o.calls,
+    params: o.params.map((p) => ({ name: p.name, verdict: p.verdict, method: p.method, rel: p.maxRelError, worst: p.worst, hints: p.hints, checked: p.checkedElements })),
+  });
 }

@@ -16,39 +16,73 @@ describe('engine: the applied tolerance is a field of every parameter result', (
   it('float64 parameters are judged with the float64 setting', () => {
     const o = check(functionOp({ forward: square, backward: squareBackward, params: [['x', spec('f64', [4])]] }));
     assert.equal(o.verdict, 'pass', show(o));
-    assert.deepEqual(o.params.map((p) => p.tolerance), [DEFAULT_SETTINGS.toleranceF64]);
+    assert.deepEqual(
+      o.params.map((p) => p.tolerance),
+      [DEFAULT_SETTINGS.toleranceF64],
+    );
   });
 
   it('a float32 parameter makes the op float32: every parameter gets the float32 setting', () => {
     const mixed = (x: Float32Array, w: Float64Array) => Float64Array.from(x, (v, i) => v * w[i]);
     const mixedBackward = (x: Float32Array, w: Float64Array, dy: Float64Array) => [Float32Array.from(w, (v, i) => v * dy[i]), Float64Array.from(x, (v, i) => v * dy[i])];
-    const o = check(functionOp({ forward: mixed, backward: mixedBackward, params: [['x', spec('f32', [3])], ['w', spec('f64', [3])]] }));
-    assert.deepEqual(o.params.map((p) => p.tolerance), [DEFAULT_SETTINGS.toleranceF32, DEFAULT_SETTINGS.toleranceF32], show(o));
+    const o = check(
+      functionOp({
+        forward: mixed,
+        backward: mixedBackward,
+        params: [
+          ['x', spec('f32', [3])],
+          ['w', spec('f64', [3])],
+        ],
+      }),
+    );
+    assert.deepEqual(
+      o.params.map((p) => p.tolerance),
+      [DEFAULT_SETTINGS.toleranceF32, DEFAULT_SETTINGS.toleranceF32],
+      show(o),
+    );
   });
 
   it('float64 inputs whose forward returns float32 values are judged with float32 tolerance too', () => {
     const rounded = (x: Float64Array) => Float32Array.from(x, (v) => v * v);
     const roundedBackward = (x: Float64Array, dy: Float32Array) => Float64Array.from(x, (v, i) => 2 * v * dy[i]);
     const o = check(functionOp({ forward: rounded, backward: roundedBackward, params: [['x', spec('f64', [3])]] }));
-    assert.deepEqual(o.params.map((p) => p.tolerance), [DEFAULT_SETTINGS.toleranceF32], show(o));
+    assert.deepEqual(
+      o.params.map((p) => p.tolerance),
+      [DEFAULT_SETTINGS.toleranceF32],
+      show(o),
+    );
   });
 
   it("the op's @tolerance wins, on a mismatch too", () => {
     const o = check(functionOp({ forward: square, backward: wrongBackward, params: [['x', spec('f64', [4])]], tolerance: 1e-4 }));
     assert.equal(o.verdict, 'mismatch', show(o));
-    assert.deepEqual(o.params.map((p) => p.tolerance), [1e-4]);
+    assert.deepEqual(
+      o.params.map((p) => p.tolerance),
+      [1e-4],
+    );
   });
 });
 
 describe('engine: why an op could not be checked is a field', () => {
   it('user code that threw is `threw`', () => {
-    const o = check(functionOp({ forward: () => { throw new Error('boom'); }, backward: squareBackward, params: [['x', spec('f64', [4])]] }));
+    const o = check(
+      functionOp({
+        forward: () => {
+          throw new Error('boom');
+        },
+        backward: squareBackward,
+        params: [['x', spec('f64', [4])]],
+      }),
+    );
     assert.equal(o.verdict, 'error');
     assert.equal(o.failure, 'threw', show(o));
   });
 
   it('an op that cannot be checked as written is `refused`', () => {
-    const zeroing = (x: Float64Array) => { x[1] = 0; return square(x); };
+    const zeroing = (x: Float64Array) => {
+      x[1] = 0;
+      return square(x);
+    };
     const o = check(functionOp({ forward: zeroing, backward: squareBackward, params: [['x', spec('f64', [4])]] }));
     assert.equal(o.verdict, 'error');
     assert.equal(o.failure, 'refused', show(o));

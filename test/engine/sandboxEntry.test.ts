@@ -11,18 +11,30 @@ import type { CheckOutcome, OpDescriptor } from '../../server/src/model/types';
 function engineSource(): string {
   const out = buildSync({
     entryPoints: ['server/src/engine/sandboxEntry.ts'],
-    bundle: true, platform: 'neutral', format: 'iife', target: 'es2022', write: false, logLevel: 'silent',
+    bundle: true,
+    platform: 'neutral',
+    format: 'iife',
+    target: 'es2022',
+    write: false,
+    logLevel: 'silent',
   });
   return out.outputFiles[0].text;
 }
 
 const op: OpDescriptor = {
-  file: '/virtual/ops.ts', line: 3, column: 17, endLine: 3, endColumn: 25,
-  forward: 'softplus', backward: 'softplusBackward',
+  file: '/virtual/ops.ts',
+  line: 3,
+  column: 17,
+  endLine: 3,
+  endColumn: 25,
+  forward: 'softplus',
+  backward: 'softplusBackward',
   target: { kind: 'function', forwardName: 'softplus', backwardName: 'softplusBackward', backwardIsMethod: false },
   params: [{ name: 'x', isField: false, sample: { kind: 'random', dtype: 'f64', shape: [32], range: [-4, 4], avoid: [], fixed: false } }],
   backwardArgs: [{ kind: 'param', name: 'x' }, { kind: 'upstream' }],
-  fixed: [], tags: [], problems: [],
+  fixed: [],
+  tags: [],
+  problems: [],
 };
 
 const userModule = (factor: number) => `
@@ -36,10 +48,7 @@ function runInFreshContext(userCode: string, patches = ''): CheckOutcome {
   vm.runInContext(engineSource(), context);
   vm.runInContext(userCode, context);
   vm.runInContext(patches, context);
-  const json = vm.runInContext(
-    `__gradientProbeRun(globalThis.__gradientProbeExposed, ${JSON.stringify(JSON.stringify({ op, settings: DEFAULT_SETTINGS }))})`,
-    context,
-  ) as unknown;
+  const json = vm.runInContext(`__gradientProbeRun(globalThis.__gradientProbeExposed, ${JSON.stringify(JSON.stringify({ op, settings: DEFAULT_SETTINGS }))})`, context) as unknown;
   assert.equal(typeof json, 'string');
   return JSON.parse(json as string) as CheckOutcome;
 }

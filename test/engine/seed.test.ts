@@ -87,15 +87,20 @@ describe('engine: seeded generator and sampling', () => {
   });
 
   it('runCheck: samples stay in the range and away from avoid points', () => {
-    const o = check(functionOp({
-      forward: (x: Float64Array) => x.map((v) => Math.abs(v)),
-      backward: (x: Float64Array, dy: Float64Array) => x.map((v, i) => Math.sign(v) * dy[i]),
-      params: [['x', spec('f64', [500], [-0.01, 0.01], { avoid: [0] })]],
-    }));
+    const o = check(
+      functionOp({
+        forward: (x: Float64Array) => x.map((v) => Math.abs(v)),
+        backward: (x: Float64Array, dy: Float64Array) => x.map((v, i) => Math.sign(v) * dy[i]),
+        params: [['x', spec('f64', [500], [-0.01, 0.01], { avoid: [0] })]],
+      }),
+    );
     assert.equal(o.verdict, 'pass', show(o));
     const data = (o.inputs!.args[0] as { data: number[] }).data;
     // Margin: 10 central steps of float64 at 0, 10·2^(-53/3) ≈ 4.8e-5.
     const margin = 10 * Math.cbrt(2 ** -53);
-    assert.ok(data.every((v) => v >= -0.01 && v <= 0.01 && Math.abs(v) >= margin), 'every element in range and outside the margin');
+    assert.ok(
+      data.every((v) => v >= -0.01 && v <= 0.01 && Math.abs(v) >= margin),
+      'every element in range and outside the margin',
+    );
   });
 });

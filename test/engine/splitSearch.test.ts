@@ -104,15 +104,31 @@ describe('engine: dot-product probes split down to single elements (Dorfman 1943
 
   for (const [label, wrong] of [
     ['one wrong element', [[12345, 1 + 1e-4]]],
-    ['two wrong elements', [[17, 1 + 1e-3], [29000, 1 - 1e-3]]],
-    ['three wrong elements', [[5, 1 + 1e-3], [18000, 1 + 1e-3], [35000, 1 + 1e-3]]],
+    [
+      'two wrong elements',
+      [
+        [17, 1 + 1e-3],
+        [29000, 1 - 1e-3],
+      ],
+    ],
+    [
+      'three wrong elements',
+      [
+        [5, 1 + 1e-3],
+        [18000, 1 + 1e-3],
+        [35000, 1 + 1e-3],
+      ],
+    ],
   ] as [string, [number, number][]][]) {
     it(`${label} of a dense W 200×200 are caught and the reported element is one of them`, () => {
       for (const seed of [1, 2, 3]) {
         const o = check(matVec(200, 200, wrong), { seed });
         assert.equal(o.verdict, 'mismatch', show(o));
         assert.equal(o.params[0].verdict, 'mismatch', show(o));
-        assert.ok(wrong.some(([at]) => at === wrongIndex(o, 0)), `reported ${wrongIndex(o, 0)}: ${show(o)}`);
+        assert.ok(
+          wrong.some(([at]) => at === wrongIndex(o, 0)),
+          `reported ${wrongIndex(o, 0)}: ${show(o)}`,
+        );
         assert.equal(o.params[1].verdict, 'pass', show(o));
       }
     });
@@ -122,7 +138,13 @@ describe('engine: dot-product probes split down to single elements (Dorfman 1943
     // Softmax entries next to each other, one up and one down by the same amount: a probe along
     // all-equal signs would see nothing; random signs see 2·e in half of the probes.
     for (const seed of [1, 2, 3, 4]) {
-      const o = check(softmax(3000, [[100, 1e-3], [101, -1e-3]]), { seed });
+      const o = check(
+        softmax(3000, [
+          [100, 1e-3],
+          [101, -1e-3],
+        ]),
+        { seed },
+      );
       assert.equal(o.verdict, 'mismatch', show(o));
       assert.equal(o.params[0].method, 'dot-product');
       assert.ok([100, 101].includes(wrongIndex(o, 0)), show(o));

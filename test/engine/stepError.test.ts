@@ -6,12 +6,14 @@ import assert from 'node:assert/strict';
 import { check, functionOp, show, spec } from './opBuilder';
 
 function scanOf(f: (x: number) => number, df: (x: number) => number, at: number) {
-  const o = check(functionOp({
-    forward: (x: number) => f(x),
-    backward: (x: number) => df(x),
-    params: [['x', spec('num', [], [at, at])]],
-    backwardArgs: ['x'],
-  }));
+  const o = check(
+    functionOp({
+      forward: (x: number) => f(x),
+      backward: (x: number) => df(x),
+      params: [['x', spec('num', [], [at, at])]],
+      backwardArgs: ['x'],
+    }),
+  );
   assert.equal(o.verdict, 'pass', show(o));
   const scan = o.params[0].stepScan;
   assert.ok(scan, 'a passing op reports a step scan');
@@ -44,7 +46,10 @@ describe('engine: central-difference error against step (Nocedal & Wright §8.1)
     it(`${name}: the smallest error is near u^(1/3) ≈ 5e-6, roundoff dominates below`, () => {
       const { err, bestStep } = scanOf(f, df, at);
       // N&W §8.1: optimal step ≈ (3u|f|/|f'''|)^(1/3), about 5e-6..1e-5 here: the best decade is 1e-5 or 1e-6.
-      assert.ok([1e-5, 1e-6].some((s) => Math.abs(bestStep / s - 1) < 1e-9), `best step ${bestStep}`);
+      assert.ok(
+        [1e-5, 1e-6].some((s) => Math.abs(bestStep / s - 1) < 1e-9),
+        `best step ${bestStep}`,
+      );
       // Roundoff grows as u/h: four decades below the optimum the error is far larger.
       assert.ok(err(1e-10) > 100 * err(1e-6), `err(1e-10) = ${err(1e-10)}, err(1e-6) = ${err(1e-6)}`);
       assert.ok(err(1e-13) > err(1e-10), `err(1e-13) = ${err(1e-13)}, err(1e-10) = ${err(1e-10)}`);
@@ -52,12 +57,14 @@ describe('engine: central-difference error against step (Nocedal & Wright §8.1)
   }
 
   it('a wrong gradient shows a flat floor instead of the V', () => {
-    const o = check(functionOp({
-      forward: (x: number) => Math.exp(x),
-      backward: (x: number) => 1.01 * Math.exp(x),
-      params: [['x', spec('num', [], [0.5, 0.5])]],
-      backwardArgs: ['x'],
-    }));
+    const o = check(
+      functionOp({
+        forward: (x: number) => Math.exp(x),
+        backward: (x: number) => 1.01 * Math.exp(x),
+        params: [['x', spec('num', [], [0.5, 0.5])]],
+        backwardArgs: ['x'],
+      }),
+    );
     assert.equal(o.verdict, 'mismatch', show(o));
     const scan = o.params[0].stepScan!;
     // In the truncation regime the error no longer moves with h: it is the 1 % gap itself.
@@ -68,12 +75,13 @@ describe('engine: central-difference error against step (Nocedal & Wright §8.1)
   });
 
   it('settings.stepScans: "mismatch" skips the scan of a passing op and keeps it for a mismatch; "none" skips both', () => {
-    const op = (factor: number) => functionOp({
-      forward: (x: number) => Math.exp(x),
-      backward: (x: number) => factor * Math.exp(x),
-      params: [['x', spec('num', [], [0.5, 0.5])]],
-      backwardArgs: ['x'],
-    });
+    const op = (factor: number) =>
+      functionOp({
+        forward: (x: number) => Math.exp(x),
+        backward: (x: number) => factor * Math.exp(x),
+        params: [['x', spec('num', [], [0.5, 0.5])]],
+        backwardArgs: ['x'],
+      });
     const pass = check(op(1), { stepScans: 'mismatch' });
     assert.equal(pass.params[0].stepScan, undefined);
     const all = check(op(1));

@@ -21,12 +21,19 @@ const ORACLE_REL_TOL = 1e-4;
 /** An op whose forward takes tensors and whose backward is the library's gradient (what discovery builds). */
 function libraryOp(forward: (...xs: Tensor[]) => Tensor, params: [string, SampleSpec][]): { exposed: Record<string, unknown>; op: OpDescriptor } {
   const op: OpDescriptor = {
-    file: '/virtual/tensorOps.ts', line: 1, column: 1, endLine: 1, endColumn: 10,
-    forward: 'op', backward: 'library-gradient',
+    file: '/virtual/tensorOps.ts',
+    line: 1,
+    column: 1,
+    endLine: 1,
+    endColumn: 10,
+    forward: 'op',
+    backward: 'library-gradient',
     target: { kind: 'function', forwardName: 'op', backwardName: '', backwardIsMethod: false, libraryGradient: true, tensorLibrary: '@tensorflow/tfjs' },
     params: params.map(([name, s]) => ({ name, isField: false, sample: s, tensor: true })),
     backwardArgs: [...params.map(([name]) => ({ kind: 'param' as const, name })), { kind: 'upstream' }],
-    fixed: [], tags: [], problems: [],
+    fixed: [],
+    tags: [],
+    problems: [],
   };
   return { exposed: { op: forward, [TENSOR_LIBRARY_BINDING]: tf }, op };
 }
@@ -153,13 +160,19 @@ describe('engine: tf.customGrad checked through the library gradient (oracle: tf
         return [tf.grad(c.custom)(x, dy).dataSync()[flat]!, tf.grad(c.plain)(x, dy).dataSync()[flat]!];
       });
       assert.match(o.message, /gradient of 'x' disagrees at x\[/, show(o));
-      assert.ok(Math.abs(customAt - autodiffAt) > ORACLE_REL_TOL * Math.max(1e-3, Math.abs(autodiffAt)), `located element ${JSON.stringify(worst)}: custom ${customAt}, autodiff ${autodiffAt}`);
+      assert.ok(
+        Math.abs(customAt - autodiffAt) > ORACLE_REL_TOL * Math.max(1e-3, Math.abs(autodiffAt)),
+        `located element ${JSON.stringify(worst)}: custom ${customAt}, autodiff ${autodiffAt}`,
+      );
     });
   }
 
   it('names the factor of a gradient off by 2', () => {
     const o = run(BUGGY[0]!);
-    assert.ok(o.params[0]!.hints.some((h) => /gradient is 2(\.0*|\.9+|\.00+\d*)?× the numeric one|gradient is 1\.99+× the numeric one/.test(h)), show(o));
+    assert.ok(
+      o.params[0]!.hints.some((h) => /gradient is 2(\.0*|\.9+|\.00+\d*)?× the numeric one|gradient is 1\.99+× the numeric one/.test(h)),
+      show(o),
+    );
   });
 
   it('leaves the library with as many tensors as before the check', () => {
@@ -171,7 +184,13 @@ describe('engine: tf.customGrad checked through the library gradient (oracle: tf
   });
 
   it('passes tensors to a hand-written backward and reads tensor gradients back, disposing them all', () => {
-    const built = libraryOp((a: Tensor, b: Tensor) => tf.mul(a, tf.exp(b)), [['a', spec('f32', [3])], ['b', spec('f32', [3])]]);
+    const built = libraryOp(
+      (a: Tensor, b: Tensor) => tf.mul(a, tf.exp(b)),
+      [
+        ['a', spec('f32', [3])],
+        ['b', spec('f32', [3])],
+      ],
+    );
     built.op.target.libraryGradient = false;
     built.op.target.backwardName = 'opBackward';
     // d(a·e^b) = e^b da + a·e^b db (product rule).
@@ -187,7 +206,12 @@ describe('engine: tf.customGrad checked through the library gradient (oracle: tf
     const make = (c: Case): { exposed: Record<string, unknown>; op: OpDescriptor } => {
       const built = libraryOp(c.custom, [['x', spec('f32', [2, 3])]]);
       delete built.op.params[0]!.sample;
-      built.exposed.opSamples = (random: () => number) => [tf.tensor(Array.from({ length: 6 }, () => 4 * random() - 2), [2, 3])];
+      built.exposed.opSamples = (random: () => number) => [
+        tf.tensor(
+          Array.from({ length: 6 }, () => 4 * random() - 2),
+          [2, 3],
+        ),
+      ];
       built.op.target.samplesFactory = 'opSamples';
       return built;
     };
@@ -198,8 +222,8 @@ describe('engine: tf.customGrad checked through the library gradient (oracle: tf
     assert.equal(good.params[0]!.dtype, 'f32');
     const bad = check(make(BUGGY[0]!));
     assert.equal(bad.verdict, 'mismatch', show(bad));
-    assert.equal(bad.params[0]!.worst!.index.length, 2, 'the worst element is named in the tensor\'s own shape');
-    assert.equal(tf.memory().numTensors, before, 'the factory\'s tensors were disposed');
+    assert.equal(bad.params[0]!.worst!.index.length, 2, "the worst element is named in the tensor's own shape");
+    assert.equal(tf.memory().numTensors, before, "the factory's tensors were disposed");
   });
 
   it('says why a backward that indexes a tensor $dy like an array gets NaN', () => {

@@ -49,12 +49,19 @@ describe('engine: the time limit', () => {
 
   // The matrix kinds read the clock the same way and stop the same way: inconclusive, saying how
   // far they got (a Jacobian column by column, a Hessian by second differences column by column).
-  const cubes = (x: Float64Array): Float64Array => Float64Array.of(x.reduce((s, v) => s + v ** 3, 0), x.reduce((s, v) => s + v * v, 0));
+  const cubes = (x: Float64Array): Float64Array =>
+    Float64Array.of(
+      x.reduce((s, v) => s + v ** 3, 0),
+      x.reduce((s, v) => s + v * v, 0),
+    );
   const kindStopped = (kind: 'jacobian' | 'hessian') => {
     const built = functionOp({
       forward: kind === 'jacobian' ? cubes : (x: Float64Array) => cubes(x)[0]!,
       // Right derivatives (power rule, as above): only the time limit stands between them and a pass.
-      backward: kind === 'jacobian' ? (x: Float64Array) => [Array.from(x, (v) => 3 * v * v), Array.from(x, (v) => 2 * v)] : (x: Float64Array) => Array.from(x, (_, i) => Array.from(x, (v, j) => (i === j ? 6 * v : 0))),
+      backward:
+        kind === 'jacobian'
+          ? (x: Float64Array) => [Array.from(x, (v) => 3 * v * v), Array.from(x, (v) => 2 * v)]
+          : (x: Float64Array) => Array.from(x, (_, i) => Array.from(x, (v, j) => (i === j ? 6 * v : 0))),
       params: [['x', spec('f64', [kind === 'jacobian' ? 120 : 30])]],
       backwardArgs: ['x'],
     });

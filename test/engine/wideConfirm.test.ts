@@ -33,7 +33,7 @@ function confirm(f: (x: number) => number, x0: number, derivative: number): Retu
   return confirmWide(line, [Float64Array.of(1)], y0, Float64Array.of(derivative), U64, TOL, Float64Array.of(0), new Float64Array(1), new Float64Array(1));
 }
 
-describe('engine: a wide mismatch confirmed from the element\'s own line', () => {
+describe("engine: a wide mismatch confirmed from the element's own line", () => {
   it('confirms a derivative wrong by 1e-3 (sin at 0.7) and not the right one', () => {
     const c = confirm(Math.sin, 0.7, Math.cos(0.7) * (1 + 1e-3));
     assert.ok(c !== null);
@@ -47,7 +47,11 @@ describe('engine: a wide mismatch confirmed from the element\'s own line', () =>
     for (const offset of [0.1, 0.3, 0.7, 0.95, 1.2, 1.8]) {
       const c = x0 + offset * h;
       // Left of the kink the slope is −1, which a correct backward reports at x0.
-      assert.equal(confirm((x) => Math.abs(x - c), x0, -1), null, `kink at x0 + ${offset}·h`);
+      assert.equal(
+        confirm((x) => Math.abs(x - c), x0, -1),
+        null,
+        `kink at x0 + ${offset}·h`,
+      );
     }
   });
 

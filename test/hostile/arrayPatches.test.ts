@@ -28,6 +28,10 @@ describe('hostile: a module that replaces the array iterator and array methods',
     assert.equal(wrong.params[0]?.verdict, 'mismatch', report);
     const mix = resultOf(results, 'pipeMix');
     assert.equal(mix.verdict, 'pass', report);
-    assert.deepEqual(mix.params.map((p) => p.shape), [[3, 4], [4]], report);
+    assert.deepEqual(
+      mix.params.map((p) => p.shape),
+      [[3, 4], [4]],
+      report,
+    );
   });
 });

@@ -78,7 +78,9 @@ describe('hostile workspace through the CLI', function () {
   });
 
   it('an op sees none of the host among its globals', () => {
-    const seen = pairOf(report, 'escape.ts', 'listGlobals').message.replace(/^.*globals: /, '').split(',');
+    const seen = pairOf(report, 'escape.ts', 'listGlobals')
+      .message.replace(/^.*globals: /, '')
+      .split(',');
     assert.ok(seen.includes('Math') && seen.includes('Float64Array'), seen.join(','));
     for (const name of HOST_GLOBALS) assert.ok(!seen.includes(name), `${name} is visible to an op: ${seen.join(',')}`);
   });

@@ -73,7 +73,46 @@ function discoverChecked(name: string, text: string): DiscoveryResult {
 
 /** Fragments a half-written edit leaves behind: comment and tag syntax, brackets, quotes, line ends. */
 const fragment = fc.oneof(
-  fc.constantFrom('/**', '*/', ' * ', '@backward', '@sample', '@samples', '@fixed', '@seed', '@tolerance', '@construct', 'f64[', ']', '[3, 4]', 'in [', '= {', '}', '{', '(', ')', '=>', '$dy', '$y', 'this.', 'class ', 'function ', 'export ', 'async ', '`', '"', "'", ',', ';', '\n', '\r\n', '\u2028', '\t', '\ud800', '𝑥'),
+  fc.constantFrom(
+    '/**',
+    '*/',
+    ' * ',
+    '@backward',
+    '@sample',
+    '@samples',
+    '@fixed',
+    '@seed',
+    '@tolerance',
+    '@construct',
+    'f64[',
+    ']',
+    '[3, 4]',
+    'in [',
+    '= {',
+    '}',
+    '{',
+    '(',
+    ')',
+    '=>',
+    '$dy',
+    '$y',
+    'this.',
+    'class ',
+    'function ',
+    'export ',
+    'async ',
+    '`',
+    '"',
+    "'",
+    ',',
+    ';',
+    '\n',
+    '\r\n',
+    '\u2028',
+    '\t',
+    '\ud800',
+    '𝑥',
+  ),
   fc.string({ maxLength: 8 }),
 );
 
@@ -128,7 +167,10 @@ describe('discovery fuzzing on whole real sources (fast-check)', function () {
 
   it(`random edits anywhere in a source (${WHOLE_SOURCE_RUNS} runs, seed 5501)`, () => {
     const arb = fc.tuple(fc.constantFrom(...SOURCES), edits);
-    fc.assert(fc.property(arb, ([src, list]) => void discoverChecked(src.name, applyEdits(src.text, list))), { seed: 5501, numRuns: WHOLE_SOURCE_RUNS, endOnFailure: true });
+    fc.assert(
+      fc.property(arb, ([src, list]) => void discoverChecked(src.name, applyEdits(src.text, list))),
+      { seed: 5501, numRuns: WHOLE_SOURCE_RUNS, endOnFailure: true },
+    );
   });
 
   it(`random edits inside one annotation of a source (${ANNOTATION_RUNS} runs, seed 5502)`, () => {
@@ -158,7 +200,10 @@ describe('discovery fuzzing on whole real sources (fast-check)', function () {
         const r = discoverChecked(src.name, text);
         const owner = r.ops.find((op) => op.tags.some((t) => t.tag === 'sample' && t.line === line));
         assert.ok(owner, `no op owns the @sample on line ${line} of ${src.name}`);
-        assert.ok(owner.problems.some((p) => p.line === line && p.message.includes(bad)), `${src.name}:${line}: ${JSON.stringify(owner.problems)}`);
+        assert.ok(
+          owner.problems.some((p) => p.line === line && p.message.includes(bad)),
+          `${src.name}:${line}: ${JSON.stringify(owner.problems)}`,
+        );
       }),
       { seed: 5503, numRuns: BROKEN_TAG_RUNS, endOnFailure: true },
     );

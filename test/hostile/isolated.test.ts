@@ -38,8 +38,16 @@ describe('isolated mode: ops in a WebAssembly interpreter', function () {
     const file = ws.file('isolated/parity.ts');
     const inProcess = await checker.checkFile(file, { settings: DEFAULT_SETTINGS });
     const isolated = await checker.checkFile(file, { settings: interpreter() });
-    assert.deepEqual(isolated.map((r) => [r.forward, r.verdict]), inProcess.map((r) => [r.forward, r.verdict]), show(isolated));
-    assert.deepEqual(isolated.map((r) => r.verdict), ['pass', 'mismatch', 'pass'], show(isolated));
+    assert.deepEqual(
+      isolated.map((r) => [r.forward, r.verdict]),
+      inProcess.map((r) => [r.forward, r.verdict]),
+      show(isolated),
+    );
+    assert.deepEqual(
+      isolated.map((r) => r.verdict),
+      ['pass', 'mismatch', 'pass'],
+      show(isolated),
+    );
     for (const r of isolated) assert.equal(r.isolation, 'interpreter');
     for (const r of inProcess) assert.equal(r.isolation, undefined);
     // d/dx x^3 = 3x^2 against a backward giving x^2: relative error exactly 2/3 in both (power rule).
@@ -90,7 +98,9 @@ describe('isolated mode: ops in a WebAssembly interpreter', function () {
     // Code generation works in the interpreter, but there is no `process` to find.
     assert.match(named(results, 'viaConstructorChain').message, /'process' is not defined/);
     assert.match(named(results, 'viaDynamicImport').message, /^the op called import\("node:fs"\).*refused$/);
-    const seen = named(results, 'listGlobals').message.replace(/^.*globals: /, '').split(',');
+    const seen = named(results, 'listGlobals')
+      .message.replace(/^.*globals: /, '')
+      .split(',');
     for (const name of HOST_GLOBALS) assert.ok(!seen.includes(name), `${name} is visible: ${seen.join(',')}`);
     assert.deepEqual(ws.markers(), []);
   });

@@ -18,7 +18,9 @@ const FINAL = new Set(['pass', 'mismatch', 'inconclusive', 'error']);
 
 /** Every .ts file of the copied workspace that the workspace walk includes (not capped/, isolated/). */
 function workspaceFiles(ws: HostileCopy): string[] {
-  return readdirSync(ws.dir).filter((f) => f.endsWith('.ts')).sort();
+  return readdirSync(ws.dir)
+    .filter((f) => f.endsWith('.ts'))
+    .sort();
 }
 
 async function openFile(s: LspSession, ws: HostileCopy, rel: string): Promise<string> {

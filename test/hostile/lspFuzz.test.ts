@@ -24,7 +24,31 @@ const MAX_RUNNERS_AFTER = 2;
 
 /** What a half-finished edit inserts: code and annotation fragments, brackets, line breaks. */
 const insertion = fc.oneof(
-  fc.constantFrom('/**', '*/', ' * @backward ', ' * @sample x f64[3]', '@seed 7', 'function ', 'export ', '{', '}', '(', ')', ';', '\n', '  ', 'x', 'return x;', 'for (;;) {}', 'throw 1;', '`', '"', '-*/', '𝑥', '\t'),
+  fc.constantFrom(
+    '/**',
+    '*/',
+    ' * @backward ',
+    ' * @sample x f64[3]',
+    '@seed 7',
+    'function ',
+    'export ',
+    '{',
+    '}',
+    '(',
+    ')',
+    ';',
+    '\n',
+    '  ',
+    'x',
+    'return x;',
+    'for (;;) {}',
+    'throw 1;',
+    '`',
+    '"',
+    '-*/',
+    '𝑥',
+    '\t',
+  ),
   fc.string({ maxLength: 6 }).map((s) => s.replace(/\r/g, '')),
 );
 const edit = fc.record({ at: fc.nat(), remove: fc.nat({ max: 8 }), insert: insertion });
@@ -91,16 +115,26 @@ describe('language server under 1,000 random edits (fast-check, seed 6601)', fun
     const lenses = (await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } })) as CodeLens[];
     assert.ok(Array.isArray(lenses));
     // Once the last save's run has finished or been cancelled, the pool is back to its size.
-    const describeChildren = (): string => s.serverChildren().map((pid) => {
-      try {
-        return `${pid} ${readFileSync(`/proc/${pid}/stat`, 'utf8').split(' ')[2]} ${readFileSync(`/proc/${pid}/cmdline`, 'utf8').replace(/\0/g, ' ').slice(0, 120)}`;
-      } catch {
-        return `${pid} gone`;
-      }
-    }).join('\n');
-    await s.waitFor('the runners to settle', () => (runnerProcesses(s.serverChildren()).length <= MAX_RUNNERS_AFTER && coverageRunnerProcesses(s.serverChildren()).length <= MAX_RUNNERS_AFTER) || undefined, 30_000).catch((err: Error) => {
-      throw new Error(`${err.message.slice(0, 300)}\nchildren:\n${describeChildren()}`);
-    });
+    const describeChildren = (): string =>
+      s
+        .serverChildren()
+        .map((pid) => {
+          try {
+            return `${pid} ${readFileSync(`/proc/${pid}/stat`, 'utf8').split(' ')[2]} ${readFileSync(`/proc/${pid}/cmdline`, 'utf8').replace(/\0/g, ' ').slice(0, 120)}`;
+          } catch {
+            return `${pid} gone`;
+          }
+        })
+        .join('\n');
+    await s
+      .waitFor(
+        'the runners to settle',
+        () => (runnerProcesses(s.serverChildren()).length <= MAX_RUNNERS_AFTER && coverageRunnerProcesses(s.serverChildren()).length <= MAX_RUNNERS_AFTER) || undefined,
+        30_000,
+      )
+      .catch((err: Error) => {
+        throw new Error(`${err.message.slice(0, 300)}\nchildren:\n${describeChildren()}`);
+      });
     assert.ok(mostRunners <= MAX_RUNNERS_DURING, `at most ${mostRunners} runner processes at a save`);
     assert.ok(mostCoverageRunners <= MAX_RUNNERS_DURING, `at most ${mostCoverageRunners} coverage runner processes at a save`);
     assert.doesNotMatch(s.logs.join(''), /unexpected (error|rejection)/, 'no handler failed');

@@ -27,7 +27,10 @@ describe('language server over LSP (coverage)', function () {
       });
       // spillBackward's `if (x[i] > 100)` body is line 20 (0-based 19); the forward's gap is not marked.
       const spill = hints.filter((d) => String(d.message).startsWith('spill:'));
-      assert.deepEqual(spill.map((d) => d.range.start.line), [19]);
+      assert.deepEqual(
+        spill.map((d) => d.range.start.line),
+        [19],
+      );
       assert.equal(spill[0]!.severity, DiagnosticSeverity.Hint);
       assert.deepEqual(spill[0]!.tags, [DiagnosticTag.Unnecessary]);
       assert.match(String(spill[0]!.message), /outside @sample x \[-1, 1\]/);
@@ -52,7 +55,10 @@ describe('language server over LSP (coverage)', function () {
       assert.ok(report.result, report.reason);
       assert.equal(report.result.verdict, 'pass');
       assert.equal(report.result.coverage, undefined);
-      assert.deepEqual((s.diagnostics.get(uri) ?? []).filter((x) => x.code === 'unreached-code'), []);
+      assert.deepEqual(
+        (s.diagnostics.get(uri) ?? []).filter((x) => x.code === 'unreached-code'),
+        [],
+      );
     } finally {
       await s.close();
     }

@@ -44,13 +44,37 @@ function facts(over: Partial<DocumentFacts> = {}, results: Record<string, OpResu
 
 function level(verdict: ParamResult['verdict'], relError: number): ParamResult {
   return {
-    name: 'level', verdict, maxAbsError: 0.25, maxRelError: relError, shape: [4], dtype: 'f64', method: 'full', elements: 4, checkedElements: 4, hints: [],
-    worst: { index: [2], analytic: 0.5, numeric: 0.25, relError }, tolerance: 1e-6, detectionFloor: 1e-6,
+    name: 'level',
+    verdict,
+    maxAbsError: 0.25,
+    maxRelError: relError,
+    shape: [4],
+    dtype: 'f64',
+    method: 'full',
+    elements: 4,
+    checkedElements: 4,
+    hints: [],
+    worst: { index: [2], analytic: 0.5, numeric: 0.25, relError },
+    tolerance: 1e-6,
+    detectionFloor: 1e-6,
   };
 }
 
 function result(over: Partial<OpResult>): OpResult {
-  return { verdict: 'pass', seed: 1234, message: '', hints: [], params: [], calls: { forward: 10, backward: 1 }, file: FILE, line: 5, forward: 'dim', backward: 'dimBackward', elapsedMs: 12.4, ...over };
+  return {
+    verdict: 'pass',
+    seed: 1234,
+    message: '',
+    hints: [],
+    params: [],
+    calls: { forward: 10, backward: 1 },
+    file: FILE,
+    line: 5,
+    forward: 'dim',
+    backward: 'dimBackward',
+    elapsedMs: 12.4,
+    ...over,
+  };
 }
 
 const MISMATCH = result({ verdict: 'mismatch', message: "gradient of 'level' disagrees at level[2]", params: [level('mismatch', 0.5)] });
@@ -62,7 +86,11 @@ describe('editor features: where an op stands', () => {
     const [dim, glow] = f.snapshot.ops;
     assert.deepEqual(opStanding(dim!, f), { may: true });
     assert.equal((opStanding(glow!, f) as { code: string }).code, 'annotation-error');
-    assert.deepEqual(opStanding(dim!, facts({ configError: { message: 'gradient-probe.json: not valid JSON' } })), { may: false, code: 'config-error', reason: 'gradient-probe.json: not valid JSON' });
+    assert.deepEqual(opStanding(dim!, facts({ configError: { message: 'gradient-probe.json: not valid JSON' } })), {
+      may: false,
+      code: 'config-error',
+      reason: 'gradient-probe.json: not valid JSON',
+    });
     assert.deepEqual(opStanding(dim!, facts({ trusted: false })), { may: false, code: 'untrusted', reason: UNTRUSTED_REASON });
     assert.deepEqual(opStanding(dim!, facts({ trusted: false, isolated: true })), { may: true });
   });
@@ -89,7 +117,10 @@ describe('editor features: a result in words', () => {
   });
 
   it('the lenses: verdict, figure, time; checking while it runs; an offer to check before', () => {
-    const titles = (f: DocumentFacts): string[] => codeLensesFor(f).filter((l) => l.range.start.line === 4).map((l) => l.command!.title);
+    const titles = (f: DocumentFacts): string[] =>
+      codeLensesFor(f)
+        .filter((l) => l.range.start.line === 4)
+        .map((l) => l.command!.title);
     assert.deepEqual(titles(facts({}, { dim: PASS })), ['✓ pass · worst level 3.1e-10 rel · 12 ms', 'report']);
     assert.deepEqual(titles(facts({}, { dim: MISMATCH })), ['✗ mismatch · level 5.0e-1 rel · 12 ms', 'report']);
     assert.deepEqual(titles(facts({}, { dim: PASS }, ['dim'])), ['Gradient Probe: checking…']);
@@ -105,7 +136,10 @@ describe('editor features: a result in words', () => {
 
   it('the Testing view data: the verdict sentence, and the annotation error of a broken op', () => {
     const ops = opSummaries(facts({}, { dim: MISMATCH })).ops;
-    assert.deepEqual(ops.map((o) => o.state), ['mismatch', 'error']);
+    assert.deepEqual(
+      ops.map((o) => o.state),
+      ['mismatch', 'error'],
+    );
     assert.match(ops[0]!.message, /^gradient of level is wrong: max relative error 5\.0e-1 at \[2\]/);
     assert.match(ops[1]!.message, /^annotation error: unknown tag @backwrd; did you mean @backward\?/);
   });

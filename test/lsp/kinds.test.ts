@@ -31,8 +31,14 @@ describe('language server over LSP: @jacobian, @tangent and @hessian ops', funct
     const lenses = (await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } })) as CodeLens[];
     const titles = lenses.map((l) => l.command?.title ?? '').filter((t) => t !== 'report');
     // Verdict lenses above the forwards; above each derivative function, a lens back to its forward.
-    assert.deepEqual(titles.filter((t) => !/ of /.test(t)).map((t) => t.split(' · ')[0]), ['✓ jacobian pass', '✓ tangent pass', '✓ pass', '✓ hessian pass']);
-    assert.deepEqual(titles.filter((t) => / of /.test(t)), ['jacobian of reach', 'tangent of reach', 'backward of basin', 'hessian of basin']);
+    assert.deepEqual(
+      titles.filter((t) => !/ of /.test(t)).map((t) => t.split(' · ')[0]),
+      ['✓ jacobian pass', '✓ tangent pass', '✓ pass', '✓ hessian pass'],
+    );
+    assert.deepEqual(
+      titles.filter((t) => / of /.test(t)),
+      ['jacobian of reach', 'tangent of reach', 'backward of basin', 'hessian of basin'],
+    );
   });
 
   it('a mismatch of each kind is a diagnostic on the forward name naming the entry or output', async () => {
@@ -42,14 +48,29 @@ describe('language server over LSP: @jacobian, @tangent and @hessian ops', funct
       return d && d.length === 3 ? d : undefined;
     });
     const messages = diags.map((d) => String(d.message)).sort();
-    assert.match(messages.find((m) => m.startsWith('bowl @hessian'))!, /hessian is wrong: H\[1, 0\] \(v\[1\], v\[0\]\)/);
-    assert.match(messages.find((m) => m.startsWith('link @jacobian'))!, /jacobian is wrong: J\[1, 0\] \(output 1, q\[0\]\)/);
-    assert.match(messages.find((m) => m.startsWith('link @tangent'))!, /tangent is wrong: J·t for a tangent of 'q' disagrees at output 1/);
+    assert.match(
+      messages.find((m) => m.startsWith('bowl @hessian'))!,
+      /hessian is wrong: H\[1, 0\] \(v\[1\], v\[0\]\)/,
+    );
+    assert.match(
+      messages.find((m) => m.startsWith('link @jacobian'))!,
+      /jacobian is wrong: J\[1, 0\] \(output 1, q\[0\]\)/,
+    );
+    assert.match(
+      messages.find((m) => m.startsWith('link @tangent'))!,
+      /tangent is wrong: J·t for a tangent of 'q' disagrees at output 1/,
+    );
     for (const d of diags) {
       const related = d.relatedInformation ?? [];
-      assert.ok(related.some((r) => /^(jacobian|tangent|hessian) \w+: the hand-written derivative/.test(r.message)), JSON.stringify(related));
+      assert.ok(
+        related.some((r) => /^(jacobian|tangent|hessian) \w+: the hand-written derivative/.test(r.message)),
+        JSON.stringify(related),
+      );
     }
-    const hover = (await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: diags.find((d) => String(d.message).startsWith('bowl'))!.range.start })) as Hover | null;
+    const hover = (await s.connection.sendRequest(HoverRequest.type, {
+      textDocument: { uri },
+      position: diags.find((d) => String(d.message).startsWith('bowl'))!.range.start,
+    })) as Hover | null;
     assert.ok(hover);
     assert.match((hover.contents as MarkupContent).value, /bowl @hessian\*\* → hessian `bowlHessian`/);
     // Two derivatives of one forward: the hover shows both.

@@ -8,7 +8,12 @@ import { join, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import type * as ProtocolNode from 'vscode-languageserver-protocol/lib/node/main';
 import type {
-  ConfigurationParams, Diagnostic, LogMessageParams, ProtocolConnection, PublishDiagnosticsParams, ShowMessageParams,
+  ConfigurationParams,
+  Diagnostic,
+  LogMessageParams,
+  ProtocolConnection,
+  PublishDiagnosticsParams,
+  ShowMessageParams,
 } from 'vscode-languageserver-protocol/lib/node/main';
 import type * as JsonRpcNode from 'vscode-jsonrpc/lib/node/main';
 import { Methods, type FileOps, type StatusParams } from '../../server/src/lsp/protocol';
@@ -31,9 +36,20 @@ export function repoRoot(): string {
 // eslint-disable-next-line @typescript-eslint/no-require-imports
 export const lsp = require('vscode-languageserver-protocol/node') as typeof ProtocolNode;
 const {
-  CodeLensRefreshRequest, ConfigurationRequest, createProtocolConnection, DidChangeTextDocumentNotification,
-  DidOpenTextDocumentNotification, DidSaveTextDocumentNotification, ExitNotification, InitializedNotification, InitializeRequest, LogMessageNotification,
-  PublishDiagnosticsNotification, RegistrationRequest, ShowMessageNotification, ShutdownRequest,
+  CodeLensRefreshRequest,
+  ConfigurationRequest,
+  createProtocolConnection,
+  DidChangeTextDocumentNotification,
+  DidOpenTextDocumentNotification,
+  DidSaveTextDocumentNotification,
+  ExitNotification,
+  InitializedNotification,
+  InitializeRequest,
+  LogMessageNotification,
+  PublishDiagnosticsNotification,
+  RegistrationRequest,
+  ShowMessageNotification,
+  ShutdownRequest,
 } = lsp;
 // eslint-disable-next-line @typescript-eslint/no-require-imports
 const { StreamMessageReader, StreamMessageWriter } = require('vscode-jsonrpc/node') as typeof JsonRpcNode;
@@ -146,7 +162,10 @@ export class LspSession {
   /** States pushed for one op since history index `from`. */
   statesSince(from: number, uri: string, forward: string): string[] {
     const prefix = `${uri}#${forward} `;
-    return this.stateHistory.slice(from).filter((h) => h.startsWith(prefix)).map((h) => h.slice(prefix.length));
+    return this.stateHistory
+      .slice(from)
+      .filter((h) => h.startsWith(prefix))
+      .map((h) => h.slice(prefix.length));
   }
 
   /** Resolves when `test` holds after some pushed notification (or already holds). */

@@ -24,7 +24,11 @@ async function runSnippet(snippet: string, moduleFile: string, names: string[], 
   ].join('\n');
   const out = await esbuild.build({
     stdin: { contents, loader: 'ts', resolveDir: FIXTURES, sourcefile: 'snippet.ts' },
-    bundle: true, platform: 'node', format: 'cjs', write: false, logLevel: 'silent',
+    bundle: true,
+    platform: 'node',
+    format: 'cjs',
+    write: false,
+    logLevel: 'silent',
     // A fixed copy in a temporary folder still finds the repository's packages (@tensorflow/tfjs).
     nodePaths: [join(FIXTURES, '..', '..', '..', 'node_modules')],
   });
@@ -64,14 +68,17 @@ describe('regression test snippet', function () {
     const [result] = await checker.checkFile(file, { filter: forward });
     assert.equal(result?.verdict, 'mismatch', result?.message);
     // The engine states the tolerance it judged each parameter with; the snippet uses that one.
-    assert.deepEqual(result!.params.map((p) => p.tolerance), result!.params.map(() => tolerance));
+    assert.deepEqual(
+      result!.params.map((p) => p.tolerance),
+      result!.params.map(() => tolerance),
+    );
     const outcome = regressionTestFor(op, result!);
     assert.ok('snippet' in outcome, 'reason' in outcome ? outcome.reason : '');
     assert.ok(outcome.snippet.includes(`const tolerance = ${tolerance};`), outcome.snippet);
     return outcome.snippet;
   }
 
-  it('reproduces a function op\'s mismatch and passes once the backward is fixed', async () => {
+  it("reproduces a function op's mismatch and passes once the backward is fixed", async () => {
     const snippet = await snippetFor('mismatch.ts', 'growth');
     assert.match(snippet, /seed 1234/);
     const failure = await runSnippet(snippet, join(FIXTURES, 'mismatch.ts'), ['growth', 'growthBackward']);
@@ -82,7 +89,7 @@ describe('regression test snippet', function () {
     assert.equal(await runSnippet(snippet, fixed, ['growth', 'growthBackward']), undefined);
   });
 
-  it('reproduces a method op\'s field-gradient mismatch and passes once it is fixed', async () => {
+  it("reproduces a method op's field-gradient mismatch and passes once it is fixed", async () => {
     const snippet = await snippetFor('gain.ts', 'Gain.apply');
     assert.match(snippet, /const self: any = new Gain\(\);/);
     const failure = await runSnippet(snippet, join(FIXTURES, 'gain.ts'), ['Gain']);
@@ -93,7 +100,7 @@ describe('regression test snippet', function () {
     assert.equal(await runSnippet(snippet, fixed, ['Gain']), undefined);
   });
 
-  it('reproduces a tf.customGrad op\'s mismatch through the library gradient and passes once it is fixed', async () => {
+  it("reproduces a tf.customGrad op's mismatch through the library gradient and passes once it is fixed", async () => {
     const name = '../sandbox/tensor/customGrad.ts';
     const snippet = await snippetFor(name, 'doubledVentLimit', DEFAULT_SETTINGS.toleranceF32);
     assert.match(snippet, /tf\.grads\(f\)/);
@@ -107,7 +114,7 @@ describe('regression test snippet', function () {
     assert.equal(await runSnippet(snippet, fixed, ['doubledVentLimit'], tf), undefined);
   });
 
-  it('reproduces a hand-written tensor backward\'s mismatch with tensors in and out', async () => {
+  it("reproduces a hand-written tensor backward's mismatch with tensors in and out", async () => {
     const name = '../sandbox/tensor/customGrad.ts';
     const snippet = await snippetFor(name, 'shadeWarmth', DEFAULT_SETTINGS.toleranceF32);
     const tf = ["import * as tf from '@tensorflow/tfjs';"];

@@ -17,8 +17,20 @@ const FIXTURE = join(repoRoot(), 'test', 'fixtures', 'kinds', 'arm.ts');
 const HVP_FIXTURE = join(repoRoot(), 'test', 'fixtures', 'kinds', 'hvp.ts');
 
 async function runSnippet(snippet: string, moduleFile: string, names: string[]): Promise<Error | undefined> {
-  const contents = ["import assert from 'node:assert/strict';", `import { ${names.join(', ')} } from ${JSON.stringify(moduleFile)};`, 'const it = (_name: string, body: () => void): void => body();', snippet].join('\n');
-  const out = await esbuild.build({ stdin: { contents, loader: 'ts', resolveDir: join(repoRoot(), 'test', 'fixtures', 'kinds'), sourcefile: 'snippet.ts' }, bundle: true, platform: 'node', format: 'cjs', write: false, logLevel: 'silent' });
+  const contents = [
+    "import assert from 'node:assert/strict';",
+    `import { ${names.join(', ')} } from ${JSON.stringify(moduleFile)};`,
+    'const it = (_name: string, body: () => void): void => body();',
+    snippet,
+  ].join('\n');
+  const out = await esbuild.build({
+    stdin: { contents, loader: 'ts', resolveDir: join(repoRoot(), 'test', 'fixtures', 'kinds'), sourcefile: 'snippet.ts' },
+    bundle: true,
+    platform: 'node',
+    format: 'cjs',
+    write: false,
+    logLevel: 'silent',
+  });
   const file = join(mkdtempSync(join(tmpdir(), 'gp-snippet-')), 'snippet.cjs');
   writeFileSync(file, out.outputFiles[0]!.text);
   try {

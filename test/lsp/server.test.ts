@@ -74,7 +74,7 @@ describe('language server over LSP (trusted workspace)', function () {
     const text = s.text('pass.ts');
     await s.waitFor('softplus to pass', () => s.opState(uri, 'softplus') === 'pass');
     assert.equal(s.diagnostics.get(uri)?.length ?? 0, 0, 'a pass publishes no diagnostic');
-    const lenses = await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } }) as CodeLens[];
+    const lenses = (await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } })) as CodeLens[];
     const titles = lenses.map((l) => l.command?.title ?? '');
     assert.equal(lenses.length, 3, titles.join(' | '));
     assert.match(titles[0]!, /^✓ pass · worst x \d\.\de-\d+ rel · \d/);
@@ -110,7 +110,10 @@ describe('language server over LSP (trusted workspace)', function () {
     await s.save(uri);
     // A run would push "checking" within milliseconds; give it ample time to show up.
     await new Promise((r) => setTimeout(r, 1500));
-    assert.deepEqual(s.statesSince(mark, uri, 'softplus').filter((x) => x === 'checking'), []);
+    assert.deepEqual(
+      s.statesSince(mark, uri, 'softplus').filter((x) => x === 'checking'),
+      [],
+    );
     assert.equal(s.lastStatus!.opsRun, before);
     // The lens's command (re-check) forces a run of that one op.
     await s.connection.sendRequest('workspace/executeCommand', { command: 'gradientProbe.server.recheck', arguments: [uri, 'softplus'] });
@@ -125,7 +128,7 @@ describe('language server over LSP (trusted workspace)', function () {
 
   it('runs nothing under a broken project file and says where it is wrong', async () => {
     const uri = await s.open('broken/cube.ts');
-    const diags = await s.waitFor('the configuration diagnostic', () => s.diagnostics.get(uri)?.length ? s.diagnostics.get(uri) : undefined);
+    const diags = await s.waitFor('the configuration diagnostic', () => (s.diagnostics.get(uri)?.length ? s.diagnostics.get(uri) : undefined));
     assert.equal(diags.length, 1);
     assert.equal(diags[0]!.code, 'project-config');
     assert.match(String(diags[0]!.message), /"tolerance\.f64" must be a positive number below 1, got "tight"/);
@@ -136,12 +139,12 @@ describe('language server over LSP (trusted workspace)', function () {
   it('puts an annotation mistake on its tag and runs nothing for that op', async () => {
     const uri = await s.open('annotation.ts');
     const text = s.text('annotation.ts');
-    const diags = await s.waitFor('annotation diagnostic', () => s.diagnostics.get(uri)?.filter((d) => d.code === 'annotation').length ? s.diagnostics.get(uri) : undefined);
+    const diags = await s.waitFor('annotation diagnostic', () => (s.diagnostics.get(uri)?.filter((d) => d.code === 'annotation').length ? s.diagnostics.get(uri) : undefined));
     assert.equal(diags.length, 1);
     assert.equal(diags[0]!.range.start.line, positionOf(text, '@sample x f65').line);
     assert.equal(diags[0]!.severity, DiagnosticSeverity.Error);
     assert.match(String(diags[0]!.message), /f65/);
-    const lenses = await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } }) as CodeLens[];
+    const lenses = (await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } })) as CodeLens[];
     assert.match(lenses[0]!.command!.title, /annotation error/);
   });
 
@@ -165,10 +168,12 @@ describe('language server over LSP (trusted workspace)', function () {
   it('lets the project file win over the user setting where both set a tolerance', async () => {
     // Same op as mismatch.ts (relative error 1/2); loose/gradient-probe.json sets tolerance.f64 0.6.
     const uri = await s.open('loose/growth.ts');
-    await s.waitFor('growth under the loose project file to pass', () => {
-      const state = s.opState(uri, 'growth');
-      return state === 'pass' || state === 'mismatch' ? state : undefined;
-    }).then((state) => assert.equal(state, 'pass'));
+    await s
+      .waitFor('growth under the loose project file to pass', () => {
+        const state = s.opState(uri, 'growth');
+        return state === 'pass' || state === 'mismatch' ? state : undefined;
+      })
+      .then((state) => assert.equal(state, 'pass'));
   });
 
   it('copies a regression test for a mismatch, and refuses one for a pass', async () => {
@@ -242,11 +247,11 @@ describe('language server over LSP (untrusted workspace)', function () {
 
   it('runs no code until trust is granted, and says why', async () => {
     const uri = await s.open('pass.ts');
-    const diags = await s.waitFor('the untrusted notice', () => s.diagnostics.get(uri)?.length ? s.diagnostics.get(uri) : undefined);
+    const diags = await s.waitFor('the untrusted notice', () => (s.diagnostics.get(uri)?.length ? s.diagnostics.get(uri) : undefined));
     assert.equal(diags.length, 1);
     assert.equal(diags[0]!.code, 'untrusted-workspace');
     assert.equal(diags[0]!.severity, DiagnosticSeverity.Information);
-    const lenses = await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } }) as CodeLens[];
+    const lenses = (await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } })) as CodeLens[];
     // One wording of "untrusted" on every surface (lsp/opStanding.ts), and a code beside it for programs.
     assert.match(lenses[0]!.command!.title, /not checked — the workspace is not trusted/);
     const refused = await s.connection.sendRequest<{ results: unknown[]; reason?: string; reasonCode?: string }>(Methods.checkOps, { uri, force: true });
@@ -282,7 +287,7 @@ describe('language server over LSP (untrusted, isolated interpreter opted in)', 
   it('checks in the interpreter, labels it, and starts no runner process', async () => {
     const uri = await s.open('mismatch.ts');
     await s.waitFor('growth to mismatch in the interpreter', () => s.opState(uri, 'growth') === 'mismatch');
-    const lenses = await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } }) as CodeLens[];
+    const lenses = (await s.connection.sendRequest(CodeLensRequest.type, { textDocument: { uri } })) as CodeLens[];
     assert.match(lenses[0]!.command!.title, /^✗ mismatch · x 5\.0e-1 rel · .* · isolated interpreter$/);
     const diag = await s.waitFor('the mismatch diagnostic', () => s.diagnostics.get(uri)?.find((d) => d.code === 'gradient-mismatch'));
     assert.match(String(diag.message), /\[isolated interpreter\]$/);

@@ -34,9 +34,7 @@ describe('language server over LSP (TensorFlow.js ops)', function () {
   it('puts the custom gradient off by a factor on its const, and passes the right one', async () => {
     const uri = await s.open(FILE);
     const text = s.text(FILE);
-    await s.waitFor('the customGrad ops to be checked', () =>
-      s.opState(uri, 'softVentLimit') === 'pass' && s.opState(uri, 'doubledVentLimit') === 'mismatch' ? true : undefined,
-    );
+    await s.waitFor('the customGrad ops to be checked', () => (s.opState(uri, 'softVentLimit') === 'pass' && s.opState(uri, 'doubledVentLimit') === 'mismatch' ? true : undefined));
     const diag = s.diagnostics.get(uri)?.find((d) => d.code === 'gradient-mismatch');
     assert.ok(diag, JSON.stringify(s.diagnostics.get(uri)));
     assert.deepEqual(diag.range.start, positionOf(text, 'doubledVentLimit ='));

@@ -63,7 +63,8 @@ describe('writing features: completion', () => {
   it('offers our tag names after @, including the derivative kinds', () => {
     const text = ORIGINAL.replace(' * @sample temp num in [5, 30]\n', ' * @sample temp num in [5, 30]\n * @\n');
     const labels = completionsAt(FILE, text, after(text, ' * @sample temp num in [5, 30]\n * @')).map((c) => c.label);
-    for (const tag of ['@backward', '@sample', '@samples', '@fixed', '@construct', '@tolerance', '@seed', '@jacobian', '@tangent', '@hessian']) assert.ok(labels.includes(tag), `${tag} missing from ${labels.join(', ')}`);
+    for (const tag of ['@backward', '@sample', '@samples', '@fixed', '@construct', '@tolerance', '@seed', '@jacobian', '@tangent', '@hessian'])
+      assert.ok(labels.includes(tag), `${tag} missing from ${labels.join(', ')}`);
   });
 
   it('offers nothing outside a JSDoc block', () => {
@@ -73,7 +74,10 @@ describe('writing features: completion', () => {
   it('after @sample offers only the parameters still without a sample, with specs from their types', () => {
     const text = ORIGINAL.replace(' * @sample temp num in [5, 30]\n', ' * @sample temp num in [5, 30]\n * @sample \n');
     const items = completionsAt(FILE, text, after(text, ' * @sample \n', -1));
-    assert.deepEqual(items.map((c) => c.label), ['humidity', 'pane']);
+    assert.deepEqual(
+      items.map((c) => c.label),
+      ['humidity', 'pane'],
+    );
     // number[][] has no sizes in its type (placeholders); a 3-tuple says its length.
     assert.equal(newText(items[0]!), 'humidity num[${1:4}, ${2:4}]');
     assert.equal(newText(items[1]!), 'pane num[${1:3}]');
@@ -82,7 +86,10 @@ describe('writing features: completion', () => {
   it('after @sample in a method offers the class fields as this.NAME', () => {
     const text = ORIGINAL.replace('   * @sample x f64[3]\n', '   * @sample x f64[3]\n   * @sample \n');
     const items = completionsAt(FILE, text, after(text, '   * @sample \n', -1));
-    assert.deepEqual(items.map((c) => c.label), ['this.speed', 'this.blades']);
+    assert.deepEqual(
+      items.map((c) => c.label),
+      ['this.speed', 'this.blades'],
+    );
     // Sizes from the initializers: `0.5` is a number, `new Float64Array(3)` has three elements.
     assert.deepEqual(items.map(newText), ['this.speed num', 'this.blades f64[${1:3}]']);
   });
@@ -92,7 +99,11 @@ describe('writing features: completion', () => {
     const items = completionsAt(FILE, text, after(text, ' * @sample humidity \n', -1));
     assert.equal(items[0]!.label, 'num[4, 4]');
     assert.equal(items[0]!.preselect, true);
-    for (const form of ['f64[…]', 'f32[…]', 'num', 'int', '= JSON']) assert.ok(items.some((c) => c.label === form), form);
+    for (const form of ['f64[…]', 'f32[…]', 'num', 'int', '= JSON'])
+      assert.ok(
+        items.some((c) => c.label === form),
+        form,
+      );
   });
 
   it('after @backward offers the functions whose parameters fit the default call first', () => {
@@ -143,7 +154,10 @@ describe('writing features: quick fixes', () => {
     const fixed = applyAction(ORIGINAL, add);
     assert.ok(fixed.includes(' * @sample humidity num[4, 4]\n * @sample pane num[3]\n */'));
     const op = discoverOps(FILE, fixed).ops.find((o) => o.forward === 'condensation')!;
-    assert.deepEqual(op.problems.filter((p) => p.message.includes('no @sample')), []);
+    assert.deepEqual(
+      op.problems.filter((p) => p.message.includes('no @sample')),
+      [],
+    );
   });
 
   it('creates the missing backward with the signature the check calls, which discovery then resolves', () => {
@@ -187,9 +201,15 @@ describe('writing features: quick fixes', () => {
     const fixed = applyAction(ORIGINAL, annotate);
     assert.ok(fixed.includes('/**\n * @backward shadeBackward\n * @sample light f32[8]\n * @sample cover num\n */\nexport function shade('));
     const op = discoverOps(FILE, fixed).ops.find((o) => o.forward === 'shade')!;
-    assert.deepEqual(op.params.map((p) => p.name), ['light', 'cover']);
+    assert.deepEqual(
+      op.params.map((p) => p.name),
+      ['light', 'cover'],
+    );
     // Only the backward is missing now, and it has its own quick fix.
-    assert.deepEqual(op.problems.map((p) => p.fixes), [[{ kind: 'create-function', name: 'shadeBackward' }]]);
+    assert.deepEqual(
+      op.problems.map((p) => p.fixes),
+      [[{ kind: 'create-function', name: 'shadeBackward' }]],
+    );
   });
 
   it('annotates an exported const bound to an arrow function above its statement', () => {
@@ -201,7 +221,12 @@ describe('writing features: quick fixes', () => {
     const fixed = applyAction(text, annotate);
     // The default value tells the size: new Float64Array(5).
     assert.ok(fixed.includes('/**\n * @backward dimBackward\n * @sample level num\n * @sample lamps f64[5]\n */\nexport const dim ='), fixed.slice(-400));
-    assert.deepEqual(discoverOps(FILE, fixed).ops.find((o) => o.forward === 'dim')!.params.map((p) => p.sample?.kind), ['random', 'random']);
+    assert.deepEqual(
+      discoverOps(FILE, fixed)
+        .ops.find((o) => o.forward === 'dim')!
+        .params.map((p) => p.sample?.kind),
+      ['random', 'random'],
+    );
   });
 
   it('offers no annotation on a function that already is an op', () => {
@@ -216,12 +241,18 @@ describe('writing features: navigation and tag hovers', () => {
   it('goes from the name after @backward to the function', () => {
     const loc = definitionAt(FILE, ORIGINAL, after(ORIGINAL, '@backward airflowBack'));
     assert.ok(loc);
-    assert.deepEqual(loc.range.start, after(ORIGINAL, '\nexport function ', ORIGINAL.indexOf('airflowBackward(opening') - ORIGINAL.indexOf('\nexport function ') - '\nexport function '.length));
+    assert.deepEqual(
+      loc.range.start,
+      after(ORIGINAL, '\nexport function ', ORIGINAL.indexOf('airflowBackward(opening') - ORIGINAL.indexOf('\nexport function ') - '\nexport function '.length),
+    );
     assert.equal(ORIGINAL.split('\n')[loc.range.start.line]!.slice(loc.range.start.character, loc.range.end.character), 'airflowBackward');
   });
 
-  it('goes from a method op\'s @backward to the method, and from @jacobian to its function', () => {
-    const text = ORIGINAL.replace('   * @backward\n', '   * @backward spinBackward\n').replace(' * @bakward mistBackward\n', ' * @backward mistBackward\n * @jacobian mistBackward\n');
+  it("goes from a method op's @backward to the method, and from @jacobian to its function", () => {
+    const text = ORIGINAL.replace('   * @backward\n', '   * @backward spinBackward\n').replace(
+      ' * @bakward mistBackward\n',
+      ' * @backward mistBackward\n * @jacobian mistBackward\n',
+    );
     const method = definitionAt(FILE, text, after(text, '@backward spinBack'));
     assert.ok(method);
     assert.equal(method.range.start.line, after(text, '  spinBackward(dy').line);
@@ -247,7 +278,7 @@ describe('writing features: navigation and tag hovers', () => {
   it('guesses specs from types and initializers', () => {
     const typeOf = (src: string): ts.TypeNode => {
       const sf = ts.createSourceFile('t.ts', `let v: ${src};`, ts.ScriptTarget.Latest, true);
-      return ((sf.statements[0] as ts.VariableStatement).declarationList.declarations[0]!).type!;
+      return (sf.statements[0] as ts.VariableStatement).declarationList.declarations[0]!.type!;
     };
     assert.equal(specFromType(typeOf('number'))?.spec, 'num');
     assert.equal(specFromType(typeOf('Float64Array'))?.spec, 'f64[8]');

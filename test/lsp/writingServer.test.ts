@@ -8,7 +8,17 @@ import { join } from 'node:path';
 import type { CodeAction, CompletionItem, CompletionList, Diagnostic, DocumentSymbol, Hover, Location, SymbolInformation } from 'vscode-languageserver-protocol/lib/node/main';
 import { FIXTURES, LspSession, lsp } from './lspSession';
 
-const { CodeActionRequest, CompletionRequest, DefinitionRequest, DidChangeWatchedFilesNotification, DocumentSymbolRequest, HoverRequest, ReferencesRequest, WorkspaceSymbolRequest, FileChangeType } = lsp;
+const {
+  CodeActionRequest,
+  CompletionRequest,
+  DefinitionRequest,
+  DidChangeWatchedFilesNotification,
+  DocumentSymbolRequest,
+  HoverRequest,
+  ReferencesRequest,
+  WorkspaceSymbolRequest,
+  FileChangeType,
+} = lsp;
 
 function positionAfter(text: string, needle: string): { line: number; character: number } {
   const i = text.indexOf(needle);
@@ -37,9 +47,15 @@ describe('writing features over LSP', function () {
     const uri = await s.open('vents.ts');
     const text = s.text('vents.ts').replace(' * @sample temp num in [5, 30]\n', ' * @sample temp num in [5, 30]\n * @sample \n');
     await s.replaceText(uri, text);
-    const answer = await s.connection.sendRequest(CompletionRequest.type, { textDocument: { uri }, position: positionAfter(text, ' * @sample temp num in [5, 30]\n * @sample ') }) as CompletionItem[] | CompletionList;
+    const answer = (await s.connection.sendRequest(CompletionRequest.type, {
+      textDocument: { uri },
+      position: positionAfter(text, ' * @sample temp num in [5, 30]\n * @sample '),
+    })) as CompletionItem[] | CompletionList;
     const items = Array.isArray(answer) ? answer : answer.items;
-    assert.deepEqual(items.map((c) => c.label), ['humidity', 'pane']);
+    assert.deepEqual(
+      items.map((c) => c.label),
+      ['humidity', 'pane'],
+    );
     await s.replaceText(uri, s.text('vents.ts'));
   });
 
@@ -51,7 +67,7 @@ describe('writing features over LSP', function () {
     });
     const titles: string[] = [];
     for (const d of diags as Diagnostic[]) {
-      const actions = await s.connection.sendRequest(CodeActionRequest.type, { textDocument: { uri }, range: d.range, context: { diagnostics: [d] } }) as CodeAction[];
+      const actions = (await s.connection.sendRequest(CodeActionRequest.type, { textDocument: { uri }, range: d.range, context: { diagnostics: [d] } })) as CodeAction[];
       titles.push(...actions.map((a) => a.title));
     }
     assert.ok(titles.includes("Change to '@backward'"), titles.join(' | '));
@@ -62,22 +78,32 @@ describe('writing features over LSP', function () {
   it('goes to the backward from @backward, and from the backward back to its forward', async () => {
     const uri = s.uri('vents.ts');
     const text = s.text('vents.ts');
-    const def = await s.connection.sendRequest(DefinitionRequest.type, { textDocument: { uri }, position: positionAfter(text, '@backward airflowBack') }) as Location;
+    const def = (await s.connection.sendRequest(DefinitionRequest.type, { textDocument: { uri }, position: positionAfter(text, '@backward airflowBack') })) as Location;
     assert.equal(def.uri, uri);
-    assert.deepEqual(def.range.start, positionAfter(text, 'export function airflow(opening: Float64Array): Float64Array {\n  return opening.map((v) => ventScale(v));\n}\n\nexport function '));
-    const refs = await s.connection.sendRequest(ReferencesRequest.type, { textDocument: { uri }, position: def.range.start, context: { includeDeclaration: false } }) as Location[];
+    assert.deepEqual(
+      def.range.start,
+      positionAfter(text, 'export function airflow(opening: Float64Array): Float64Array {\n  return opening.map((v) => ventScale(v));\n}\n\nexport function '),
+    );
+    const refs = (await s.connection.sendRequest(ReferencesRequest.type, {
+      textDocument: { uri },
+      position: def.range.start,
+      context: { includeDeclaration: false },
+    })) as Location[];
     const forward = positionAfter(text, 'export function ');
-    assert.ok(refs.some((r) => r.range.start.line === forward.line && r.range.start.character === forward.character), JSON.stringify(refs));
+    assert.ok(
+      refs.some((r) => r.range.start.line === forward.line && r.range.start.character === forward.character),
+      JSON.stringify(refs),
+    );
   });
 
   it('follows @construct, and a name imported from another file', async () => {
     const uri = s.uri('vents.ts');
     const text = s.text('vents.ts');
-    const def = await s.connection.sendRequest(DefinitionRequest.type, { textDocument: { uri }, position: positionAfter(text, '@construct make') }) as Location;
+    const def = (await s.connection.sendRequest(DefinitionRequest.type, { textDocument: { uri }, position: positionAfter(text, '@construct make') })) as Location;
     assert.equal(def.range.start.line, positionAfter(text, 'export function makeFan').line);
     const imported = text.replace('@backward airflowBackward', '@backward ventScale');
     await s.replaceText(uri, imported);
-    const there = await s.connection.sendRequest(DefinitionRequest.type, { textDocument: { uri }, position: positionAfter(imported, '@backward ventSc') }) as Location;
+    const there = (await s.connection.sendRequest(DefinitionRequest.type, { textDocument: { uri }, position: positionAfter(imported, '@backward ventSc') })) as Location;
     assert.equal(there.uri, s.uri('scale.ts'));
     assert.equal(there.range.start.line, positionAfter(s.text('scale.ts'), 'export function ventScale').line);
     await s.replaceText(uri, text);
@@ -85,11 +111,17 @@ describe('writing features over LSP', function () {
 
   it('lists ops in the outline and the workspace symbol search, and explains tags on hover', async () => {
     const uri = s.uri('vents.ts');
-    const symbols = await s.connection.sendRequest(DocumentSymbolRequest.type, { textDocument: { uri } }) as DocumentSymbol[];
-    assert.deepEqual(symbols.map((x) => x.name), ['airflow → airflowBackward', 'mist → ?', 'condensation → condensationBackward', 'Fan.spin → ?']);
-    const found = await s.connection.sendRequest(WorkspaceSymbolRequest.type, { query: 'cndstn' }) as SymbolInformation[];
-    assert.deepEqual(found.map((x) => x.name), ['condensation']);
-    const hover = await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: positionAfter(s.text('vents.ts'), ' * @samp') }) as Hover;
+    const symbols = (await s.connection.sendRequest(DocumentSymbolRequest.type, { textDocument: { uri } })) as DocumentSymbol[];
+    assert.deepEqual(
+      symbols.map((x) => x.name),
+      ['airflow → airflowBackward', 'mist → ?', 'condensation → condensationBackward', 'Fan.spin → ?'],
+    );
+    const found = (await s.connection.sendRequest(WorkspaceSymbolRequest.type, { query: 'cndstn' })) as SymbolInformation[];
+    assert.deepEqual(
+      found.map((x) => x.name),
+      ['condensation'],
+    );
+    const hover = (await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: positionAfter(s.text('vents.ts'), ' * @samp') })) as Hover;
     assert.match((hover.contents as { value: string }).value, /\*\*@sample\*\* — How to draw one parameter/);
   });
 

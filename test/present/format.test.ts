@@ -8,7 +8,16 @@ import { elementName, formatIndex, formatNumber, formatRelError, formatShape, fo
 
 function param(name: string, verdict: Verdict, maxRelError: number, relError?: number): ParamResult {
   return {
-    name, verdict, maxAbsError: 0, maxRelError, shape: [4], dtype: 'f64', method: 'full', elements: 4, checkedElements: 4, hints: [],
+    name,
+    verdict,
+    maxAbsError: 0,
+    maxRelError,
+    shape: [4],
+    dtype: 'f64',
+    method: 'full',
+    elements: 4,
+    checkedElements: 4,
+    hints: [],
     worst: relError === undefined ? null : { index: [1], analytic: 1, numeric: 1, relError },
   };
 }
@@ -19,10 +28,19 @@ describe('present/format: figures', () => {
   });
 
   it('writes values with six significant digits, plain in [1e-3, 1e6) and exponential outside', () => {
-    assert.deepEqual([0.5, -500.9431234, 1234567, 1.5e-4, 0, NaN, -Infinity, null].map(formatNumber), ['0.5', '-500.943', '1.23457e+6', '1.50000e-4', '0', 'NaN', '-Infinity', '-']);
+    assert.deepEqual([0.5, -500.9431234, 1234567, 1.5e-4, 0, NaN, -Infinity, null].map(formatNumber), [
+      '0.5',
+      '-500.943',
+      '1.23457e+6',
+      '1.50000e-4',
+      '0',
+      'NaN',
+      '-Infinity',
+      '-',
+    ]);
   });
 
-  it('writes an index as [2, 3] (the engine messages\' form) and a scalar\'s empty index as scalar', () => {
+  it("writes an index as [2, 3] (the engine messages' form) and a scalar's empty index as scalar", () => {
     assert.equal(formatIndex([2, 3]), '[2, 3]');
     assert.equal(formatIndex([]), 'scalar');
     assert.equal(elementName('weight', [2, 3]), 'weight[2, 3]');
@@ -42,12 +60,12 @@ describe('present/format: figures', () => {
 });
 
 describe('present/format: the worst parameter', () => {
-  it('is among the parameters that share the op\'s verdict, even when another has a larger error', () => {
+  it("is among the parameters that share the op's verdict, even when another has a larger error", () => {
     const params = [param('bias', 'inconclusive', 0.9, 0.9), param('weight', 'mismatch', 0.2, 0.2)];
     assert.equal(worstParam({ verdict: 'mismatch', params })?.name, 'weight');
   });
 
-  it('ranks by the worst element\'s own relative error, the figure shown beside it', () => {
+  it("ranks by the worst element's own relative error, the figure shown beside it", () => {
     // maxRelError may count untrusted estimates; the verdict rests on worst.relError.
     const params = [param('a', 'mismatch', 0.9, 0.1), param('b', 'mismatch', 0.5, 0.4)];
     assert.equal(worstParam({ verdict: 'mismatch', params })?.name, 'b');

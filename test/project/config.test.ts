@@ -7,7 +7,14 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { DEFAULT_SETTINGS } from '../../server/src/engine/settings';
 import {
-  CONFIG_FILE_NAME, ConfigError, checkSettingValue, findConfigFile, loadConfigFile, loadProjectConfig, readConfigFile, readConfigValues,
+  CONFIG_FILE_NAME,
+  ConfigError,
+  checkSettingValue,
+  findConfigFile,
+  loadConfigFile,
+  loadProjectConfig,
+  readConfigFile,
+  readConfigValues,
 } from '../../server/src/project/config';
 import { CONFIG_FIELDS } from '../../server/src/project/configFields';
 import { projectConfigSchema } from '../../server/src/project/configSchema';
@@ -60,15 +67,32 @@ describe('project configuration', () => {
     const root = repo();
     const file = writeConfig(root, {
       $schema: './schema.json',
-      seed: 99, tolerance: { f64: 2e-7, f32: 5e-4 }, timeLimitMs: 2500, memoryLimitMb: 512,
-      largeParamElements: 100, upstreamProbes: 3, dotProductProbes: 6, subsetElements: 8, kinkResamples: 1,
-      maxElements: 1000, include: ['src/**/*.ts'], exclude: [' **/*.spec.ts '],
+      seed: 99,
+      tolerance: { f64: 2e-7, f32: 5e-4 },
+      timeLimitMs: 2500,
+      memoryLimitMb: 512,
+      largeParamElements: 100,
+      upstreamProbes: 3,
+      dotProductProbes: 6,
+      subsetElements: 8,
+      kinkResamples: 1,
+      maxElements: 1000,
+      include: ['src/**/*.ts'],
+      exclude: [' **/*.spec.ts '],
     });
     const config = loadProjectConfig(root);
     assert.equal(config.file, file);
     assert.deepEqual(config.settings, {
-      seed: 99, toleranceF64: 2e-7, toleranceF32: 5e-4, timeLimitMs: 2500, memoryLimitMb: 512,
-      largeParamElements: 100, upstreamProbes: 3, dotProductProbes: 6, subsetElements: 8, kinkResamples: 1,
+      seed: 99,
+      toleranceF64: 2e-7,
+      toleranceF32: 5e-4,
+      timeLimitMs: 2500,
+      memoryLimitMb: 512,
+      largeParamElements: 100,
+      upstreamProbes: 3,
+      dotProductProbes: 6,
+      subsetElements: 8,
+      kinkResamples: 1,
       maxElements: 1000,
     });
     assert.deepEqual(config.include, ['src/**/*.ts']);
@@ -113,14 +137,10 @@ describe('project configuration', () => {
 
   it('reads JSON with comments and trailing commas, as editors write it', () => {
     const root = repo();
-    writeConfig(root, [
-      '// Quillmere Glasshouse checks',
-      '{',
-      '  "seed": 11, /* fixed for CI */',
-      '  "tolerance": { "f64": 2e-7, },',
-      '  "exclude": ["gen/**", "a//b/**",],',
-      '}',
-    ].join('\n'));
+    writeConfig(
+      root,
+      ['// Quillmere Glasshouse checks', '{', '  "seed": 11, /* fixed for CI */', '  "tolerance": { "f64": 2e-7, },', '  "exclude": ["gen/**", "a//b/**",],', '}'].join('\n'),
+    );
     const config = loadProjectConfig(root);
     assert.equal(config.settings.seed, 11);
     assert.equal(config.settings.toleranceF64, 2e-7);
@@ -155,7 +175,7 @@ describe('project configuration', () => {
     assert.deepEqual(err.problems.map((p) => p.field).sort(), ['colour', 'exclude[0]', 'seed', 'tolerance.f16', 'tolerance.f64']);
   });
 
-  it('tells which keys a file sets, without defaults, for the editor\'s merge', () => {
+  it("tells which keys a file sets, without defaults, for the editor's merge", () => {
     const root = repo();
     const file = writeConfig(root, { tolerance: { f32: 4e-3 }, exclude: ['gen/**'] });
     assert.deepEqual(readConfigFile(file), { settings: { toleranceF32: 4e-3 }, exclude: ['gen/**'] });
@@ -224,9 +244,10 @@ describe('project configuration', () => {
     assert.equal(err.field, 'tolerance.f64');
   });
 
-  it('normalises values of another source under that source\'s name', () => {
+  it("normalises values of another source under that source's name", () => {
     assert.deepEqual(readConfigValues({ tolerance: { f64: 1e-5 }, include: ['a/*.ts'] }, 'user settings'), {
-      settings: { toleranceF64: 1e-5 }, include: ['a/*.ts'],
+      settings: { toleranceF64: 1e-5 },
+      include: ['a/*.ts'],
     });
     assert.throws(() => readConfigValues({ seed: 'x' }, 'user settings'), /^ConfigError: user settings: "seed" must be/);
   });
@@ -263,8 +284,21 @@ describe('project configuration', () => {
         assert.equal(fieldSchema(field.path)['default'], DEFAULT_SETTINGS[field.setting], field.path);
       }
       assert.deepEqual(Object.keys(schema.properties).sort(), [
-        '$schema', 'dotProductProbes', 'exclude', 'include', 'kinkResamples', 'largeParamElements', 'maxElements',
-        'memoryLimitMb', 'seed', 'subsetElements', 'timeLimitMs', 'tolerance', 'tolerance.f32', 'tolerance.f64', 'upstreamProbes',
+        '$schema',
+        'dotProductProbes',
+        'exclude',
+        'include',
+        'kinkResamples',
+        'largeParamElements',
+        'maxElements',
+        'memoryLimitMb',
+        'seed',
+        'subsetElements',
+        'timeLimitMs',
+        'tolerance',
+        'tolerance.f32',
+        'tolerance.f64',
+        'upstreamProbes',
       ]);
     });
 

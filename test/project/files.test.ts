@@ -42,32 +42,41 @@ describe('workspace file walk', () => {
   });
 
   it('takes .ts/.tsx/.mts/.cts sources but not declarations or other files', () => {
-    assert.deepEqual(
-      ['a.ts', 'b.tsx', 'c.mts', 'd.cts', 'e.d.ts', 'f.d.mts', 'g.js', 'h.json', 'I.TS'].filter(isSourceFileName),
-      ['a.ts', 'b.tsx', 'c.mts', 'd.cts', 'I.TS'],
-    );
+    assert.deepEqual(['a.ts', 'b.tsx', 'c.mts', 'd.cts', 'e.d.ts', 'f.d.mts', 'g.js', 'h.json', 'I.TS'].filter(isSourceFileName), ['a.ts', 'b.tsx', 'c.mts', 'd.cts', 'I.TS']);
   });
 
   it('walks folders in sorted order and skips node_modules, .git and dist', () => {
     const root = tree({
-      'src/z.ts': '', 'src/a.ts': '', 'src/B.tsx': '', 'src/types.d.ts': '', 'src/tool.js': '',
-      'node_modules/pkg/index.ts': '', 'src/node_modules/inner.ts': '', '.git/hooks/x.ts': '',
-      'dist/out.ts': '', 'lib/dist/also.ts': '', 'top.mts': '',
+      'src/z.ts': '',
+      'src/a.ts': '',
+      'src/B.tsx': '',
+      'src/types.d.ts': '',
+      'src/tool.js': '',
+      'node_modules/pkg/index.ts': '',
+      'src/node_modules/inner.ts': '',
+      '.git/hooks/x.ts': '',
+      'dist/out.ts': '',
+      'lib/dist/also.ts': '',
+      'top.mts': '',
     });
     assert.deepEqual(walk(root, [], config()), ['src/B.tsx', 'src/a.ts', 'src/z.ts', 'top.mts']);
   });
 
   it('applies .gitignore rules: folders, globs, negation, anchoring and nested files', () => {
     const root = tree({
-      '.gitignore': [
-        '# build output', 'generated/', '*.gen.ts', '!keep.gen.ts', '/rootonly.ts', 'docs/*.ts', '',
-      ].join('\n'),
-      'generated/a.ts': '', 'src/generated/b.ts': '',
-      'src/x.gen.ts': '', 'src/keep.gen.ts': '',
-      'rootonly.ts': '', 'src/rootonly.ts': '',
-      'docs/page.ts': '', 'docs/deep/page.ts': '',
+      '.gitignore': ['# build output', 'generated/', '*.gen.ts', '!keep.gen.ts', '/rootonly.ts', 'docs/*.ts', ''].join('\n'),
+      'generated/a.ts': '',
+      'src/generated/b.ts': '',
+      'src/x.gen.ts': '',
+      'src/keep.gen.ts': '',
+      'rootonly.ts': '',
+      'src/rootonly.ts': '',
+      'docs/page.ts': '',
+      'docs/deep/page.ts': '',
       'src/sub/.gitignore': 'local.ts\n',
-      'src/sub/local.ts': '', 'src/sub/kept.ts': '', 'src/local.ts': '',
+      'src/sub/local.ts': '',
+      'src/sub/kept.ts': '',
+      'src/local.ts': '',
     });
     assert.deepEqual(walk(root, [], config()), [
       'docs/deep/page.ts', // `docs/*.ts` is anchored and `*` does not cross a folder
@@ -78,15 +87,18 @@ describe('workspace file walk', () => {
     ]);
   });
 
-  it('applies the repository\'s .gitignore when the walk starts in a subfolder', () => {
+  it("applies the repository's .gitignore when the walk starts in a subfolder", () => {
     const root = tree({ '.gitignore': 'scratch/\n', 'pkg/scratch/a.ts': '', 'pkg/real.ts': '' });
     assert.deepEqual(walk(root, ['pkg'], config()), ['pkg/real.ts']);
   });
 
-  it('filters by include and exclude globs relative to the configuration file\'s folder', () => {
+  it("filters by include and exclude globs relative to the configuration file's folder", () => {
     const root = tree({
       'proj/gradient-probe.json': '{}',
-      'proj/src/ops.ts': '', 'proj/src/ops.spec.ts': '', 'proj/src/legacy/old.ts': '', 'proj/tools/gen.ts': '',
+      'proj/src/ops.ts': '',
+      'proj/src/ops.spec.ts': '',
+      'proj/src/legacy/old.ts': '',
+      'proj/tools/gen.ts': '',
     });
     const cfg = config({ include: ['src/**'], exclude: ['**/*.spec.ts', 'src/legacy/**'], file: join(root, 'proj', 'gradient-probe.json') });
     // Run from the repository root: the globs still start at proj/.
@@ -117,10 +129,14 @@ describe('workspace file walk', () => {
 
   it('refuses a missing path and a file that is not a TypeScript source, naming it', () => {
     const root = tree({ 'notes.md': '' });
-    assert.throws(() => findSourceFiles(['missing/dir'], config(), root), (err: unknown) =>
-      err instanceof SourcePathError && err.message === 'missing/dir: no such file or folder');
-    assert.throws(() => findSourceFiles(['notes.md'], config(), root), (err: unknown) =>
-      err instanceof SourcePathError && /^notes\.md: not a TypeScript source/.test(err.message));
+    assert.throws(
+      () => findSourceFiles(['missing/dir'], config(), root),
+      (err: unknown) => err instanceof SourcePathError && err.message === 'missing/dir: no such file or folder',
+    );
+    assert.throws(
+      () => findSourceFiles(['notes.md'], config(), root),
+      (err: unknown) => err instanceof SourcePathError && /^notes\.md: not a TypeScript source/.test(err.message),
+    );
   });
 
   it('parses .gitignore lines as git does for the common subset', () => {

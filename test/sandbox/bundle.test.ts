@@ -92,7 +92,10 @@ describe('bundle: imports', function () {
     const r = await bundler.bundle({ file, text, bindings: ['f', 'g'] });
     assert.ok(r.ok, r.ok ? '' : r.message);
     const exposed = exposedBy(r.code);
-    assert.throws(() => (exposed.f as () => unknown)(), /node:fs's readFileSync\(\) is not available to code checked in the sandbox: "node:fs" is a Node built-in module \(imported in ops\.ts\)/);
+    assert.throws(
+      () => (exposed.f as () => unknown)(),
+      /node:fs's readFileSync\(\) is not available to code checked in the sandbox: "node:fs" is a Node built-in module \(imported in ops\.ts\)/,
+    );
     assert.equal((exposed.g as () => unknown)(), sep, 'path.sep is passed through');
   });
 
@@ -124,7 +127,10 @@ describe('bundle: imports', function () {
       for (const r of results) {
         assert.equal(r.verdict, 'error');
         assert.match(r.message, /syntax error/);
-        assert.ok(r.problems?.some((p) => p.line === 23), JSON.stringify(r.problems));
+        assert.ok(
+          r.problems?.some((p) => p.line === 23),
+          JSON.stringify(r.problems),
+        );
       }
     } finally {
       await checker.dispose();

@@ -30,7 +30,8 @@ describe('bundle: disk cache between runs', function () {
     rmSync(work, { recursive: true, force: true });
   });
 
-  const text = "import { GAIN } from './gain.js';\nexport function scale(x: number): number { return GAIN * x; }\nexport function scaleBackward(_x: number, dy: number): number { return GAIN * dy; }\n";
+  const text =
+    "import { GAIN } from './gain.js';\nexport function scale(x: number): number { return GAIN * x; }\nexport function scaleBackward(_x: number, dy: number): number { return GAIN * dy; }\n";
   const request = () => ({ file: join(work, 'src', 'ops.ts'), text, bindings: ['scale', 'scaleBackward'] });
 
   it('a second run of an unchanged file reads the bundle from disk; a changed import builds again', async () => {

@@ -60,7 +60,10 @@ describe('coverage: what each check ran', function () {
   it('follows the backward into a helper in another file whose branch never ran', () => {
     const heat = resultOf(results, 'heat');
     const gaps = gapsIn(heat, 'clampedGain');
-    assert.deepEqual(gaps.map((g) => [g.file, g.startLine, g.side]), [[helpers, 5, 'backward']]);
+    assert.deepEqual(
+      gaps.map((g) => [g.file, g.startLine, g.side]),
+      [[helpers, 5, 'backward']],
+    );
     // A helper's own parameter is not an op parameter: its condition gets no range hint.
     assert.equal(gaps[0]!.reach, undefined);
     assert.equal(collected(heat).forward.run, collected(heat).forward.total);
@@ -68,20 +71,32 @@ describe('coverage: what each check ran', function () {
 
   it('covers a method op', () => {
     const gaps = gapsIn(resultOf(results, 'Louvre.forward'), 'Louvre.backward');
-    assert.deepEqual(gaps.map((g) => [g.startLine, g.what]), [[82, 'if `this.last < 0`']]);
+    assert.deepEqual(
+      gaps.map((g) => [g.startLine, g.what]),
+      [[82, 'if `this.last < 0`']],
+    );
     // `this.last` is not a sampled parameter: no range is suggested.
     assert.equal(gaps[0]!.reach, undefined);
   });
 
   it('covers an arrow-function op and the helper it calls', () => {
     const mist = resultOf(results, 'mist');
-    assert.deepEqual(gapsIn(mist, 'mistBackward').map((g) => [g.startLine, g.what]), [[95, 'right side of `scaleFor(m) ??`']]);
-    assert.deepEqual(gapsIn(mist, 'scaleFor').map((g) => g.startLine), [98]);
+    assert.deepEqual(
+      gapsIn(mist, 'mistBackward').map((g) => [g.startLine, g.what]),
+      [[95, 'right side of `scaleFor(m) ??`']],
+    );
+    assert.deepEqual(
+      gapsIn(mist, 'scaleFor').map((g) => g.startLine),
+      [98],
+    );
   });
 
   it('reports the code after an early return', () => {
     const gaps = gapsIn(resultOf(results, 'ramp'), 'rampBackward');
-    assert.deepEqual(gaps.map((g) => [g.startLine, g.endLine, g.what]), [[61, 62, 'after the `if` on line 60']]);
+    assert.deepEqual(
+      gaps.map((g) => [g.startLine, g.endLine, g.what]),
+      [[61, 62, 'after the `if` on line 60']],
+    );
   });
 
   it('never changes a verdict: the same results with coverage off', async () => {

@@ -36,7 +36,12 @@ describe('checker: process lifetime', function () {
     script = join(scratch, 'caller.js');
     await esbuild.build({
       stdin: { contents: SCRIPT, resolveDir: repoRoot, loader: 'ts', sourcefile: 'caller.ts' },
-      bundle: true, platform: 'node', format: 'cjs', packages: 'external', outfile: script, logLevel: 'silent',
+      bundle: true,
+      platform: 'node',
+      format: 'cjs',
+      packages: 'external',
+      outfile: script,
+      logLevel: 'silent',
     });
   });
   after(() => rmSync(scratch, { recursive: true, force: true }));

@@ -137,7 +137,10 @@ describe('pool: runners', function () {
     assert.match(r.error, /the runner process could not start: .*Cannot find module/);
     // First with every limit, then without the permission flag, then without prlimit.
     assert.equal(pool.stats.spawned, 3);
-    assert.ok(logged.some((l) => /running without the permission model/.test(l)), logged.join('\n'));
+    assert.ok(
+      logged.some((l) => /running without the permission model/.test(l)),
+      logged.join('\n'),
+    );
   });
 
   it('fails jobs clearly after dispose instead of hanging', async () => {
@@ -149,7 +152,7 @@ describe('pool: runners', function () {
 });
 
 describe('pool: runner command line', () => {
-  it('keeps only ELECTRON_RUN_AS_NODE when the host is the editor\'s runtime in Node mode', () => {
+  it("keeps only ELECTRON_RUN_AS_NODE when the host is the editor's runtime in Node mode", () => {
     const saved = process.env.ELECTRON_RUN_AS_NODE;
     try {
       process.env.ELECTRON_RUN_AS_NODE = '1';
@@ -181,7 +184,10 @@ describe('checker: listing and filtering', function () {
   it('lists ops without starting a runner', () => {
     const checker = new Checker({ settings: settingsWith({}) });
     const listing = listOps(fixture('hostile', 'failures.ts'));
-    assert.deepEqual(listing.ops.map((o) => o.forward), ['recurse', 'throwsError', 'throwsNumber', 'throwsString']);
+    assert.deepEqual(
+      listing.ops.map((o) => o.forward),
+      ['recurse', 'throwsError', 'throwsNumber', 'throwsString'],
+    );
     assert.equal(checker.stats.pool.spawned, 0);
     return checker.dispose();
   });
@@ -191,7 +197,10 @@ describe('checker: listing and filtering', function () {
     try {
       const seen: string[] = [];
       const results = await checker.checkFile(fixture('hostile', 'failures.ts'), { filter: 'throws', onResult: (r) => seen.push(r.forward ?? '') });
-      assert.deepEqual(results.map((r) => r.forward), ['throwsError', 'throwsNumber', 'throwsString']);
+      assert.deepEqual(
+        results.map((r) => r.forward),
+        ['throwsError', 'throwsNumber', 'throwsString'],
+      );
       assert.deepEqual([...seen].sort(), ['throwsError', 'throwsNumber', 'throwsString']);
       for (const r of results) assert.equal(r.file, fixture('hostile', 'failures.ts'));
     } finally {

@@ -83,7 +83,7 @@ describe('sandbox supervision shared by both runners', function () {
     });
   }
 
-  it('the interpreter\'s counters reach the Checker\'s stats', async () => {
+  it("the interpreter's counters reach the Checker's stats", async () => {
     const checker = new Checker({ settings, workers: 1 });
     try {
       assert.equal(checker.stats.isolated.jobsStarted, 0);

@@ -83,9 +83,13 @@ describe('sandbox: TensorFlow.js runs in the runner context and the isolated int
       settings: settingsWith({ timeLimitMs: 120_000, isolation: 'interpreter' }),
       filter: 'VentLimit',
     });
-    assert.deepEqual(custom.map((x) => [x.forward, x.verdict, x.isolation]), [
-      ['softVentLimit', 'pass', 'interpreter'],
-      ['doubledVentLimit', 'mismatch', 'interpreter'],
-    ], describeResults(custom));
+    assert.deepEqual(
+      custom.map((x) => [x.forward, x.verdict, x.isolation]),
+      [
+        ['softVentLimit', 'pass', 'interpreter'],
+        ['doubledVentLimit', 'mismatch', 'interpreter'],
+      ],
+      describeResults(custom),
+    );
   });
 });

@@ -6,7 +6,8 @@ import { readFileSync } from 'node:fs';
 import * as vm from 'node:vm';
 import { Checker } from '../../server/src/core/checker';
 import { ENGINE_SCRIPT_NAME, findBuiltAsset } from '../../server/src/sandbox/assets';
-import { CONTEXT_SETUP_SOURCE, FIXED_DATE_MS, wrapWithBuiltins } from '../../server/src/sandbox/contextSetup';
+import { CONTEXT_SETUP_SOURCE, FIXED_DATE_MS } from '../../server/src/sandbox/contextSetup';
+import { wrapWithBuiltins } from '../../server/src/sandbox/bundleWrapper';
 import type { OpResult } from '../../server/src/model/types';
 import { describeResults, fixture, resultOf, settingsWith } from './helpers';
 
@@ -43,12 +44,15 @@ describe('sandbox: the warm engine', function () {
     (context as Record<string, unknown>).__gradientProbeEngine = new vm.Script(wrapWithBuiltins(readFileSync(engine, 'utf8'))).runInContext(context);
     const run: unknown = vm.runInContext('__gradientProbeLoadEngine()', context);
     assert.equal(typeof run, 'function');
-    const frozen = vm.runInContext(`[
+    const frozen = vm.runInContext(
+      `[
       Object.prototype, Array.prototype, Function.prototype, Object, Array, Math, JSON, Reflect,
       Float64Array.prototype, Object.getPrototypeOf(Float64Array.prototype), Error.prototype, Promise.prototype,
       Object.getPrototypeOf([][Symbol.iterator]()), Object.getPrototypeOf(Object.getPrototypeOf([][Symbol.iterator]())),
       Object.getPrototypeOf(function* () {}), Object.getPrototypeOf(async function () {}),
-    ].map((v) => Object.isFrozen(v))`, context) as boolean[];
+    ].map((v) => Object.isFrozen(v))`,
+      context,
+    ) as boolean[];
     assert.deepEqual([...frozen], Array(frozen.length).fill(true));
     // Adding to a frozen prototype fails, so no op can leave anything there for the next one.
     assert.throws(() => vm.runInContext(`'use strict'; Object.prototype.mark = 1;`, context), /not extensible|read only|Cannot add property/);

@@ -28,8 +28,11 @@ describe('text: edit distance and the nearest known name', () => {
 
   it('gives the same answer to the same slip as a tag keyword and as a CLI flag', () => {
     // A swapped pair of letters in `avoid` (a @sample keyword) and in `--seed` (a flag).
-    const text = '/**\n * @backward gBack\n * @sample x f64[3] aviod 0\n */\nexport function g(x: Float64Array) { return x; }\nexport function gBack(x: Float64Array, dy: Float64Array) { return dy; }\n';
-    const problems = discoverOps('/tmp/slip.ts', text).ops[0]!.problems.map((p) => p.message).join('\n');
+    const text =
+      '/**\n * @backward gBack\n * @sample x f64[3] aviod 0\n */\nexport function g(x: Float64Array) { return x; }\nexport function gBack(x: Float64Array, dy: Float64Array) { return dy; }\n';
+    const problems = discoverOps('/tmp/slip.ts', text)
+      .ops[0]!.problems.map((p) => p.message)
+      .join('\n');
     assert.match(problems, /did you mean 'avoid'\?/);
     assert.throws(() => parseArgs(['check', '--sede', '1']), /unknown flag --sede \(did you mean --seed\?\)/);
   });

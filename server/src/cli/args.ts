@@ -71,27 +71,136 @@ export interface FlagSpec {
 
 /** Flags of `check`, in help order. */
 export const CHECK_FLAGS: readonly FlagSpec[] = [
-  { name: '--json', description: 'write the version-1 JSON report to stdout and nothing else', apply: (o) => { o.json = true; } },
-  { name: '--sarif', value: 'FILE', description: 'also write the results as SARIF 2.1.0 (for code-scanning views)', apply: (o, v) => { o.sarif = v; } },
-  { name: '--junit', value: 'FILE', description: 'also write the results as JUnit XML (one test case per op)', apply: (o, v) => { o.junit = v; } },
-  { name: '--filter', value: 'TEXT', description: 'check only ops whose forward name contains TEXT', apply: (o, v) => { o.filter = v; } },
-  { name: '--seed', value: 'N', description: 'seed of the input generator (an op\'s @seed still wins)', apply: setting('seed', '--seed') },
-  { name: '--tolerance', value: 'REL', description: 'relative tolerance for float64 and number ops (an op\'s @tolerance still wins)', apply: setting('toleranceF64', '--tolerance') },
+  {
+    name: '--json',
+    description: 'write the version-1 JSON report to stdout and nothing else',
+    apply: (o) => {
+      o.json = true;
+    },
+  },
+  {
+    name: '--sarif',
+    value: 'FILE',
+    description: 'also write the results as SARIF 2.1.0 (for code-scanning views)',
+    apply: (o, v) => {
+      o.sarif = v;
+    },
+  },
+  {
+    name: '--junit',
+    value: 'FILE',
+    description: 'also write the results as JUnit XML (one test case per op)',
+    apply: (o, v) => {
+      o.junit = v;
+    },
+  },
+  {
+    name: '--filter',
+    value: 'TEXT',
+    description: 'check only ops whose forward name contains TEXT',
+    apply: (o, v) => {
+      o.filter = v;
+    },
+  },
+  { name: '--seed', value: 'N', description: "seed of the input generator (an op's @seed still wins)", apply: setting('seed', '--seed') },
+  {
+    name: '--tolerance',
+    value: 'REL',
+    description: "relative tolerance for float64 and number ops (an op's @tolerance still wins)",
+    apply: setting('toleranceF64', '--tolerance'),
+  },
   { name: '--tolerance-f32', value: 'REL', description: 'relative tolerance for float32 ops', apply: setting('toleranceF32', '--tolerance-f32') },
-  { name: '--time-limit', value: 'MS', description: 'wall-clock limit of one op\'s check, in milliseconds', apply: setting('timeLimitMs', '--time-limit') },
+  { name: '--time-limit', value: 'MS', description: "wall-clock limit of one op's check, in milliseconds", apply: setting('timeLimitMs', '--time-limit') },
   { name: '--memory-limit', value: 'MB', description: 'memory limit of each runner process, in MiB', apply: setting('memoryLimitMb', '--memory-limit') },
-  { name: '--workers', value: 'N', description: 'runner processes working in parallel (default: chosen from the cores)', apply: (o, v) => { o.workers = parseWorkers(v); } },
-  { name: '--config', value: 'FILE', description: 'read this configuration file instead of searching for gradient-probe.json', apply: (o, v) => { o.config = v; } },
-  { name: '--isolated', description: 'run ops in the isolated interpreter (WebAssembly, no Node API; 35-50x slower, for small ops)', apply: (o) => { o.isolated = true; } },
-  { name: '--shard', value: 'K/N', description: 'check only part K of N of the ops (stable by file and forward name); N jobs together check each op once', apply: (o, v) => { o.shard = parseShard(v); } },
-  { name: '--changed-since', value: 'REF', description: 'check only ops whose file or imported files changed since git revision REF; says how many were skipped', apply: (o, v) => { o.changedSince = v; } },
-  { name: '--fail-on-inconclusive', description: 'exit 1 when an op is inconclusive, too', apply: (o) => { o.failOnInconclusive = true; } },
-  { name: '--allow-unfinished', description: 'exit 0 although the time limit stopped an op\'s check before every element was compared', apply: (o) => { o.allowUnfinished = true; } },
-  { name: '--fail-on-unreached', description: 'exit 1 when code of a backward (or a helper it calls) never ran during its check', apply: (o) => { o.failOnUnreached = true; } },
-  { name: '--no-coverage', description: 'skip the coverage pass (a second run of each check that records which code ran)', apply: (o) => { o.noCoverage = true; } },
-  { name: '--only-problems', description: 'list only ops that did not pass (the summary still counts all)', apply: (o) => { o.onlyProblems = true; } },
-  { name: '--color', value: 'WHEN', description: 'colour the table: auto (a terminal without NO_COLOR), always or never', apply: (o, v) => { o.color = parseColorMode(v); } },
-  { name: '--no-color', description: 'same as --color never', apply: (o) => { o.color = 'never'; } },
+  {
+    name: '--workers',
+    value: 'N',
+    description: 'runner processes working in parallel (default: chosen from the cores)',
+    apply: (o, v) => {
+      o.workers = parseWorkers(v);
+    },
+  },
+  {
+    name: '--config',
+    value: 'FILE',
+    description: 'read this configuration file instead of searching for gradient-probe.json',
+    apply: (o, v) => {
+      o.config = v;
+    },
+  },
+  {
+    name: '--isolated',
+    description: 'run ops in the isolated interpreter (WebAssembly, no Node API; 35-50x slower, for small ops)',
+    apply: (o) => {
+      o.isolated = true;
+    },
+  },
+  {
+    name: '--shard',
+    value: 'K/N',
+    description: 'check only part K of N of the ops (stable by file and forward name); N jobs together check each op once',
+    apply: (o, v) => {
+      o.shard = parseShard(v);
+    },
+  },
+  {
+    name: '--changed-since',
+    value: 'REF',
+    description: 'check only ops whose file or imported files changed since git revision REF; says how many were skipped',
+    apply: (o, v) => {
+      o.changedSince = v;
+    },
+  },
+  {
+    name: '--fail-on-inconclusive',
+    description: 'exit 1 when an op is inconclusive, too',
+    apply: (o) => {
+      o.failOnInconclusive = true;
+    },
+  },
+  {
+    name: '--allow-unfinished',
+    description: "exit 0 although the time limit stopped an op's check before every element was compared",
+    apply: (o) => {
+      o.allowUnfinished = true;
+    },
+  },
+  {
+    name: '--fail-on-unreached',
+    description: 'exit 1 when code of a backward (or a helper it calls) never ran during its check',
+    apply: (o) => {
+      o.failOnUnreached = true;
+    },
+  },
+  {
+    name: '--no-coverage',
+    description: 'skip the coverage pass (a second run of each check that records which code ran)',
+    apply: (o) => {
+      o.noCoverage = true;
+    },
+  },
+  {
+    name: '--only-problems',
+    description: 'list only ops that did not pass (the summary still counts all)',
+    apply: (o) => {
+      o.onlyProblems = true;
+    },
+  },
+  {
+    name: '--color',
+    value: 'WHEN',
+    description: 'colour the table: auto (a terminal without NO_COLOR), always or never',
+    apply: (o, v) => {
+      o.color = parseColorMode(v);
+    },
+  },
+  {
+    name: '--no-color',
+    description: 'same as --color never',
+    apply: (o) => {
+      o.color = 'never';
+    },
+  },
 ];
 
 /** Transport flags the language server understands (passed on unchanged). */
@@ -117,7 +226,8 @@ export function parseArgs(argv: readonly string[]): CliCommand {
 
 /** Flags of `merge`: how to write the joined report and which results fail it. */
 export const MERGE_FLAGS: readonly FlagSpec[] = CHECK_FLAGS.filter((f) =>
-  ['--json', '--sarif', '--junit', '--fail-on-inconclusive', '--allow-unfinished', '--only-problems', '--color', '--no-color'].includes(f.name));
+  ['--json', '--sarif', '--junit', '--fail-on-inconclusive', '--allow-unfinished', '--only-problems', '--color', '--no-color'].includes(f.name),
+);
 
 function parseMerge(args: readonly string[]): CliCommand {
   const parsed = parseFlags(args, MERGE_FLAGS, 'merge');
@@ -133,7 +243,13 @@ function parseCheck(args: readonly string[]): CliCommand {
 
 function parseFlags(args: readonly string[], flags: readonly FlagSpec[], command: string): CheckOptions | 'help' {
   const options: CheckOptions = {
-    paths: [], json: false, overrides: {}, failOnInconclusive: false, onlyProblems: false, color: 'auto', allowUnfinished: false,
+    paths: [],
+    json: false,
+    overrides: {},
+    failOnInconclusive: false,
+    onlyProblems: false,
+    color: 'auto',
+    allowUnfinished: false,
   };
   const seen = new Set<string>();
   let flagsEnded = false;
@@ -152,7 +268,10 @@ function parseFlags(args: readonly string[], flags: readonly FlagSpec[], command
     const name = eq > 0 ? arg.slice(0, eq) : arg;
     const spec = flags.find((f) => f.name === name);
     if (!spec) {
-      const guess = nearestName(name, flags.map((f) => f.name));
+      const guess = nearestName(
+        name,
+        flags.map((f) => f.name),
+      );
       const elsewhere = command === 'merge' && CHECK_FLAGS.some((f) => f.name === name) ? ' (it belongs to check; merge only joins reports)' : '';
       throw new UsageError(`unknown flag ${name}${guess ? ` (did you mean ${guess}?)` : elsewhere}`, name);
     }

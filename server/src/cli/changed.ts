@@ -26,7 +26,10 @@ export function changedFilesSince(ref: string, cwd: string): ChangedFiles {
     try {
       return execFileSync('git', args, { cwd, encoding: 'utf8', stdio: ['ignore', 'pipe', 'pipe'], maxBuffer: 256 << 20 });
     } catch (err) {
-      const stderr = String((err as { stderr?: unknown }).stderr ?? '').trim().split('\n')[0] ?? '';
+      const stderr =
+        String((err as { stderr?: unknown }).stderr ?? '')
+          .trim()
+          .split('\n')[0] ?? '';
       throw new ChangedSinceError(`--changed-since ${ref}: git ${args[0]} failed${stderr ? `: ${stderr}` : ` (${(err as Error).message})`}`);
     }
   };

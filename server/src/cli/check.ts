@@ -83,15 +83,27 @@ export async function runCheckCommand(options: CheckOptions, io: CliIo, toolVers
   if (scope.select) results = results.filter((r) => r.forward !== null || scope.select!(r.file, null));
   const report = buildReport(results, io.cwd);
   report.run = runRecord(options, settings, configLabel, files.length, skipped, toolVersion);
-  if (options.shard) notes.push(`shard ${options.shard.index}/${options.shard.count}: ${count(report.pairs.length, 'entry', 'entries')} here, ${count(skipped.select, 'op')} in the other shards`);
+  if (options.shard)
+    notes.push(`shard ${options.shard.index}/${options.shard.count}: ${count(report.pairs.length, 'entry', 'entries')} here, ${count(skipped.select, 'op')} in the other shards`);
   if (options.changedSince !== undefined) {
-    notes.push(configChanged
-      ? `--changed-since ${options.changedSince}: the configuration file changed, so every op is checked`
-      : `--changed-since ${options.changedSince}: ${count(skipped.unchanged, 'op')} skipped (neither their file nor a file they import changed)`);
+    notes.push(
+      configChanged
+        ? `--changed-since ${options.changedSince}: the configuration file changed, so every op is checked`
+        : `--changed-since ${options.changedSince}: ${count(skipped.unchanged, 'op')} skipped (neither their file nor a file they import changed)`,
+    );
   }
-  const emptyReason = report.pairs.length === 0
-    ? nothingCheckedReason({ paths: options.paths, files: files.length, stats: walk, config, configLabel, skipped, ...(options.filter !== undefined ? { filter: options.filter } : {}) })
-    : undefined;
+  const emptyReason =
+    report.pairs.length === 0
+      ? nothingCheckedReason({
+          paths: options.paths,
+          files: files.length,
+          stats: walk,
+          config,
+          configLabel,
+          skipped,
+          ...(options.filter !== undefined ? { filter: options.filter } : {}),
+        })
+      : undefined;
   if (emptyReason !== undefined) io.stderr.write(`gradient-probe: nothing was checked: ${emptyReason}\n`);
 
   const written = emitReport(report, options, io, toolVersion, { fileCount: files.length, elapsedMs: performance.now() - started, notes });
@@ -101,9 +113,7 @@ export async function runCheckCommand(options: CheckOptions, io: CliIo, toolVers
 }
 
 /** The run's record in the report: what `merge` compares, and this run's part of the work. */
-function runRecord(
-  options: CheckOptions, settings: CheckSettings, configLabel: string | undefined, files: number, skipped: SkipTally, toolVersion: string,
-): ReportRun {
+function runRecord(options: CheckOptions, settings: CheckSettings, configLabel: string | undefined, files: number, skipped: SkipTally, toolVersion: string): ReportRun {
   const run: ReportRun = { tool: toolVersion, settings: { ...settings }, config: configLabel ?? null, files };
   if (options.filter !== undefined) run.filter = options.filter;
   if (options.shard) run.shard = { ...options.shard };
@@ -173,9 +183,7 @@ async function checkAll(files: readonly string[], settings: CheckSettings, optio
 }
 
 /** One file's results; a failure of the Checker itself becomes that file's `error` entry. */
-async function checkOneFile(
-  checker: Checker, file: string, settings: CheckSettings, options: CheckOptions, signal: AbortSignal | undefined, scope: RunScope,
-): Promise<OpResult[]> {
+async function checkOneFile(checker: Checker, file: string, settings: CheckSettings, options: CheckOptions, signal: AbortSignal | undefined, scope: RunScope): Promise<OpResult[]> {
   const started = performance.now();
   try {
     const opts: Parameters<Checker['checkFile']>[1] = {
@@ -191,11 +199,22 @@ async function checkOneFile(
     return await checker.checkFile(file, opts);
   } catch (err) {
     if (signal?.aborted) return [];
-    return [{
-      file, line: 1, forward: null, backward: null, verdict: 'error', seed: settings.seed,
-      message: `could not check this file: ${errorText(err)}`, failure: 'internal', hints: [], params: [],
-      calls: { forward: 0, backward: 0 }, elapsedMs: performance.now() - started,
-    }];
+    return [
+      {
+        file,
+        line: 1,
+        forward: null,
+        backward: null,
+        verdict: 'error',
+        seed: settings.seed,
+        message: `could not check this file: ${errorText(err)}`,
+        failure: 'internal',
+        hints: [],
+        params: [],
+        calls: { forward: 0, backward: 0 },
+        elapsedMs: performance.now() - started,
+      },
+    ];
   }
 }
 
@@ -203,7 +222,10 @@ async function checkOneFile(
 class Progress {
   private done = 0;
   private readonly live: boolean;
-  constructor(private readonly io: CliIo, private readonly total: number) {
+  constructor(
+    private readonly io: CliIo,
+    private readonly total: number,
+  ) {
     this.live = io.stderr.isTTY === true && total > 1;
   }
   starting(file: string): void {

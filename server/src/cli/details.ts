@@ -68,6 +68,8 @@ function outputLines(output: string | undefined): string[] {
 /** How far a check got before its time limit, and which limit to raise. */
 export function timeLimitLine(stop: TimeLimitStop): string {
   const got = stop.stage === 'forward calls' ? `${stop.done} calls of the op` : `${stop.done} of ${stop.total} ${stop.stage}`;
-  return `not finished: the time limit of ${stop.timeLimitMs} ms stopped the check of '${stop.param}' after ${got}; `
-    + 'an unfinished check fails the run (unless --allow-unfinished): raise the limit with --time-limit MS or "timeLimitMs" in gradient-probe.json';
+  return (
+    `not finished: the time limit of ${stop.timeLimitMs} ms stopped the check of '${stop.param}' after ${got}; ` +
+    'an unfinished check fails the run (unless --allow-unfinished): raise the limit with --time-limit MS or "timeLimitMs" in gradient-probe.json'
+  );
 }

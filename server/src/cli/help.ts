@@ -15,15 +15,7 @@ const COMMANDS = [
 
 /** Help for the whole program. */
 export function generalHelp(): string {
-  return [
-    PURPOSE,
-    '',
-    'Commands:',
-    ...table(COMMANDS.map(([a, b]) => [`gradient-probe ${a}`, b])),
-    '',
-    'Run "gradient-probe check --help" for the flags of check.',
-    '',
-  ].join('\n');
+  return [PURPOSE, '', 'Commands:', ...table(COMMANDS.map(([a, b]) => [`gradient-probe ${a}`, b])), '', 'Run "gradient-probe check --help" for the flags of check.', ''].join('\n');
 }
 
 /** Help for `check`. */
@@ -41,7 +33,7 @@ export function checkHelp(): string {
     ...table(flags),
     '',
     'Settings come from the built-in defaults, then gradient-probe.json (searched for in the',
-    'first PATH\'s folder and upwards, up to the nearest package or repository root; JSON with',
+    "first PATH's folder and upwards, up to the nearest package or repository root; JSON with",
     'comments), then these flags. The report names the configuration file it used.',
     '',
     'Exit status:',

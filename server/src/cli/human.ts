@@ -29,7 +29,11 @@ const COLUMN_GAP = '  ';
 const HEADINGS = ['line', 'op', 'verdict', 'worst param', 'max rel error', 'worst index', 'time'] as const;
 
 type Paint = (text: string) => string;
-interface Palette { bold: Paint; dim: Paint; verdict: (v: Verdict, text: string) => string }
+interface Palette {
+  bold: Paint;
+  dim: Paint;
+  verdict: (v: Verdict, text: string) => string;
+}
 
 function palette(color: boolean): Palette {
   const wrap = (code: string): Paint => (color ? (t) => `\x1b[${code}m${t}\x1b[0m` : (t) => t);

@@ -19,16 +19,16 @@ export function formatJunit(report: Report, options: JunitOptions = {}): string 
   }
   const suites = [...byFile].map(([file, pairs]) => suite(file, pairs, options));
   const all = counts(report.pairs, options);
-  return [
-    '<?xml version="1.0" encoding="UTF-8"?>',
-    `<testsuites name="Gradient Probe" ${countAttributes(all)}>`,
-    ...suites,
-    '</testsuites>',
-    '',
-  ].join('\n');
+  return ['<?xml version="1.0" encoding="UTF-8"?>', `<testsuites name="Gradient Probe" ${countAttributes(all)}>`, ...suites, '</testsuites>', ''].join('\n');
 }
 
-interface Counts { tests: number; failures: number; errors: number; skipped: number; timeMs: number }
+interface Counts {
+  tests: number;
+  failures: number;
+  errors: number;
+  skipped: number;
+  timeMs: number;
+}
 
 function counts(pairs: readonly OpResult[], options: JunitOptions): Counts {
   const c: Counts = { tests: pairs.length, failures: 0, errors: 0, skipped: 0, timeMs: 0 };
@@ -55,10 +55,14 @@ type OutcomeKind = 'pass' | 'failure' | 'error' | 'skipped';
 
 function outcomeKind(pair: OpResult, options: JunitOptions): OutcomeKind {
   switch (pair.verdict) {
-    case 'pass': return 'pass';
-    case 'mismatch': return 'failure';
-    case 'error': return 'error';
-    case 'inconclusive': return isFailing(pair, options) ? 'failure' : 'skipped';
+    case 'pass':
+      return 'pass';
+    case 'mismatch':
+      return 'failure';
+    case 'error':
+      return 'error';
+    case 'inconclusive':
+      return isFailing(pair, options) ? 'failure' : 'skipped';
   }
 }
 

@@ -45,9 +45,17 @@ async function main(argv: string[]): Promise<number | 'serving'> {
       };
       process.on('SIGINT', onSignal);
       process.on('SIGTERM', onSignal);
-      const code = await runCheckCommand(command.options, {
-        cwd: process.cwd(), env: process.env, stdout: process.stdout, stderr: process.stderr, signal: interrupt.signal,
-      }, VERSION);
+      const code = await runCheckCommand(
+        command.options,
+        {
+          cwd: process.cwd(),
+          env: process.env,
+          stdout: process.stdout,
+          stderr: process.stderr,
+          signal: interrupt.signal,
+        },
+        VERSION,
+      );
       return interrupt.signal.aborted ? 130 : code;
     }
   }
@@ -64,7 +72,7 @@ main(process.argv.slice(2)).then(
     if (code !== 'serving') exitAfterFlush(code);
   },
   (err: unknown) => {
-    process.stderr.write(`gradient-probe: internal error: ${err instanceof Error ? err.stack ?? err.message : String(err)}\n`);
+    process.stderr.write(`gradient-probe: internal error: ${err instanceof Error ? (err.stack ?? err.message) : String(err)}\n`);
     exitAfterFlush(EXIT_FAILED);
   },
 );

@@ -131,6 +131,8 @@ function checkShards(reports: readonly Loaded[]): void {
   const missing: number[] = [];
   for (let k = 1; k <= count; k++) if (!byIndex.has(k)) missing.push(k);
   if (missing.length > 0) {
-    throw new MergeError(`shard${missing.length === 1 ? '' : 's'} ${missing.map((k) => `${k}/${count}`).join(', ')} missing: a joined report without ${missing.length === 1 ? 'it' : 'them'} would leave ops unchecked`);
+    throw new MergeError(
+      `shard${missing.length === 1 ? '' : 's'} ${missing.map((k) => `${k}/${count}`).join(', ')} missing: a joined report without ${missing.length === 1 ? 'it' : 'them'} would leave ops unchecked`,
+    );
   }
 }

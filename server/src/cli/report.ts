@@ -10,12 +10,14 @@ export const VERDICTS: readonly Verdict[] = ['pass', 'mismatch', 'inconclusive',
 
 /** Builds the report: `file` relative to `cwd` with `/`, pairs ordered by file, line, name. */
 export function buildReport(results: readonly OpResult[], cwd: string): Report {
-  const pairs = results.map((r) => inReadingOrder({
-    ...r,
-    file: reportPath(r.file, cwd),
-    ...(r.thrownAt ? { thrownAt: { ...r.thrownAt, file: reportPath(r.thrownAt.file, cwd) } } : {}),
-    ...coverageWithPaths(r, cwd),
-  }));
+  const pairs = results.map((r) =>
+    inReadingOrder({
+      ...r,
+      file: reportPath(r.file, cwd),
+      ...(r.thrownAt ? { thrownAt: { ...r.thrownAt, file: reportPath(r.thrownAt.file, cwd) } } : {}),
+      ...coverageWithPaths(r, cwd),
+    }),
+  );
   pairs.sort((a, b) => compare(a.file, b.file) || a.line - b.line || compare(a.forward ?? '', b.forward ?? ''));
   return { version: 1, pairs, summary: summarize(pairs) };
 }

@@ -14,37 +14,55 @@ const SOURCE_ROOT_ID = '%SRCROOT%';
 
 type SarifLevel = 'error' | 'warning' | 'note';
 
-interface RuleSpec { id: string; name: string; level: SarifLevel; short: string; full: string }
+interface RuleSpec {
+  id: string;
+  name: string;
+  level: SarifLevel;
+  short: string;
+  full: string;
+}
 
 /** Our result kinds. A pass is not a finding and has no rule. */
 export const SARIF_RULES: readonly RuleSpec[] = [
   {
-    id: 'gradient-mismatch', name: 'GradientMismatch', level: 'error',
+    id: 'gradient-mismatch',
+    name: 'GradientMismatch',
+    level: 'error',
     short: 'Hand-written gradient disagrees with finite differences',
     full: 'The backward function returns a gradient that differs from a refined finite-difference estimate beyond the tolerance.',
   },
   {
-    id: 'check-error', name: 'CheckError', level: 'error',
+    id: 'check-error',
+    name: 'CheckError',
+    level: 'error',
     short: 'Op could not be checked',
     full: 'The op failed before a verdict: a thrown exception, a missing function, a bad shape, NaN or Infinity, a time or memory limit, or a file that does not load.',
   },
   {
-    id: 'annotation-problem', name: 'AnnotationProblem', level: 'error',
+    id: 'annotation-problem',
+    name: 'AnnotationProblem',
+    level: 'error',
     short: 'Annotation tag is wrong',
-    full: 'A tag of the op\'s annotation cannot be understood, so the op is not run.',
+    full: "A tag of the op's annotation cannot be understood, so the op is not run.",
   },
   {
-    id: 'check-inconclusive', name: 'CheckInconclusive', level: 'warning',
+    id: 'check-inconclusive',
+    name: 'CheckInconclusive',
+    level: 'warning',
     short: 'Finite differences cannot be trusted here',
     full: 'The finite-difference estimate is unreliable at the sample point (a kink that resampling did not escape, or a forward that is not deterministic).',
   },
   {
-    id: 'check-unfinished', name: 'CheckUnfinished', level: 'error',
+    id: 'check-unfinished',
+    name: 'CheckUnfinished',
+    level: 'error',
     short: 'Time limit stopped the check before every element was compared',
     full: 'The check ran out of its time limit part way; the elements it did not compare may hold a wrong gradient. Raise the time limit (--time-limit, timeLimitMs).',
   },
   {
-    id: 'unreached-code', name: 'UnreachedCode', level: 'note',
+    id: 'unreached-code',
+    name: 'UnreachedCode',
+    level: 'note',
     short: 'Code the check never ran',
     full: 'Code of the forward or the backward (or of a helper they call) that none of the sampled inputs reached during the check, so the check says nothing about it.',
   },
@@ -113,9 +131,7 @@ function gapResults(pair: OpResult): Record<string, unknown>[] {
   });
 }
 
-function result(
-  ruleId: string, text: string, pair: OpResult, line: number, column: number, endLine?: number, endColumn?: number,
-): Record<string, unknown> {
+function result(ruleId: string, text: string, pair: OpResult, line: number, column: number, endLine?: number, endColumn?: number): Record<string, unknown> {
   const ruleIndex = SARIF_RULES.findIndex((r) => r.id === ruleId);
   const region: Record<string, number> = { startLine: Math.max(1, line), startColumn: Math.max(1, column) };
   if (endLine !== undefined && endLine >= region['startLine']!) region['endLine'] = endLine;
@@ -137,11 +153,13 @@ function result(
   if (pair.thrownAt) {
     // Where the op's own code threw (SARIF 2.1.0 §3.27.22 relatedLocations).
     const at = pair.thrownAt;
-    out['relatedLocations'] = [{
-      id: 0,
-      message: { text: 'thrown here' },
-      physicalLocation: { artifactLocation: artifactLocation(at.file), region: { startLine: Math.max(1, at.line), startColumn: Math.max(1, at.column) } },
-    }];
+    out['relatedLocations'] = [
+      {
+        id: 0,
+        message: { text: 'thrown here' },
+        physicalLocation: { artifactLocation: artifactLocation(at.file), region: { startLine: Math.max(1, at.line), startColumn: Math.max(1, at.column) } },
+      },
+    ];
   }
   return out;
 }

@@ -8,7 +8,9 @@ import type { Shard } from './args';
 /** The part (1-based) of `count` that holds the op `forward` of `file` (a report path: relative, `/`). */
 export function shardOfOp(file: string, forward: string | null, count: number): number {
   // SHA-256 is spread evenly over its first 32 bits; NUL cannot occur in a path or a name.
-  const digest = createHash('sha256').update(`${file}\0${forward ?? ''}`, 'utf8').digest();
+  const digest = createHash('sha256')
+    .update(`${file}\0${forward ?? ''}`, 'utf8')
+    .digest();
   return (digest.readUInt32BE(0) % count) + 1;
 }
 

@@ -8,7 +8,7 @@ import { dirname, relative, resolve } from 'node:path';
 import type { CheckSettings } from '../engine/settings';
 import type { FailureKind, OpDescriptor, OpResult, Problem } from '../model/types';
 import { Bundler, type BundleResult, type BundleStats } from '../sandbox/bundle';
-import { bundleFramesFrom } from '../sandbox/contextSetup';
+import { bundleFramesFrom } from '../sandbox/bundleWrapper';
 import type { SourcePlace } from '../sandbox/sourceMap';
 import { IsolatedRunner } from '../sandbox/isolated';
 import { emptyStats, type RunnerStats } from '../sandbox/jobTypes';
@@ -176,7 +176,15 @@ export class Checker {
     } catch {
       // A failing listener must not stop the checks.
     }
-    await this.runOps({ abs, source, bundle, settings, opts, emit }, runnable.map((i) => ({ op: ops[i]!, done: (r) => { results[i] = r; } })));
+    await this.runOps(
+      { abs, source, bundle, settings, opts, emit },
+      runnable.map((i) => ({
+        op: ops[i]!,
+        done: (r) => {
+          results[i] = r;
+        },
+      })),
+    );
     return results as OpResult[];
   }
 
@@ -192,7 +200,13 @@ export class Checker {
     setMaxListeners(jobs.length + 10, signal);
     const fileLimitMs = settings.timeLimitMs * FILE_TIME_LIMIT_FACTOR;
     // Each op's coverage run has its own stop; one listener stops them all with the file.
-    signal.addEventListener('abort', () => { for (const c of stop.coverageStops) c.abort(); }, { once: true });
+    signal.addEventListener(
+      'abort',
+      () => {
+        for (const c of stop.coverageStops) c.abort();
+      },
+      { once: true },
+    );
     const onCallerAbort = (): void => stop.controller.abort();
     opts.signal?.addEventListener('abort', onCallerAbort, { once: true });
     if (opts.signal?.aborted) stop.controller.abort();
@@ -223,8 +237,7 @@ export class Checker {
     // verdict: an op that failed (a hang, an allocation bomb) never runs twice, and no
     // coverage run competes with the verdict's run of the same op.
     const coverageStop = new AbortController();
-    const wantCoverage = !interpreted && this.coverageOptions !== undefined && opts.coverage !== false
-      && !signal.aborted && 'outcome' in run && run.outcome.verdict !== 'error';
+    const wantCoverage = !interpreted && this.coverageOptions !== undefined && opts.coverage !== false && !signal.aborted && 'outcome' in run && run.outcome.verdict !== 'error';
     if (wantCoverage) stop.coverageStops.add(coverageStop);
     const coverageRun = wantCoverage ? this.coverageRunners().run({ ...job, signal: coverageStop.signal }) : undefined;
     if ('error' in run && run.cause === 'load') {

@@ -71,12 +71,18 @@ export function summarizeProblems(problems: Problem[]): string {
 /** What a runner's failure cause means for the op (the Checker explains a `cancelled` by what stopped the file). */
 export function failureOfCause(cause: RunFailureCause): FailureKind {
   switch (cause) {
-    case 'timeout': return 'timed-out';
-    case 'crash': return 'runner-crashed';
-    case 'memory': return 'memory-limit';
-    case 'load': return 'load';
-    case 'runner': return 'runner';
+    case 'timeout':
+      return 'timed-out';
+    case 'crash':
+      return 'runner-crashed';
+    case 'memory':
+      return 'memory-limit';
+    case 'load':
+      return 'load';
+    case 'runner':
+      return 'runner';
     case 'closed':
-    case 'cancelled': return 'cancelled';
+    case 'cancelled':
+      return 'cancelled';
   }
 }

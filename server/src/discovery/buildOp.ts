@@ -2,14 +2,13 @@
 // parses every tag, matches @sample tags to parameters, resolves the backward and factories in
 // the module (functionLookup.ts), builds the backward's argument list (backwardArgs.ts), and
 // records each mistake where it stands.
-import ts from 'typescript';
 import { DEFAULT_EXPORT_BINDING, type OpDescriptor, type ParamDescriptor, type SampleSpec, type TagLocation } from '../model/types';
 import { defaultBackwardArgs, explicitBackwardArgs } from './backwardArgs';
 import { backwardSignatureProblem } from './backwardSignature';
 import { DERIVATIVE_KINDS, defaultDerivativeArgs, explicitDerivativeArgs, parseDerivativeTag } from './derivativeTags';
 import type { ForwardSite } from './forwardSites';
 import { checkTopLevelFunction, functionFlavour, resolveBackward } from './functionLookup';
-import type { ModuleBindings } from './moduleBindings';
+import { declaresPrivateMembers, type ModuleBindings } from './moduleBindings';
 import { parseBackwardTag, parseNameListTag, parseNameTag, parseSeedTag, parseToleranceTag, type ParsedBackward } from './otherTags';
 import type { PositionMapper, SpanProblem } from './positions';
 import { nonNumberReturn } from './returnType';
@@ -127,7 +126,12 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   }
   if (!samplesTag) {
     for (const name of paramNames) {
-      if (!samples.has(name) && !defaulted.has(name) && !destructured.has(name)) problems.push({ ...paramSpans.get(name)!, message: `parameter '${name}' has no @sample: add \`@sample ${name} SPEC\` (or use @samples FACTORY)`, fixes: [{ kind: 'add-samples' }] });
+      if (!samples.has(name) && !defaulted.has(name) && !destructured.has(name))
+        problems.push({
+          ...paramSpans.get(name)!,
+          message: `parameter '${name}' has no @sample: add \`@sample ${name} SPEC\` (or use @samples FACTORY)`,
+          fixes: [{ kind: 'add-samples' }],
+        });
     }
   }
   const params: ParamDescriptor[] = [
@@ -157,8 +161,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
       if (!known) {
         const near = suggestName(n.name, paramNames);
         problems.push({ ...n.span, message: `@fixed: '${n.name}' is not a parameter of ${displayName(site)}${near.hint}`, ...fixesField(near.fixes) });
-      }
-      else if (!fixed.includes(n.name)) fixed.push(n.name);
+      } else if (!fixed.includes(n.name)) fixed.push(n.name);
     }
   }
 
@@ -204,12 +207,16 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   const backwardName = parsedBack.name ?? '';
   const resolved = parsedBack.name && parsedBack.nameSpan ? resolveBackward(parsedBack.name, parsedBack.nameSpan, site, ctx.bindings, problems) : undefined;
 
-  const backwardArgs = parsedBack.args
-    ? explicitBackwardArgs(parsedBack, site, paramNames, samples, problems)
-    : defaultBackwardArgs(isMethod, paramNames);
+  const backwardArgs = parsedBack.args ? explicitBackwardArgs(parsedBack, site, paramNames, samples, problems) : defaultBackwardArgs(isMethod, paramNames);
 
   // The backward's declaration against the call the check will make (only when the tag itself is sound).
-  if (backTag && resolved?.fn && !site.unsupported && parsedBack.problems.length === 0 && !problems.some((p) => p.start >= backTag.raw.span.start && p.end <= backTag.raw.span.end)) {
+  if (
+    backTag &&
+    resolved?.fn &&
+    !site.unsupported &&
+    parsedBack.problems.length === 0 &&
+    !problems.some((p) => p.start >= backTag.raw.span.start && p.end <= backTag.raw.span.end)
+  ) {
     const mismatch = backwardSignatureProblem({
       backwardName,
       backward: resolved.fn,
@@ -279,7 +286,11 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
       : defaultDerivativeArgs(kind, paramNames, params, fixed, samplesFactory !== undefined);
     if (kind === 'hessian') {
       const returns = nonNumberReturn(site.fn?.type);
-      if (returns) own.push({ ...(parsed.nameSpan ?? tag.raw.nameSpan), message: `@hessian: ${displayName(site)} returns ${returns}; a Hessian needs a forward that returns a number (use @jacobian for a vector output)` });
+      if (returns)
+        own.push({
+          ...(parsed.nameSpan ?? tag.raw.nameSpan),
+          message: `@hessian: ${displayName(site)} returns ${returns}; a Hessian needs a forward that returns a number (use @jacobian for a vector output)`,
+        });
     }
     const variant: OpDescriptor = {
       ...op,
@@ -327,16 +338,4 @@ function misplacedOp(site: ForwardSite, ctx: BuildContext, problems: SpanProblem
     tags,
     problems: problems.sort((a, b) => a.start - b.start).map((p) => ctx.mapper.problem(p)),
   };
-}
-
-/** Whether the class or a same-file ancestor has `#private` members (state a snapshot cannot see). */
-function declaresPrivateMembers(cls: ts.ClassLikeDeclaration, bindings: ModuleBindings): boolean {
-  const seen = new Set<ts.ClassLikeDeclaration>();
-  for (let cur: ts.ClassLikeDeclaration | undefined = cls; cur && !seen.has(cur); ) {
-    seen.add(cur);
-    if (cur.members.some((m) => m.name !== undefined && ts.isPrivateIdentifier(m.name))) return true;
-    const ext: ts.ExpressionWithTypeArguments | undefined = cur.heritageClauses?.find((h) => h.token === ts.SyntaxKind.ExtendsKeyword)?.types[0];
-    cur = ext && ts.isIdentifier(ext.expression) ? bindings.classes.get(ext.expression.text) : undefined;
-  }
-  return false;
 }

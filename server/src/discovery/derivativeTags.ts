@@ -97,7 +97,12 @@ function parseArg(c: TagCursor, kind: DerivativeKind, problems: SpanProblem[]): 
   if (t.text === OUTPUT_ARG) return { arg: { kind: 'output' }, isField: false, span };
   if (t.text === VECTOR_ARG && kind === 'hessian') return { arg: { kind: 'vector' }, isField: false, span };
   if (t.text === UPSTREAM_ARG) {
-    problems.push(c.problemAt(t, `@${kind}: $dy (an upstream gradient) belongs to @backward; ${kind === 'jacobian' ? 'a Jacobian function returns the whole matrix' : kind === 'tangent' ? 'a tangent function takes the tangents $dNAME' : 'a Hessian function takes $v for a Hessian-vector product'}`));
+    problems.push(
+      c.problemAt(
+        t,
+        `@${kind}: $dy (an upstream gradient) belongs to @backward; ${kind === 'jacobian' ? 'a Jacobian function returns the whole matrix' : kind === 'tangent' ? 'a tangent function takes the tangents $dNAME' : 'a Hessian function takes $v for a Hessian-vector product'}`,
+      ),
+    );
     return undefined;
   }
   if (kind === 'tangent' && t.text.startsWith(TANGENT_PREFIX) && t.text.length > TANGENT_PREFIX.length) {
@@ -145,7 +150,13 @@ function differentiated(p: ParamDescriptor, fixed: readonly string[], hasFactory
  * The default argument list of a kind: every forward parameter in order, and for @tangent one
  * tangent per differentiated parameter (fields included) after them.
  */
-export function defaultDerivativeArgs(kind: DerivativeKind, paramNames: readonly string[], params: readonly ParamDescriptor[], fixed: readonly string[], hasFactory: boolean): BackwardArg[] {
+export function defaultDerivativeArgs(
+  kind: DerivativeKind,
+  paramNames: readonly string[],
+  params: readonly ParamDescriptor[],
+  fixed: readonly string[],
+  hasFactory: boolean,
+): BackwardArg[] {
   const args: BackwardArg[] = paramNames.map((name) => ({ kind: 'param', name }));
   if (kind === 'tangent') {
     for (const p of params) if (differentiated(p, fixed, hasFactory)) args.push({ kind: 'tangent', name: p.name });

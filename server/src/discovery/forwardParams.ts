@@ -34,7 +34,11 @@ export function readForwardParams(site: ForwardSite, rawTags: RawTag[], problems
     if (ts.isIdentifier(p.name) && p.name.text === 'this') continue; // TypeScript's `this` type, not an argument
     if (p === saveParam) continue; // customGrad's save function, passed by the library
     if (p.dotDotDotToken) {
-      problems.push({ start: p.getStart(), end: p.getEnd(), message: `a rest parameter (found '${p.getText()}') cannot be sampled: list the parameters one by one, or pass an array parameter` });
+      problems.push({
+        start: p.getStart(),
+        end: p.getEnd(),
+        message: `a rest parameter (found '${p.getText()}') cannot be sampled: list the parameters one by one, or pass an array parameter`,
+      });
       continue;
     }
     const name = ts.isIdentifier(p.name) ? p.name.text : p.name.getText().replace(/\s+/g, ' ');
@@ -75,7 +79,7 @@ export function sampleTargetProblem(
     return { message: `@sample: '${target.name}' is not a parameter of ${displayName(site)}${near.hint}`, ...fixesField(near.fixes) };
   }
   if (samples.has(target.name)) return { message: `@sample ${target.name} is given twice` };
-  if (!target.isField && samplesFactory) return { message: `@sample ${target.name} conflicts with @samples ${samplesFactory}: the factory supplies the arguments (use @fixed for ones not differentiated)` };
+  if (!target.isField && samplesFactory)
+    return { message: `@sample ${target.name} conflicts with @samples ${samplesFactory}: the factory supplies the arguments (use @fixed for ones not differentiated)` };
   return undefined;
 }
-

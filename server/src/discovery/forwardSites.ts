@@ -34,8 +34,7 @@ export interface ForwardSite {
   customGrad?: boolean;
 }
 
-const NOT_TOP_LEVEL =
-  'is not at the top level of the module: only top-level functions, consts bound to a function and methods of top-level classes can be checked';
+const NOT_TOP_LEVEL = 'is not at the top level of the module: only top-level functions, consts bound to a function and methods of top-level classes can be checked';
 
 function spanOf(node: ts.Node): Span {
   return { start: node.getStart(), end: node.getEnd() };
@@ -89,8 +88,11 @@ function statementSites(st: ts.Statement, lib: TensorLibraryImports): ForwardSit
       } else if (init && ts.isObjectLiteralExpression(init)) {
         // An object of functions: its members are ops; tags on the const itself are misplaced.
         const members = objectMemberSites(d.name.text, init);
-        return ts.getJSDocTags(d).length > 0 ? [{ ...site, unsupported: `'${d.name.text}' is an object: put @backward on the function inside it that is the forward` }, ...members] : members;
-      } else site.unsupported = `'${d.name.text}' is not bound to a function: @backward goes on a function, a const bound to an arrow function, a function expression or a \`tf.customGrad(...)\` call, or a class method`;
+        return ts.getJSDocTags(d).length > 0
+          ? [{ ...site, unsupported: `'${d.name.text}' is an object: put @backward on the function inside it that is the forward` }, ...members]
+          : members;
+      } else
+        site.unsupported = `'${d.name.text}' is not bound to a function: @backward goes on a function, a const bound to an arrow function, a function expression or a \`tf.customGrad(...)\` call, or a class method`;
       return [site];
     });
   }

@@ -80,7 +80,8 @@ export function resolveBackward(
   }
   // The class extends one declared elsewhere: the backward may be inherited; the run will tell.
   if (unknownBase) return { isMethod: true };
-  const where = site.kind === 'method' ? `a method of ${site.className || 'the class'}, a top-level function of this module or an import` : 'a top-level function of this module or an import';
+  const where =
+    site.kind === 'method' ? `a method of ${site.className || 'the class'}, a top-level function of this module or an import` : 'a top-level function of this module or an import';
   const candidates = [...bindings.topLevel.keys(), ...(site.classNode ? site.classNode.members.flatMap((m) => (m.name && ts.isIdentifier(m.name) ? [m.name.text] : [])) : [])];
   // Rename to the near name, or create the missing function (a stub with the checked signature).
   const near = suggestName(name, candidates);

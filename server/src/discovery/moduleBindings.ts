@@ -27,7 +27,8 @@ function spanOf(node: ts.Node): Span {
 /** Strips parentheses and type assertions: `(x => x) as F` is still a function. */
 export function unwrapExpression(e: ts.Expression): ts.Expression {
   let cur = e;
-  while (ts.isParenthesizedExpression(cur) || ts.isAsExpression(cur) || ts.isSatisfiesExpression(cur) || ts.isTypeAssertionExpression(cur) || ts.isNonNullExpression(cur)) cur = cur.expression;
+  while (ts.isParenthesizedExpression(cur) || ts.isAsExpression(cur) || ts.isSatisfiesExpression(cur) || ts.isTypeAssertionExpression(cur) || ts.isNonNullExpression(cur))
+    cur = cur.expression;
   return cur;
 }
 
@@ -96,4 +97,16 @@ export function findMethod(cls: ts.ClassLikeDeclaration, name: string, bindings:
     cur = base;
   }
   return { found: false, unknownBase: false };
+}
+
+/** Whether the class or a same-file ancestor has `#private` members (state a snapshot cannot see). */
+export function declaresPrivateMembers(cls: ts.ClassLikeDeclaration, bindings: ModuleBindings): boolean {
+  const seen = new Set<ts.ClassLikeDeclaration>();
+  for (let cur: ts.ClassLikeDeclaration | undefined = cls; cur && !seen.has(cur);) {
+    seen.add(cur);
+    if (cur.members.some((m) => m.name !== undefined && ts.isPrivateIdentifier(m.name))) return true;
+    const ext: ts.ExpressionWithTypeArguments | undefined = cur.heritageClauses?.find((h) => h.token === ts.SyntaxKind.ExtendsKeyword)?.types[0];
+    cur = ext && ts.isIdentifier(ext.expression) ? bindings.classes.get(ext.expression.text) : undefined;
+  }
+  return false;
 }

@@ -6,10 +6,7 @@ import type { Span, SpanProblem } from './positions';
 import type { RawTag } from './tagText';
 
 /** One written argument of `@backward NAME(...)`. */
-export type WrittenBackwardArg =
-  | { kind: 'param'; name: string; isField: boolean; span: Span }
-  | { kind: 'output'; span: Span }
-  | { kind: 'upstream'; span: Span };
+export type WrittenBackwardArg = { kind: 'param'; name: string; isField: boolean; span: Span } | { kind: 'output'; span: Span } | { kind: 'upstream'; span: Span };
 
 export interface ParsedBackward {
   name?: string;

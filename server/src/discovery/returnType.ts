@@ -4,9 +4,24 @@ import ts from 'typescript';
 
 /** Built-in names whose values are arrays or objects, never a plain number. */
 const NON_NUMBER_TYPE_NAMES = new Set([
-  'Array', 'ReadonlyArray', 'Float64Array', 'Float32Array', 'Int8Array', 'Int16Array', 'Int32Array', 'Uint8Array',
-  'Uint8ClampedArray', 'Uint16Array', 'Uint32Array', 'BigInt64Array', 'BigUint64Array', 'Record', 'Map', 'Set',
-  'Readonly', 'Partial',
+  'Array',
+  'ReadonlyArray',
+  'Float64Array',
+  'Float32Array',
+  'Int8Array',
+  'Int16Array',
+  'Int32Array',
+  'Uint8Array',
+  'Uint8ClampedArray',
+  'Uint16Array',
+  'Uint32Array',
+  'BigInt64Array',
+  'BigUint64Array',
+  'Record',
+  'Map',
+  'Set',
+  'Readonly',
+  'Partial',
 ]);
 
 /**

@@ -89,16 +89,26 @@ export function readLibraryGradientTag(raw: RawTag, site: ForwardSite, isBinding
   if (body === LIBRARY_GRADIENT || body.startsWith(`${LIBRARY_GRADIENT} `) || body.startsWith(`${LIBRARY_GRADIENT}(`)) {
     const problems: SpanProblem[] = [];
     const rest = body.slice(LIBRARY_GRADIENT.length).trim();
-    if (rest) problems.push({ ...span, message: `@backward ${LIBRARY_GRADIENT} takes nothing after it (found '${rest}'): the library differentiates the forward with respect to every sampled parameter` });
+    if (rest)
+      problems.push({
+        ...span,
+        message: `@backward ${LIBRARY_GRADIENT} takes nothing after it (found '${rest}'): the library differentiates the forward with respect to every sampled parameter`,
+      });
     if (site.kind === 'method') problems.push({ ...span, message: `@backward ${LIBRARY_GRADIENT} applies to functions and customGrad consts, not methods` });
     else if (!libraryOf(site).specifier) {
-      problems.push({ ...span, message: `@backward ${LIBRARY_GRADIENT}: this module imports no TensorFlow.js package (@tensorflow/tfjs or @tensorflow/tfjs-core), so there is no library to take the gradient from` });
+      problems.push({
+        ...span,
+        message: `@backward ${LIBRARY_GRADIENT}: this module imports no TensorFlow.js package (@tensorflow/tfjs or @tensorflow/tfjs-core), so there is no library to take the gradient from`,
+      });
     }
     return { kind: 'library', problems };
   }
   const word = firstWord(body);
   if (nearLibraryGradient(body) && !isBinding(word)) {
-    return { kind: 'near-miss', problems: [{ ...span, message: `@backward ${body}: no such function here; did you mean \`@backward ${LIBRARY_GRADIENT}\` (the library's own gradient of the forward)?` }] };
+    return {
+      kind: 'near-miss',
+      problems: [{ ...span, message: `@backward ${body}: no such function here; did you mean \`@backward ${LIBRARY_GRADIENT}\` (the library's own gradient of the forward)?` }],
+    };
   }
   return { kind: 'other' };
 }

@@ -38,7 +38,13 @@ export function runBackwardAttempt(ctx: AttemptContext): AttemptResult {
 
   const directionsBase = ctx.attempt * STREAM_STRIDE + STREAM.directions;
   const at: ParamCheckContext = {
-    h, settings, base, probes, choices, outOfTime: ctx.outOfTime, directions: (s) => substream(ctx.seed, directionsBase, s),
+    h,
+    settings,
+    base,
+    probes,
+    choices,
+    outOfTime: ctx.outOfTime,
+    directions: (s) => substream(ctx.seed, directionsBase, s),
   };
   const checks: ParamCheck[] = [];
   for (let s = 0; s < slots.length; s++) checks[s] = checkParam(at, s);

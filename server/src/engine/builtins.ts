@@ -34,8 +34,14 @@ export interface OpRealm {
 }
 
 const ownRealm: OpRealm = {
-  Float64Array, Float32Array, Int32Array, Uint8Array, objectPrototype: Object.prototype,
-  parseJson: (text: string) => parseJson(text), newList: () => [], newRecord: () => ({}),
+  Float64Array,
+  Float32Array,
+  Int32Array,
+  Uint8Array,
+  objectPrototype: Object.prototype,
+  parseJson: (text: string) => parseJson(text),
+  newList: () => [],
+  newRecord: () => ({}),
 };
 let opRealm: OpRealm = ownRealm;
 

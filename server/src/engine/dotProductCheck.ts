@@ -65,7 +65,8 @@ export function dotProductProbes(
     const t = line.centralStep;
     const sp = line.evalAt(t, plus);
     const sm = line.evalAt(-t, minus);
-    if (sp !== sp || sm !== sm) fail(`forward output is not finite after moving every element of '${slot.name}' by a relative step of ${formatNumber(t, 3)} along a random direction`);
+    if (sp !== sp || sm !== sm)
+      fail(`forward output is not finite after moving every element of '${slot.name}' by a relative step of ${formatNumber(t, 3)} along a random direction`);
     let num = 0;
     let mag = 0;
     const w = us[p];

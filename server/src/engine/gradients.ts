@@ -134,8 +134,7 @@ export function readGradients(result: unknown, slots: ParamSlot[], dests: Float6
       fail(`backward returned ${result.length} gradient${result.length === 1 ? '' : 's'} for ${n} parameters (${names})`);
     }
     entries = result;
-  } else if (result !== null && typeof result === 'object' && !isView(result) &&
-    isPlainPrototype(getPrototypeOf(result))) {
+  } else if (result !== null && typeof result === 'object' && !isView(result) && isPlainPrototype(getPrototypeOf(result))) {
     entries = [];
     const obj = result as Record<string, unknown>;
     for (let i = 0; i < n; i++) {

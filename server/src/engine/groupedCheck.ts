@@ -16,14 +16,7 @@ import { ROUNDOFF_ULPS, relativeStep } from './precision';
  * null when an output moved outside every band of its group: the structure hypothesis was
  * wrong, and the caller falls back to another method (never to a verdict).
  */
-export function estimateGrouped(
-  h: OpHarness,
-  slot: ParamSlot,
-  st: Structure,
-  ws: Float64Array[],
-  uOut: number,
-  outOfTime: () => boolean,
-): ElementEstimates | null {
+export function estimateGrouped(h: OpHarness, slot: ParamSlot, st: Structure, ws: Float64Array[], uOut: number, outOfTime: () => boolean): ElementEstimates | null {
   const n = slot.size;
   const m = st.m;
   const K = ws.length;
@@ -44,7 +37,10 @@ export function estimateGrouped(
   for (let g = 0; g < st.colours; g++) {
     if (outOfTime()) {
       stopAtTimeLimit(`check of '${slot.name}' stopped at the time limit after ${g} of ${st.colours} grouped perturbations`, {
-        param: slot.name, stage: 'grouped perturbations', done: g, total: st.colours,
+        param: slot.name,
+        stage: 'grouped perturbations',
+        done: g,
+        total: st.colours,
       });
     }
     const restore = (): void => {

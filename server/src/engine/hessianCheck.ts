@@ -36,7 +36,8 @@ interface Reference {
 
 function chooseReference(op: OpDescriptor, settings: CheckSettings, runBackward: BackwardRunner): Reference {
   const g = op.gradient;
-  if (g === undefined) return { gradientOp: null, note: 'reference: second differences of the forward (step u^(1/4); the op has no @backward)', calls: { forward: 0, backward: 0 } };
+  if (g === undefined)
+    return { gradientOp: null, note: 'reference: second differences of the forward (step u^(1/4); the op has no @backward)', calls: { forward: 0, backward: 0 } };
   const gradientOp: OpDescriptor = {
     ...op,
     kind: 'backward',
@@ -48,7 +49,11 @@ function chooseReference(op: OpDescriptor, settings: CheckSettings, runBackward:
   delete gradientOp.gradient;
   const outcome = runBackward(gradientOp, { ...settings, timeLimitMs: settings.timeLimitMs * REFERENCE_TIME_SHARE, stepScans: 'none' });
   if (outcome.verdict === 'pass') return { gradientOp, note: `reference: central differences of the @backward '${g.name}', which passes`, calls: outcome.calls };
-  return { gradientOp: null, note: `reference: second differences of the forward (step u^(1/4)), because the @backward '${g.name}' did not pass (${outcome.verdict})`, calls: outcome.calls };
+  return {
+    gradientOp: null,
+    note: `reference: second differences of the forward (step u^(1/4)), because the @backward '${g.name}' did not pass (${outcome.verdict})`,
+    calls: outcome.calls,
+  };
 }
 
 export function runHessianCheck(
@@ -126,9 +131,10 @@ function matrixAttempt(ctx: AttemptContext, base: Baseline, c: Coords, gm: Gradi
       analyticWord: 'hessian',
       numericWord: gm !== null ? 'differences of the gradient' : 'second differences',
     };
-    checks[s] = gm !== null && g0 !== null
-      ? checkMatrixBlock(gm, slot, rows, g0, ws, base.uOut, base.tol, base.precision, 'gradient-differences', naming, ctx.outOfTime, base.forwardMs)
-      : secondDifferenceBlock(h, base, c, s, rows, naming, ctx.outOfTime);
+    checks[s] =
+      gm !== null && g0 !== null
+        ? checkMatrixBlock(gm, slot, rows, g0, ws, base.uOut, base.tol, base.precision, 'gradient-differences', naming, ctx.outOfTime, base.forwardMs)
+        : secondDifferenceBlock(h, base, c, s, rows, naming, ctx.outOfTime);
   }
   if (asymmetry !== '') {
     for (let s = 0; s < checks.length; s++) if (checks[s].result.verdict === 'mismatch') checks[s].result.hints[checks[s].result.hints.length] = asymmetry;
@@ -158,4 +164,3 @@ function asymmetryHint(H: Float64Array, n: number, tol: number, name: (g: number
   if (wa < 0) return '';
   return `the Hessian is not symmetric: H[${wa}, ${wb}] = ${formatNumber(H[wa * n + wb])} (${name(wa)}, ${name(wb)}) but H[${wb}, ${wa}] = ${formatNumber(H[wb * n + wa])}; second derivatives of a smooth function commute`;
 }
-

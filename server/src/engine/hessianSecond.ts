@@ -32,10 +32,11 @@ export function coordsOf(slots: ParamSlot[]): Coords {
   }
   const slotOf = new I32(n);
   const indexOf = new I32(n);
-  for (let s = 0; s < slots.length; s++) for (let i = 0; i < slots[s].size; i++) {
-    slotOf[offsets[s] + i] = s;
-    indexOf[offsets[s] + i] = i;
-  }
+  for (let s = 0; s < slots.length; s++)
+    for (let i = 0; i < slots[s].size; i++) {
+      slotOf[offsets[s] + i] = s;
+      indexOf[offsets[s] + i] = i;
+    }
   return { slotOf, indexOf, offsets, n };
 }
 
@@ -69,12 +70,17 @@ export function secondDifferenceBlock(h: OpHarness, base: Baseline, c: Coords, s
       progress.done = i;
       indices[i] = i;
       if (outOfTime()) {
-        stopAtTimeLimit(`check of '${slot.name}' stopped at the time limit after ${i} of ${slot.size} columns of second differences`, { param: slot.name, stage: 'elements', done: i, total: slot.size });
+        stopAtTimeLimit(`check of '${slot.name}' stopped at the time limit after ${i} of ${slot.size} columns of second differences`, {
+          param: slot.name,
+          stage: 'elements',
+          done: i,
+          total: slot.size,
+        });
       }
       const a = unitMove(slot, i);
       for (let k = 0; k < n; k++) {
         const b = unitMove(base.slots[c.slotOf[k]], c.indexOf[k]);
-        const tt = max(0, (t < maxSecondStep([a[0], b[0]]) ? t : maxSecondStep([a[0], b[0]])));
+        const tt = max(0, t < maxSecondStep([a[0], b[0]]) ? t : maxSecondStep([a[0], b[0]]));
         const d = tt > 0 ? secondDifference(h, a, b, tt, base.uOut) : null;
         if (d === null) fail(`forward output is not finite at the second-difference points of ${elementName(slot, i)} and ${naming.rowName(k)}`);
         const scale = a[0].coef * b[0].coef;
@@ -122,7 +128,8 @@ export function secondDifferenceBlock(h: OpHarness, base: Baseline, c: Coords, s
         cmp.worstProbe[i] = k;
       } else if (!r.settled && state === ElementState.ok) {
         state = ElementState.uncertain;
-        if (uncertainNote === '') uncertainNote = `the second-difference estimate of H[${k}, ${naming.colOffset + i}] is unreliable (error ${formatNumber(r.bound, 3)} against a value of ${formatNumber(numeric[k][i], 6)}; hessian gives ${formatNumber(rows[k][i], 6)})`;
+        if (uncertainNote === '')
+          uncertainNote = `the second-difference estimate of H[${k}, ${naming.colOffset + i}] is unreliable (error ${formatNumber(r.bound, 3)} against a value of ${formatNumber(numeric[k][i], 6)}; hessian gives ${formatNumber(rows[k][i], 6)})`;
       }
     }
     cmp.state[i] = state;

@@ -113,7 +113,10 @@ function show(v: unknown): string {
 export class InputGuard {
   private readonly snaps: Snap[] = [];
 
-  constructor(private readonly names: string[], values: unknown[]) {
+  constructor(
+    private readonly names: string[],
+    values: unknown[],
+  ) {
     for (let i = 0; i < values.length; i++) this.snaps[i] = snap(values[i], 0);
   }
 

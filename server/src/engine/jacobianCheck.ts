@@ -37,7 +37,8 @@ function jacobianAttempt(ctx: AttemptContext): AttemptResult {
   const base = takeBaseline(h, op, settings, ctx.stream(STREAM.inputs), ctx.clock);
   const { slots, y0, layout } = base;
   const m = y0.length;
-  if (m > JACOBIAN_MAX_OUTPUTS) fail(`forward has ${m} outputs; an entry-by-entry Jacobian check takes at most ${JACOBIAN_MAX_OUTPUTS} (check J·t with @tangent or Jᵀ·dy with @backward instead)`);
+  if (m > JACOBIAN_MAX_OUTPUTS)
+    fail(`forward has ${m} outputs; an entry-by-entry Jacobian check takes at most ${JACOBIAN_MAX_OUTPUTS} (check J·t with @tangent or Jᵀ·dy with @backward instead)`);
   const what = `jacobian '${op.backward}'`;
   const raw = h.derivativeRaw(y0, () => undefined);
   checkUnchanged(h, base, what);
@@ -46,7 +47,9 @@ function jacobianAttempt(ctx: AttemptContext): AttemptResult {
   for (let s = 0; s < slots.length; s++) {
     const slot = slots[s];
     const label = slots.length === 1 ? `${what} result` : `${what} matrix of '${slot.name}'`;
-    const a = readingResult(what, () => readMatrix(parts[s], m, slot.size, label, `${m} output${m === 1 ? '' : 's'}`, `${slot.size} element${slot.size === 1 ? '' : 's'} of '${slot.name}'`));
+    const a = readingResult(what, () =>
+      readMatrix(parts[s], m, slot.size, label, `${m} output${m === 1 ? '' : 's'}`, `${slot.size} element${slot.size === 1 ? '' : 's'} of '${slot.name}'`),
+    );
     for (let e = 0; e < a.length; e++) {
       const v = a[e];
       if (v - v !== 0) fail(`${label} has ${v !== v ? 'NaN' : 'an infinite value'} at [${(e - (e % slot.size)) / slot.size}, ${e % slot.size}]`);
@@ -56,13 +59,26 @@ function jacobianAttempt(ctx: AttemptContext): AttemptResult {
   const ws = unitVectors(m);
   const checks: KindParamCheck[] = [];
   for (let s = 0; s < slots.length; s++) {
-    checks[s] = checkMatrixBlock(h, slots[s], analytic[s], y0, ws, base.uOut, base.tol, base.precision, 'full', {
-      symbol: slots.length === 1 ? 'J' : `J_${slots[s].name}`,
-      colOffset: 0,
-      rowName: (k) => outputName(layout, k),
-      analyticWord: 'jacobian',
-      numericWord: 'finite differences',
-    }, ctx.outOfTime, base.forwardMs);
+    checks[s] = checkMatrixBlock(
+      h,
+      slots[s],
+      analytic[s],
+      y0,
+      ws,
+      base.uOut,
+      base.tol,
+      base.precision,
+      'full',
+      {
+        symbol: slots.length === 1 ? 'J' : `J_${slots[s].name}`,
+        colOffset: 0,
+        rowName: (k) => outputName(layout, k),
+        analyticWord: 'jacobian',
+        numericWord: 'finite differences',
+      },
+      ctx.outOfTime,
+      base.forwardMs,
+    );
   }
   return kindAttemptResult(ctx, checks, base.inputs, '');
 }

@@ -115,7 +115,9 @@ export function matrixHints(analytic: Float64Array[], est: ElementEstimates, cmp
         else if (abs(a - est.numeric[k][i]) > 0) support++;
       }
     }
-    if (holds && support > 0) hints[hints.length] = `the matrix looks transposed: it matches the numeric one with rows and columns exchanged (rows must be ${naming.symbol === 'H' ? 'gradient entries' : 'outputs'})`;
+    if (holds && support > 0)
+      hints[hints.length] =
+        `the matrix looks transposed: it matches the numeric one with rows and columns exchanged (rows must be ${naming.symbol === 'H' ? 'gradient entries' : 'outputs'})`;
   }
   return hints;
 }
@@ -180,13 +182,20 @@ export function summariseBlock(
     note = `${naming.symbol}[${k}, ${naming.colOffset + i}] (${naming.rowName(k)}, ${elementName(slot, i)}): ${naming.analyticWord} gives ${formatNumber(analytic[k][i])}, ${naming.numericWord} ${formatNumber(est.numeric[k][i])} (relative error ${formatNumber(cmp.rel[worstPos], 3)})`;
   } else if (refine.uncertain > 0 || refine.unrefined > 0) {
     verdict = 'inconclusive';
-    note = refine.uncertainNote !== ''
-      ? `'${slot.name}': ${refine.uncertainNote}`
-      : `'${slot.name}': ${refine.unrefined} suspicious column${refine.unrefined === 1 ? '' : 's'} could not be refined within the limits`;
+    note =
+      refine.uncertainNote !== ''
+        ? `'${slot.name}': ${refine.uncertainNote}`
+        : `'${slot.name}': ${refine.unrefined} suspicious column${refine.unrefined === 1 ? '' : 's'} could not be refined within the limits`;
   }
-  const worst = worstPos >= 0
-    ? { index: unravelSlot(slot, worstPos), analytic: analytic[cmp.worstProbe[worstPos]][worstPos], numeric: est.numeric[cmp.worstProbe[worstPos]][worstPos], relError: cmp.rel[worstPos] }
-    : null;
+  const worst =
+    worstPos >= 0
+      ? {
+          index: unravelSlot(slot, worstPos),
+          analytic: analytic[cmp.worstProbe[worstPos]][worstPos],
+          numeric: est.numeric[cmp.worstProbe[worstPos]][worstPos],
+          relError: cmp.rel[worstPos],
+        }
+      : null;
   const result = kindParamResult(slot, {
     verdict,
     method,

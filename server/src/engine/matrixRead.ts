@@ -73,8 +73,7 @@ export function readMatrix(value: unknown, m: number, n: number, label: string, 
 export function splitParts(result: unknown, slots: ParamSlot[], what: string, partText: string): unknown[] {
   const n = slots.length;
   const parts: unknown[] = [];
-  const plainObject = result !== null && typeof result === 'object' && !isArray(result) && !isView(result) &&
-    isPlainPrototype(getPrototypeOf(result));
+  const plainObject = result !== null && typeof result === 'object' && !isArray(result) && !isView(result) && isPlainPrototype(getPrototypeOf(result));
   if (n === 1) {
     if (plainObject && ownKey(result as object, slots[0].key)) parts[0] = (result as Record<string, unknown>)[slots[0].key];
     else parts[0] = result;
@@ -87,7 +86,10 @@ export function splitParts(result: unknown, slots: ParamSlot[], what: string, pa
     keys[i] = slots[i].key;
   }
   if (isArray(result)) {
-    if (result.length !== n) fail(`${what} returned ${result.length} ${partText}${result.length === 1 ? '' : 's'} for ${n} parameters (${quotedList(names)}); expected one per parameter, in declaration order`);
+    if (result.length !== n)
+      fail(
+        `${what} returned ${result.length} ${partText}${result.length === 1 ? '' : 's'} for ${n} parameters (${quotedList(names)}); expected one per parameter, in declaration order`,
+      );
     for (let i = 0; i < n; i++) parts[i] = result[i];
     return parts;
   }

@@ -219,13 +219,7 @@ export function widened(st: Structure): Structure | null {
   return colours === 0 ? null : { lo, hi, colours, n: st.n, m: st.m };
 }
 
-export function chooseMethod(
-  h: OpHarness,
-  slot: ParamSlot,
-  y0: Float64Array,
-  settings: CheckSettings,
-  random: RandomSource,
-): { method: CheckMethod; structure: Structure | null } {
+export function chooseMethod(h: OpHarness, slot: ParamSlot, y0: Float64Array, settings: CheckSettings, random: RandomSource): { method: CheckMethod; structure: Structure | null } {
   const n = slot.size;
   const m = y0.length;
   // Above the large-parameter limit, or when one column per element costs more than probing.

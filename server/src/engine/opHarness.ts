@@ -79,12 +79,22 @@ export class OpHarness extends ForwardMap {
     if (this.stopClock === null || !(this.stopClock() > this.stopTime)) return;
     const pr = this.perturbation.progress;
     if (pr !== undefined) {
-      stopAtTimeLimit(`check of '${pr.param}' stopped at the time limit after ${pr.done} of ${pr.total} ${pr.unit}`, { param: pr.param, stage: pr.stage, done: pr.done, total: pr.total });
+      stopAtTimeLimit(`check of '${pr.param}' stopped at the time limit after ${pr.done} of ${pr.total} ${pr.unit}`, {
+        param: pr.param,
+        stage: pr.stage,
+        done: pr.done,
+        total: pr.total,
+      });
     }
     const slot = this.perturbation.slot;
     const name = slot !== null ? slot.name : this.op.params.length > 0 ? this.op.params[0].name : this.op.forward;
     const calls = this.calls.forward + this.calls.backward;
-    stopAtTimeLimit(`check of '${name}' stopped at the time limit of ${this.stopLimitMs} ms after ${calls} calls of the op`, { param: name, stage: 'forward calls', done: calls, total: calls });
+    stopAtTimeLimit(`check of '${name}' stopped at the time limit of ${this.stopLimitMs} ms after ${calls} calls of the op`, {
+      param: name,
+      stage: 'forward calls',
+      done: calls,
+      total: calls,
+    });
   }
 
   /** Creates the instance (methods) and draws the inputs of one attempt. */

@@ -80,11 +80,12 @@ export function summarise(
     }
   } else if (refine.uncertain > 0 || dotUncertain > 0 || refine.unrefined > 0) {
     verdict = 'inconclusive';
-    note = refine.uncertainNote !== ''
-      ? `'${slot.name}': ${refine.uncertainNote}`
-      : refine.unrefined > 0
-        ? `'${slot.name}': ${refine.unrefined} suspicious element${refine.unrefined === 1 ? '' : 's'} could not be refined within the limits`
-        : `'${slot.name}': the dot-product estimate is unreliable in ${dotUncertain} direction${dotUncertain === 1 ? '' : 's'}`;
+    note =
+      refine.uncertainNote !== ''
+        ? `'${slot.name}': ${refine.uncertainNote}`
+        : refine.unrefined > 0
+          ? `'${slot.name}': ${refine.unrefined} suspicious element${refine.unrefined === 1 ? '' : 's'} could not be refined within the limits`
+          : `'${slot.name}': the dot-product estimate is unreliable in ${dotUncertain} direction${dotUncertain === 1 ? '' : 's'}`;
   }
   let kink = refine.kink;
   if (kink === null && dotKink && verdict !== 'mismatch') {
@@ -92,14 +93,15 @@ export function summarise(
     kink = { slot, index: 0, value: slot.get(0), jump: 0 };
   }
 
-  const worst = worstPos >= 0
-    ? {
-        index: unravelSlot(slot, est.indices[worstPos]),
-        analytic: analytic[cmp.worstProbe[worstPos]][est.indices[worstPos]],
-        numeric: est.numeric[cmp.worstProbe[worstPos]][worstPos],
-        relError: cmp.rel[worstPos],
-      }
-    : null;
+  const worst =
+    worstPos >= 0
+      ? {
+          index: unravelSlot(slot, est.indices[worstPos]),
+          analytic: analytic[cmp.worstProbe[worstPos]][est.indices[worstPos]],
+          numeric: est.numeric[cmp.worstProbe[worstPos]][worstPos],
+          relError: cmp.rel[worstPos],
+        }
+      : null;
   const result: ParamResult = {
     name: slot.name,
     verdict,

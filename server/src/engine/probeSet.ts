@@ -123,7 +123,18 @@ export function termSums(g: Float64Array, start: number, count: number, dir: Flo
  * gradient g, with a tolerance term of at most tolTermCap. Returns the figures and whether the
  * discrepancy is evidence.
  */
-export function probeSet(ctx: SplitContext, sc: Scratch, start: number, count: number, dir: Float64Array, at: number, u: Float64Array, g: Float64Array, magnitude: number, tolTermCap: number): SetProbe {
+export function probeSet(
+  ctx: SplitContext,
+  sc: Scratch,
+  start: number,
+  count: number,
+  dir: Float64Array,
+  at: number,
+  u: Float64Array,
+  g: Float64Array,
+  magnitude: number,
+  tolTermCap: number,
+): SetProbe {
   const line = rangeLine(ctx.h, ctx.slot, sc.geo, start, count, dir, at);
   const sums = termSums(g, start, count, dir, at);
   const analytic = sums.sum;
@@ -133,7 +144,7 @@ export function probeSet(ctx: SplitContext, sc: Scratch, start: number, count: n
   // adds, or below the outputs' rounding at the initial step: the error taken is never below
   // that resolution, so further columns would cost forward calls and change nothing (measured:
   // softmax over 1,000,000, 57 forward calls for a pass before, 33 after).
-  const target = (PROBE_TARGET_SHARE / TOLERANCE_TERM_SHARE) * tolTerm / PROBE_EVIDENCE_FACTOR;
+  const target = ((PROBE_TARGET_SHARE / TOLERANCE_TERM_SHARE) * tolTerm) / PROBE_EVIDENCE_FACTOR;
   const h0 = PROBE_INITIAL_SHARE * line.refineStep;
   const enough = max(target, (ROUNDOFF_ULPS * ctx.uOut * magnitude) / h0);
   const col = new F64(1);
@@ -179,4 +190,3 @@ export function tolTermOf(ctx: SplitContext, s2: number, count: number, cap: num
 export function thresholdOf(ctx: SplitContext, sums: { s1: number; s2: number }, tolTerm: number, numericError: number): number {
   return PROBE_EVIDENCE_FACTOR * numericError + ROUNDOFF_ULPS * UNIT_ROUNDOFF_F64 * sums.s1 + ANALYTIC_NOISE_SIGMAS * ROUNDOFF_ULPS * ctx.uGrad * sqrt(sums.s2) + tolTerm;
 }
-

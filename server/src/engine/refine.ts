@@ -259,9 +259,10 @@ export function refineSuspicious(
     cmp.worstProbe[p] = bestK;
     // A confirmed mismatch reports the relative error of its own two numbers; otherwise the
     // error is tempered by the estimate's bound (relativeError).
-    cmp.rel[p] = state === ElementState.mismatch
-      ? abs(analytic[bestK][i] - est.numeric[bestK][p]) / max(abs(analytic[bestK][i]), abs(est.numeric[bestK][p]), cmp.floors[bestK], 1e-300)
-      : relativeError(analytic[bestK][i], est.numeric[bestK][p], est.bound[bestK][p], tol, cmp.floors[bestK]);
+    cmp.rel[p] =
+      state === ElementState.mismatch
+        ? abs(analytic[bestK][i] - est.numeric[bestK][p]) / max(abs(analytic[bestK][i]), abs(est.numeric[bestK][p]), cmp.floors[bestK], 1e-300)
+        : relativeError(analytic[bestK][i], est.numeric[bestK][p], est.bound[bestK][p], tol, cmp.floors[bestK]);
     if (state === ElementState.mismatch) summary.confirmed++;
     if (state === ElementState.uncertain) {
       summary.uncertain++;

@@ -33,12 +33,7 @@ export interface RiddersResult {
  * `central(h)` returns the central difference of every projection at step h, or null when the
  * forward was not finite there (the step then shrinks).
  */
-export function ridders(
-  central: (h: number) => Float64Array | null,
-  h0: number,
-  count: number,
-  settled?: (value: number, error: number, p: number) => boolean,
-): RiddersResult {
+export function ridders(central: (h: number) => Float64Array | null, h0: number, count: number, settled?: (value: number, error: number, p: number) => boolean): RiddersResult {
   const value = new F64(count);
   const error = new F64(count);
   for (let p = 0; p < count; p++) error[p] = Infinity;
@@ -75,10 +70,7 @@ export function ridders(
         for (let j = 1; j <= i; j++) {
           t[j * RIDDERS_NTAB + i] = (t[(j - 1) * RIDDERS_NTAB + i] * fac - t[(j - 1) * RIDDERS_NTAB + i - 1]) / (fac - 1);
           fac *= con2;
-          const errt = max(
-            abs(t[j * RIDDERS_NTAB + i] - t[(j - 1) * RIDDERS_NTAB + i]),
-            abs(t[j * RIDDERS_NTAB + i] - t[(j - 1) * RIDDERS_NTAB + i - 1]),
-          );
+          const errt = max(abs(t[j * RIDDERS_NTAB + i] - t[(j - 1) * RIDDERS_NTAB + i]), abs(t[j * RIDDERS_NTAB + i] - t[(j - 1) * RIDDERS_NTAB + i - 1]));
           if (errt <= error[p]) {
             error[p] = errt;
             value[p] = t[j * RIDDERS_NTAB + i];

@@ -2,7 +2,28 @@
 // seeded generator, keeps `avoid` points at a margin, and wraps every differentiated parameter
 // in a ParamSlot.
 
-import { abs, isF32, isF64, newOpF32, newOpF64, newOpI32, contains, describeThrown, sliceText, describeValue, formatNumber, isArray, isFiniteNumber, isInteger, max, min, newOpList, parseJsonForOp, reflectApply, stringifyJson } from './builtins';
+import {
+  abs,
+  isF32,
+  isF64,
+  newOpF32,
+  newOpF64,
+  newOpI32,
+  contains,
+  describeThrown,
+  sliceText,
+  describeValue,
+  formatNumber,
+  isArray,
+  isFiniteNumber,
+  isInteger,
+  max,
+  min,
+  newOpList,
+  parseJsonForOp,
+  reflectApply,
+  stringifyJson,
+} from './builtins';
 import { fail, failThrown } from './failure';
 import { nestedShape } from './outputLayout';
 import { ParamSlot, nestedLeaves, precisionOf } from './paramSlot';

@@ -54,13 +54,27 @@ function run(exposed: unknown, requestJson: string, realm?: unknown): string {
     request = parseJson(requestJson) as OpCheckRequest;
   } catch (e) {
     return stringifyJson({
-      verdict: 'error', failure: 'internal', seed: 0, message: `the check request is not valid JSON: ${String(e)}`, hints: [], params: [], calls: { forward: 0, backward: 0 },
+      verdict: 'error',
+      failure: 'internal',
+      seed: 0,
+      message: `the check request is not valid JSON: ${String(e)}`,
+      hints: [],
+      params: [],
+      calls: { forward: 0, backward: 0 },
     });
   }
   const bindings = exposed !== null && typeof exposed === 'object' ? (exposed as Record<string, unknown>) : {};
   const opRealm = realm === undefined ? undefined : readRealm(realm);
   if (realm !== undefined && opRealm === undefined) {
-    return stringifyJson({ verdict: 'error', failure: 'internal', seed: 0, message: 'internal: the op context handed the engine no usable realm', hints: [], params: [], calls: { forward: 0, backward: 0 } });
+    return stringifyJson({
+      verdict: 'error',
+      failure: 'internal',
+      seed: 0,
+      message: 'internal: the op context handed the engine no usable realm',
+      hints: [],
+      params: [],
+      calls: { forward: 0, backward: 0 },
+    });
   }
   enterOpRealm(opRealm ?? null);
   try {

@@ -230,7 +230,18 @@ function splitPart(ctx: SplitContext, sc: Scratch, us: Float64Array[], grads: Fl
   const gapA = abs(a.analytic - a.numeric);
   const gapB = abs(bAnalytic - bNumeric);
   const aPart: Part = partOf(aStart, half, part.dir, part.at, part.p, a);
-  const bPart: Part = { start: bStart, count: bCount, dir: part.dir, at: bAt, p: part.p, analytic: bAnalytic, numeric: bNumeric, numericError: bError, threshold: bThreshold, tolTerm: bTolTerm };
+  const bPart: Part = {
+    start: bStart,
+    count: bCount,
+    dir: part.dir,
+    at: bAt,
+    p: part.p,
+    analytic: bAnalytic,
+    numeric: bNumeric,
+    numericError: bError,
+    threshold: bThreshold,
+    tolTerm: bTolTerm,
+  };
   if (aFlag && bFlag) return gapA >= gapB ? [aPart, bPart] : [bPart, aPart];
   if (aFlag) return [aPart];
   if (bFlag) {
@@ -324,4 +335,3 @@ export function describeSearch(slot: ParamSlot, r: SplitResult): string {
   }
   return `'${slot.name}': ${flagged} of ${r.rootProbes.length} dot-product probes flagged; ${r.est.indices.length} element${r.est.indices.length === 1 ? '' : 's'} compared one by one`;
 }
-

@@ -118,7 +118,8 @@ function tangentAttempt(ctx: AttemptContext): AttemptResult {
     if (abs(together[j] - sums[j]) > base.tol * max(abs(together[j]), abs(sums[j]), 1e-300) + ROUNDOFF_ULPS * 2 ** -52 * (abs(sums[j]) + abs(together[j]))) {
       result.verdict = 'mismatch';
       result.message = `with every tangent at once, ${outputName(base.layout, j)} is ${formatNumber(together[j])}, but the per-parameter products add up to ${formatNumber(sums[j])}: the tangent is not linear in its tangents`;
-      result.hints[result.hints.length] = 'each parameter alone agrees with finite differences; look for a product of two tangents or a term that depends on another parameter\'s tangent';
+      result.hints[result.hints.length] =
+        "each parameter alone agrees with finite differences; look for a product of two tangents or a term that depends on another parameter's tangent";
       break;
     }
   }

@@ -141,9 +141,11 @@ export class TensorBridge {
   private scoped(fn: () => unknown): unknown {
     let result: unknown;
     // Nothing is returned from the scope (the result is plain arrays), so nothing is kept.
-    reflectApply(this.lib.tidy, this.lib, [(): void => {
-      result = fn();
-    }]);
+    reflectApply(this.lib.tidy, this.lib, [
+      (): void => {
+        result = fn();
+      },
+    ]);
     return result;
   }
 
@@ -216,9 +218,10 @@ export class TensorBridge {
       sample.args[i] = shape.length === 0 ? copy[0] : copy;
       if (!float || contains(fixed, name)) continue;
       const host = sample.args as unknown as Record<number, unknown>;
-      added[i] = shape.length === 0
-        ? new ParamSlot(name, name, 'f32', 'f32', [], 1, host, i, null, null, [])
-        : new ParamSlot(name, name, 'f32', 'f32', shape, copy.length, host, i, copy, null, []);
+      added[i] =
+        shape.length === 0
+          ? new ParamSlot(name, name, 'f32', 'f32', [], 1, host, i, null, null, [])
+          : new ParamSlot(name, name, 'f32', 'f32', shape, copy.length, host, i, copy, null, []);
       any = true;
     }
     if (!any) return;
@@ -243,7 +246,9 @@ export class TensorBridge {
     for (let k = 0; k < differentiated.length; k++) {
       const pos = positionOf(this.paramNames, differentiated[k]);
       if (pos < 0 || !this.tensorParams[pos]) {
-        fail(`@backward library-gradient differentiates tensor parameters only: '${differentiated[k]}' is not declared as a tensor (declare it as tf.Tensor, or sample it \`fixed\`)`);
+        fail(
+          `@backward library-gradient differentiates tensor parameters only: '${differentiated[k]}' is not declared as a tensor (declare it as tf.Tensor, or sample it \`fixed\`)`,
+        );
       }
       positions[k] = pos;
     }
@@ -266,7 +271,8 @@ export class TensorBridge {
         if (e instanceof CheckStop) throw e;
         fail(`the library's gradient call (grads) failed: ${describeThrown(e)}`);
       }
-      if (!isArray(result) || result.length !== positions.length) fail(`the library's gradient call returned ${describeValue(result)}, expected ${positions.length} gradient${positions.length === 1 ? '' : 's'}`);
+      if (!isArray(result) || result.length !== positions.length)
+        fail(`the library's gradient call returned ${describeValue(result)}, expected ${positions.length} gradient${positions.length === 1 ? '' : 's'}`);
       const out: unknown[] = [];
       for (let k = 0; k < positions.length; k++) {
         const g = (result as unknown[])[k];

@@ -41,7 +41,10 @@ function inputsUnchanged(inputs: ReadonlyMap<string, string>): boolean {
 
 /** Why a run did not happen: the message is shown to the user as is, the code is for programs. */
 export class CheckRefused extends Error {
-  constructor(message: string, readonly code: ReasonCode) {
+  constructor(
+    message: string,
+    readonly code: ReasonCode,
+  ) {
     super(message);
   }
 }
@@ -151,10 +154,13 @@ export class CheckService {
     // Unique names: a client may name an op twice (a file and its op both selected).
     const wanted = [...new Set(request.forwards ?? request.knownForwards)];
     const stored = this.results.get(request.uri);
-    const reusable = !request.force && wanted.length > 0 && wanted.every((f) => {
-      const entry = stored?.get(f);
-      return entry?.key === key && inputsUnchanged(entry.inputs);
-    });
+    const reusable =
+      !request.force &&
+      wanted.length > 0 &&
+      wanted.every((f) => {
+        const entry = stored?.get(f);
+        return entry?.key === key && inputsUnchanged(entry.inputs);
+      });
     if (reusable) return wanted.map((f) => stored!.get(f)!.result);
 
     this.started += wanted.length;
@@ -215,7 +221,7 @@ export class CheckService {
       }
     } catch (err) {
       if (!controller.signal.aborted) {
-        this.log(`check of ${request.fsPath} failed: ${err instanceof Error ? err.stack ?? err.message : String(err)}`);
+        this.log(`check of ${request.fsPath} failed: ${err instanceof Error ? (err.stack ?? err.message) : String(err)}`);
         throw err;
       }
     } finally {
@@ -223,7 +229,11 @@ export class CheckService {
       request.signal?.removeEventListener('abort', onOuterAbort);
       controllers.delete(controller);
       if (controllers.size === 0) this.controllers.delete(request.uri);
-      this.markRunning(request.uri, wanted.filter((f) => !finished.has(f)), -1);
+      this.markRunning(
+        request.uri,
+        wanted.filter((f) => !finished.has(f)),
+        -1,
+      );
       this.onChange(request.uri);
       this.heap.afterCheck();
     }

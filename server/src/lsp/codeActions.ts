@@ -145,10 +145,16 @@ export function stubText(sm: SiteModel, op: OpDescriptor, name: string, indent: 
   // matrix per parameter; a Hessian one matrix (or H·v); a tangent is shaped like the output.
   const perParam = kind === 'jacobian' ? differentiated.map((p) => `${p.name.replace(/^this\./, '')}: Float64Array`) : fieldsOf;
   const single = differentiated.length === 1 && !differentiated[0]!.isField;
-  const returnType = kind === 'tangent' ? outputType
-    : kind === 'hessian' ? 'Float64Array'
-    : single ? (kind === 'jacobian' ? 'Float64Array' : typeText(all.find((q) => q.name === differentiated[0]!.name)))
-    : `{ ${perParam.join('; ')} }`;
+  const returnType =
+    kind === 'tangent'
+      ? outputType
+      : kind === 'hessian'
+        ? 'Float64Array'
+        : single
+          ? kind === 'jacobian'
+            ? 'Float64Array'
+            : typeText(all.find((q) => q.name === differentiated[0]!.name))
+          : `{ ${perParam.join('; ')} }`;
   const head = sm.site.kind === 'method' ? '' : isExported(sm) ? 'export function ' : 'function ';
   return [
     `${indent}${head}${name}(${params.join(', ')}): ${returnType} {`,

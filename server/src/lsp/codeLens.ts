@@ -19,9 +19,10 @@ export function codeLensesFor(facts: DocumentFacts): CodeLens[] {
     const recheck = (title: string): CodeLens => ({ range, command: { title, command: ServerCommands.recheck, arguments: args } });
     const standing = opStanding(op, facts);
     if (!standing.may) {
-      const title = standing.code === 'annotation-error'
-        ? `Gradient Probe: annotation error — ${oneLine(op.problems[0]!.message, 80)}`
-        : `Gradient Probe: not checked — ${oneLine(standing.reason, 80)}`;
+      const title =
+        standing.code === 'annotation-error'
+          ? `Gradient Probe: annotation error — ${oneLine(op.problems[0]!.message, 80)}`
+          : `Gradient Probe: not checked — ${oneLine(standing.reason, 80)}`;
       lenses.push({ range, command: { title, command: '' } });
       continue;
     }

@@ -106,15 +106,17 @@ function sampleCompletions(sm: SiteModel, rest: string, replace: Range): Complet
       textEdit: { range, newText: specSnippet(g) },
     });
   }
-  SPEC_FORMS.forEach((form, i) => items.push({
-    label: form.label,
-    kind: CompletionItemKind.Value,
-    detail: form.detail,
-    sortText: `1${i}`,
-    filterText: form.label.replace('[…]', ''),
-    insertTextFormat: InsertTextFormat.Snippet,
-    textEdit: { range, newText: form.snippet },
-  }));
+  SPEC_FORMS.forEach((form, i) =>
+    items.push({
+      label: form.label,
+      kind: CompletionItemKind.Value,
+      detail: form.detail,
+      sortText: `1${i}`,
+      filterText: form.label.replace('[…]', ''),
+      insertTextFormat: InsertTextFormat.Snippet,
+      textEdit: { range, newText: form.snippet },
+    }),
+  );
   return items;
 }
 
@@ -165,7 +167,12 @@ function derivativeCompletions(model: SourceModel, sm: SiteModel, kind: string, 
 }
 
 function argumentCompletions(sm: SiteModel, kind: string, written: string, replace: Range): CompletionItem[] {
-  const listed = new Set(written.split(',').slice(0, -1).map((a) => a.trim()));
+  const listed = new Set(
+    written
+      .split(',')
+      .slice(0, -1)
+      .map((a) => a.trim()),
+  );
   const items: CompletionItem[] = [];
   const add = (label: string, detail: string, itemKind: CompletionItemKind, order: number): void => {
     if (listed.has(label)) return;

@@ -43,6 +43,7 @@ export function coverageHoverLine(result: OpResult): string | undefined {
   // A backward that is not code of the workspace (the library's gradient): say what ran of the forward.
   if (b.total === 0) return `Coverage: ${c.forward.run} of ${c.forward.total} blocks of the forward ran during the check.`;
   const gaps = c.gaps.filter((g) => g.side !== 'forward');
-  const where = gaps.length === 0 ? 'all of it ran' : `never reached: ${gaps.map((g) => (g.endLine > g.startLine ? `lines ${g.startLine}–${g.endLine}` : `line ${g.startLine}`)).join(', ')}`;
+  const where =
+    gaps.length === 0 ? 'all of it ran' : `never reached: ${gaps.map((g) => (g.endLine > g.startLine ? `lines ${g.startLine}–${g.endLine}` : `line ${g.startLine}`)).join(', ')}`;
   return `Backward coverage: ${b.run} of ${b.total} blocks ran during the check (${where}).`;
 }

@@ -51,14 +51,21 @@ export function diagnosticsFor(facts: DocumentFacts): Diagnostic[] {
         ? [{ location: { uri: pathToFileURL(facts.configError.file).toString(), range: zeroRange() }, message: 'the project configuration file' }]
         : [];
       out.push({
-        range, severity: DiagnosticSeverity.Error, source: DIAGNOSTIC_SOURCE, code: DiagnosticCodes.config,
-        message: `${op.forward} not checked: ${standing.reason}`, relatedInformation: related,
+        range,
+        severity: DiagnosticSeverity.Error,
+        source: DIAGNOSTIC_SOURCE,
+        code: DiagnosticCodes.config,
+        message: `${op.forward} not checked: ${standing.reason}`,
+        relatedInformation: related,
       });
       continue;
     }
     if (!standing.may) {
       out.push({
-        range, severity: DiagnosticSeverity.Information, source: DIAGNOSTIC_SOURCE, code: DiagnosticCodes.untrusted,
+        range,
+        severity: DiagnosticSeverity.Information,
+        source: DIAGNOSTIC_SOURCE,
+        code: DiagnosticCodes.untrusted,
         message: `${op.forward} not checked: ${standing.reason}. Trust the folder to check it.`,
       });
       continue;

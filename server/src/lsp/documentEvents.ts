@@ -29,10 +29,13 @@ export class DocumentEvents {
     const settings = await this.session.effectiveSettings(key);
     if (settings.checkWhen !== 'while-typing') return;
     clearTimeout(this.typingTimers.get(key));
-    this.typingTimers.set(key, setTimeout(() => {
-      this.typingTimers.delete(key);
-      this.runQuietly(key);
-    }, settings.typingPauseMs));
+    this.typingTimers.set(
+      key,
+      setTimeout(() => {
+        this.typingTimers.delete(key);
+        this.runQuietly(key);
+      }, settings.typingPauseMs),
+    );
   }
 
   async saved(e: TextDocumentChangeEvent<TextDocument>): Promise<void> {
@@ -77,7 +80,7 @@ export class DocumentEvents {
   /** A check nobody awaits: refusals are already shown as diagnostics, failures go to the log. */
   private runQuietly(key: string): void {
     this.session.check(key).catch((err: unknown) => {
-      if (!(err instanceof CheckRefused)) this.session.log(`check failed: ${err instanceof Error ? err.stack ?? err.message : String(err)}`);
+      if (!(err instanceof CheckRefused)) this.session.log(`check failed: ${err instanceof Error ? (err.stack ?? err.message) : String(err)}`);
     });
   }
 }

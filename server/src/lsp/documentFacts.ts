@@ -34,7 +34,7 @@ export function snapshotOf(uri: string, fsPath: string, text: string, log: (line
   try {
     ops = discoverOps(fsPath, text).ops;
   } catch (err) {
-    log(`discovery failed on ${fsPath}: ${err instanceof Error ? err.stack ?? err.message : String(err)}`);
+    log(`discovery failed on ${fsPath}: ${err instanceof Error ? (err.stack ?? err.message) : String(err)}`);
   }
   return { uri, fsPath, text, lines: text.split(/\r?\n/), ops };
 }

@@ -18,9 +18,7 @@ export interface RunPermission {
 }
 
 /** Where an op stands before any result: it may run, or it is held back for a reason. */
-export type OpStanding =
-  | { may: true }
-  | { may: false; code: Extract<ReasonCode, 'annotation-error' | 'config-error' | 'untrusted'>; reason: string };
+export type OpStanding = { may: true } | { may: false; code: Extract<ReasonCode, 'annotation-error' | 'config-error' | 'untrusted'>; reason: string };
 
 /** Whether code of this folder may run at all. */
 export function folderStanding(permission: RunPermission): OpStanding {

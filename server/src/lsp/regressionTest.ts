@@ -75,29 +75,42 @@ export function regressionTestFor(op: OpDescriptor, result: OpResult): SnippetOu
     push(1, `const forward = (): any => ${call('args')};`);
   }
   push(1, `// Flattens a number, typed array, nested array or object of outputs into one list.`);
-  push(1, `const flat = (v: any): number[] => typeof v === 'number' ? [v] : ArrayBuffer.isView(v) || Array.isArray(v) ? Array.from(v as ArrayLike<any>).flatMap(flat) : Object.keys(v).sort().flatMap((k) => flat(v[k]));`);
-  push(1, `const onesLike = (v: any): any => typeof v === 'number' ? 1 : ArrayBuffer.isView(v) ? (v as any).map(() => 1) : Array.isArray(v) ? v.map(onesLike) : Object.fromEntries(Object.keys(v).map((k) => [k, onesLike(v[k])]));`);
+  push(
+    1,
+    `const flat = (v: any): number[] => typeof v === 'number' ? [v] : ArrayBuffer.isView(v) || Array.isArray(v) ? Array.from(v as ArrayLike<any>).flatMap(flat) : Object.keys(v).sort().flatMap((k) => flat(v[k]));`,
+  );
+  push(
+    1,
+    `const onesLike = (v: any): any => typeof v === 'number' ? 1 : ArrayBuffer.isView(v) ? (v as any).map(() => 1) : Array.isArray(v) ? v.map(onesLike) : Object.fromEntries(Object.keys(v).map((k) => [k, onesLike(v[k])]));`,
+  );
   push(1, `const y = forward();`);
   push(1, `const dy = onesLike(y);`);
-  const callee = isMethod && op.target.backwardIsMethod
-    ? `self.${op.target.backwardName}`
-    : op.target.objectName !== undefined && op.target.backwardIsMethod
-      ? `${op.target.objectName}.${op.target.backwardName}`
-      : op.target.backwardName;
+  const callee =
+    isMethod && op.target.backwardIsMethod
+      ? `self.${op.target.backwardName}`
+      : op.target.objectName !== undefined && op.target.backwardIsMethod
+        ? `${op.target.objectName}.${op.target.backwardName}`
+        : op.target.backwardName;
   if (tensorOp && op.target.libraryGradient) {
     const diff = differentiated.map((n) => plainParams.indexOf(n));
     push(1, `// The library's own gradient of the forward (what \`@backward library-gradient\` checks), for upstream dy.`);
     push(1, `const diff = ${JSON.stringify(diff)};`);
-    push(1, `const libraryGrads: any[] = tf.tidy(() => { const xs = toArgs(); const f = (...moved: any[]): any => { const a = toArgs(); diff.forEach((p, k) => { a[p] = moved[k]; }); return ${call('a')}; }; return fromTensor(tf.grads(f)(diff.map((p) => xs[p]), asOutput(dy))); });`);
+    push(
+      1,
+      `const libraryGrads: any[] = tf.tidy(() => { const xs = toArgs(); const f = (...moved: any[]): any => { const a = toArgs(); diff.forEach((p, k) => { a[p] = moved[k]; }); return ${call('a')}; }; return fromTensor(tf.grads(f)(diff.map((p) => xs[p]), asOutput(dy))); });`,
+    );
     push(1, `const grads: any = diff.length === 1 ? libraryGrads[0] : libraryGrads;`);
   } else if (tensorOp) {
-    const backwardArgs = op.backwardArgs.map((a) => (a.kind === 'param' ? backwardArgText(a, plainParams).replace(/^args\[/, 't[') : `asOutput(${a.kind === 'output' ? 'y' : 'dy'})`));
+    const backwardArgs = op.backwardArgs.map((a) =>
+      a.kind === 'param' ? backwardArgText(a, plainParams).replace(/^args\[/, 't[') : `asOutput(${a.kind === 'output' ? 'y' : 'dy'})`,
+    );
     push(1, `const grads: any = tf.tidy(() => { const t = toArgs(); return fromTensor(${callee}(${backwardArgs.join(', ')})); });`);
   } else {
     const backwardArgs = op.backwardArgs.map((a) => backwardArgText(a, plainParams));
     push(1, `const grads: any = ${callee}(${backwardArgs.join(', ')});`);
   }
-  const pick = differentiated.length === 1 ? 'grads' : `(Array.isArray(grads) ? grads[${differentiated.indexOf(param.name)}] : grads[${JSON.stringify(param.name.replace(/^this\./, ''))}])`;
+  const pick =
+    differentiated.length === 1 ? 'grads' : `(Array.isArray(grads) ? grads[${differentiated.indexOf(param.name)}] : grads[${JSON.stringify(param.name.replace(/^this\./, ''))}])`;
   push(1, `const analytic = flat(${pick})[${flatIndex(param)}];`);
   push(1, `// The worst element, reached through its multi-index ${indexText(param.worst.index)}.`);
   const holder = param.name.startsWith('this.') ? `self.${param.name.slice(5)}` : `args[${plainParams.indexOf(param.name)}]`;
@@ -162,7 +175,9 @@ export function literal(value: unknown): string {
       const ctor = typedArrayName(v.dtype);
       if (ctor) return `${ctor}.from([${(v.data as unknown[]).map(literal).join(', ')}])`;
     }
-    return `{ ${Object.entries(v).map(([k, x]) => `${JSON.stringify(k)}: ${literal(x)}`).join(', ')} }`;
+    return `{ ${Object.entries(v)
+      .map(([k, x]) => `${JSON.stringify(k)}: ${literal(x)}`)
+      .join(', ')} }`;
   }
   return JSON.stringify(value) ?? 'undefined';
 }

@@ -49,10 +49,19 @@ export function regressionTestForKind(op: OpDescriptor, result: OpResult): Snipp
   } else {
     push(1, `const forward = (): any => ${op.target.forwardName}(...args);`);
   }
-  push(1, `const flat = (v: any): number[] => typeof v === 'number' ? [v] : ArrayBuffer.isView(v) || Array.isArray(v) ? Array.from(v as ArrayLike<any>).flatMap(flat) : Object.keys(v).flatMap((k) => flat(v[k]));`);
+  push(
+    1,
+    `const flat = (v: any): number[] => typeof v === 'number' ? [v] : ArrayBuffer.isView(v) || Array.isArray(v) ? Array.from(v as ArrayLike<any>).flatMap(flat) : Object.keys(v).flatMap((k) => flat(v[k]));`,
+  );
   push(1, `// Writes values (in flat order) into a number, typed array or nested array; returns the new value.`);
-  push(1, `const assign = (v: any, xs: number[], pos: { i: number }): any => { if (typeof v === 'number') return xs[pos.i++]; if (ArrayBuffer.isView(v)) { for (let k = 0; k < (v as any).length; k++) (v as any)[k] = xs[pos.i++]; return v; } for (let k = 0; k < v.length; k++) v[k] = assign(v[k], xs, pos); return v; };`);
-  push(1, `const like = (v: any, xs: number[]): any => assign(typeof v === 'number' ? 0 : ArrayBuffer.isView(v) ? new (v as any).constructor((v as any).length) : JSON.parse(JSON.stringify(v)), xs, { i: 0 });`);
+  push(
+    1,
+    `const assign = (v: any, xs: number[], pos: { i: number }): any => { if (typeof v === 'number') return xs[pos.i++]; if (ArrayBuffer.isView(v)) { for (let k = 0; k < (v as any).length; k++) (v as any)[k] = xs[pos.i++]; return v; } for (let k = 0; k < v.length; k++) v[k] = assign(v[k], xs, pos); return v; };`,
+  );
+  push(
+    1,
+    `const like = (v: any, xs: number[]): any => assign(typeof v === 'number' ? 0 : ArrayBuffer.isView(v) ? new (v as any).constructor((v as any).length) : JSON.parse(JSON.stringify(v)), xs, { i: 0 });`,
+  );
   push(1, `// The differentiated parameters (${names.join(', ')}) as one vector x.`);
   push(1, `const parts = [${names.map((n) => `{ get: (): any => ${holder(n)}, set: (v: any): void => { ${holder(n)} = v; } }`).join(', ')}];`);
   push(1, `const sizes = parts.map((p) => flat(p.get()).length);`);
@@ -88,7 +97,10 @@ export function regressionTestForKind(op: OpDescriptor, result: OpResult): Snipp
   } else if (kind === 'tangent') {
     push(1, `// A fixed tangent of ${bad.name} (the other tangents zero).`);
     push(1, `const t = x0.map((_, g) => (g >= offset && g < offset + sizes[${badIndex}]! ? 1 - 0.37 * ((g - offset) % 5) : 0));`);
-    push(1, `const tangentOf = (name: string): number[] => { const q = ${JSON.stringify(names)}.indexOf(name); const from = sizes.slice(0, q).reduce((s, n) => s + n, 0); return t.slice(from, from + sizes[q]!); };`);
+    push(
+      1,
+      `const tangentOf = (name: string): number[] => { const q = ${JSON.stringify(names)}.indexOf(name); const from = sizes.slice(0, q).reduce((s, n) => s + n, 0); return t.slice(from, from + sizes[q]!); };`,
+    );
     push(1, `const analytic = flat(${callee}(${op.backwardArgs.map(argText).join(', ')}));`);
     push(1, `const h = Math.cbrt(eps) * Math.max(1, ...x0.map(Math.abs));`);
     push(1, `const up = F(x0.map((x, g) => x + h * t[g]!));`);

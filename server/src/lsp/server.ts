@@ -5,8 +5,18 @@
 import { relative } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import {
-  CancellationToken, CodeActionKind, createConnection, DidChangeConfigurationNotification, FileChangeType, ProposedFeatures,
-  ResponseError, TextDocuments, TextDocumentSyncKind, type Connection, type InitializeParams, type InitializeResult,
+  CancellationToken,
+  CodeActionKind,
+  createConnection,
+  DidChangeConfigurationNotification,
+  FileChangeType,
+  ProposedFeatures,
+  ResponseError,
+  TextDocuments,
+  TextDocumentSyncKind,
+  type Connection,
+  type InitializeParams,
+  type InitializeResult,
 } from 'vscode-languageserver/node';
 import { TextDocument } from 'vscode-languageserver-textdocument';
 import { codeActionsFor } from './codeActions';
@@ -19,9 +29,7 @@ import { hoverAt } from './hover';
 import { referencesAt } from './references';
 import { documentSymbolsFor, workspaceSymbolsFor } from './symbols';
 import { tagHoverAt, withTagHover } from './tagHover';
-import {
-  Methods, ServerCommands, type CheckOpsParams, type OpReportParams, type ProbeInitializationOptions, type TrustChangedParams,
-} from './protocol';
+import { Methods, ServerCommands, type CheckOpsParams, type OpReportParams, type ProbeInitializationOptions, type TrustChangedParams } from './protocol';
 import { Session } from './session';
 import { checkWorkspace, listWorkspaceOps } from './workspaceCheck';
 
@@ -30,7 +38,7 @@ export function runLanguageServer(): void {
   const connection = createConnection(ProposedFeatures.all);
   // The server must outlive any bug in a handler; a stray error is logged, never fatal.
   process.on('uncaughtException', (err) => connection.console.error(`unexpected error: ${err.stack ?? err.message}`));
-  process.on('unhandledRejection', (err) => connection.console.error(`unexpected rejection: ${err instanceof Error ? err.stack ?? err.message : String(err)}`));
+  process.on('unhandledRejection', (err) => connection.console.error(`unexpected rejection: ${err instanceof Error ? (err.stack ?? err.message) : String(err)}`));
   startServer(connection);
 }
 
@@ -47,13 +55,13 @@ export function startServer(connection: Connection): void {
     Promise.resolve()
       .then(run)
       .catch((err: unknown) => {
-        log(`${name} failed: ${err instanceof Error ? err.stack ?? err.message : String(err)}`);
+        log(`${name} failed: ${err instanceof Error ? (err.stack ?? err.message) : String(err)}`);
         return fallback;
       });
   /** For custom requests: the client gets the error text to show. */
   const guardRequest = <T>(name: string, run: () => Promise<T>): Promise<T | ResponseError<void>> =>
     run().catch((err: unknown) => {
-      log(`${name} failed: ${err instanceof Error ? err.stack ?? err.message : String(err)}`);
+      log(`${name} failed: ${err instanceof Error ? (err.stack ?? err.message) : String(err)}`);
       return new ResponseError<void>(-32603, `${name} failed: ${err instanceof Error ? err.message : String(err)}`);
     });
   const need = (): Session => {
@@ -110,14 +118,16 @@ export function startServer(connection: Connection): void {
     guard('code lens', [], async () => {
       const facts = await need().facts(need().keyOf(params.textDocument.uri));
       return facts ? codeLensesFor(facts) : [];
-    }));
+    }),
+  );
 
   connection.onHover((params) =>
     guard('hover', null, async () => {
       const facts = await need().facts(need().keyOf(params.textDocument.uri));
       if (!facts) return null;
       return withTagHover(tagHoverAt(facts.snapshot.fsPath, facts.snapshot.text, params.position), hoverAt(facts, params.position));
-    }));
+    }),
+  );
 
   /** The open buffer (or the file) of a request's document, with its path. */
   const sourceOf = (uri: string): { fsPath: string; text: string } | undefined => {
@@ -130,14 +140,23 @@ export function startServer(connection: Connection): void {
     guard('completion', [], () => {
       const src = sourceOf(params.textDocument.uri);
       return src ? completionsAt(src.fsPath, src.text, params.position) : [];
-    }));
+    }),
+  );
 
   connection.onCodeAction((params) =>
     guard('code action', [], () => {
       const snapshot = need().snapshot(need().keyOf(params.textDocument.uri));
       if (!snapshot) return [];
-      return codeActionsFor({ uri: params.textDocument.uri, fileName: snapshot.fsPath, text: snapshot.text, ops: snapshot.ops, range: params.range, diagnostics: params.context.diagnostics });
-    }));
+      return codeActionsFor({
+        uri: params.textDocument.uri,
+        fileName: snapshot.fsPath,
+        text: snapshot.text,
+        ops: snapshot.ops,
+        range: params.range,
+        diagnostics: params.context.diagnostics,
+      });
+    }),
+  );
 
   connection.onDefinition((params) =>
     guard('definition', null, () => {
@@ -145,69 +164,84 @@ export function startServer(connection: Connection): void {
       const found = src ? definitionAt(src.fsPath, src.text, params.position) : null;
       // Answer in the client's spelling of a URI it knows.
       return found ? { ...found, uri: found.uri === pathToFileURL(src!.fsPath).toString() ? params.textDocument.uri : found.uri } : null;
-    }));
+    }),
+  );
 
   connection.onReferences((params) =>
     guard('references', [], () => {
       const snapshot = need().snapshot(need().keyOf(params.textDocument.uri));
       return snapshot ? referencesAt(snapshot, params.position) : [];
-    }));
+    }),
+  );
 
   connection.onDocumentSymbol((params) =>
     guard('document symbols', [], async () => {
       const facts = await need().facts(need().keyOf(params.textDocument.uri));
       return facts ? documentSymbolsFor(facts) : [];
-    }));
+    }),
+  );
 
-  connection.onWorkspaceSymbol((params) =>
-    guard('workspace symbols', [], async () => workspaceSymbolsFor(await listWorkspaceOps(need(), folders), params.query)));
+  connection.onWorkspaceSymbol((params) => guard('workspace symbols', [], async () => workspaceSymbolsFor(await listWorkspaceOps(need(), folders), params.query)));
 
-  connection.onExecuteCommand((params) =>
-    guard('command', null, async () => (params.command === ServerCommands.recheck ? recheck(need(), params.arguments) : null)));
+  connection.onExecuteCommand((params) => guard('command', null, async () => (params.command === ServerCommands.recheck ? recheck(need(), params.arguments) : null)));
 
-  connection.onNotification(Methods.trustChanged, (params: TrustChangedParams) =>
-    void guard('trust change', undefined, () => {
-      const s = need();
-      const trusted = params?.workspaceTrusted === true;
-      const was = s.checks.isTrusted;
-      s.checks.setTrusted(trusted);
-      for (const file of s.knownFiles()) s.changed(file);
-      if (trusted && !was) recheckOpenDocuments(s, false);
-    }));
+  connection.onNotification(
+    Methods.trustChanged,
+    (params: TrustChangedParams) =>
+      void guard('trust change', undefined, () => {
+        const s = need();
+        const trusted = params?.workspaceTrusted === true;
+        const was = s.checks.isTrusted;
+        s.checks.setTrusted(trusted);
+        for (const file of s.knownFiles()) s.changed(file);
+        if (trusted && !was) recheckOpenDocuments(s, false);
+      }),
+  );
 
-  connection.onDidChangeConfiguration(() =>
-    void guard('configuration change', undefined, () => {
-      need().settings.clear();
-      recheckOpenDocuments(need(), false);
-    }));
+  connection.onDidChangeConfiguration(
+    () =>
+      void guard('configuration change', undefined, () => {
+        need().settings.clear();
+        recheckOpenDocuments(need(), false);
+      }),
+  );
 
-  connection.onDidChangeWatchedFiles((params) =>
-    void guard('watched files', undefined, () => {
-      const s = need();
-      let configChanged = false;
-      for (const change of params.changes) {
-        if (change.uri.endsWith('/gradient-probe.json')) configChanged = true;
-        else if (change.type === FileChangeType.Deleted) s.forget(s.keyOf(change.uri));
-        // Changed outside this editor (an open document's save is handled by its save event).
-        if (change.type !== FileChangeType.Created && !change.uri.endsWith('/gradient-probe.json')) {
-          const key = s.keyOf(change.uri);
-          if (!events?.isOpen(key)) void guard('re-check of dependents', undefined, () => events?.fileChanged(key));
+  connection.onDidChangeWatchedFiles(
+    (params) =>
+      void guard('watched files', undefined, () => {
+        const s = need();
+        let configChanged = false;
+        for (const change of params.changes) {
+          if (change.uri.endsWith('/gradient-probe.json')) configChanged = true;
+          else if (change.type === FileChangeType.Deleted) s.forget(s.keyOf(change.uri));
+          // Changed outside this editor (an open document's save is handled by its save event).
+          if (change.type !== FileChangeType.Created && !change.uri.endsWith('/gradient-probe.json')) {
+            const key = s.keyOf(change.uri);
+            if (!events?.isOpen(key)) void guard('re-check of dependents', undefined, () => events?.fileChanged(key));
+          }
         }
-      }
-      if (configChanged) {
-        s.settings.clear();
-        recheckOpenDocuments(s, false);
-      }
-    }));
+        if (configChanged) {
+          s.settings.clear();
+          recheckOpenDocuments(s, false);
+        }
+      }),
+  );
 
-  connection.onRequest(Methods.checkOps, (params: CheckOpsParams, token: CancellationToken) =>
-    guardRequest('check', () => checkOps(need(), params, signalOf(token))));
+  connection.onRequest(Methods.checkOps, (params: CheckOpsParams, token: CancellationToken) => guardRequest('check', () => checkOps(need(), params, signalOf(token))));
 
   connection.onRequest(Methods.listWorkspaceOps, () => guardRequest('list ops', () => listWorkspaceOps(need(), folders)));
 
   connection.onRequest(Methods.checkWorkspace, (_params: unknown, token: CancellationToken) =>
     guardRequest('workspace check', () =>
-      checkWorkspace(need(), folders, signalOf(token), (p) => void connection.sendNotification(Methods.workspaceProgress, p), (file) => relativeToFolders(file, folders))));
+      checkWorkspace(
+        need(),
+        folders,
+        signalOf(token),
+        (p) => void connection.sendNotification(Methods.workspaceProgress, p),
+        (file) => relativeToFolders(file, folders),
+      ),
+    ),
+  );
 
   connection.onRequest(Methods.opReport, (params: OpReportParams) => guardRequest('report', () => opReport(need(), params)));
   connection.onRequest(Methods.regressionTest, (params: OpReportParams) => guardRequest('regression test', () => regressionTest(need(), params)));
@@ -221,10 +255,13 @@ export function startServer(connection: Connection): void {
     for (const doc of documents.all()) {
       const key = s.keyOf(doc.uri);
       s.changed(key);
-      void s.effectiveSettings(key).then((settings) => {
-        if (settings.checkWhen === 'on-command' || !s.checks.isTrusted) return;
-        return s.check(key, { force }).then(() => undefined);
-      }).catch((err: unknown) => log(`re-check of ${key}: ${err instanceof Error ? err.message : String(err)}`));
+      void s
+        .effectiveSettings(key)
+        .then((settings) => {
+          if (settings.checkWhen === 'on-command' || !s.checks.isTrusted) return;
+          return s.check(key, { force }).then(() => undefined);
+        })
+        .catch((err: unknown) => log(`re-check of ${key}: ${err instanceof Error ? err.message : String(err)}`));
     }
   }
 

@@ -49,7 +49,11 @@ export class Session {
     private readonly openDocument: (uri: string) => TextDocument | undefined,
     private readonly options: SessionOptions,
   ) {
-    this.checks = new CheckService({ trusted: options.trusted, ...(options.workers !== undefined ? { workers: options.workers } : {}) }, (key) => this.changed(key), (line) => this.log(line));
+    this.checks = new CheckService(
+      { trusted: options.trusted, ...(options.workers !== undefined ? { workers: options.workers } : {}) },
+      (key) => this.changed(key),
+      (line) => this.log(line),
+    );
     this.settings = new SettingsCache((uri) => connection.workspace.getConfiguration({ scopeUri: uri, section: 'gradientProbe' }));
   }
 

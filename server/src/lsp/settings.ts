@@ -4,9 +4,7 @@
 
 import { readFileSync } from 'node:fs';
 import { DEFAULT_SETTINGS, type CheckSettings } from '../engine/settings';
-import {
-  ConfigError, DEFAULT_FILE_GLOBS, findConfigFile, loadConfigFile, parseConfigText, readConfigValues, type ConfigValues,
-} from '../project/config';
+import { ConfigError, DEFAULT_FILE_GLOBS, findConfigFile, loadConfigFile, parseConfigText, readConfigValues, type ConfigValues } from '../project/config';
 
 /** When the server checks a document by itself (commands and lenses always work). */
 export type CheckWhen = 'open-and-save' | 'while-typing' | 'on-command';
@@ -45,9 +43,7 @@ export const TYPING_PAUSE_RANGE = { minimum: 100, maximum: 60_000 } as const;
  * The check settings the editor exposes, as dotted keys of the project file's shape under the
  * `gradientProbe.` prefix. The manifest schema test walks this list.
  */
-export const EDITOR_CHECK_KEYS = [
-  'seed', 'tolerance.f64', 'tolerance.f32', 'timeLimitMs', 'memoryLimitMb', 'largeParamElements', 'include', 'exclude',
-] as const;
+export const EDITOR_CHECK_KEYS = ['seed', 'tolerance.f64', 'tolerance.f32', 'timeLimitMs', 'memoryLimitMb', 'largeParamElements', 'include', 'exclude'] as const;
 
 /** The user's settings after normalising: editor-only ones plus validated check values. */
 export interface EditorSettings extends EditorOnlySettings {
@@ -185,7 +181,11 @@ export class SettingsCache {
 
 /** The same settings give the same key: results computed with them can be reused. */
 export function settingsKey(settings: CheckSettings): string {
-  return JSON.stringify(Object.keys(settings).sort().map((k) => [k, settings[k as keyof CheckSettings]]));
+  return JSON.stringify(
+    Object.keys(settings)
+      .sort()
+      .map((k) => [k, settings[k as keyof CheckSettings]]),
+  );
 }
 
 function lookup(obj: Record<string, unknown>, dotted: string): unknown {

@@ -42,7 +42,10 @@ export class SourceModel {
   readonly bindings: ModuleBindings;
   readonly sites: SiteModel[];
 
-  private constructor(readonly fileName: string, readonly text: string) {
+  private constructor(
+    readonly fileName: string,
+    readonly text: string,
+  ) {
     this.sf = ts.createSourceFile(fileName, parserSafeText(text), ts.ScriptTarget.Latest, true);
     this.bindings = collectBindings(this.sf);
     this.sites = findForwardSites(this.sf).map((site) => siteModel(site, text));
@@ -105,7 +108,8 @@ function siteModel(site: ForwardSite, text: string): SiteModel {
   const doc = docs[docs.length - 1];
   // A variable's JSDoc sits on its statement: insert around the statement, not the declarator.
   let declaration: ts.Node = site.docHost;
-  if (ts.isVariableDeclaration(declaration) && ts.isVariableDeclarationList(declaration.parent) && ts.isVariableStatement(declaration.parent.parent)) declaration = declaration.parent.parent;
+  if (ts.isVariableDeclaration(declaration) && ts.isVariableDeclarationList(declaration.parent) && ts.isVariableStatement(declaration.parent.parent))
+    declaration = declaration.parent.parent;
   let tags: RawTag[] | undefined;
   let params: ParamInfo[] | undefined;
   let fields: ParamInfo[] | undefined;

@@ -17,13 +17,15 @@ export const DERIVATIVE_TAGS = ['backward', 'jacobian', 'tangent', 'hessian'] as
 export const TAG_DOCS: readonly TagDoc[] = [
   {
     name: 'backward',
-    summary: 'Marks the op and names its hand-written backward (vector-Jacobian product); arguments: forward parameter names, `$y` (the output), `$dy` (the upstream gradient). Default: every parameter, then `$dy`.',
+    summary:
+      'Marks the op and names its hand-written backward (vector-Jacobian product); arguments: forward parameter names, `$y` (the output), `$dy` (the upstream gradient). Default: every parameter, then `$dy`.',
     example: '@backward softplusBackward(x, $dy)',
     snippet: 'backward ${1:name}',
   },
   {
     name: 'sample',
-    summary: 'How to draw one parameter: `f64[d1, ...]`, `f32[...]`, `num[...]`, `num`, `i32[...]`, `int`, then `in [lo, hi]`, `avoid v1, v2`, `fixed`; or `= JSON` for an exact value.',
+    summary:
+      'How to draw one parameter: `f64[d1, ...]`, `f32[...]`, `num[...]`, `num`, `i32[...]`, `int`, then `in [lo, hi]`, `avoid v1, v2`, `fixed`; or `= JSON` for an exact value.',
     example: '@sample x f64[64] in [-6, 6]',
     snippet: 'sample ${1:param} ${2:f64[8]}',
   },
@@ -53,7 +55,7 @@ export const TAG_DOCS: readonly TagDoc[] = [
   },
   {
     name: 'seed',
-    summary: 'Seed of this op\'s input generator, so a result can be reproduced.',
+    summary: "Seed of this op's input generator, so a result can be reproduced.",
     example: '@seed 42',
     snippet: 'seed ${1:42}',
   },
@@ -65,7 +67,7 @@ export const TAG_DOCS: readonly TagDoc[] = [
   },
   {
     name: 'tangent',
-    summary: 'Names a Jacobian-vector product J·t; `$d` + a parameter name is that parameter\'s tangent. Default: every parameter, then one tangent each.',
+    summary: "Names a Jacobian-vector product J·t; `$d` + a parameter name is that parameter's tangent. Default: every parameter, then one tangent each.",
     example: '@tangent scaleTangent(x, $dx)',
     snippet: 'tangent ${1:name}',
   },

@@ -11,7 +11,8 @@ export function opSummaries(facts: DocumentFacts): FileOps {
   const ops: OpSummary[] = facts.snapshot.ops.map((op) => {
     const range = opNameRange(op, facts.snapshot.lines);
     const standing = opStanding(op, facts);
-    if (!standing.may && standing.code === 'annotation-error') return { forward: op.forward, range, state: 'error', message: `annotation error: ${oneLine(op.problems[0]!.message)}` };
+    if (!standing.may && standing.code === 'annotation-error')
+      return { forward: op.forward, range, state: 'error', message: `annotation error: ${oneLine(op.problems[0]!.message)}` };
     if (!standing.may) return { forward: op.forward, range, state: 'not-run', message: `not checked: ${oneLine(standing.reason)}` };
     if (facts.isRunning(op.forward)) return { forward: op.forward, range, state: 'checking', message: 'checking…' };
     const result = facts.latest(op.forward);

@@ -1,7 +1,6 @@
 // What discovery finds in a source file: sample specs, annotation problems with their quick fixes,
 // and the op descriptors the engine checks. Plain JSON-serialisable data (it crosses into the sandbox).
 
-
 /** Element types of `@sample` specs (docs/annotations.md, "@sample PARAM SPEC"). */
 export type SampleDtype = 'f64' | 'f32' | 'num' | 'i32' | 'int';
 

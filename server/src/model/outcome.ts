@@ -56,7 +56,9 @@ export interface ParamResult {
    * Smallest relative error in a single element that this check would have caught with
    * probability at least 0.99 (the tolerance itself when every element was compared; for
    * probed parameters, from the probes' measured error and the gradient's root-mean-square
-   * size: an element of about that size). Absent when no check of the elements ran.
+   * size: an element of about that size; for tangents and H·v, for one wrong entry of the row's
+   * root-mean-square size over the check's own directions, docs/derivatives.md). Absent when no
+   * check of the elements ran.
    */
   detectionFloor?: number;
   /**
@@ -210,9 +212,7 @@ export interface CoverageGap {
  * Which code of the op ran during its check: V8 block coverage from a separate coverage pass,
  * mapped back to the user's TypeScript (server/src/sandbox/coverage*.ts).
  */
-export type OpCoverage =
-  | { collected: true; forward: BlockShare; backward: BlockShare; gaps: CoverageGap[] }
-  | { collected: false; reason: string };
+export type OpCoverage = { collected: true; forward: BlockShare; backward: BlockShare; gaps: CoverageGap[] } | { collected: false; reason: string };
 
 export interface ReportSummary {
   pass: number;

@@ -35,31 +35,47 @@ const MAX_TIMER_MS = 2 ** 31 - 1;
  */
 const MIN_MEMORY_MB = 16;
 
-function integerField(
-  path: string, setting: keyof CheckSettings, minimum: number, maximum: number, description: string,
-): ConfigField {
+function integerField(path: string, setting: keyof CheckSettings, minimum: number, maximum: number, description: string): ConfigField {
   const range = maximum === Number.MAX_SAFE_INTEGER ? `an integer of at least ${minimum}` : `an integer from ${minimum} to ${maximum}`;
   return {
-    path, setting, type: 'integer', minimum, maximum, description,
+    path,
+    setting,
+    type: 'integer',
+    minimum,
+    maximum,
+    description,
     check: (v) => (typeof v === 'number' && Number.isSafeInteger(v) && v >= minimum && v <= maximum ? undefined : range),
   };
 }
 
 function toleranceField(path: string, setting: keyof CheckSettings, description: string): ConfigField {
   return {
-    path, setting, type: 'number', minimum: 0, exclusiveMinimum: true, maximum: 1, exclusiveMaximum: true, description,
+    path,
+    setting,
+    type: 'number',
+    minimum: 0,
+    exclusiveMinimum: true,
+    maximum: 1,
+    exclusiveMaximum: true,
+    description,
     // A relative tolerance of 1 or more accepts any gradient, so it is refused.
     check: (v) => (typeof v === 'number' && Number.isFinite(v) && v > 0 && v < 1 ? undefined : 'a positive number below 1'),
   };
 }
 
 export const CONFIG_FIELDS: readonly ConfigField[] = [
-  integerField('seed', 'seed', 0, Number.MAX_SAFE_INTEGER, 'Seed of the input generator; an op\'s @seed tag wins.'),
-  toleranceField('tolerance.f64', 'toleranceF64', 'Relative tolerance for float64 and plain-number ops; an op\'s @tolerance tag wins.'),
-  toleranceField('tolerance.f32', 'toleranceF32', 'Relative tolerance for float32 ops; an op\'s @tolerance tag wins.'),
-  integerField('timeLimitMs', 'timeLimitMs', 1, MAX_TIMER_MS, 'Wall-clock limit of one op\'s whole check, in milliseconds.'),
+  integerField('seed', 'seed', 0, Number.MAX_SAFE_INTEGER, "Seed of the input generator; an op's @seed tag wins."),
+  toleranceField('tolerance.f64', 'toleranceF64', "Relative tolerance for float64 and plain-number ops; an op's @tolerance tag wins."),
+  toleranceField('tolerance.f32', 'toleranceF32', "Relative tolerance for float32 ops; an op's @tolerance tag wins."),
+  integerField('timeLimitMs', 'timeLimitMs', 1, MAX_TIMER_MS, "Wall-clock limit of one op's whole check, in milliseconds."),
   integerField('memoryLimitMb', 'memoryLimitMb', MIN_MEMORY_MB, Number.MAX_SAFE_INTEGER, 'Memory limit of the runner process, in MiB.'),
-  integerField('largeParamElements', 'largeParamElements', 1, Number.MAX_SAFE_INTEGER, 'Parameters with more elements than this get the dot-product test plus a subset of full columns.'),
+  integerField(
+    'largeParamElements',
+    'largeParamElements',
+    1,
+    Number.MAX_SAFE_INTEGER,
+    'Parameters with more elements than this get the dot-product test plus a subset of full columns.',
+  ),
   integerField('upstreamProbes', 'upstreamProbes', 1, Number.MAX_SAFE_INTEGER, 'Random upstream gradients per op (one backward call each).'),
   integerField('dotProductProbes', 'dotProductProbes', 1, Number.MAX_SAFE_INTEGER, 'Dot-product probes per large parameter.'),
   integerField('subsetElements', 'subsetElements', 0, Number.MAX_SAFE_INTEGER, 'Elements of a large parameter also checked one by one.'),

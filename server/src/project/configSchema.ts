@@ -40,8 +40,8 @@ export function projectConfigSchema(): JsonSchema {
     dotted[field.path] = { ...fieldSchema(field), description: `${field.description} (Dotted spelling of "${group}": { "${key}": … }.)` };
   }
   Object.assign(properties, dotted);
-  properties['include'] = globList('Globs, relative to this file\'s folder, that a source file must match; empty means every TypeScript source.', DEFAULT_FILE_GLOBS.include);
-  properties['exclude'] = globList('Globs, relative to this file\'s folder, of source files to leave out.', DEFAULT_FILE_GLOBS.exclude);
+  properties['include'] = globList("Globs, relative to this file's folder, that a source file must match; empty means every TypeScript source.", DEFAULT_FILE_GLOBS.include);
+  properties['exclude'] = globList("Globs, relative to this file's folder, of source files to leave out.", DEFAULT_FILE_GLOBS.exclude);
   return {
     $schema: 'http://json-schema.org/draft-07/schema#',
     title: 'Gradient Probe project configuration (gradient-probe.json)',

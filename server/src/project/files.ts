@@ -84,35 +84,38 @@ export function findSourceFiles(paths: string[], config: ProjectConfig, cwd: str
       continue;
     }
     const ignoreFiles = ancestorGitignores(root);
-    walk(root, ignoreFiles, (file) => {
-      const rel = relativeInside(globBase, file);
-      tally.seen++;
-      // Globs describe the project's own files; a file outside the project is not theirs to judge.
-      if (rel !== undefined) {
-        if (globs.include && !globs.include(rel)) {
-          tally.notIncluded++;
-          return;
+    walk(
+      root,
+      ignoreFiles,
+      (file) => {
+        const rel = relativeInside(globBase, file);
+        tally.seen++;
+        // Globs describe the project's own files; a file outside the project is not theirs to judge.
+        if (rel !== undefined) {
+          if (globs.include && !globs.include(rel)) {
+            tally.notIncluded++;
+            return;
+          }
+          if (globs.exclude && globs.exclude(rel)) {
+            countExcluded(rel, 'files');
+            return;
+          }
         }
-        if (globs.exclude && globs.exclude(rel)) {
-          countExcluded(rel, 'files');
-          return;
-        }
-      }
-      found.add(file);
-    }, (folder) => {
-      const rel = relativeInside(globBase, folder);
-      const excluded = rel !== undefined && globs.exclude !== undefined && globs.exclude(rel);
-      if (excluded) countExcluded(rel, 'folders');
-      return excluded;
-    });
+        found.add(file);
+      },
+      (folder) => {
+        const rel = relativeInside(globBase, folder);
+        const excluded = rel !== undefined && globs.exclude !== undefined && globs.exclude(rel);
+        if (excluded) countExcluded(rel, 'folders');
+        return excluded;
+      },
+    );
   }
   return [...found].sort((a, b) => (a < b ? -1 : a > b ? 1 : 0));
 }
 
 /** Depth-first walk in sorted order, applying each folder's `.gitignore` to its subtree. */
-function walk(
-  dir: string, ignoreFiles: IgnoreFile[], onFile: (file: string) => void, isExcludedFolder: (folder: string) => boolean,
-): void {
+function walk(dir: string, ignoreFiles: IgnoreFile[], onFile: (file: string) => void, isExcludedFolder: (folder: string) => boolean): void {
   const own = readGitignore(dir);
   const rules = own ? [...ignoreFiles, own] : ignoreFiles;
   let entries: Dirent[];
@@ -162,7 +165,10 @@ function ancestorGitignores(root: string): IgnoreFile[] {
     current = parent;
   }
   if (repoRoot === undefined || repoRoot === root) return [];
-  return chain.reverse().map(readGitignore).filter((f): f is IgnoreFile => f !== undefined);
+  return chain
+    .reverse()
+    .map(readGitignore)
+    .filter((f): f is IgnoreFile => f !== undefined);
 }
 
 function relativeForMessage(cwd: string, abs: string): string {

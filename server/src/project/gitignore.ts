@@ -73,4 +73,3 @@ export function isIgnored(absPath: string, isDir: boolean, files: readonly Ignor
   }
   return ignored;
 }
-

@@ -122,7 +122,16 @@ export class Bundler {
       this.cache.delete(requestKey);
       this.cache.set(requestKey, cached);
       this.stats.cacheHits++;
-      return { ok: true, code: cached.code, key: cached.key, cached: true, buildMs: 0, originalPlace: placeFinder(cached), inputs: inputPaths(cached), segments: segmentsOf(cached) };
+      return {
+        ok: true,
+        code: cached.code,
+        key: cached.key,
+        cached: true,
+        buildMs: 0,
+        originalPlace: placeFinder(cached),
+        inputs: inputPaths(cached),
+        segments: segmentsOf(cached),
+      };
     }
     this.forget(requestKey);
     const diskDir = this.options.diskCache ? bundleCacheDir() : undefined;
@@ -130,7 +139,16 @@ export class Bundler {
     if (stored && this.stillValid(stored)) {
       this.stats.diskHits++;
       this.remember(requestKey, stored);
-      return { ok: true, code: stored.code, key: stored.key, cached: true, buildMs: 0, originalPlace: placeFinder(stored), inputs: inputPaths(stored), segments: segmentsOf(stored) };
+      return {
+        ok: true,
+        code: stored.code,
+        key: stored.key,
+        cached: true,
+        buildMs: 0,
+        originalPlace: placeFinder(stored),
+        inputs: inputPaths(stored),
+        segments: segmentsOf(stored),
+      };
     }
     const started = performance.now();
     const result = await buildBundle(file, request.text, bindings, request.tensorLibrary);
@@ -142,7 +160,16 @@ export class Bundler {
     this.remember(requestKey, result.entry);
     const buildMs = performance.now() - started;
     if (diskDir && buildMs >= (this.options.diskCacheMinBuildMs ?? DISK_WORTHY_BUILD_MS)) writeStoredBundle(diskDir, requestKey, result.entry);
-    return { ok: true, code: result.entry.code, key: result.entry.key, cached: false, buildMs, originalPlace: placeFinder(result.entry), inputs: inputPaths(result.entry), segments: segmentsOf(result.entry) };
+    return {
+      ok: true,
+      code: result.entry.code,
+      key: result.entry.key,
+      cached: false,
+      buildMs,
+      originalPlace: placeFinder(result.entry),
+      inputs: inputPaths(result.entry),
+      segments: segmentsOf(result.entry),
+    };
   }
 
   private remember(requestKey: string, entry: CacheEntry): void {

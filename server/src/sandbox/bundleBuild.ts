@@ -39,7 +39,14 @@ export interface CacheEntry {
 }
 
 const LOADERS: Record<string, esbuildTypes.Loader> = {
-  '.ts': 'ts', '.mts': 'ts', '.cts': 'ts', '.tsx': 'tsx', '.js': 'js', '.mjs': 'js', '.cjs': 'js', '.jsx': 'jsx',
+  '.ts': 'ts',
+  '.mts': 'ts',
+  '.cts': 'ts',
+  '.tsx': 'tsx',
+  '.js': 'js',
+  '.mjs': 'js',
+  '.cjs': 'js',
+  '.jsx': 'jsx',
 };
 
 export function sha256(...parts: string[]): string {
@@ -87,9 +94,7 @@ export async function buildBundle(file: string, text: string, bindings: string[]
     name: 'gradient-probe-entry',
     setup(build) {
       // The entry need not exist on disk (a new, unsaved editor buffer).
-      build.onResolve({ filter: /.*/ }, (args) =>
-        args.kind === 'entry-point' && resolve(workDir, args.path) === file ? { path: file, namespace: 'file' } : undefined,
-      );
+      build.onResolve({ filter: /.*/ }, (args) => (args.kind === 'entry-point' && resolve(workDir, args.path) === file ? { path: file, namespace: 'file' } : undefined));
       // A package that imports a Node built-in (usually on a code path for Node only) gets
       // an empty module, as bundlers for the browser do; the user's own files get a clear
       // error instead, since their code would fail at run time.
@@ -111,9 +116,7 @@ export async function buildBundle(file: string, text: string, bindings: string[]
       });
       // The entry's text comes from the caller (an unsaved buffer), also when another
       // module imports it back (an import cycle).
-      build.onLoad({ filter: /.*/, namespace: 'file' }, (args) =>
-        resolve(args.path) === file ? { contents: entryContents, loader, resolveDir: workDir } : undefined,
-      );
+      build.onLoad({ filter: /.*/, namespace: 'file' }, (args) => (resolve(args.path) === file ? { contents: entryContents, loader, resolveDir: workDir } : undefined));
     },
   };
   let out: esbuildTypes.BuildResult<{ write: false; metafile: true }>;

@@ -4,7 +4,8 @@
 'use strict';
 import * as vm from 'node:vm';
 import type { ChildMessage, HelloMessage, JobMessage, ParentMessage } from './protocol';
-import { CONTEXT_SETUP_SOURCE, FIXED_DATE_MS, bundleFramesFrom, wrapWithBuiltins } from './contextSetup';
+import { CONTEXT_SETUP_SOURCE, FIXED_DATE_MS } from './contextSetup';
+import { bundleFramesFrom, wrapWithBuiltins } from './bundleWrapper';
 import { COVERAGE_RUNNER_ARG, CoverageSession } from './coverageSession';
 
 /** Compiled bundles kept per process; the parent resends a bundle this child evicted. */
@@ -100,7 +101,6 @@ function readOutput(context: vm.Context): string {
     return '';
   }
 }
-
 
 /** The driver's phase when a job stopped, as a primitive string ('' when unreadable). */
 function readPhase(context: vm.Context): string {
@@ -200,7 +200,16 @@ function runJob(job: JobMessage): void {
   try {
     bundleScript = compileBundle(job);
   } catch (e) {
-    send({ type: 'result', id: job.id, ok: false, error: `the bundled module does not compile: ${hostErrorText(e)}`, timedOut: false, duringLoad: false, output: '', elapsedMs: elapsed() });
+    send({
+      type: 'result',
+      id: job.id,
+      ok: false,
+      error: `the bundled module does not compile: ${hostErrorText(e)}`,
+      timedOut: false,
+      duringLoad: false,
+      output: '',
+      elapsedMs: elapsed(),
+    });
     return;
   }
   if (!bundleScript) {
@@ -229,9 +238,7 @@ function runJob(job: JobMessage): void {
     const output = context ? readOutput(context) : '';
     if (isTimeout(e)) {
       const duringLoad = context !== undefined && readPhase(context) === 'load';
-      const error = duringLoad
-        ? `timed out after ${job.timeLimitMs} ms while loading the module (its top-level code did not finish)`
-        : `timed out after ${job.timeLimitMs} ms`;
+      const error = duringLoad ? `timed out after ${job.timeLimitMs} ms while loading the module (its top-level code did not finish)` : `timed out after ${job.timeLimitMs} ms`;
       send({ type: 'result', id: job.id, ok: false, error, timedOut: true, duringLoad, output, elapsedMs: elapsed() });
     } else {
       send({ type: 'result', id: job.id, ok: false, error: `the runner failed: ${hostErrorText(e)}`, timedOut: false, duringLoad: false, output, elapsedMs: elapsed() });

@@ -14,23 +14,56 @@ import { TENSOR_LIBRARY_PLATFORM_SOURCE } from './tensorPlatform';
  * made it 4–5× slower in a context than in the host (bench/PERFORMANCE.md).
  */
 export const CONTEXT_BUILTINS = [
-  'globalThis', 'Infinity', 'NaN', 'undefined', 'Math', 'Object', 'Array', 'Number', 'String', 'Boolean', 'Symbol', 'BigInt',
-  'Function', 'JSON', 'Reflect', 'Proxy', 'Promise', 'Map', 'Set', 'WeakMap', 'WeakSet', 'Date',
-  'RegExp', 'Error', 'TypeError', 'RangeError', 'SyntaxError', 'ReferenceError', 'EvalError',
-  'URIError', 'AggregateError', 'ArrayBuffer', 'DataView', 'Float64Array', 'Float32Array',
-  'Int32Array', 'Uint32Array', 'Int16Array', 'Uint16Array', 'Int8Array', 'Uint8Array',
-  'Uint8ClampedArray', 'BigInt64Array', 'BigUint64Array', 'isFinite', 'isNaN', 'parseFloat',
-  'parseInt', 'console',
+  'globalThis',
+  'Infinity',
+  'NaN',
+  'undefined',
+  'Math',
+  'Object',
+  'Array',
+  'Number',
+  'String',
+  'Boolean',
+  'Symbol',
+  'BigInt',
+  'Function',
+  'JSON',
+  'Reflect',
+  'Proxy',
+  'Promise',
+  'Map',
+  'Set',
+  'WeakMap',
+  'WeakSet',
+  'Date',
+  'RegExp',
+  'Error',
+  'TypeError',
+  'RangeError',
+  'SyntaxError',
+  'ReferenceError',
+  'EvalError',
+  'URIError',
+  'AggregateError',
+  'ArrayBuffer',
+  'DataView',
+  'Float64Array',
+  'Float32Array',
+  'Int32Array',
+  'Uint32Array',
+  'Int16Array',
+  'Uint16Array',
+  'Int8Array',
+  'Uint8Array',
+  'Uint8ClampedArray',
+  'BigInt64Array',
+  'BigUint64Array',
+  'isFinite',
+  'isNaN',
+  'parseFloat',
+  'parseInt',
+  'console',
 ] as const;
-
-/** Lines wrapWithBuiltins puts in front of the code (for mapping stack positions back). */
-export const WRAPPER_LINES = 1;
-
-/** Wraps engine or bundle code in a function that receives CONTEXT_BUILTINS as parameters. */
-export function wrapWithBuiltins(code: string): string {
-  // The newline before `})` keeps a trailing line comment (source map URL) from eating it.
-  return `(function (${CONTEXT_BUILTINS.join(', ')}) {\n${code}\n})`;
-}
 
 /**
  * The clock value every op sees through `Date.now()` and `new Date()`: 2021-06-01T00:00:00Z, an
@@ -298,18 +331,3 @@ export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, output
     }
   }
 })`;
-
-/**
- * "line:column,..." frames of the wrapped bundle script, as positions in the bundle's own code:
- * the wrapper adds one line in front (wrapWithBuiltins), and source maps count columns from 0.
- */
-export function bundleFramesFrom(text: string): Array<{ line: number; column: number }> {
-  const frames: Array<{ line: number; column: number }> = [];
-  for (const part of text.split(',')) {
-    const m = /^(\d+):(\d+)$/.exec(part);
-    if (!m) continue;
-    const line = Number(m[1]) - WRAPPER_LINES;
-    if (line >= 1) frames.push({ line, column: Math.max(0, Number(m[2]) - 1) });
-  }
-  return frames;
-}

@@ -38,7 +38,10 @@ function parse(file: string, text: string): ts.SourceFile {
 /** Reads the user's sources (the checked file's text may be an unsaved buffer) and parses each once. */
 class Sources {
   private readonly parsed = new Map<string, ts.SourceFile | undefined>();
-  constructor(private readonly checkedFile: string, private readonly checkedText: string) {}
+  constructor(
+    private readonly checkedFile: string,
+    private readonly checkedText: string,
+  ) {}
 
   get(file: string): ts.SourceFile | undefined {
     if (this.parsed.has(file)) return this.parsed.get(file);
@@ -119,7 +122,11 @@ function resolveModule(from: string, spec: string): string | undefined {
   return undefined;
 }
 
-interface Found { file: string; sf: ts.SourceFile; node: FunctionNode | ts.ClassDeclaration }
+interface Found {
+  file: string;
+  sf: ts.SourceFile;
+  node: FunctionNode | ts.ClassDeclaration;
+}
 
 /** Finds what `name` means at the top level of `file`: its own declaration or an import of the user's code. */
 function resolveName(sources: Sources, file: string, name: string, depth = 0): Found | undefined {

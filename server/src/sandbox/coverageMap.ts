@@ -144,7 +144,13 @@ function gapOf(fn: CodeFunction, start: number, end: number, what: string): Cove
   const s = place(fn, start);
   const e = place(fn, end);
   return {
-    file: fn.file, startLine: s.line, startColumn: s.column, endLine: e.line, endColumn: e.column,
-    function: fn.name, side: sideOf(fn), what,
+    file: fn.file,
+    startLine: s.line,
+    startColumn: s.column,
+    endLine: e.line,
+    endColumn: e.column,
+    function: fn.name,
+    side: sideOf(fn),
+    what,
   };
 }

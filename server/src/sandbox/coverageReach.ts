@@ -10,8 +10,10 @@ import { localNames } from './coverageFunctions';
 type Comparison = '<' | '<=' | '>' | '>=';
 
 const COMPARISONS = new Map<ts.SyntaxKind, Comparison>([
-  [ts.SyntaxKind.LessThanToken, '<'], [ts.SyntaxKind.LessThanEqualsToken, '<='],
-  [ts.SyntaxKind.GreaterThanToken, '>'], [ts.SyntaxKind.GreaterThanEqualsToken, '>='],
+  [ts.SyntaxKind.LessThanToken, '<'],
+  [ts.SyntaxKind.LessThanEqualsToken, '<='],
+  [ts.SyntaxKind.GreaterThanToken, '>'],
+  [ts.SyntaxKind.GreaterThanEqualsToken, '>='],
 ]);
 const FLIPPED: Record<Comparison, Comparison> = { '<': '>', '<=': '>=', '>': '<', '>=': '<=' };
 const NEGATED: Record<Comparison, Comparison> = { '<': '>=', '<=': '>', '>': '<=', '>=': '<' };
@@ -93,8 +95,14 @@ function isWritten(fn: ts.FunctionLikeDeclaration, name: string): boolean {
   let written = false;
   const visit = (n: ts.Node): void => {
     if (written) return;
-    if (ts.isBinaryExpression(n) && n.operatorToken.kind >= ts.SyntaxKind.FirstAssignment && n.operatorToken.kind <= ts.SyntaxKind.LastAssignment && rootName(n.left) === name) written = true;
-    if ((ts.isPrefixUnaryExpression(n) || ts.isPostfixUnaryExpression(n)) && (n.operator === ts.SyntaxKind.PlusPlusToken || n.operator === ts.SyntaxKind.MinusMinusToken) && rootName(n.operand) === name) written = true;
+    if (ts.isBinaryExpression(n) && n.operatorToken.kind >= ts.SyntaxKind.FirstAssignment && n.operatorToken.kind <= ts.SyntaxKind.LastAssignment && rootName(n.left) === name)
+      written = true;
+    if (
+      (ts.isPrefixUnaryExpression(n) || ts.isPostfixUnaryExpression(n)) &&
+      (n.operator === ts.SyntaxKind.PlusPlusToken || n.operator === ts.SyntaxKind.MinusMinusToken) &&
+      rootName(n.operand) === name
+    )
+      written = true;
     ts.forEachChild(n, visit);
   };
   if (fn.body) visit(fn.body);

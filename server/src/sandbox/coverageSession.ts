@@ -15,9 +15,19 @@ export { COVERAGE_RUNNER_ARG } from './jobTypes';
 /** The filename every bundle script is compiled under (child.ts). */
 const BUNDLE_URL = 'user-bundle.js';
 
-interface V8Range { startOffset: number; endOffset: number; count: number }
-interface V8Function { functionName: string; ranges: V8Range[] }
-interface V8Script { url: string; functions: V8Function[] }
+interface V8Range {
+  startOffset: number;
+  endOffset: number;
+  count: number;
+}
+interface V8Function {
+  functionName: string;
+  ranges: V8Range[];
+}
+interface V8Script {
+  url: string;
+  functions: V8Function[];
+}
 
 export class CoverageSession {
   private readonly session = new Session();

@@ -3,7 +3,8 @@
 // for time. The same context setup and driver as the process runner, so verdicts agree.
 import type { QuickJSContext, QuickJSRuntime, QuickJSWASMModule } from 'quickjs-emscripten';
 import type { RunnerJobFields, RunnerReply } from './jobTypes';
-import { CONTEXT_SETUP_SOURCE, FIXED_DATE_MS, bundleFramesFrom, wrapWithBuiltins } from './contextSetup';
+import { CONTEXT_SETUP_SOURCE, FIXED_DATE_MS } from './contextSetup';
+import { bundleFramesFrom, wrapWithBuiltins } from './bundleWrapper';
 
 /**
  * Highest memory limit the interpreter gets, in MiB. QuickJS here is a 32-bit WebAssembly
@@ -54,12 +55,11 @@ function guestErrorText(dumped: unknown): string {
     if (typeof d.message === 'string') return `${typeof d.name === 'string' && d.name ? d.name : 'Error'}: ${d.message}`;
   }
   try {
-    return typeof dumped === 'string' ? dumped : JSON.stringify(dumped) ?? String(dumped);
+    return typeof dumped === 'string' ? dumped : (JSON.stringify(dumped) ?? String(dumped));
   } catch {
     return String(dumped);
   }
 }
-
 
 /** Evaluates code in the context; returns the result as host data, throws GuestError on an exception. */
 function evaluate(ctx: QuickJSContext, code: string, filename: string): unknown {
@@ -124,7 +124,13 @@ function runInside(quickjs: QuickJSWASMModule, job: IsolatedJob, handles: { runt
   const memoryMb = Math.min(job.memoryLimitMb, ISOLATED_MEMORY_CAP_MB);
   let poisoned = false;
   const fail = (error: string, extra: { timedOut?: boolean; duringLoad?: boolean; output?: string } = {}): IsolatedAnswer => ({
-    ok: false, error, timedOut: extra.timedOut ?? false, duringLoad: extra.duringLoad ?? false, poisoned, output: extra.output ?? '', elapsedMs: elapsed(),
+    ok: false,
+    error,
+    timedOut: extra.timedOut ?? false,
+    duringLoad: extra.duringLoad ?? false,
+    poisoned,
+    output: extra.output ?? '',
+    elapsedMs: elapsed(),
   });
   try {
     const runtime = quickjs.newRuntime();
@@ -164,13 +170,14 @@ function runInside(quickjs: QuickJSWASMModule, job: IsolatedJob, handles: { runt
       const output = readBack(runtime, c, '__gradientProbeOutput()');
       if (overHeap) {
         poisoned = true;
-        return fail(`the op's memory in the interpreter grew past ${ISOLATED_HEAP_FACTOR} × its limit of ${memoryMb} MiB (${Math.round(heapBytes() / 2 ** 20)} MiB of WebAssembly memory); it was stopped`, { output });
+        return fail(
+          `the op's memory in the interpreter grew past ${ISOLATED_HEAP_FACTOR} × its limit of ${memoryMb} MiB (${Math.round(heapBytes() / 2 ** 20)} MiB of WebAssembly memory); it was stopped`,
+          { output },
+        );
       }
       if (interrupted) {
         const duringLoad = readBack(runtime, c, '__gradientProbePhase()') === 'load';
-        const error = duringLoad
-          ? `timed out after ${job.timeLimitMs} ms while loading the module (its top-level code did not finish)`
-          : `timed out after ${job.timeLimitMs} ms`;
+        const error = duringLoad ? `timed out after ${job.timeLimitMs} ms while loading the module (its top-level code did not finish)` : `timed out after ${job.timeLimitMs} ms`;
         return fail(error, { timedOut: true, duringLoad, output });
       }
       if (/out of memory/i.test(text)) {

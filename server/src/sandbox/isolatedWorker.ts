@@ -34,8 +34,14 @@ async function handle(request: IsolatedRequest): Promise<void> {
     reply = { id: request.id, ...runIsolatedJob(module, request, () => wasmHeapBytes(module)) };
   } catch (e) {
     reply = {
-      id: request.id, ok: false, error: `the interpreter could not start: ${(e as Error).message}`, timedOut: false, duringLoad: false,
-      output: '', elapsedMs: 0, poisoned: true,
+      id: request.id,
+      ok: false,
+      error: `the interpreter could not start: ${(e as Error).message}`,
+      timedOut: false,
+      duringLoad: false,
+      output: '',
+      elapsedMs: 0,
+      poisoned: true,
     };
   }
   // A reply marked poisoned (out of memory, an abort) makes the host end this process and start

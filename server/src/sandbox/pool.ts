@@ -5,6 +5,7 @@
 // already holds, and runners matched to a job's memory limit.
 import { availableParallelism, cpus } from 'node:os';
 import { CHILD_SCRIPT_NAME, EngineCode, locateScript } from './assets';
+import { KnownBundles } from './knownBundles';
 import { JobQueue, closedWhile, type QueuedJob } from './jobQueue';
 import { emptyStats, runnerJobFields, type RunnerStats, type RunJob, type RunResult } from './jobTypes';
 import { RESIDENT_HEADROOM_MB } from './memoryWatch';
@@ -32,9 +33,6 @@ export const START_TIMEOUT_MS = 15_000;
  */
 export const COVERAGE_RUNNER_JOBS = 100;
 
-/** Bundles a runner is assumed to hold; mirrors the runner's own cache size. */
-const KNOWN_BUNDLES_PER_RUNNER = 32;
-
 export interface RunnerPoolOptions {
   /** Number of runner processes (default min(2, cores)). */
   size?: number;
@@ -52,7 +50,7 @@ interface Runner {
   command: RunnerCommand;
   memoryLimitMb: number;
   state: 'starting' | 'idle' | 'busy' | 'dead';
-  knownBundles: Map<string, true>;
+  knownBundles: KnownBundles;
   jobsRun: number;
   current?: QueuedJob;
   startTimer?: NodeJS.Timeout;
@@ -156,7 +154,7 @@ export class RunnerPool {
       return undefined;
     }
     this.stats.spawned++;
-    const runner: Runner = { process: proc, command, memoryLimitMb, state: 'starting', knownBundles: new Map(), jobsRun: 0 };
+    const runner: Runner = { process: proc, command, memoryLimitMb, state: 'starting', knownBundles: new KnownBundles(), jobsRun: 0 };
     holder.runner = runner;
     this.runners.add(runner);
     runner.startTimer = setTimeout(() => {
@@ -186,7 +184,7 @@ export class RunnerPool {
     const job = runner.current;
     if (!job || message.id !== job.id) return;
     if (message.type === 'missing-bundle') {
-      runner.knownBundles.delete(job.job.bundleKey);
+      runner.knownBundles.forget(job.job.bundleKey);
       this.sendJob(runner, job);
       return;
     }
@@ -335,14 +333,7 @@ export class RunnerPool {
 
   private sendJob(runner: Runner, queued: QueuedJob): void {
     const { job } = queued;
-    const known = runner.knownBundles.has(job.bundleKey);
-    if (known) runner.knownBundles.delete(job.bundleKey);
-    runner.knownBundles.set(job.bundleKey, true);
-    while (runner.knownBundles.size > KNOWN_BUNDLES_PER_RUNNER) {
-      const oldest = runner.knownBundles.keys().next().value;
-      if (oldest === undefined) break;
-      runner.knownBundles.delete(oldest);
-    }
+    const known = runner.knownBundles.remember(job.bundleKey);
     if (!known) this.stats.bundlesSent++;
     const message: JobMessage = {
       type: 'job',

@@ -27,12 +27,12 @@ export function runResultFromReply(reply: RunnerReply): RunResult {
   if (reply.ok) {
     const outcome = parseOutcome(reply.outcomeJson);
     if (outcome && reply.coverage) return { outcome, output, elapsedMs, coverage: reply.coverage };
-    return outcome
-      ? { outcome, output, elapsedMs }
-      : { error: 'the check returned malformed data', output, elapsedMs, cause: 'runner' };
+    return outcome ? { outcome, output, elapsedMs } : { error: 'the check returned malformed data', output, elapsedMs, cause: 'runner' };
   }
   const result: RunFailure = {
-    error: reply.error, output, elapsedMs,
+    error: reply.error,
+    output,
+    elapsedMs,
     cause: reply.duringLoad ? 'load' : reply.timedOut ? 'timeout' : 'runner',
   };
   if (reply.bundleFrames && reply.bundleFrames.length > 0) result.bundleFrames = reply.bundleFrames;

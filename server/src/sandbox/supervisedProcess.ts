@@ -30,7 +30,10 @@ export interface ProcessHandlers {
 
 /** The most telling line of a process's stderr: the first error line, else the last line that is not Node's version banner. */
 export function tellingLine(stderr: string): string | undefined {
-  const lines = stderr.split('\n').map((l) => l.trim()).filter((l) => l && !/^Node\.js v\d/.test(l));
+  const lines = stderr
+    .split('\n')
+    .map((l) => l.trim())
+    .filter((l) => l && !/^Node\.js v\d/.test(l));
   const error = lines.find((l) => /^(\w*Error|FATAL ERROR)\b|Error:/.test(l));
   return (error ?? lines[lines.length - 1])?.slice(0, 300);
 }
@@ -43,7 +46,10 @@ export class SupervisedProcess {
   private watchdog: NodeJS.Timeout | undefined;
   private stopWatch: (() => void) | undefined;
 
-  private constructor(private readonly proc: ChildProcess, handlers: ProcessHandlers) {
+  private constructor(
+    private readonly proc: ChildProcess,
+    handlers: ProcessHandlers,
+  ) {
     proc.stderr?.setEncoding('utf8');
     proc.stderr?.on('data', (chunk: string) => {
       this.stderr = (this.stderr + chunk).slice(-STDERR_TAIL_CHARS);

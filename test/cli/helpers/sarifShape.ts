@@ -42,15 +42,16 @@ export function sarifViolations(log: unknown): string[] {
     const rules = driver['rules'] ?? [];
     const ruleIds: string[] = [];
     if (!Array.isArray(rules)) out.push(`${at}.tool.driver.rules must be an array`);
-    else rules.forEach((rule, k) => {
-      if (!isObj(rule) || typeof rule['id'] !== 'string') out.push(`${at}.tool.driver.rules[${k}].id is required`);
-      else {
-        if (ruleIds.includes(rule['id'])) out.push(`rule id ${rule['id']} is not unique`);
-        ruleIds.push(rule['id']);
-        const level = isObj(rule['defaultConfiguration']) ? (rule['defaultConfiguration'] as Obj)['level'] : undefined;
-        if (level !== undefined && !LEVELS.includes(level as string)) out.push(`rule ${rule['id']} has a bad default level`);
-      }
-    });
+    else
+      rules.forEach((rule, k) => {
+        if (!isObj(rule) || typeof rule['id'] !== 'string') out.push(`${at}.tool.driver.rules[${k}].id is required`);
+        else {
+          if (ruleIds.includes(rule['id'])) out.push(`rule id ${rule['id']} is not unique`);
+          ruleIds.push(rule['id']);
+          const level = isObj(rule['defaultConfiguration']) ? (rule['defaultConfiguration'] as Obj)['level'] : undefined;
+          if (level !== undefined && !LEVELS.includes(level as string)) out.push(`rule ${rule['id']} has a bad default level`);
+        }
+      });
     const bases = isObj(run['originalUriBaseIds']) ? (run['originalUriBaseIds'] as Obj) : {};
     for (const [id, base] of Object.entries(bases)) {
       const uri = isObj(base) ? base['uri'] : undefined;
@@ -88,32 +89,33 @@ function resultViolations(result: unknown, at: string, ruleIds: string[], bases:
   const locations = result['locations'];
   if (locations !== undefined) {
     if (!Array.isArray(locations)) out.push(`${at}.locations must be an array`);
-    else locations.forEach((loc, j) => {
-      const where = `${at}.locations[${j}]`;
-      const physical = isObj(loc) ? loc['physicalLocation'] : undefined;
-      if (!isObj(physical)) {
-        out.push(`${where}.physicalLocation expected`);
-        return;
-      }
-      const artifact = physical['artifactLocation'];
-      if (!isObj(artifact) || typeof artifact['uri'] !== 'string' || !isUriReference(artifact['uri'])) {
-        out.push(`${where}.physicalLocation.artifactLocation.uri must be a URI reference`);
-      } else if (artifact['uriBaseId'] !== undefined && !(String(artifact['uriBaseId']) in bases)) {
-        out.push(`${where} uses uriBaseId ${String(artifact['uriBaseId'])}, which originalUriBaseIds does not define`);
-      }
-      const region = physical['region'];
-      if (region !== undefined) {
-        if (!isObj(region)) out.push(`${where}.region must be an object`);
-        else {
-          if (!isInt(region['startLine'], 1)) out.push(`${where}.region.startLine must be an integer ≥ 1 (1-based)`);
-          if (region['startColumn'] !== undefined && !isInt(region['startColumn'], 1)) out.push(`${where}.region.startColumn must be ≥ 1 (1-based)`);
-          if (region['endLine'] !== undefined && !(isInt(region['endLine'], 1) && (region['endLine'] as number) >= (region['startLine'] as number))) {
-            out.push(`${where}.region.endLine must not come before startLine`);
-          }
-          if (region['endColumn'] !== undefined && !isInt(region['endColumn'], 1)) out.push(`${where}.region.endColumn must be ≥ 1`);
+    else
+      locations.forEach((loc, j) => {
+        const where = `${at}.locations[${j}]`;
+        const physical = isObj(loc) ? loc['physicalLocation'] : undefined;
+        if (!isObj(physical)) {
+          out.push(`${where}.physicalLocation expected`);
+          return;
         }
-      }
-    });
+        const artifact = physical['artifactLocation'];
+        if (!isObj(artifact) || typeof artifact['uri'] !== 'string' || !isUriReference(artifact['uri'])) {
+          out.push(`${where}.physicalLocation.artifactLocation.uri must be a URI reference`);
+        } else if (artifact['uriBaseId'] !== undefined && !(String(artifact['uriBaseId']) in bases)) {
+          out.push(`${where} uses uriBaseId ${String(artifact['uriBaseId'])}, which originalUriBaseIds does not define`);
+        }
+        const region = physical['region'];
+        if (region !== undefined) {
+          if (!isObj(region)) out.push(`${where}.region must be an object`);
+          else {
+            if (!isInt(region['startLine'], 1)) out.push(`${where}.region.startLine must be an integer ≥ 1 (1-based)`);
+            if (region['startColumn'] !== undefined && !isInt(region['startColumn'], 1)) out.push(`${where}.region.startColumn must be ≥ 1 (1-based)`);
+            if (region['endLine'] !== undefined && !(isInt(region['endLine'], 1) && (region['endLine'] as number) >= (region['startLine'] as number))) {
+              out.push(`${where}.region.endLine must not come before startLine`);
+            }
+            if (region['endColumn'] !== undefined && !isInt(region['endColumn'], 1)) out.push(`${where}.region.endColumn must be ≥ 1`);
+          }
+        }
+      });
   }
   return out;
 }

@@ -42,15 +42,17 @@ export async function main(root: string): Promise<number> {
     linkRepositoryPackages(root, workspace);
     // No page to photograph here: tell the suites up front that their screenshots are "taken".
     for (const name of SCREENSHOT_NAMES) writeFileSync(screenshotFlag(workspace, name), 'not taken: desktop host\n');
-    const code = await electron.runTests({
-      version: VSCODE_VERSION,
-      extensionDevelopmentPath: root,
-      extensionTestsPath: join(root, 'dist', 'editor-suite', suite.name),
-      launchArgs: [workspace, '--disable-extensions', ...(suite.trust ? [] : ['--disable-workspace-trust'])],
-    }).catch((err: unknown) => {
-      process.stderr.write(`${suite.name}: ${err instanceof Error ? err.message : String(err)}\n`);
-      return 1;
-    });
+    const code = await electron
+      .runTests({
+        version: VSCODE_VERSION,
+        extensionDevelopmentPath: root,
+        extensionTestsPath: join(root, 'dist', 'editor-suite', suite.name),
+        launchArgs: [workspace, '--disable-extensions', ...(suite.trust ? [] : ['--disable-workspace-trust'])],
+      })
+      .catch((err: unknown) => {
+        process.stderr.write(`${suite.name}: ${err instanceof Error ? err.message : String(err)}\n`);
+        return 1;
+      });
     worst = Math.max(worst, code);
   }
   return worst;
@@ -58,7 +60,8 @@ export async function main(root: string): Promise<number> {
 
 function demoWorkspace(root: string): string {
   const examples = join(root, 'examples');
-  const hasOps = existsSync(examples) && readdirSync(examples, { recursive: true, encoding: 'utf8' })
-    .some((f) => f.endsWith('.ts') && readFileSync(join(examples, f), 'utf8').includes('@backward'));
+  const hasOps =
+    existsSync(examples) &&
+    readdirSync(examples, { recursive: true, encoding: 'utf8' }).some((f) => f.endsWith('.ts') && readFileSync(join(examples, f), 'utf8').includes('@backward'));
   return hasOps ? examples : join(root, 'test', 'fixtures', 'lsp');
 }

@@ -47,7 +47,9 @@ export async function main(root: string, only?: string): Promise<number> {
   const dirs = { userData: join(scratch, 'user-data'), extensions: join(scratch, 'extensions') };
   log(`installing ${vsix}`);
   execFileSync(codeServer, ['--user-data-dir', dirs.userData, '--extensions-dir', dirs.extensions, '--install-extension', vsix], { env, stdio: 'inherit' });
-  const extensionDir = readdirSync(dirs.extensions).map((d) => join(dirs.extensions, d)).find((d) => existsSync(join(d, 'package.json')) && d.includes('gradient-probe'));
+  const extensionDir = readdirSync(dirs.extensions)
+    .map((d) => join(dirs.extensions, d))
+    .find((d) => existsSync(join(d, 'package.json')) && d.includes('gradient-probe'));
   if (!extensionDir) throw new Error(`the .vsix did not install into ${dirs.extensions}`);
 
   const shots = join(root, 'test', 'editor', 'screenshots');
@@ -85,14 +87,30 @@ function demoWorkspace(root: string): string {
 }
 
 async function runSuite(o: {
-  root: string; codeServer: string; env: NodeJS.ProcessEnv; dirs: { userData: string; extensions: string };
-  extensionDir: string; workspace: string; run: SuiteRun; shots: string;
+  root: string;
+  codeServer: string;
+  env: NodeJS.ProcessEnv;
+  dirs: { userData: string; extensions: string };
+  extensionDir: string;
+  workspace: string;
+  run: SuiteRun;
+  shots: string;
 }): Promise<number> {
   const port = await freePort();
   const args = [
-    '--bind-addr', `127.0.0.1:${port}`, '--auth', 'none', '--disable-telemetry', '--disable-update-check',
-    '--disable-getting-started-override', '--disable-proxy', '--ignore-last-opened',
-    '--user-data-dir', o.dirs.userData, '--extensions-dir', o.dirs.extensions,
+    '--bind-addr',
+    `127.0.0.1:${port}`,
+    '--auth',
+    'none',
+    '--disable-telemetry',
+    '--disable-update-check',
+    '--disable-getting-started-override',
+    '--disable-proxy',
+    '--ignore-last-opened',
+    '--user-data-dir',
+    o.dirs.userData,
+    '--extensions-dir',
+    o.dirs.extensions,
     ...(o.run.trustPrompt ? [] : ['--disable-workspace-trust']),
     o.workspace,
   ];
@@ -143,15 +161,12 @@ async function runSuite(o: {
     const url = `http://127.0.0.1:${port}/?folder=${encodeURIComponent(o.workspace)}&payload=${encodeURIComponent(JSON.stringify(payload))}`;
     log(`suite ${o.run.name}: opening the workbench on port ${port}`);
     await page.goto(url);
-    const code = await Promise.race([
-      exited,
-      new Promise<number>((r) => setTimeout(() => r(124), WATCHDOG_MS)),
-    ]);
+    const code = await Promise.race([exited, new Promise<number>((r) => setTimeout(() => r(124), WATCHDOG_MS))]);
     if (exitCode === undefined) log(`suite ${o.run.name}: no exit code after ${WATCHDOG_MS} ms; stopped by the watchdog`);
     await Promise.all(shots);
     return code;
   } catch (err) {
-    log(`suite ${o.run.name} could not run: ${err instanceof Error ? err.stack ?? err.message : String(err)}`);
+    log(`suite ${o.run.name} could not run: ${err instanceof Error ? (err.stack ?? err.message) : String(err)}`);
     log(serverLog.join('').slice(-3000));
     return 1;
   } finally {
@@ -164,11 +179,24 @@ async function runSuite(o: {
 async function takeScreenshot(page: import('playwright-core').Page, path: string, flag: string): Promise<void> {
   try {
     // A freshly opened editor asks for its lenses after it paints; give them a moment to appear.
-    await page.locator('.codelens-decoration').first().waitFor({ timeout: 10_000 }).catch(() => undefined);
+    await page
+      .locator('.codelens-decoration')
+      .first()
+      .waitFor({ timeout: 10_000 })
+      .catch(() => undefined);
     await page.screenshot({ path });
     log(`screenshot: ${path}`);
     const texts = async (selector: string): Promise<string> =>
-      (await page.locator(selector).allInnerTexts().catch(() => [] as string[])).map((t) => t.replace(/\s+/g, ' ').trim()).filter(Boolean).slice(0, 6).join(' | ') || '(none)';
+      (
+        await page
+          .locator(selector)
+          .allInnerTexts()
+          .catch(() => [] as string[])
+      )
+        .map((t) => t.replace(/\s+/g, ' ').trim())
+        .filter(Boolean)
+        .slice(0, 6)
+        .join(' | ') || '(none)';
     log(`  code lenses on screen: ${await texts('.codelens-decoration')}`);
     log(`  Problems panel rows: ${await texts('.markers-panel .monaco-list-row')}`);
     log(`  status bar: ${await texts('.statusbar-item')}`);
@@ -187,7 +215,8 @@ function ensureCodeServer(dir: string): string {
     log('installing Debian packages: chromium ripgrep libkrb5-dev build-essential python3');
     execFileSync('apt-get', ['update'], { stdio: 'inherit' });
     execFileSync('apt-get', ['install', '-y', '--no-install-recommends', 'chromium', 'ripgrep', 'libkrb5-dev', 'build-essential', 'python3'], {
-      stdio: 'inherit', env: { ...process.env, DEBIAN_FRONTEND: 'noninteractive' },
+      stdio: 'inherit',
+      env: { ...process.env, DEBIAN_FRONTEND: 'noninteractive' },
     });
   }
   if (!existsSync(bin)) {

@@ -21,7 +21,10 @@ export function run(): Promise<void> {
         const diag = await waitFor('a mismatch found in the interpreter', () => probeDiagnostics(buggy, 'gradient-mismatch')[0], 120_000);
         assert.match(diag.message, /\[isolated interpreter\]$/);
         const titles = await lensTitles(buggy);
-        assert.ok(titles.some((t) => /^✗ mismatch .* · isolated interpreter$/.test(t)), titles.join(' | '));
+        assert.ok(
+          titles.some((t) => /^✗ mismatch .* · isolated interpreter$/.test(t)),
+          titles.join(' | '),
+        );
         assert.equal(api.status()?.isolated, true);
         // No sandbox runner process: only esbuild's bundling service may sit under the server.
         const runners = childrenOf(serverPid()!).filter((pid) => {

@@ -7,9 +7,7 @@
 import assert from 'node:assert/strict';
 import * as vscode from 'vscode';
 import type { CheckWorkspaceResult } from '../../../server/src/lsp/protocol';
-import {
-  annotatedFiles, childrenOf, lensTitles, positionOf, probeApi, probeDiagnostics, requestScreenshot, runMocha, serverPid, waitFor,
-} from './helpers';
+import { annotatedFiles, childrenOf, lensTitles, positionOf, probeApi, probeDiagnostics, requestScreenshot, runMocha, serverPid, waitFor } from './helpers';
 
 /** The lens title of a finished verdict (see server/src/lsp/codeLens.ts). */
 const VERDICT_LENS = /^(✓ ((jacobian|tangent|hessian) )?pass|✗ ((jacobian|tangent|hessian) )?mismatch|\? inconclusive|! error)/;
@@ -61,10 +59,14 @@ export function run(): Promise<void> {
             const verdicts = t.filter((x) => VERDICT_LENS.test(x));
             return verdicts.length > 0 && !t.some((x) => /checking…|not checked yet/.test(x)) ? t : undefined;
           });
-          const mismatches = await waitFor(`${expected} mismatch diagnostic(s) in ${vscode.workspace.asRelativePath(uri)}`, () => {
-            const d = probeDiagnostics(uri, 'gradient-mismatch');
-            return d.length === expected ? d : undefined;
-          }, 15_000);
+          const mismatches = await waitFor(
+            `${expected} mismatch diagnostic(s) in ${vscode.workspace.asRelativePath(uri)}`,
+            () => {
+              const d = probeDiagnostics(uri, 'gradient-mismatch');
+              return d.length === expected ? d : undefined;
+            },
+            15_000,
+          );
           assert.equal(titles.filter((t) => MISMATCH_LENS.test(t)).length, expected, titles.join(' | '));
           for (const d of mismatches) {
             assert.equal(d.severity, vscode.DiagnosticSeverity.Error);
@@ -72,7 +74,10 @@ export function run(): Promise<void> {
             assert.match(d.message, /max relative error \d\.\de[-+]\d+ at |(jacobian|tangent|hessian) is wrong: /);
             // A `@backward library-gradient` op has no hand-written function to point at: its gradient is the library's.
             const libraryGradient = doc.getText().includes('@backward library-gradient');
-            assert.ok(libraryGradient || (d.relatedInformation ?? []).some((r) => /^(backward|jacobian|tangent|hessian) /.test(r.message)), 'related information names the derivative function');
+            assert.ok(
+              libraryGradient || (d.relatedInformation ?? []).some((r) => /^(backward|jacobian|tangent|hessian) /.test(r.message)),
+              'related information names the derivative function',
+            );
           }
         }
         const runners = childrenOf(serverPid()!);
@@ -144,7 +149,10 @@ export function run(): Promise<void> {
           const t = (await lensTitles(uri)).filter((x) => VERDICT_LENS.test(x));
           return t.length === 4 ? t : undefined;
         });
-        assert.deepEqual(titles.map((t) => t.split(' · ')[0]), ['✓ jacobian pass', '✓ tangent pass', '✓ pass', '✗ hessian mismatch']);
+        assert.deepEqual(
+          titles.map((t) => t.split(' · ')[0]),
+          ['✓ jacobian pass', '✓ tangent pass', '✓ pass', '✗ hessian mismatch'],
+        );
         const diag = probeDiagnostics(uri, 'gradient-mismatch');
         assert.equal(diag.length, 1);
         assert.match(diag[0]!.message, /^aimingCost @hessian: hessian is wrong: H\[1, 0\] \(angles\[1\], angles\[0\]\)/);

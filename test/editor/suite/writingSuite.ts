@@ -46,10 +46,18 @@ export function run(): Promise<void> {
         // The new line is the one below `@sample temp` (other ops have `@sample` lines too).
         const cursor = vents.lineAt(positionOf(vents, '@sample temp num in [5, 30]').line + 1).range.end;
         assert.equal(vents.lineAt(cursor.line).text, ' * @sample ');
-        const list = await waitFor('completion items for @sample', async () => {
-          const l = await vscode.commands.executeCommand<vscode.CompletionList>('vscode.executeCompletionItemProvider', vents.uri, new vscode.Position(cursor.line, cursor.character));
-          return l && l.items.some((i) => i.label === 'humidity') ? l : undefined;
-        }, 30_000);
+        const list = await waitFor(
+          'completion items for @sample',
+          async () => {
+            const l = await vscode.commands.executeCommand<vscode.CompletionList>(
+              'vscode.executeCompletionItemProvider',
+              vents.uri,
+              new vscode.Position(cursor.line, cursor.character),
+            );
+            return l && l.items.some((i) => i.label === 'humidity') ? l : undefined;
+          },
+          30_000,
+        );
         // Ours are the items whose detail is the whole tag; the editor adds words of the file too.
         const ours = list.items.filter((i) => i.detail?.startsWith('@sample ')).map((i) => (typeof i.label === 'string' ? i.label : i.label.label));
         assert.deepEqual(ours.sort(), ['humidity', 'pane'], 'the parameters without a sample, and not temp');
@@ -69,7 +77,7 @@ export function run(): Promise<void> {
         const found = (await vscode.commands.executeCommand<(vscode.Location | vscode.LocationLink)[]>('vscode.executeDefinitionProvider', vents.uri, at)) ?? [];
         const target = positionOf(vents, 'airflowBackward(opening');
         const hit = found.some((l) => {
-          const range = 'targetRange' in l ? l.targetSelectionRange ?? l.targetRange : l.range;
+          const range = 'targetRange' in l ? (l.targetSelectionRange ?? l.targetRange) : l.range;
           const uri = 'targetUri' in l ? l.targetUri : l.uri;
           return uri.toString() === vents.uri.toString() && range.start.isEqual(target);
         });
@@ -107,7 +115,10 @@ export function run(): Promise<void> {
         assert.ok(fix?.edit);
         assert.ok(await vscode.workspace.applyEdit(fix.edit));
         await waitFor('the missing-backward problem to go', () => !probeDiagnostics(vents.uri, 'annotation').some((x) => x.message.includes('condensationBackward')), 30_000);
-        assert.match(vents.getText(), /export function condensationBackward\(temp: number, humidity: number\[\]\[\], pane: \[number, number, number\], dy: number\): \{ temp: number; humidity: number\[\]\[\]; pane: \[number, number, number\] \}/);
+        assert.match(
+          vents.getText(),
+          /export function condensationBackward\(temp: number, humidity: number\[\]\[\], pane: \[number, number, number\], dy: number\): \{ temp: number; humidity: number\[\]\[\]; pane: \[number, number, number\] \}/,
+        );
       });
 
       it('annotates an exported function with numeric parameters as an op', async () => {
@@ -133,7 +144,11 @@ export function run(): Promise<void> {
         const factor = positionOf(scale, 'VENT_FACTOR = 3').translate(0, 'VENT_FACTOR = '.length);
         await scaleEditor.edit((b) => b.replace(new vscode.Range(factor, factor.translate(0, 1)), '4'));
         assert.ok(await scale.save());
-        await waitFor('airflow to become a mismatch after scale.ts was saved', () => probeDiagnostics(vents.uri, 'gradient-mismatch').some((d) => d.message.startsWith('airflow:')), 60_000);
+        await waitFor(
+          'airflow to become a mismatch after scale.ts was saved',
+          () => probeDiagnostics(vents.uri, 'gradient-mismatch').some((d) => d.message.startsWith('airflow:')),
+          60_000,
+        );
         await waitFor('the Testing view to record the failure', () => api.testOutcome(id) === 'failed', 30_000);
         assert.ok(api.recordedTestRuns() > recorded);
       });
