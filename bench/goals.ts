@@ -202,10 +202,16 @@ function denseGoals(r: BenchReport): GoalLine[] {
   }
   const rows = r.ops.filter((m) => m.kind === 'softmax' && m.elements >= 1000 && m.verdict === 'pass');
   if (rows.length > 0) {
-    const over = rows.map((m) => m.calls.forward - m.floor.calls.forwards);
+    // The report's error-against-step picture (26 calls, no part in the verdict) is not the grouping's cost.
+    const over = rows.map((m) => m.calls.forward - (m.calls.stepScanForward ?? 0) - m.floor.calls.forwards);
     goals.push({
       goal: `row-block Jacobians (softmax over rows of ${SOFTMAX_CLASSES}) use ${SOFTMAX_CLASSES} colour classes: forward calls ≤ the exact block scheme's + ${GOALS.rowBlockExtraCalls}`,
-      figure: rows.map((m, i) => `${m.elements.toLocaleString('en-US')}: ${m.calls.forward} calls, exact ${m.floor.calls.forwards} (+${over[i]})`).join('; '),
+      figure: rows
+        .map(
+          (m, i) =>
+            `${m.elements.toLocaleString('en-US')}: ${m.calls.forward} calls${m.calls.stepScanForward ? ` (${m.calls.stepScanForward} for the step picture)` : ''}, exact ${m.floor.calls.forwards} (+${over[i]})`,
+        )
+        .join('; '),
       met: over.every((o) => o <= GOALS.rowBlockExtraCalls),
     });
   }

@@ -65,7 +65,10 @@ export function attemptOutcome(at: AttemptReportContext, checks: ParamCheck[]): 
       }
     }
   }
+  // Forward calls the error-against-step pictures cost: part of `calls.forward`, not of the verdict.
+  const beforeScans = h.calls.forward;
   for (let s = 0; s < checks.length; s++) addReportData(at, s, checks[s]);
+  const stepScanForward = h.calls.forward - beforeScans;
 
   const verdict: Verdict = anyMismatch ? 'mismatch' : anyInconclusive ? 'inconclusive' : 'pass';
   if (verdict !== 'pass' && base.precision === 'f64') {
@@ -88,6 +91,7 @@ export function attemptOutcome(at: AttemptReportContext, checks: ParamCheck[]): 
     params,
     calls: { forward: h.calls.forward, backward: h.calls.backward },
   };
+  if (stepScanForward > 0) outcome.calls.stepScanForward = stepScanForward;
   if (base.inputs !== undefined) outcome.inputs = base.inputs;
   for (let s = 0; s < checks.length; s++) {
     const stop = checks[s].timeStop;

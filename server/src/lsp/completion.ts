@@ -11,7 +11,7 @@ import { specFromType, specSnippet } from './specGuess';
 import { arity, SourceModel, type SiteModel } from './sourceModel';
 import { DERIVATIVE_TAGS, TAG_DOCS, tagMarkdown } from './tagDocs';
 
-/** Spec forms offered after a parameter name, beside the guess (interface.md §1). */
+/** Spec forms offered after a parameter name, beside the guess (docs/annotations.md, "@sample PARAM SPEC"). */
 const SPEC_FORMS: readonly { label: string; snippet: string; detail: string }[] = [
   { label: 'f64[…]', snippet: 'f64[${1:8}]', detail: 'float64 array (Float64Array)' },
   { label: 'f32[…]', snippet: 'f32[${1:8}]', detail: 'float32 array (Float32Array)' },
@@ -120,7 +120,7 @@ function sampleCompletions(sm: SiteModel, rest: string, replace: Range): Complet
   return items;
 }
 
-/** How many arguments the check passes by default for this kind (interface.md §1 and §5). */
+/** How many arguments the check passes by default for this kind (docs/annotations.md, "@backward NAME" and "Other derivative kinds"). */
 function defaultArgCount(kind: string, sm: SiteModel): number {
   const n = sm.params.length;
   if (sm.site.kind === 'method') return kind === 'tangent' ? n + 1 : 1;

@@ -77,6 +77,11 @@ export interface ParamResult {
 export interface CallCounts {
   forward: number;
   backward: number;
+  /**
+   * Of `forward`, the calls spent drawing the report's error-against-step pictures (up to 26 per
+   * picture); they inform the reader and play no part in the verdict. Absent when none was drawn.
+   */
+  stepScanForward?: number;
 }
 
 /**
