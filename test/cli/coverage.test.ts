@@ -1,5 +1,6 @@
 // Coverage through the real command line: the detail line under an op with gaps, the JSON
-// report's `coverage`, SARIF notes of their own rule, --fail-on-unreached and --no-coverage.
+// report's `coverage`, SARIF notes of their own rule, JUnit's <system-out> and failure,
+// --fail-on-unreached and --no-coverage.
 // Fixture: test/fixtures/coverage (its line numbers are the expected places).
 
 import assert from 'node:assert/strict';
@@ -9,6 +10,7 @@ import { join } from 'node:path';
 import type { Report } from '../../server/src/model/types';
 import { runCli } from '../helpers/cli';
 import { sarifViolations } from './helpers/sarifShape';
+import { findAll, parseXml } from './helpers/xml';
 
 const BRANCHES = 'test/fixtures/coverage/branches.ts';
 
@@ -54,6 +56,29 @@ describe('coverage through the command line', function () {
       const loc = notes[0]!['locations'][0].physicalLocation;
       assert.equal(loc.artifactLocation.uri, 'test/fixtures/coverage/helpers.ts');
       assert.equal(loc.region.startLine, 5);
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
+    }
+  });
+
+  it("writes the gaps to JUnit: in the test case's <system-out>, and as a failure with --fail-on-unreached", async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'gp-cov-junit-'));
+    try {
+      const file = join(dir, 'out.xml');
+      // XML 1.0 read back by test/cli/helpers/xml.ts (W3C XML 1.0, 5th ed.).
+      await runCli(['check', BRANCHES, '--filter', 'heat', '--junit', file]);
+      const plain = findAll(parseXml(readFileSync(file, 'utf8')), 'testcase');
+      assert.equal(plain.length, 1);
+      assert.deepEqual(findAll(plain[0]!, 'failure'), []);
+      const out = findAll(plain[0]!, 'system-out')[0]?.text ?? '';
+      assert.ok(out.includes('never reached during the check: test/fixtures/coverage/helpers.ts:5 in `clampedGain`'), out);
+
+      const strictRun = await runCli(['check', BRANCHES, '--filter', 'heat', '--junit', file, '--fail-on-unreached']);
+      assert.equal(strictRun.code, 1);
+      const failures = findAll(parseXml(readFileSync(file, 'utf8')), 'failure');
+      assert.equal(failures.length, 1, 'the exit code and the JUnit file agree');
+      assert.equal(failures[0]!.attributes['type'], 'unreached-code');
+      assert.ok(failures[0]!.text.includes('helpers.ts:5'), failures[0]!.text);
     } finally {
       rmSync(dir, { recursive: true, force: true });
     }

@@ -1,13 +1,18 @@
 // The report as JUnit XML, the test-report format CI servers read: a test suite per source
 // file, a test case per op; mismatch → <failure>, error → <error>, inconclusive → <skipped>.
+// Coverage gaps go to the case's <system-out>; with --fail-on-unreached a backward gap is a <failure>.
 
 import type { OpResult, Report } from '../model/types';
+import { backwardHasGaps, coverageLines } from './coverageLines';
 import { detailLines } from './details';
 import { formatRelError, paramRelError, worstParam } from '../present/format';
 import { isFailing, type FailPolicy } from './report';
 
-/** Which inconclusive ops count as failures: the CLI's own policy (--fail-on-inconclusive, --allow-unfinished). */
-export type JunitOptions = FailPolicy;
+/**
+ * Which ops count as failures: the CLI's own policy (--fail-on-inconclusive, --allow-unfinished),
+ * and --fail-on-unreached, which fails an op whose backward has code the check never ran.
+ */
+export type JunitOptions = FailPolicy & { failOnUnreached?: boolean };
 
 /** The JUnit XML document. */
 export function formatJunit(report: Report, options: JunitOptions = {}): string {
@@ -56,7 +61,7 @@ type OutcomeKind = 'pass' | 'failure' | 'error' | 'skipped';
 function outcomeKind(pair: OpResult, options: JunitOptions): OutcomeKind {
   switch (pair.verdict) {
     case 'pass':
-      return 'pass';
+      return options.failOnUnreached === true && backwardHasGaps(pair) ? 'failure' : 'pass';
     case 'mismatch':
       return 'failure';
     case 'error':
@@ -76,14 +81,18 @@ function testCase(pair: OpResult, options: JunitOptions): string {
   ].join(' ');
   const kind = outcomeKind(pair, options);
   const inner: string[] = [];
+  const gaps = coverageLines(pair);
   if (kind !== 'pass') {
-    const message = escapeXmlAttribute(headline(pair));
+    const unreached = pair.verdict === 'pass';
+    const message = escapeXmlAttribute(unreached ? 'code of the backward never ran during the check (--fail-on-unreached)' : headline(pair));
     // The console output has its own <system-out> element.
-    const details = escapeXmlText(detailLines(pair, { withOutput: false }).join('\n'));
+    const details = escapeXmlText((unreached ? gaps : detailLines(pair, { withOutput: false })).join('\n'));
     if (kind === 'skipped') inner.push(`      <skipped message="${message}"/>`);
-    else inner.push(`      <${kind} message="${message}" type="${pair.verdict}">${details}</${kind}>`);
+    else inner.push(`      <${kind} message="${message}" type="${unreached ? 'unreached-code' : pair.verdict}">${details}</${kind}>`);
   }
-  if (pair.output) inner.push(`      <system-out>${escapeXmlText(pair.output)}</system-out>`);
+  // What the op printed, then the coverage gaps (the lines the CLI shows under the op).
+  const out = [pair.output ?? '', gaps.join('\n')].filter((t) => t.length > 0).join('\n');
+  if (out) inner.push(`      <system-out>${escapeXmlText(out)}</system-out>`);
   if (inner.length === 0) return `    <testcase ${attrs}/>`;
   return [`    <testcase ${attrs}>`, ...inner, '    </testcase>'].join('\n');
 }

@@ -48,7 +48,7 @@ export function emitReport(report: Report, options: CheckOptions, io: OutputIo, 
 function writeReportFiles(report: Report, options: CheckOptions, io: OutputIo, toolVersion: string): boolean {
   const outputs: [string, string | undefined, () => string][] = [
     ['--sarif', options.sarif, () => formatSarif(report, { toolVersion, rootDir: io.cwd })],
-    ['--junit', options.junit, () => formatJunit(report, failPolicyOf(options))],
+    ['--junit', options.junit, () => formatJunit(report, { ...failPolicyOf(options), failOnUnreached: options.failOnUnreached })],
   ];
   let ok = true;
   for (const [flag, target, render] of outputs) {
