@@ -4,7 +4,7 @@
 
 import { F64, I32, abs, max } from './builtins';
 import type { UpstreamProbes } from './backwardCalls';
-import { dotProductProbes, type DotProbeResult } from './dotProductCheck';
+import { dotProductProbes } from './dotProductCheck';
 import { clockEvery, estimateColumns } from './fullCheck';
 import { estimateGrouped } from './groupedCheck';
 import { compareElements, floorsFor, type ElementEstimates } from './judge';
@@ -39,7 +39,6 @@ export function checkParam(at: ParamCheckContext, s: number): ParamCheck {
   const analytic = at.probes.analytic[s];
   const n = slot.size;
   let est: ElementEstimates | null = null;
-  const dot: DotProbeResult[] = [];
   const complete = true;
   let method = at.choices[s].method;
   if (method === 'grouped') {
@@ -81,7 +80,7 @@ export function checkParam(at: ParamCheckContext, s: number): ParamCheck {
   const floors = floorsFor(analytic, est, relativeFloorFactor(floorPrecisionOf(at, slot)));
   const cmp = compareElements(analytic, est, at.base.tol, floors);
   const refine = refineSuspicious(at.h, slot, analytic, est, cmp, at.probes.ws, at.base.y0, at.base.uOut, at.base.tol, at.outOfTime, method === 'grouped');
-  const result = summarise(slot, at.base.tol, method, analytic, est, cmp, refine, dot, complete);
+  const result = summarise(slot, at.base.tol, method, analytic, est, cmp, refine, complete);
   // Every element compared against the tolerance: the smallest error caught is the tolerance itself.
   result.result.detectionFloor = at.base.tol;
   return result;
@@ -126,7 +125,7 @@ function probeParam(at: ParamCheckContext, s: number, random: RandomSource): Par
     kink: search.kink,
     uncertainNote: search.uncertainNote,
   };
-  const result = summarise(slot, at.base.tol, 'dot-product', grads, search.est, search.cmp, refine, [], false);
+  const result = summarise(slot, at.base.tol, 'dot-product', grads, search.est, search.cmp, refine, false);
   const r = result.result;
   // Infinite when the root probes could not all run (time): no floor to state.
   if (search.detectionFloor < Infinity) r.detectionFloor = search.detectionFloor;

@@ -3,7 +3,6 @@
 // hints and the report data read later.
 
 import { abs, copyList, formatNumber, max } from './builtins';
-import type { DotProbeResult } from './dotProductCheck';
 import type { ParamEvidence } from './hints';
 import { ElementState, type Comparison, type ElementEstimates } from './judge';
 import { elementName, unravelSlot, type ParamSlot } from './paramSlot';
@@ -30,7 +29,6 @@ export function summarise(
   est: ElementEstimates,
   cmp: Comparison,
   refine: RefineSummary,
-  dot: DotProbeResult[],
   complete: boolean,
 ): ParamCheck {
   let maxAbs = 0;
@@ -50,48 +48,29 @@ export function summarise(
     }
     maxRel = max(maxRel, cmp.rel[p]);
   }
-  let dotMismatch = 0;
-  let dotUncertain = 0;
-  let dotKink = false;
-  for (let p = 0; p < dot.length; p++) {
-    maxRel = max(maxRel, dot[p].relError);
-    if (dot[p].state === 'mismatch') dotMismatch++;
-    if (dot[p].state === 'uncertain') dotUncertain++;
-    if (dot[p].state === 'kink') dotKink = true;
-  }
 
   let verdict: Verdict = 'pass';
   let note = '';
-  if (refine.confirmed > 0 || dotMismatch > 0) {
+  if (refine.confirmed > 0 && worstPos >= 0) {
     verdict = 'mismatch';
-    if (refine.confirmed > 0 && worstPos >= 0) {
-      const p = worstPos;
-      const k = cmp.worstProbe[p];
-      const i = est.indices[p];
-      // The relative error of the two numbers shown, so the message agrees with itself.
-      const a = analytic[k][i];
-      const nv = est.numeric[k][p];
-      const shown = abs(a - nv) / max(abs(a), abs(nv), cmp.floors[k], 1e-300);
-      cmp.rel[p] = shown;
-      maxRel = max(maxRel, shown);
-      note = `gradient of '${slot.name}' disagrees at ${elementName(slot, i)}: backward ${formatNumber(a)}, finite differences ${formatNumber(nv)} (relative error ${formatNumber(shown, 3)})`;
-    } else {
-      note = `gradient of '${slot.name}' fails the dot-product test in ${dotMismatch} of ${dot.length} random directions (worst relative error ${formatNumber(maxRelOf(dot), 3)})`;
-    }
-  } else if (refine.uncertain > 0 || dotUncertain > 0 || refine.unrefined > 0) {
+    const p = worstPos;
+    const k = cmp.worstProbe[p];
+    const i = est.indices[p];
+    // The relative error of the two numbers shown, so the message agrees with itself.
+    const a = analytic[k][i];
+    const nv = est.numeric[k][p];
+    const shown = abs(a - nv) / max(abs(a), abs(nv), cmp.floors[k], 1e-300);
+    cmp.rel[p] = shown;
+    maxRel = max(maxRel, shown);
+    note = `gradient of '${slot.name}' disagrees at ${elementName(slot, i)}: backward ${formatNumber(a)}, finite differences ${formatNumber(nv)} (relative error ${formatNumber(shown, 3)})`;
+  } else if (refine.uncertain > 0 || refine.unrefined > 0) {
     verdict = 'inconclusive';
     note =
       refine.uncertainNote !== ''
         ? `'${slot.name}': ${refine.uncertainNote}`
-        : refine.unrefined > 0
-          ? `'${slot.name}': ${refine.unrefined} suspicious element${refine.unrefined === 1 ? '' : 's'} could not be refined within the limits`
-          : `'${slot.name}': the dot-product estimate is unreliable in ${dotUncertain} direction${dotUncertain === 1 ? '' : 's'}`;
+        : `'${slot.name}': ${refine.unrefined} suspicious element${refine.unrefined === 1 ? '' : 's'} could not be refined within the limits`;
   }
-  let kink = refine.kink;
-  if (kink === null && dotKink && verdict !== 'mismatch') {
-    // A kink met along a random direction: report it at the parameter's first element.
-    kink = { slot, index: 0, value: slot.get(0), jump: 0 };
-  }
+  const kink = refine.kink;
 
   const worst =
     worstPos >= 0
@@ -121,10 +100,4 @@ export function summarise(
     check.timeStop = { param: slot.name, stage: 'suspicious elements refined', done: refine.stoppedAt.done, total: refine.stoppedAt.total };
   }
   return check;
-}
-
-function maxRelOf(dot: DotProbeResult[]): number {
-  let m = 0;
-  for (let p = 0; p < dot.length; p++) m = max(m, dot[p].relError);
-  return m;
 }
