@@ -44,6 +44,20 @@ function fn(exposed: Record<string, unknown>, name: string): Fn {
   return f as Fn;
 }
 
+/** An op of one parameter whose backward also takes the output, computed once at the sample point. */
+function withOutputBackward(op: BenchOp, params: Float64Array[], f: Fn, b: Fn): DirectOp {
+  let y: Float64Array | null = null;
+  return {
+    params,
+    outputs: op.outputs,
+    forward: () => f(params[0]) as Float64Array,
+    backward: (dy) => {
+      y ??= f(params[0]) as Float64Array;
+      return [b(params[0], y, dy) as Float64Array];
+    },
+  };
+}
+
 export function directOp(op: BenchOp, loaded: LoadedModule, seed: number): DirectOp {
   const random = seededRandom(seed);
   const F64 = loaded.Float64Array;
@@ -73,35 +87,10 @@ export function directOp(op: BenchOp, loaded: LoadedModule, seed: number): Direc
         },
       };
     }
-    case 'softmax': {
-      const f = fn(e, 'rowSoftmax');
-      const b = fn(e, 'rowSoftmaxBackward');
-      // The backward takes the output too; computed once at the sample point.
-      let y: Float64Array | null = null;
-      return {
-        params,
-        outputs: op.outputs,
-        forward: () => f(params[0]) as Float64Array,
-        backward: (dy) => {
-          y ??= f(params[0]) as Float64Array;
-          return [b(params[0], y, dy) as Float64Array];
-        },
-      };
-    }
-    case 'softmaxVector': {
-      const f = fn(e, 'softmaxAll');
-      const b = fn(e, 'softmaxAllBackward');
-      let y: Float64Array | null = null;
-      return {
-        params,
-        outputs: op.outputs,
-        forward: () => f(params[0]) as Float64Array,
-        backward: (dy) => {
-          y ??= f(params[0]) as Float64Array;
-          return [b(params[0], y, dy) as Float64Array];
-        },
-      };
-    }
+    case 'softmax':
+      return withOutputBackward(op, params, fn(e, 'rowSoftmax'), fn(e, 'rowSoftmaxBackward'));
+    case 'softmaxVector':
+      return withOutputBackward(op, params, fn(e, 'softmaxAll'), fn(e, 'softmaxAllBackward'));
     case 'conv1d': {
       const f = fn(e, 'conv1d');
       const b = fn(e, 'conv1dBackward');
