@@ -69,7 +69,16 @@ async function main(): Promise<void> {
   const extraFlags = dash >= 0 ? process.argv.slice(dash + 1) : [];
   const execArgv = [...(profiling ? ['--cpu-prof', `--cpu-prof-dir=${profDir}`] : []), ...extraFlags];
   const child = fork(childScript, [], { execArgv, stdio: ['ignore', 'ignore', 'inherit', 'ipc'] });
-  const next = (): Promise<ChildMessage> => new Promise((resolve) => child.once('message', (m) => resolve(m as ChildMessage)));
+  // The next message that is not a step notice (the pool uses those only for its time limit).
+  const next = (): Promise<ChildMessage> =>
+    new Promise((resolve) => {
+      const take = (m: unknown): void => {
+        if ((m as ChildMessage).type === 'step') return;
+        child.off('message', take);
+        resolve(m as ChildMessage);
+      };
+      child.on('message', take);
+    });
   await next(); // hello
   child.send({ type: 'init', engineCode: readFileSync(engineScript, 'utf8') });
   // The runner's own choice (RunnerPool's), unless --engine=warm or --engine=cold forces one.

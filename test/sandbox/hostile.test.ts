@@ -278,6 +278,25 @@ describe('sandbox: console output', function () {
   });
 });
 
+describe('sandbox: console output after hostile patches', function () {
+  this.timeout(60_000);
+
+  it("reads an op's text without calling the join, concat or toString it replaced with endless loops", async () => {
+    // The runner reads the text with no time limit (child.ts): a reader that called a patched
+    // method would hang until the pool's watchdog, and the op would end as a timeout.
+    const checker = new Checker({ settings: settingsWith({ timeLimitMs: 2000 }), workers: 1 });
+    try {
+      const results = await checker.checkFile(fixture('hostile', 'outputPatches.ts'));
+      const halve = resultOf(results, 'halve');
+      assert.equal(halve.verdict, 'pass', describeResults(results));
+      assert.match(halve.output ?? '', /^halving 3 sluice gates$/m);
+      assert.equal(checker.stats.pool.timeouts, 0);
+    } finally {
+      await checker.dispose();
+    }
+  });
+});
+
 describe('sandbox: a missing file', function () {
   it('is one error entry with no forward, not an exception', async () => {
     const checker = new Checker({ settings: settingsWith({}) });

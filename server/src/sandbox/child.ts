@@ -1,6 +1,6 @@
 // The runner process (built to dist/sandbox-child.js): receives one op's whole check per
-// message, runs it in a fresh hardened vm context under one timeout, and answers with plain
-// strings. Started by RunnerPool with the permission flag, an empty environment and no stdio.
+// message, runs it in a fresh hardened vm context (the pool keeps its time limit), and answers
+// with plain strings. Started by RunnerPool with the permission flag, an empty environment and no stdio.
 'use strict';
 import * as vm from 'node:vm';
 import type { ChildMessage, HelloMessage, JobMessage, ParentMessage } from './protocol';
@@ -11,13 +11,10 @@ import { COVERAGE_RUNNER_ARG, CoverageSession } from './coverageSession';
 /** Compiled bundles kept per process; the parent resends a bundle this child evicted. */
 const MAX_CACHED_BUNDLES = 32;
 
-/** Time allowed to read the console text after a job, in milliseconds: it is a join of strings. */
-const OUTPUT_READ_TIMEOUT_MS = 1000;
-
 const setupScript = new vm.Script(CONTEXT_SETUP_SOURCE, { filename: 'gradient-probe-context-setup.js' });
-const driveScript = new vm.Script('__gradientProbeDrive()', { filename: 'gradient-probe-drive.js' });
+const loadScript = new vm.Script('__gradientProbeLoad()', { filename: 'gradient-probe-load.js' });
+const checkScript = new vm.Script('__gradientProbeCheck()', { filename: 'gradient-probe-check.js' });
 const outputScript = new vm.Script('__gradientProbeOutput()', { filename: 'gradient-probe-output.js' });
-const phaseScript = new vm.Script('__gradientProbePhase()', { filename: 'gradient-probe-phase.js' });
 const loadEngineScript = new vm.Script('__gradientProbeLoadEngine()', { filename: 'gradient-probe-load-engine.js' });
 let engineScript: vm.Script | undefined;
 /**
@@ -85,28 +82,11 @@ function compileBundle(job: JobMessage): vm.Script | undefined {
   return script;
 }
 
-/** Node's vm timeout error; read without getters (see hostErrorText). */
-function isTimeout(e: unknown): boolean {
-  if (typeof e !== 'object' || e === null) return false;
-  const code = Object.getOwnPropertyDescriptor(e, 'code');
-  return code !== undefined && 'value' in code && code.value === 'ERR_SCRIPT_EXECUTION_TIMEOUT';
-}
-
 /** Reads the op's console text as a primitive string, whatever the context did. */
 function readOutput(context: vm.Context): string {
   try {
-    const text: unknown = outputScript.runInContext(context, { timeout: OUTPUT_READ_TIMEOUT_MS });
+    const text: unknown = outputScript.runInContext(context);
     return typeof text === 'string' ? text : '';
-  } catch {
-    return '';
-  }
-}
-
-/** The driver's phase when a job stopped, as a primitive string ('' when unreadable). */
-function readPhase(context: vm.Context): string {
-  try {
-    const phase: unknown = phaseScript.runInContext(context, { timeout: OUTPUT_READ_TIMEOUT_MS });
-    return typeof phase === 'string' ? phase : '';
   } catch {
     return '';
   }
@@ -233,16 +213,19 @@ function runJob(job: JobMessage): void {
     sandboxGlobal.__gradientProbeModule = bundleScript.runInContext(context);
     sandboxGlobal.__gradientProbeRequest = job.requestJson;
     importAttempt = undefined;
-    tagged = driveScript.runInContext(context, { timeout: job.timeLimitMs });
+    // No vm timeout on either step: each timed call starts and joins a watchdog thread, measured
+    // at 0.2–1.1 ms per call in a runner (bench/PERFORMANCE.md), more than a small op's whole
+    // check. The time limit is kept by the pool instead: it kills this process when a job runs
+    // past it (pool.ts), and these messages tell it which step such a job was in.
+    send({ type: 'step', id: job.id, step: 'load' });
+    tagged = loadScript.runInContext(context);
+    if (tagged === '') {
+      send({ type: 'step', id: job.id, step: 'check' });
+      tagged = checkScript.runInContext(context);
+    }
   } catch (e) {
     const output = context ? readOutput(context) : '';
-    if (isTimeout(e)) {
-      const duringLoad = context !== undefined && readPhase(context) === 'load';
-      const error = duringLoad ? `timed out after ${job.timeLimitMs} ms while loading the module (its top-level code did not finish)` : `timed out after ${job.timeLimitMs} ms`;
-      send({ type: 'result', id: job.id, ok: false, error, timedOut: true, duringLoad, output, elapsedMs: elapsed() });
-    } else {
-      send({ type: 'result', id: job.id, ok: false, error: `the runner failed: ${hostErrorText(e)}`, timedOut: false, duringLoad: false, output, elapsedMs: elapsed() });
-    }
+    send({ type: 'result', id: job.id, ok: false, error: `the runner failed: ${hostErrorText(e)}`, timedOut: false, duringLoad: false, output, elapsedMs: elapsed() });
     return;
   }
   const output = readOutput(context);

@@ -1,69 +1,14 @@
 // Source text of the script that prepares each fresh vm context before any user code runs:
 // it removes globals no op needs, seeds Math.random, fixes the clock, installs a console that
-// collects text, gives TensorFlow.js a platform (tensorPlatform.ts), and defines the one driver the runner process calls (under one vm timeout).
+// collects text, gives TensorFlow.js a platform (tensorPlatform.ts), and defines the driver the
+// runner process calls (load, then check).
 // Everything here is evaluated INSIDE the context, so every object it creates belongs to the
 // context: no host function ever becomes reachable from user code.
 
+import { CONTEXT_BUILTINS } from './contextBuiltins';
 import { TENSOR_LIBRARY_PLATFORM_SOURCE } from './tensorPlatform';
 
-/**
- * Built-ins handed to the engine and the user bundle as function parameters. Global lookups in a
- * vm context go through an interceptor and cost 2–12× on numeric loops (measured during the
- * sandbox's design; bench/sandbox.ts times it); parameters are plain local variables. `Infinity`, `NaN` and
- * `undefined` are global lookups too: one `-Infinity` in the engine's per-element comparison
- * made it 4–5× slower in a context than in the host (bench/PERFORMANCE.md).
- */
-export const CONTEXT_BUILTINS = [
-  'globalThis',
-  'Infinity',
-  'NaN',
-  'undefined',
-  'Math',
-  'Object',
-  'Array',
-  'Number',
-  'String',
-  'Boolean',
-  'Symbol',
-  'BigInt',
-  'Function',
-  'JSON',
-  'Reflect',
-  'Proxy',
-  'Promise',
-  'Map',
-  'Set',
-  'WeakMap',
-  'WeakSet',
-  'Date',
-  'RegExp',
-  'Error',
-  'TypeError',
-  'RangeError',
-  'SyntaxError',
-  'ReferenceError',
-  'EvalError',
-  'URIError',
-  'AggregateError',
-  'ArrayBuffer',
-  'DataView',
-  'Float64Array',
-  'Float32Array',
-  'Int32Array',
-  'Uint32Array',
-  'Int16Array',
-  'Uint16Array',
-  'Int8Array',
-  'Uint8Array',
-  'Uint8ClampedArray',
-  'BigInt64Array',
-  'BigUint64Array',
-  'isFinite',
-  'isNaN',
-  'parseFloat',
-  'parseInt',
-  'console',
-] as const;
+export { CONTEXT_BUILTINS } from './contextBuiltins';
 
 /**
  * The clock value every op sees through `Date.now()` and `new Date()`: 2021-06-01T00:00:00Z, an
@@ -76,7 +21,9 @@ export const FIXED_DATE_MS = 1622505600000;
  * `arm(seed, outputLimit)` re-seeds Math.random and sets the console limit for the job about to
  * run (so a context can be prepared ahead, before its job is known). After it ran, the context has
  * `__gradientProbeDrive()` (loads engine and module, runs the check, returns a tagged string:
- * 'R' + outcome JSON, 'L' + bundle frames + '|' + load error, 'E' + engine failure) and `__gradientProbeOutput()`
+ * 'R' + outcome JSON, 'L' + bundle frames + '|' + load error, 'E' + engine failure), the same in
+ * two steps (`__gradientProbeLoad()`, '' when the check may follow, then `__gradientProbeCheck()`),
+ * and `__gradientProbeOutput()`
  * (the console text), both non-writable. The host puts the wrapped engine, the wrapped module
  * and the request JSON in `__gradientProbeEngine`, `__gradientProbeModule`,
  * `__gradientProbeRequest` before calling the driver; the driver removes them first.
@@ -122,7 +69,9 @@ export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, output
   Object.defineProperty(g, '__gradientProbeClock', { value: function clock() { return realNow(); }, writable: false, configurable: false });
 
   // Console text is collected per op, up to outputLimit characters, and never printed.
-  const chunks = [];
+  // One string, not an array of chunks: reading it back calls no method user code could replace
+  // (the runner reads it without a time limit, runner/child.ts).
+  let text = '';
   let used = 0;
   let truncated = false;
   const show = (v, depth) => {
@@ -155,13 +104,12 @@ export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, output
     }
     line += '\n';
     if (used + line.length > outputLimit) {
-      chunks.push(line.slice(0, Math.max(0, outputLimit - used)));
-      chunks.push('\n… output truncated at ' + outputLimit + ' characters\n');
+      text += line.slice(0, Math.max(0, outputLimit - used)) + '\n… output truncated at ' + outputLimit + ' characters\n';
       truncated = true;
       return;
     }
     used += line.length;
-    chunks.push(line);
+    text += line;
   };
   const counts = new Map();
   const consoleObject = {
@@ -182,7 +130,7 @@ export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, output
   };
   Object.defineProperty(g, 'console', { value: consoleObject, writable: true, configurable: true });
   Object.defineProperty(g, '__gradientProbeOutput', {
-    value: function output() { return chunks.join(''); }, writable: false, configurable: false,
+    value: function output() { return text; }, writable: false, configurable: false,
   });
 
   ${TENSOR_LIBRARY_PLATFORM_SOURCE}
@@ -235,13 +183,23 @@ export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, output
     objectPrototype: Object.prototype, parseJson: JSON.parse, newList: function newList() { return []; }, newRecord: function newRecord() { return {}; },
   }));
 
-  const drive = function drive() {
+  // The job in two steps, so the host knows which one a stopped job was in: load (the engine
+  // unless it is warm, then the module's own top-level code) and check. Each returns a tagged
+  // string; load returns '' when the check may follow.
+  let run;
+  let warm = false;
+  let request;
+  // Each step runs once per context: user code that calls them itself gets an error string only.
+  let steps = 0;
+  const load = function load() {
+    if (steps++ !== 0) return 'E' + 'internal: the module was loaded twice';
     const engine = take('__gradientProbeEngine');
     const warmRun = take('__gradientProbeWarmRun');
     const mod = take('__gradientProbeModule');
-    const request = take('__gradientProbeRequest');
-    let run = warmRun;
-    if (typeof warmRun !== 'function') {
+    request = take('__gradientProbeRequest');
+    warm = typeof warmRun === 'function';
+    run = warmRun;
+    if (!warm) {
       try {
         apply(engine, undefined, builtins);
       } catch (e) {
@@ -257,15 +215,25 @@ export const CONTEXT_SETUP_SOURCE = String.raw`(function (seed, fixedNow, output
       return 'L' + framesOf(e) + '|' + describe(e);
     }
     phase = 'check';
+    return '';
+  };
+  const check = function check() {
+    if (steps++ !== 1 || phase !== 'check') return 'E' + 'internal: the check did not follow the module load';
     let result;
     try {
-      result = typeof warmRun === 'function' ? run(g.__gradientProbeExposed, request, realm) : run(g.__gradientProbeExposed, request);
+      result = warm ? run(g.__gradientProbeExposed, request, realm) : run(g.__gradientProbeExposed, request);
     } catch (e) {
       return 'E' + 'the check engine threw: ' + describe(e);
     }
     if (typeof result !== 'string') return 'E' + 'the check engine returned ' + typeof result + ', not a string';
     return 'R' + result;
   };
+  const drive = function drive() {
+    const loaded = load();
+    return loaded === '' ? check() : loaded;
+  };
+  Object.defineProperty(g, '__gradientProbeLoad', { value: load, writable: false, configurable: false });
+  Object.defineProperty(g, '__gradientProbeCheck', { value: check, writable: false, configurable: false });
   Object.defineProperty(g, '__gradientProbeDrive', { value: drive, writable: false, configurable: false });
 
   if (engineContext === true) {

@@ -12,7 +12,7 @@ import { emptyStats, runnerJobFields, type RunJob, type RunResult, type RunnerSt
 import { RESIDENT_HEADROOM_MB } from './memoryWatch';
 import { runResultFromReply } from './runReply';
 import { runnerEnvironment } from './runnerCommand';
-import { SupervisedProcess } from './supervisedProcess';
+import { KILL_GRACE_MS, SupervisedProcess } from './supervisedProcess';
 
 export { ISOLATED_WORKER_SCRIPT_NAME } from './assets';
 
@@ -111,6 +111,7 @@ export class IsolatedRunner {
     const residentLimit = ISOLATED_HEAP_FACTOR * memoryMb + RESIDENT_HEADROOM_MB;
     proc.guard(
       limitMs,
+      KILL_GRACE_MS,
       residentLimit,
       () => {
         if (this.current !== queued) return;

@@ -11,8 +11,9 @@ import { emptyStats, runnerJobFields, type RunnerStats, type RunJob, type RunRes
 import { RESIDENT_HEADROOM_MB } from './memoryWatch';
 import type { ChildMessage, HelloMessage, JobMessage, ResultMessage } from './protocol';
 import { runResultFromReply } from './runReply';
+import { runnerMemoryFailure, runnerTimeoutFailure, type RunnerStep } from './runnerLimits';
 import { RunnerStartPolicy, isolationReport, type IsolationReport, type RunnerCommand } from './runnerCommand';
-import { SupervisedProcess } from './supervisedProcess';
+import { SupervisedProcess, runnerKillGraceMs } from './supervisedProcess';
 
 // The shapes callers of the pool use, from where they are declared.
 export type { RunJob, RunResult } from './jobTypes';
@@ -53,6 +54,8 @@ interface Runner {
   knownBundles: KnownBundles;
   jobsRun: number;
   current?: QueuedJob;
+  /** The step the current job last reached (the child's 'step' messages). */
+  currentStep: RunnerStep;
   startTimer?: NodeJS.Timeout;
 }
 
@@ -154,7 +157,7 @@ export class RunnerPool {
       return undefined;
     }
     this.stats.spawned++;
-    const runner: Runner = { process: proc, command, memoryLimitMb, state: 'starting', knownBundles: new KnownBundles(), jobsRun: 0 };
+    const runner: Runner = { process: proc, command, memoryLimitMb, state: 'starting', knownBundles: new KnownBundles(), jobsRun: 0, currentStep: 'start' };
     holder.runner = runner;
     this.runners.add(runner);
     runner.startTimer = setTimeout(() => {
@@ -188,19 +191,16 @@ export class RunnerPool {
       this.sendJob(runner, job);
       return;
     }
+    if (message.type === 'step') {
+      runner.currentStep = message.step;
+      return;
+    }
     this.onResult(runner, message);
   }
 
   private onResult(runner: Runner, message: ResultMessage): void {
-    const timedOut = message.ok === false && message.timedOut;
-    if (timedOut) this.stats.timeouts++;
+    // A runner never answers a job as timed out: it has no timeout inside (startJob's guard ends those).
     this.finishJob(runner, runResultFromReply(message));
-    if (timedOut) {
-      // A context stopped mid-run may leave the heap full of what the loop built; a new
-      // runner costs one cold start and guarantees the next op a clean process.
-      this.replace(runner, 'timed out');
-      return;
-    }
     if (this.jobsPerRunner !== undefined && runner.jobsRun >= this.jobsPerRunner) {
       this.replace(runner, `recycled after ${runner.jobsRun} jobs`);
       return;
@@ -292,33 +292,26 @@ export class RunnerPool {
   private startJob(runner: Runner, job: QueuedJob): void {
     runner.state = 'busy';
     runner.current = job;
+    runner.currentStep = 'start';
     this.stats.jobsStarted++;
     if (runner.jobsRun > 0) this.stats.warmJobs++;
     runner.jobsRun++;
     runner.process.hold(true);
     const limitMs = job.job.settings.timeLimitMs;
-    const residentLimit = runner.memoryLimitMb + RESIDENT_HEADROOM_MB;
     runner.process.guard(
       limitMs,
-      residentLimit,
+      runnerKillGraceMs(limitMs),
+      runner.memoryLimitMb + RESIDENT_HEADROOM_MB,
       () => {
         if (runner.current !== job) return;
         this.stats.timeouts++;
-        this.finishJob(runner, {
-          error: `timed out after ${limitMs} ms (the runner did not stop by itself and was killed)`,
-          elapsedMs: Date.now() - job.startedAt,
-          cause: 'timeout',
-        });
+        this.finishJob(runner, runnerTimeoutFailure(limitMs, runner.currentStep, job.startedAt));
         this.replace(runner, 'watchdog');
       },
       (usedMb) => {
         if (runner.current !== job) return;
         this.stats.memoryKills++;
-        this.finishJob(runner, {
-          error: `the op used ${Math.round(usedMb)} MiB of memory, over the limit of ${residentLimit} MiB (memory limit ${runner.memoryLimitMb} MiB plus ${RESIDENT_HEADROOM_MB} MiB for the runtime); the runner was stopped`,
-          elapsedMs: Date.now() - job.startedAt,
-          cause: 'memory',
-        });
+        this.finishJob(runner, runnerMemoryFailure(usedMb, runner.memoryLimitMb, job.startedAt));
         this.replace(runner, 'memory');
       },
     );

@@ -40,4 +40,15 @@ export interface MissingBundleMessage {
   id: number;
 }
 
-export type ChildMessage = HelloMessage | ResultMessage | MissingBundleMessage;
+/**
+ * Child → parent: the job reached a step where user code runs: 'load' (the module's own
+ * top-level code), then 'check'. A job the pool stops at its time limit is reported by the last
+ * step it reached (no step: the runner itself never got to user code).
+ */
+export interface StepMessage {
+  type: 'step';
+  id: number;
+  step: 'load' | 'check';
+}
+
+export type ChildMessage = HelloMessage | ResultMessage | MissingBundleMessage | StepMessage;

@@ -6,11 +6,23 @@ import { watchMemory } from './memoryWatch';
 
 /**
  * Time the parent waits beyond the op's time limit before it kills the process, in ms. The
- * timeout inside the process normally fires first; the grace covers compiling a large bundle,
- * creating the context and the message round trip (a few ms to ~100 ms measured), with margin
- * for a loaded 2-core machine.
+ * isolated interpreter's own time limit normally fires first; the process runner has none inside
+ * (child.ts says why: the engine stops itself at 90 % of the limit, and user code that runs past
+ * it ends here). The grace covers compiling a large bundle, creating the context and the message
+ * round trip (a few ms to ~100 ms measured), with margin for a loaded 2-core machine.
  */
 export const KILL_GRACE_MS = 1500;
+
+/**
+ * The process runner's grace beyond the time limit: a quarter of the limit, at least 250 ms and
+ * at most KILL_GRACE_MS. It is how a runaway op ends there (no timeout inside, child.ts), so it
+ * must not be much longer than the limit a user set: a file's total time cap (5 × the per-op
+ * limit, checker) would otherwise end before a single runaway op does. 250 ms covers the round
+ * trip and a first bundle compile of a few hundred kB (our choice, from the figures above).
+ */
+export function runnerKillGraceMs(timeLimitMs: number): number {
+  return Math.min(KILL_GRACE_MS, Math.max(250, 0.25 * timeLimitMs));
+}
 
 /** Characters of a process's stderr kept to explain a crash. */
 export const STDERR_TAIL_CHARS = 4096;
@@ -107,12 +119,12 @@ export class SupervisedProcess {
   }
 
   /**
-   * Watches one job: `onTimeout` after the time limit plus KILL_GRACE_MS, `onMemory` once the
+   * Watches one job: `onTimeout` after the time limit plus `graceMs`, `onMemory` once the
    * resident memory passes `residentMb`. Both stop with unguard() or the end of the process.
    */
-  guard(timeLimitMs: number, residentMb: number, onTimeout: () => void, onMemory: (usedMb: number) => void): void {
+  guard(timeLimitMs: number, graceMs: number, residentMb: number, onTimeout: () => void, onMemory: (usedMb: number) => void): void {
     this.unguard();
-    this.watchdog = setTimeout(onTimeout, timeLimitMs + KILL_GRACE_MS);
+    this.watchdog = setTimeout(onTimeout, timeLimitMs + graceMs);
     const pid = this.proc.pid;
     if (pid !== undefined) this.stopWatch = watchMemory(pid, residentMb, onMemory);
   }
