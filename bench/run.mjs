@@ -24,7 +24,7 @@ const builds = [
     ...node,
     packages: 'external',
     outdir: out,
-    entryPoints: ['bench/main.ts', 'bench/opWorker.ts', 'bench/detectWorker.ts', 'bench/profileRunner.ts'],
+    entryPoints: ['bench/main.ts', 'bench/opWorker.ts', 'bench/detectWorker.ts', 'bench/profileRunner.ts', 'bench/profileCaller.ts'],
   },
 ];
 try {

@@ -1,7 +1,8 @@
 // The Checker: the one orchestration shared by the CLI, the language server and benchmarks.
 // discovery → bundle once per file → one sandbox job per op (in parallel across runners) → OpResult.
-// Its helpers: opListing.ts (discovery, bindings), opResult.ts (report entries, failure kinds),
-// opCoverage.ts (the coverage pass's result), sourcePlaces.ts (where user code threw).
+// Its helpers: opListing.ts (discovery, bindings), discoveryCache.ts (discovery of an unchanged
+// text, not parsed again), opResult.ts (report entries, failure kinds), opCoverage.ts (the
+// coverage pass's result), sourcePlaces.ts (where user code threw).
 import { setMaxListeners } from 'node:events';
 import { readFileSync } from 'node:fs';
 import { dirname, relative, resolve } from 'node:path';
@@ -14,8 +15,9 @@ import { IsolatedRunner } from '../sandbox/isolated';
 import { emptyStats, type RunnerStats } from '../sandbox/jobTypes';
 import { RunnerPool, type IsolationReport, type PoolStats, type RunnerPoolOptions } from '../sandbox/pool';
 import type { CheckFileOptions } from './checkFileOptions';
+import { DiscoveryCache, type DiscoveryCacheStats } from './discoveryCache';
 import { coverageOf, INTERPRETER_NO_COVERAGE } from './opCoverage';
-import { bindingsOf, listOps } from './opListing';
+import { bindingsOf } from './opListing';
 import { errorResult, FAILURE_HEADS, failureOfCause, resultFromOutcome, summarizeProblems } from './opResult';
 import { loadErrorPlace, thrownPlace } from './sourcePlaces';
 
@@ -49,11 +51,14 @@ export interface CheckerStats {
   /** The isolated interpreter's counters (all zero until an op runs there). */
   isolated: RunnerStats;
   bundle: BundleStats;
+  discovery: DiscoveryCacheStats;
 }
 
 export class Checker {
   private readonly settings: CheckSettings;
   private readonly bundler = new Bundler({ diskCache: true });
+  /** Discovery by path and text: an unchanged file is not parsed again on every check. */
+  private readonly discovery = new DiscoveryCache();
   private readonly pool: RunnerPool;
   private isolated: IsolatedRunner | undefined;
   private readonly runnerLog: ((line: string) => void) | undefined;
@@ -73,9 +78,9 @@ export class Checker {
     return this.coveragePool?.stats;
   }
 
-  /** Counters of runner reuse (both kinds of runner) and bundle caching (for tests and benchmarks). */
+  /** Counters of runner reuse (both kinds of runner), bundle and discovery caching (for tests and benchmarks). */
   get stats(): CheckerStats {
-    return { pool: this.pool.stats, isolated: this.isolated?.stats ?? emptyStats(), bundle: this.bundler.stats };
+    return { pool: this.pool.stats, isolated: this.isolated?.stats ?? emptyStats(), bundle: this.bundler.stats, discovery: this.discovery.stats };
   }
 
   /** The isolation the runners report from inside, once one has started. */
@@ -113,7 +118,7 @@ export class Checker {
       return [emit(errorResult(abs, null, settings, 'unreadable', `cannot read the file: ${readError ?? 'unknown error'}`))];
     }
     const source = text;
-    const listing = listOps(abs, source);
+    const listing = this.discovery.list(abs, source);
     const filter = opts.filter;
     const select = opts.select;
     const skipped = (count: number, by: 'filter' | 'select' | 'unchanged'): void => {
