@@ -185,6 +185,40 @@ describe('engine: grouped check (Curtis, Powell & Reid 1974)', () => {
     assert.equal(o.calls.forward, 2 + 1 + 2 * 10 + 2, show(o));
   });
 
+  it('a softmax over 10 rows of 10 (blocks too wide for the joint probe) still gets 10 colour classes from the single probes', () => {
+    const o = check(rowSoftmax(10, 10, null), { stepScans: 'none' });
+    assert.equal(o.verdict, 'pass', show(o));
+    assert.equal(o.params[0].method, 'grouped');
+    assert.equal(o.params[0].checkedElements, 100);
+    // 2 baseline calls, 1 joint probe (its blocks overlap, so it proves nothing), 8 single probes
+    // (first, last, 4 spaced, 2 random), 2 per colour class, 2 for the safety probe: 33; the band
+    // model's 19 classes would need 51.
+    assert.equal(o.calls.forward, 2 + 1 + 8 + 2 * 10 + 2, show(o));
+  });
+
+  it('a softmax over 10 rows of 10 with one wrong entry is a mismatch at that entry', () => {
+    const o = check(rowSoftmax(10, 10, 57), { stepScans: 'none' });
+    assert.equal(o.verdict, 'mismatch', show(o));
+    assert.deepEqual(o.params[0].worst?.index, [5, 7]);
+  });
+
+  it('a dense Jacobian seen by the single probes is not taken for one block of every element', () => {
+    // y = A x with a dense 40×40 A: every element moves every output, a 'block' of 40 that
+    // grouping could not save a single call on; the full check's 80 calls stand.
+    const n = 40;
+    const A = Array.from({ length: n }, (_, i) => Array.from({ length: n }, (_, j) => Math.cos(i + 2 * j)));
+    const o = check(
+      functionOp({
+        forward: (x: Float64Array) => Float64Array.from(A, (row) => row.reduce((s, a, j) => s + a * x[j], 0)),
+        backward: (x: Float64Array, dy: Float64Array) => Float64Array.from(x, (_, j) => A.reduce((s, row, i) => s + row[j] * dy[i], 0)),
+        params: [['x', spec('f64', [n])]],
+      }),
+      { stepScans: 'none' },
+    );
+    assert.equal(o.verdict, 'pass', show(o));
+    assert.equal(o.params[0].method, 'full');
+  });
+
   it('a softmax over rows of 10 with one wrong entry is a mismatch at that entry (block colouring)', () => {
     const o = check(rowSoftmax(300, 10, 1234), { stepScans: 'none' });
     assert.equal(o.verdict, 'mismatch', show(o));
