@@ -98,6 +98,26 @@ export function isI32(v: unknown): v is Int32Array {
   return typedKind(v) === 'Int32Array';
 }
 
+// %TypedArray%.prototype's length getter and set, which read the internal slots of arrays of any
+// realm and call nothing the op could have replaced (set with a typed array source does no species
+// or property lookup).
+const typedLengthGetter = Object.getOwnPropertyDescriptor(Object.getPrototypeOf(Uint8Array.prototype) as object, 'length')?.get as (this: unknown) => number;
+const typedSet = (Object.getPrototypeOf(Uint8Array.prototype) as { set: (this: unknown, src: ArrayLike<number>, offset: number) => void }).set;
+
+/** A float typed array's own element count (its internal slot, not a `length` it may have been given). */
+export function typedLength(v: Float64Array | Float32Array): number {
+  return reflectApply(typedLengthGetter, v, []);
+}
+
+/**
+ * dest[offset ..] = every element of src, by the built-in copy: one call instead of a loop,
+ * which counts where the engine runs unoptimised (loaded into a fresh op context per check) and
+ * where src belongs to another realm (a loop over it would turn polymorphic).
+ */
+export function copyFloats(dest: Float64Array | Float32Array, src: Float64Array | Float32Array, offset = 0): void {
+  reflectApply(typedSet, dest, [src, offset]);
+}
+
 /** JSON text parsed into the op realm's objects (a value the op will receive). */
 export function parseJsonForOp(text: string): unknown {
   return opRealm.parseJson(text);
