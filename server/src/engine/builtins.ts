@@ -80,7 +80,7 @@ export function isPlainPrototype(proto: unknown): boolean {
 const typedArrayTag = Object.getOwnPropertyDescriptor(Object.getPrototypeOf(Uint8Array.prototype) as object, Symbol.toStringTag)?.get as (this: unknown) => unknown;
 
 function typedKind(v: unknown): unknown {
-  return typeof v === 'object' && v !== null ? reflectApply(typedArrayTag, v, []) : undefined;
+  return typeof v === 'object' && v !== null ? reflectApply(typedArrayTag, v, NO_ARGS) : undefined;
 }
 
 /** A Float64Array of any realm. */
@@ -106,8 +106,13 @@ const typedSet = (Object.getPrototypeOf(Uint8Array.prototype) as { set: (this: u
 
 /** A float typed array's own element count (its internal slot, not a `length` it may have been given). */
 export function typedLength(v: Float64Array | Float32Array): number {
-  return reflectApply(typedLengthGetter, v, []);
+  return reflectApply(typedLengthGetter, v, NO_ARGS);
 }
+
+// Argument lists reused by every call (nothing the op wrote runs inside these built-ins, so no
+// call can start while another holds them): no allocation per copy.
+const NO_ARGS: unknown[] = [];
+const setArgs: unknown[] = [null, 0];
 
 /**
  * dest[offset ..] = every element of src, by the built-in copy: one call instead of a loop,
@@ -115,7 +120,13 @@ export function typedLength(v: Float64Array | Float32Array): number {
  * where src belongs to another realm (a loop over it would turn polymorphic).
  */
 export function copyFloats(dest: Float64Array | Float32Array, src: Float64Array | Float32Array, offset = 0): void {
-  reflectApply(typedSet, dest, [src, offset]);
+  setArgs[0] = src;
+  setArgs[1] = offset;
+  try {
+    reflectApply(typedSet, dest, setArgs);
+  } finally {
+    setArgs[0] = null; // no op's array kept past the copy
+  }
 }
 
 /** JSON text parsed into the op realm's objects (a value the op will receive). */
