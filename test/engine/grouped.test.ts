@@ -108,6 +108,19 @@ describe('engine: grouped check (Curtis, Powell & Reid 1974)', () => {
     console.log(`      1e6 elementwise, one wrong element: ${ms.toFixed(0)} ms in-process, ${o.calls.forward} forward calls`);
   });
 
+  it('a 33-element elementwise op learns its diagonal from one joint probe of 5 elements, 8 outputs apart', () => {
+    const o = check(softsign(33, null), { stepScans: 'none' });
+    assert.equal(o.verdict, 'pass', show(o));
+    assert.equal(o.params[0].method, 'grouped');
+    assert.equal(o.params[0].checkedElements, 33);
+    // 2 baseline calls, 1 joint probe (6 probes would lie under 8 outputs apart, 5 do not), 2 for
+    // the one colour class, 2 for the safety probe; eight single probes would make it 14.
+    assert.equal(o.calls.forward, 2 + 1 + 2 + 2, show(o));
+    const wrong = check(softsign(33, 17), { stepScans: 'none' });
+    assert.equal(wrong.verdict, 'mismatch', show(wrong));
+    assert.deepEqual(wrong.params[0].worst?.index, [17]);
+  });
+
   it('banded op (valid 1-D convolution, 5 taps): a few colour classes instead of one column per element', () => {
     const o = check(conv(2000, null));
     assert.equal(o.verdict, 'pass', show(o));

@@ -90,21 +90,23 @@ export function colourCount(n: number, m: number, width: number, maxColours: num
 }
 
 /**
- * One forward call with STRUCTURE_SPACED_PROBES + 2 evenly spaced elements moved together:
- * each moved output is credited to the probe with the nearest anchor. The band is accepted only
+ * One forward call with STRUCTURE_SPACED_PROBES + 2 evenly spaced elements moved together (fewer,
+ * down to JOINT_MIN_PROBES, when their anchors would lie under 8 outputs apart): each moved output is credited to the probe with the nearest anchor. The band is accepted only
  * when it is narrower than a quarter of the distance between probe anchors, so the clusters of
  * moved outputs cannot have been confused; otherwise null (and the elements are probed singly).
  */
 export function probeBandJointly(h: OpHarness, slot: ParamSlot, y0: Float64Array): { lo: number; hi: number; block?: number; dense?: boolean } | null {
   const n = slot.size;
   const m = y0.length;
-  const count = STRUCTURE_SPACED_PROBES + 2;
+  // Fewer probes (down to JOINT_MIN_PROBES) when the outputs are too few for all of them to lie
+  // 8 anchors apart: one call instead of eight single probes for a 33-element diagonal.
+  let count = STRUCTURE_SPACED_PROBES + 2;
+  while (count > JOINT_MIN_PROBES && !(jointSpacing(count, n, m) >= 8)) count--;
   const probes: number[] = [];
   for (let q = 0; q < count; q++) probes[q] = floor((q * (n - 1)) / (count - 1));
   const anchors: number[] = [];
   for (let q = 0; q < count; q++) anchors[q] = anchorOf(probes[q], n, m);
-  let spacing = Infinity;
-  for (let q = 1; q < count; q++) spacing = min(spacing, anchors[q] - anchors[q - 1]);
+  const spacing = jointSpacing(count, n, m);
   if (!(spacing >= 8)) return null;
   const saved: number[] = [];
   const out = new F64(m);
@@ -140,6 +142,24 @@ export function probeBandJointly(h: OpHarness, slot: ParamSlot, y0: Float64Array
   if (!(lo <= hi)) return null;
   if (!(hi - lo + 1 <= spacing / 4)) return null;
   return { lo, hi, block: blockOf(out, y0, probes, anchors, n, m) };
+}
+
+/**
+ * Fewest probes of a joint structure probe (first, middle, last): fewer would leave the
+ * parameter's middle unseen (our choice).
+ */
+export const JOINT_MIN_PROBES = 3;
+
+/** Smallest distance between the anchors of `count` evenly spaced probes of n elements. */
+function jointSpacing(count: number, n: number, m: number): number {
+  let spacing = Infinity;
+  let prev = anchorOf(0, n, m);
+  for (let q = 1; q < count; q++) {
+    const a = anchorOf(floor((q * (n - 1)) / (count - 1)), n, m);
+    spacing = min(spacing, a - prev);
+    prev = a;
+  }
+  return spacing;
 }
 
 /**
