@@ -1,6 +1,7 @@
 // Profiles where a warm runner spends a check: starts the real runner script (dist/sandbox-child.js)
 // under `node --cpu-prof`, sends it the same messages the RunnerPool sends for one benchmark op,
 // and prints the functions with the most self time from the profile it writes.
+// Prints the runner's CPU time per job too (Linux).
 // Usage: node dist/bench/profileRunner.js KIND ELEMENTS JOBS [--no-profile] [--bug=COUNT] [--engine=warm|cold] [-- EXTRA_NODE_FLAGS...]
 // (--no-profile times the jobs without the profiler; --bug seeds COUNT wrong elements (1e-4) in the
 // backward; --engine forces the warm engine or an engine loaded per op context; extra flags try V8
@@ -47,6 +48,17 @@ export function selfTimes(profile: CpuProfile): { name: string; ms: number; shar
   return [...totals.entries()].map(([name, ms]) => ({ name, ms, share: ms / all })).sort((a, b) => b.ms - a.ms);
 }
 
+/** User plus system CPU time of a process so far, in ms, from /proc (Linux); NaN elsewhere. */
+function childCpuMs(pid: number | undefined): number {
+  try {
+    // Fields after the command name: state is field 3, utime 14 and stime 15, in clock ticks (100 a second on Linux).
+    const fields = readFileSync(`/proc/${pid}/stat`, 'utf8').split(') ')[1].split(' ');
+    return (Number(fields[11]) + Number(fields[12])) * 10;
+  } catch {
+    return NaN;
+  }
+}
+
 async function main(): Promise<void> {
   const [kind, elementsText, jobsText] = process.argv.slice(2);
   const bugArg = process.argv.find((a) => a.startsWith('--bug='));
@@ -85,7 +97,9 @@ async function main(): Promise<void> {
   const engineArg = process.argv.find((a) => a.startsWith('--engine='))?.slice(9);
   const warmEngine = engineArg === undefined ? runnerJobFields({ bundleKey: '', bundleCode: '', op: target, settings: DEFAULT_SETTINGS }).warmEngine : engineArg === 'warm';
   const times: number[] = [];
+  let cpuAfterFirst = NaN;
   for (let id = 1; id <= jobs; id++) {
+    if (id === 2) cpuAfterFirst = childCpuMs(child.pid);
     const job: JobMessage = {
       type: 'job',
       id,
@@ -107,12 +121,15 @@ async function main(): Promise<void> {
       }
     }
   }
+  // CPU time of the runner (every thread: V8's compiler and collector threads too) per job after
+  // the first: on a machine shared with other work it moves far less than the elapsed times.
+  const cpuPerJob = (childCpuMs(child.pid) - cpuAfterFirst) / (jobs - 1);
   const exited = new Promise((resolve) => child.once('exit', resolve));
   child.disconnect();
   await exited;
   const warm = times.slice(1);
   console.log(
-    `${op.kind} ${op.shape}${extraFlags.length ? ` with ${extraFlags.join(' ')}` : ''}: median of jobs 2–${jobs} inside the runner ${median(warm).toFixed(1)} ms${profiling ? ' (profiled)' : ''}`,
+    `${op.kind} ${op.shape}${extraFlags.length ? ` with ${extraFlags.join(' ')}` : ''}: median of jobs 2–${jobs} inside the runner ${median(warm).toFixed(1)} ms${profiling ? ' (profiled)' : ''}${cpuPerJob >= 0 ? `, runner CPU ${cpuPerJob.toFixed(1)} ms a job` : ''}`,
   );
   if (!profiling) {
     rmSync(dir, { recursive: true, force: true });

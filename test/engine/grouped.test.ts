@@ -108,6 +108,19 @@ describe('engine: grouped check (Curtis, Powell & Reid 1974)', () => {
     console.log(`      1e6 elementwise, one wrong element: ${ms.toFixed(0)} ms in-process, ${o.calls.forward} forward calls`);
   });
 
+  it('a 33-element elementwise op learns its diagonal from one joint probe of 5 elements, 8 outputs apart', () => {
+    const o = check(softsign(33, null), { stepScans: 'none' });
+    assert.equal(o.verdict, 'pass', show(o));
+    assert.equal(o.params[0].method, 'grouped');
+    assert.equal(o.params[0].checkedElements, 33);
+    // 2 baseline calls, 1 joint probe (6 probes would lie under 8 outputs apart, 5 do not), 2 for
+    // the one colour class, 2 for the safety probe; eight single probes would make it 14.
+    assert.equal(o.calls.forward, 2 + 1 + 2 + 2, show(o));
+    const wrong = check(softsign(33, 17), { stepScans: 'none' });
+    assert.equal(wrong.verdict, 'mismatch', show(wrong));
+    assert.deepEqual(wrong.params[0].worst?.index, [17]);
+  });
+
   it('banded op (valid 1-D convolution, 5 taps): a few colour classes instead of one column per element', () => {
     const o = check(conv(2000, null));
     assert.equal(o.verdict, 'pass', show(o));
@@ -183,6 +196,40 @@ describe('engine: grouped check (Curtis, Powell & Reid 1974)', () => {
     // 2 baseline calls, 1 joint structure probe, 2 per colour class, 2 for the random-direction
     // safety probe: 25 with 10 classes; the band model's 19 classes would need 43.
     assert.equal(o.calls.forward, 2 + 1 + 2 * 10 + 2, show(o));
+  });
+
+  it('a softmax over 10 rows of 10 (blocks too wide for the joint probe) still gets 10 colour classes from the single probes', () => {
+    const o = check(rowSoftmax(10, 10, null), { stepScans: 'none' });
+    assert.equal(o.verdict, 'pass', show(o));
+    assert.equal(o.params[0].method, 'grouped');
+    assert.equal(o.params[0].checkedElements, 100);
+    // 2 baseline calls, 1 joint probe (its blocks overlap, so it proves nothing), 8 single probes
+    // (first, last, 4 spaced, 2 random), 2 per colour class, 2 for the safety probe: 33; the band
+    // model's 19 classes would need 51.
+    assert.equal(o.calls.forward, 2 + 1 + 8 + 2 * 10 + 2, show(o));
+  });
+
+  it('a softmax over 10 rows of 10 with one wrong entry is a mismatch at that entry', () => {
+    const o = check(rowSoftmax(10, 10, 57), { stepScans: 'none' });
+    assert.equal(o.verdict, 'mismatch', show(o));
+    assert.deepEqual(o.params[0].worst?.index, [5, 7]);
+  });
+
+  it('a dense Jacobian seen by the single probes is not taken for one block of every element', () => {
+    // y = A x with a dense 40×40 A: every element moves every output, a 'block' of 40 that
+    // grouping could not save a single call on; the full check's 80 calls stand.
+    const n = 40;
+    const A = Array.from({ length: n }, (_, i) => Array.from({ length: n }, (_, j) => Math.cos(i + 2 * j)));
+    const o = check(
+      functionOp({
+        forward: (x: Float64Array) => Float64Array.from(A, (row) => row.reduce((s, a, j) => s + a * x[j], 0)),
+        backward: (x: Float64Array, dy: Float64Array) => Float64Array.from(x, (_, j) => A.reduce((s, row, i) => s + row[j] * dy[i], 0)),
+        params: [['x', spec('f64', [n])]],
+      }),
+      { stepScans: 'none' },
+    );
+    assert.equal(o.verdict, 'pass', show(o));
+    assert.equal(o.params[0].method, 'full');
   });
 
   it('a softmax over rows of 10 with one wrong entry is a mismatch at that entry (block colouring)', () => {

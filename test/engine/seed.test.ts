@@ -2,7 +2,8 @@
 // (the reproducibility habit of stdlib-js random/base/*: every draw seeded, generator injectable).
 
 import assert from 'node:assert/strict';
-import { createRandom, distinctIndices, substream } from '../../server/src/engine/random';
+import { createRandom, distinctIndices, fillSigned, seedToState, substream } from '../../server/src/engine/random';
+import { drawValue } from '../../server/src/engine/sampling';
 import { check, functionOp, show, spec } from './opBuilder';
 
 function softplusOp(seed?: number) {
@@ -49,6 +50,49 @@ describe('engine: seeded generator and sampling', () => {
     let offGrid = 0;
     for (let i = 0; i < 100; i++) if (!Number.isInteger(r() * 2 ** 32)) offGrid++;
     assert.ok(offGrid > 90, `${offGrid} of 100 off the 2^-32 grid`);
+  });
+
+  it('the generator is SplitMix cut to 32-bit words: Weyl step 0x9e3779b9, MurmurHash3 fmix32, 27 + 26 bits a draw', () => {
+    // Written here from the published construction, independently of random.ts: the Weyl
+    // increment 2^32/φ and the fmix32 finaliser of MurmurHash3 (Appleby, public domain, constants
+    // 0x85ebca6b and 0xc2b2ae35), as in Steele, Lea & Flood, OOPSLA 2014. Pins the stream, so a
+    // faster generator cannot change which inputs a seed draws.
+    const fmix32 = (h: number): number => {
+      h = Math.imul(h ^ (h >>> 16), 0x85ebca6b);
+      h = Math.imul(h ^ (h >>> 13), 0xc2b2ae35);
+      return (h ^ (h >>> 16)) >>> 0;
+    };
+    for (const seed of [0, 1, 1234, -5, 2 ** 40 + 3]) {
+      let state = seedToState(seed);
+      const next = (): number => {
+        state = (state + 0x9e3779b9) | 0;
+        return fmix32(state);
+      };
+      const r = createRandom(seed);
+      for (let i = 0; i < 500; i++) {
+        const hi = next() >>> 5;
+        const lo = next() >>> 6;
+        assert.equal(r(), (hi * 2 ** 26 + lo) / 2 ** 53);
+      }
+      // fillSigned: its state from one draw, then one fmix32 per number, scaled to [-1, 1).
+      const source = createRandom(seed);
+      const copy = createRandom(seed);
+      const out = fillSigned(source, new Float64Array(300));
+      let s = (copy() * 2 ** 32) | 0;
+      for (let i = 0; i < out.length; i++) {
+        s = (s + 0x9e3779b9) | 0;
+        assert.equal(out[i], fmix32(s) / 2 ** 31 - 1);
+      }
+    }
+  });
+
+  it('an array drawn in one go holds the very numbers drawn one element at a time (f64 and f32)', () => {
+    for (const dtype of ['f64', 'f32'] as const) {
+      const arrays = drawValue('x', spec(dtype, [64], [-3, 2]), createRandom(11), 1000) as Float64Array | Float32Array;
+      const one = createRandom(11);
+      for (let i = 0; i < arrays.length; i++) assert.equal(arrays[i], drawValue('x', spec(dtype, [], [-3, 2]), one, 1000));
+      assert.equal(dtype === 'f32', arrays instanceof Float32Array);
+    }
   });
 
   it('substreams of one seed are independent of each other and repeatable', () => {

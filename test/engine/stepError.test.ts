@@ -74,6 +74,33 @@ describe('engine: central-difference error against step (Nocedal & Wright §8.1)
     }
   });
 
+  it('a passing op pictures one parameter, the one nearest its tolerance; every parameter that does not pass gets its own', () => {
+    const op = (wrongC: number) =>
+      functionOp({
+        forward: (a: number, b: number, c: number) => Math.exp(a) * Math.sin(b) + c * c,
+        backward: (a: number, b: number, c: number, dy: number) => [dy * Math.exp(a) * Math.sin(b), dy * Math.exp(a) * Math.cos(b), dy * 2 * c * wrongC],
+        params: [
+          ['a', spec('num', [], [0.2, 0.9])],
+          ['b', spec('num', [], [0.2, 0.9])],
+          ['c', spec('num', [], [0.2, 0.9])],
+        ],
+      });
+    const pass = check(op(1));
+    assert.equal(pass.verdict, 'pass', show(pass));
+    const pictured = pass.params.filter((p) => p.stepScan !== undefined);
+    assert.equal(pictured.length, 1, show(pass));
+    const nearest = pass.params.reduce((best, p) => (p.maxRelError > best.maxRelError ? p : best));
+    assert.equal(pictured[0], nearest);
+    assert.equal(pass.calls.stepScanForward, 26);
+    assert.equal(check(op(1), { stepScans: 'none' }).calls.forward + 26, pass.calls.forward);
+
+    const wrong = check(op(1.01));
+    assert.equal(wrong.verdict, 'mismatch', show(wrong));
+    assert.ok(wrong.params[2].stepScan, 'the mismatched parameter has its picture');
+    assert.equal(wrong.params.filter((p) => p.verdict === 'pass' && p.stepScan !== undefined).length, 1, show(wrong));
+    assert.equal(wrong.calls.stepScanForward, 52);
+  });
+
   it('settings.stepScans: "mismatch" skips the scan of a passing op and keeps it for a mismatch; "none" skips both', () => {
     const op = (factor: number) =>
       functionOp({

@@ -80,7 +80,7 @@ export function isPlainPrototype(proto: unknown): boolean {
 const typedArrayTag = Object.getOwnPropertyDescriptor(Object.getPrototypeOf(Uint8Array.prototype) as object, Symbol.toStringTag)?.get as (this: unknown) => unknown;
 
 function typedKind(v: unknown): unknown {
-  return typeof v === 'object' && v !== null ? reflectApply(typedArrayTag, v, []) : undefined;
+  return typeof v === 'object' && v !== null ? reflectApply(typedArrayTag, v, NO_ARGS) : undefined;
 }
 
 /** A Float64Array of any realm. */
@@ -96,6 +96,37 @@ export function isF32(v: unknown): v is Float32Array {
 /** An Int32Array of any realm. */
 export function isI32(v: unknown): v is Int32Array {
   return typedKind(v) === 'Int32Array';
+}
+
+// %TypedArray%.prototype's length getter and set, which read the internal slots of arrays of any
+// realm and call nothing the op could have replaced (set with a typed array source does no species
+// or property lookup).
+const typedLengthGetter = Object.getOwnPropertyDescriptor(Object.getPrototypeOf(Uint8Array.prototype) as object, 'length')?.get as (this: unknown) => number;
+const typedSet = (Object.getPrototypeOf(Uint8Array.prototype) as { set: (this: unknown, src: ArrayLike<number>, offset: number) => void }).set;
+
+/** A float typed array's own element count (its internal slot, not a `length` it may have been given). */
+export function typedLength(v: Float64Array | Float32Array): number {
+  return reflectApply(typedLengthGetter, v, NO_ARGS);
+}
+
+// Argument lists reused by every call (nothing the op wrote runs inside these built-ins, so no
+// call can start while another holds them): no allocation per copy.
+const NO_ARGS: unknown[] = [];
+const setArgs: unknown[] = [null, 0];
+
+/**
+ * dest[offset ..] = every element of src, by the built-in copy: one call instead of a loop,
+ * which counts where the engine runs unoptimised (loaded into a fresh op context per check) and
+ * where src belongs to another realm (a loop over it would turn polymorphic).
+ */
+export function copyFloats(dest: Float64Array | Float32Array, src: Float64Array | Float32Array, offset = 0): void {
+  setArgs[0] = src;
+  setArgs[1] = offset;
+  try {
+    reflectApply(typedSet, dest, setArgs);
+  } finally {
+    setArgs[0] = null; // no op's array kept past the copy
+  }
 }
 
 /** JSON text parsed into the op realm's objects (a value the op will receive). */

@@ -2,7 +2,22 @@
 // accepting the shapes the interface allows and naming the parameter and the shapes when the
 // result does not fit.
 
-import { F64, describeValue, formatIndex, getPrototypeOf, isArray, isView, objectKeys, ownKey, quotedList, isPlainPrototype } from './builtins';
+import {
+  F64,
+  copyFloats,
+  describeValue,
+  formatIndex,
+  getPrototypeOf,
+  isArray,
+  isF32,
+  isF64,
+  isView,
+  objectKeys,
+  ownKey,
+  quotedList,
+  isPlainPrototype,
+  typedLength,
+} from './builtins';
 import { fail } from './failure';
 import type { ParamSlot } from './paramSlot';
 
@@ -75,7 +90,8 @@ function readGradient(value: unknown, slot: ParamSlot, dest: Float64Array): stri
     if (arr.length !== slot.size) {
       return `${label} has ${arr.length} elements, expected ${slotShapeText(slot)} (${slot.size} elements)`;
     }
-    for (let i = 0; i < slot.size; i++) dest[i] = arr[i];
+    if ((isF64(value) || isF32(value)) && typedLength(value) === slot.size) copyFloats(dest, value);
+    else for (let i = 0; i < slot.size; i++) dest[i] = arr[i];
     return null;
   }
   const shape = shapeOf(value);

@@ -32,6 +32,8 @@ export function estimateGrouped(h: OpHarness, slot: ParamSlot, st: Structure, ws
   const denom = new F64(n);
   const plus = new F64(m);
   const minus = new F64(m);
+  const sums = new F64(K);
+  const mags = new F64(K);
   const rel = relativeStep(slot.precision);
   const typed = slot.typed;
   for (let g = 0; g < st.colours; g++) {
@@ -96,32 +98,63 @@ export function estimateGrouped(h: OpHarness, slot: ParamSlot, st: Structure, ws
     // Every moved output must lie in the band of exactly one element of the group.
     let movedTotal = 0;
     for (let j = 0; j < m; j++) if (plus[j] !== minus[j]) movedTotal++;
-    let movedInBands = 0;
-    for (let i = g; i < n; i += st.colours) {
-      // Block model: element i owns its block's outputs; band model: the band around its anchor.
-      const B = st.block ?? 0;
-      const a = anchorOf(i, n, m);
-      const jLo = B > 0 ? B * ((i / B) | 0) : max(0, a + st.lo);
-      const jHi = B > 0 ? jLo + B - 1 : min(m - 1, a + st.hi);
-      const d = denom[i];
-      for (let k = 0; k < K; k++) {
-        const w = ws[k];
-        let s = 0;
-        let r = 0;
-        for (let j = jLo; j <= jHi; j++) {
-          const p = plus[j];
-          const q = minus[j];
-          if (p !== q) {
-            s += w[j] * (p - q);
-            r += abs(w[j]) * (abs(p) + abs(q));
-          }
-        }
-        numeric[k][i] = s / d;
-        bound[k][i] = (ROUNDOFF_ULPS * uOut * r) / d;
-      }
-      for (let j = jLo; j <= jHi; j++) if (plus[j] !== minus[j]) movedInBands++;
-    }
-    if (movedInBands !== movedTotal) return null;
+    if (creditBands(st, g, n, m, ws, plus, minus, denom, ROUNDOFF_ULPS * uOut, numeric, bound, sums, mags) !== movedTotal) return null;
   }
   return { indices, numeric, bound };
+}
+
+/**
+ * Credits the outputs that moved in the band (or block) of each element i of colour g to i:
+ * numeric[k][i] and bound[k][i] from one pass over the band serving every upstream vector, as in
+ * fullCheck.ts. Returns the number of moved outputs met in the bands (the caller compares it
+ * with every moved output). `sums` and `mags` are scratch of length K.
+ */
+function creditBands(
+  st: Structure,
+  g: number,
+  n: number,
+  m: number,
+  ws: Float64Array[],
+  plus: Float64Array,
+  minus: Float64Array,
+  denom: Float64Array,
+  roundoff: number,
+  numeric: Float64Array[],
+  bound: Float64Array[],
+  sums: Float64Array,
+  mags: Float64Array,
+): number {
+  const K = ws.length;
+  const B = st.block ?? 0;
+  let movedInBands = 0;
+  for (let i = g; i < n; i += st.colours) {
+    // Block model: element i owns its block's outputs; band model: the band around its anchor.
+    const a = anchorOf(i, n, m);
+    const jLo = B > 0 ? B * ((i / B) | 0) : max(0, a + st.lo);
+    const jHi = B > 0 ? jLo + B - 1 : min(m - 1, a + st.hi);
+    for (let k = 0; k < K; k++) {
+      sums[k] = 0;
+      mags[k] = 0;
+    }
+    for (let j = jLo; j <= jHi; j++) {
+      const p = plus[j];
+      const q = minus[j];
+      if (p !== q) {
+        movedInBands++;
+        const d = p - q;
+        const mag = (p < 0 ? -p : p) + (q < 0 ? -q : q);
+        for (let k = 0; k < K; k++) {
+          const w = ws[k][j];
+          sums[k] += w * d;
+          mags[k] += (w < 0 ? -w : w) * mag;
+        }
+      }
+    }
+    const d = denom[i];
+    for (let k = 0; k < K; k++) {
+      numeric[k][i] = sums[k] / d;
+      bound[k][i] = (roundoff * mags[k]) / d;
+    }
+  }
+  return movedInBands;
 }

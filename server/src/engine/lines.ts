@@ -2,7 +2,7 @@
 // place, evaluating the forward there, and restoring; plus the projections of output
 // differences onto upstream vectors that every difference quotient of the engine uses.
 
-import { F64, abs, max, min } from './builtins';
+import { F64, abs, copyFloats, max, min, typedLength } from './builtins';
 import type { ForwardMap } from './forwardMap';
 import type { ParamSlot } from './paramSlot';
 import { centralStep, relativeStep } from './precision';
@@ -221,7 +221,8 @@ function moveRange(typed: Float64Array | Float32Array, x0: Float64Array, dir: Fl
 function noop(): void {}
 
 function restoreRange(typed: Float64Array | Float32Array, x0: Float64Array, start: number, count: number): void {
-  for (let q = 0; q < count; q++) typed[start + q] = x0[start + q];
+  if (start === 0 && count === x0.length && count === typedLength(typed)) copyFloats(typed, x0);
+  else for (let q = 0; q < count; q++) typed[start + q] = x0[start + q];
 }
 
 /**

@@ -90,21 +90,23 @@ export function colourCount(n: number, m: number, width: number, maxColours: num
 }
 
 /**
- * One forward call with STRUCTURE_SPACED_PROBES + 2 evenly spaced elements moved together:
- * each moved output is credited to the probe with the nearest anchor. The band is accepted only
+ * One forward call with STRUCTURE_SPACED_PROBES + 2 evenly spaced elements moved together (fewer,
+ * down to JOINT_MIN_PROBES, when their anchors would lie under 8 outputs apart): each moved output is credited to the probe with the nearest anchor. The band is accepted only
  * when it is narrower than a quarter of the distance between probe anchors, so the clusters of
  * moved outputs cannot have been confused; otherwise null (and the elements are probed singly).
  */
 export function probeBandJointly(h: OpHarness, slot: ParamSlot, y0: Float64Array): { lo: number; hi: number; block?: number; dense?: boolean } | null {
   const n = slot.size;
   const m = y0.length;
-  const count = STRUCTURE_SPACED_PROBES + 2;
+  // Fewer probes (down to JOINT_MIN_PROBES) when the outputs are too few for all of them to lie
+  // 8 anchors apart: one call instead of eight single probes for a 33-element diagonal.
+  let count = STRUCTURE_SPACED_PROBES + 2;
+  while (count > JOINT_MIN_PROBES && !(jointSpacing(count, n, m) >= 8)) count--;
   const probes: number[] = [];
   for (let q = 0; q < count; q++) probes[q] = floor((q * (n - 1)) / (count - 1));
   const anchors: number[] = [];
   for (let q = 0; q < count; q++) anchors[q] = anchorOf(probes[q], n, m);
-  let spacing = Infinity;
-  for (let q = 1; q < count; q++) spacing = min(spacing, anchors[q] - anchors[q - 1]);
+  const spacing = jointSpacing(count, n, m);
   if (!(spacing >= 8)) return null;
   const saved: number[] = [];
   const out = new F64(m);
@@ -143,6 +145,24 @@ export function probeBandJointly(h: OpHarness, slot: ParamSlot, y0: Float64Array
 }
 
 /**
+ * Fewest probes of a joint structure probe (first, middle, last): fewer would leave the
+ * parameter's middle unseen (our choice).
+ */
+export const JOINT_MIN_PROBES = 3;
+
+/** Smallest distance between the anchors of `count` evenly spaced probes of n elements. */
+function jointSpacing(count: number, n: number, m: number): number {
+  let spacing = Infinity;
+  let prev = anchorOf(0, n, m);
+  for (let q = 1; q < count; q++) {
+    const a = anchorOf(floor((q * (n - 1)) / (count - 1)), n, m);
+    spacing = min(spacing, a - prev);
+    prev = a;
+  }
+  return spacing;
+}
+
+/**
  * Block size B when every probe's moved outputs fill exactly its own block
  * [B·floor(i/B), B·floor(i/B) + B) with B dividing n = m; 0 otherwise. Outputs are credited to
  * the probe with the nearest anchor, as in probeBandJointly.
@@ -178,9 +198,10 @@ function blockOf(out: Float64Array, y0: Float64Array, probes: number[], anchors:
 
 /**
  * Probes elements one at a time (one forward each, at x + h·e_i) and records which outputs moved
- * relative to y0. Returns the band of offsets from the anchor, or null when nothing moved.
+ * relative to y0. Returns the band of offsets from the anchor, or null when nothing moved; with
+ * `block` when every probe moved exactly the outputs of its own block (see singleBlock).
  */
-export function probeBand(h: OpHarness, slot: ParamSlot, y0: Float64Array, random: RandomSource): { lo: number; hi: number } | null {
+export function probeBand(h: OpHarness, slot: ParamSlot, y0: Float64Array, random: RandomSource): { lo: number; hi: number; block?: number } | null {
   const n = slot.size;
   const m = y0.length;
   const probes: number[] = [0, n - 1];
@@ -193,19 +214,44 @@ export function probeBand(h: OpHarness, slot: ParamSlot, y0: Float64Array, rando
   const out = new F64(m);
   let lo = Infinity;
   let hi = -Infinity;
+  // The block every probe so far moved exactly (its size; 0 once one did not, -1 before the first).
+  let block = n === m ? -1 : 0;
   for (let q = 0; q < probes.length; q++) {
     const i = probes[q];
     const x0 = slot.get(i);
     h.forwardAtElement(slot, i, x0 + centralStep(slot.precision, x0), out, true);
     const a = anchorOf(i, n, m);
+    let first = -1;
+    let last = -1;
+    let moved = 0;
     for (let j = 0; j < m; j++) {
       if (out[j] !== y0[j]) {
         lo = min(lo, j - a);
         hi = max(hi, j - a);
+        if (first < 0) first = j;
+        last = j;
+        moved++;
       }
     }
+    if (block !== 0) block = singleBlock(i, first, last, moved, n, block < 0 ? last - first + 1 : block);
   }
-  return lo <= hi ? { lo, hi } : null;
+  if (!(lo <= hi)) return null;
+  return block > 0 ? { lo, hi, block } : { lo, hi };
+}
+
+/**
+ * B when element i (probed alone) moved exactly the B outputs of its own block
+ * [B·floor(i/B), B·floor(i/B) + B), every one of them, with B ≥ 2 dividing n and at most
+ * GROUPED_MAX_SHARE of n; else 0. Probed
+ * singly, an element's outputs cannot be confused with another's, so the block model holds for
+ * every probe seen, however wide the blocks are against the probes' spacing (a 10-class row
+ * softmax of 10 rows, where the joint probe cannot tell the blocks apart).
+ */
+function singleBlock(i: number, first: number, last: number, moved: number, n: number, B: number): number {
+  // One block of every element is a dense Jacobian: grouping must save calls (GROUPED_MAX_SHARE).
+  if (!(B >= 2) || n % B !== 0 || B > n * GROUPED_MAX_SHARE) return 0;
+  const start = B * floor(i / B);
+  return first === start && last === start + B - 1 && moved === B ? B : 0;
 }
 
 /** The band widened by half its width on each side, or null when grouping would no longer pay. */

@@ -2,7 +2,23 @@
 // named outputs of those kinds): detected once, then used to flatten every later output into a
 // Float64Array and to build upstream gradients `$dy` of the same shape.
 
-import { describeValue, formatIndex, getPrototypeOf, isArray, isView, objectKeys, isF32, isF64, isPlainPrototype, newOpF32, newOpF64, newOpList, newOpRecord } from './builtins';
+import {
+  copyFloats,
+  describeValue,
+  formatIndex,
+  getPrototypeOf,
+  isArray,
+  isView,
+  objectKeys,
+  isF32,
+  isF64,
+  isPlainPrototype,
+  newOpF32,
+  newOpF64,
+  newOpList,
+  newOpRecord,
+  typedLength,
+} from './builtins';
 import { fail } from './failure';
 import type { Precision } from './precision';
 
@@ -36,8 +52,9 @@ function product(shape: number[]): number {
 /** Detects the layout of a forward's first output. */
 export function detectLayout(value: unknown, what = 'forward output', depth = 0): OutputLayout {
   if (typeof value === 'number') return { kind: 'number', size: 1 };
-  if (isF64(value)) return { kind: 'typed', f32: false, size: value.length };
-  if (isF32(value)) return { kind: 'typed', f32: true, size: value.length };
+  // The internal element count, as flattenInto reads it, not a `length` the array may have been given.
+  if (isF64(value)) return { kind: 'typed', f32: false, size: typedLength(value) };
+  if (isF32(value)) return { kind: 'typed', f32: true, size: typedLength(value) };
   if (isView(value)) fail(`${what} is ${describeValue(value)}; outputs must be numbers, Float64Array, Float32Array or number[]`);
   if (isArray(value)) {
     const shape = nestedShape(value, what);
@@ -100,9 +117,8 @@ export function flattenInto(value: unknown, layout: OutputLayout, dest: Float64A
     case 'typed': {
       if (!(layout.f32 ? isF32(value) : isF64(value))) changed(what);
       const arr = value as Float64Array;
-      const n = layout.size;
-      if (arr.length !== n) changed(what);
-      for (let i = 0; i < n; i++) dest[offset + i] = arr[i];
+      if (typedLength(arr) !== layout.size) changed(what);
+      copyFloats(dest, arr, offset);
       return;
     }
     case 'nested':
@@ -137,7 +153,9 @@ export function buildValue(layout: OutputLayout, flat: ArrayLike<number>, offset
       return flat[offset];
     case 'typed': {
       const out = layout.f32 ? newOpF32(layout.size) : newOpF64(layout.size);
-      for (let i = 0; i < layout.size; i++) out[i] = flat[offset + i];
+      // A whole flat vector (the usual `$dy`) in one built-in copy; float32 rounds as assignment does.
+      if (offset === 0 && isF64(flat) && typedLength(flat) === layout.size) copyFloats(out, flat);
+      else for (let i = 0; i < layout.size; i++) out[i] = flat[offset + i];
       return out;
     }
     case 'nested':

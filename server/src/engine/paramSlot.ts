@@ -2,7 +2,7 @@
 // number[], or a scalar held in the argument list or on the instance) and in-place access to
 // element i, so perturbations write into the very object the forward reads (no copies).
 
-import { F64, formatIndex, fround, isArray, isF32 } from './builtins';
+import { F64, copyFloats, formatIndex, fround, isArray, isF32, typedLength } from './builtins';
 import type { Precision } from './precision';
 import type { SampleDtype } from '../model/types';
 
@@ -71,7 +71,7 @@ export class ParamSlot {
   snapshot(): Float64Array {
     const out = new F64(this.size);
     const typed = this.typed;
-    if (typed !== null) for (let i = 0; i < this.size; i++) out[i] = typed[i];
+    if (typed !== null && typedLength(typed) === this.size) copyFloats(out, typed);
     else for (let i = 0; i < this.size; i++) out[i] = this.get(i);
     return out;
   }

@@ -33,13 +33,17 @@ export function seedToState(seed: number): number {
  */
 export function createRandom(seed: number): RandomSource {
   let state = seedToState(seed);
-  const next32 = (): number => {
-    state = (state + GOLDEN_GAMMA_32) | 0;
-    return mix32(state);
-  };
+  // mix32 written out twice, not called: the same numbers with one call per draw instead of five,
+  // which counts where the engine runs unoptimised (loaded into a fresh op context per check).
   return () => {
-    const hi = next32() >>> 5; // 27 bits
-    const lo = next32() >>> 6; // 26 bits
+    state = (state + GOLDEN_GAMMA_32) | 0;
+    let z = imul(state ^ (state >>> 16), 0x85ebca6b);
+    z = imul(z ^ (z >>> 13), 0xc2b2ae35);
+    const hi = (z ^ (z >>> 16)) >>> 5; // 27 bits
+    state = (state + GOLDEN_GAMMA_32) | 0;
+    z = imul(state ^ (state >>> 16), 0x85ebca6b);
+    z = imul(z ^ (z >>> 13), 0xc2b2ae35);
+    const lo = (z ^ (z >>> 16)) >>> 6; // 26 bits
     return (hi * 67108864 + lo) / 9007199254740992; // (hi·2^26 + lo) / 2^53
   };
 }
@@ -53,7 +57,9 @@ export function fillSigned(random: RandomSource, out: Float64Array): Float64Arra
   let state = (random() * 4294967296) | 0;
   for (let i = 0; i < out.length; i++) {
     state = (state + GOLDEN_GAMMA_32) | 0;
-    out[i] = mix32(state) / 2147483648 - 1;
+    let z = imul(state ^ (state >>> 16), 0x85ebca6b); // mix32, written out (see createRandom)
+    z = imul(z ^ (z >>> 13), 0xc2b2ae35);
+    out[i] = ((z ^ (z >>> 16)) >>> 0) / 2147483648 - 1;
   }
   return out;
 }
