@@ -36,11 +36,14 @@ export interface RunnerJobFields {
 /**
  * Most sampled elements an op may have for the warm engine. The warm engine sees every op's arrays
  * from a realm of their own, so its element loops stay generic (megamorphic) where a fresh engine
- * specialises them to the one op: measured in one runner (bench/profileRunner.js, bench/PERFORMANCE.md),
- * 10 elements 1.4 → 0.6 ms a check, 100 elements about even, 1,000 slightly slower and 100,000
- * elements 165 → 812 ms. Below this the engine's cold start dominates; above it the loops do.
+ * specialises them to the one op; but a fresh engine starts unoptimised every check. Measured in
+ * one runner after the engine copied whole arrays with TypedArray `set` (bench/profileRunner.js
+ * KIND N 30 --engine=warm|cold, runner CPU ms a job, load ~2; bench/PERFORMANCE.md): elementwise
+ * 1,000 16 / 21, 10,000 48 / 102, 30,000 136 / 134; row softmax 10,000 100 / 144; conv1d 10,000
+ * 75 / 166; softmax over one vector 10,000 68 / 95; at 100,000 the fresh engine wins (elementwise
+ * 733 / 339 ms elapsed). The crossover lies near 30,000; this stays below it.
  */
-export const WARM_ENGINE_MAX_ELEMENTS = 256;
+export const WARM_ENGINE_MAX_ELEMENTS = 10_000;
 
 /** Sampled elements of an op's random `@sample` inputs; undefined when some input's size is unknown before the check. */
 export function sampledElements(op: OpDescriptor): number | undefined {
