@@ -73,6 +73,26 @@ describe('engine: dot-product test on random linear maps (Griewank & Walther)', 
     });
   }
 
+  // The probes take the K upstream vectors first and draw only the rest: one backward call per
+  // distinct vector, and the adjoint identity still rejects A in place of Aᵀ whichever way the
+  // vectors are shared (fewer probe vectors than K, or more).
+  for (const [upstreamProbes, dotProductProbes, backwardCalls] of [
+    [2, 1, 2],
+    [1, 4, 4],
+    [3, 3, 3],
+  ]) {
+    it(`K = ${upstreamProbes} upstream vectors and ${dotProductProbes} for the probes: ${backwardCalls} backward calls, Aᵀ passes and A fails`, () => {
+      const settings = { ...large, upstreamProbes, dotProductProbes };
+      const ok = check(linearMap(200, 7, true), settings);
+      assert.equal(ok.verdict, 'pass', show(ok));
+      assert.equal(ok.params[0].method, 'dot-product');
+      assert.equal(ok.calls.backward, backwardCalls, show(ok));
+      const bad = check(linearMap(200, 7, false), settings);
+      assert.equal(bad.verdict, 'mismatch', show(bad));
+      assert.equal(bad.calls.backward, backwardCalls, show(bad));
+    });
+  }
+
   it('small linear maps get full columns', () => {
     const o = check(linearMap(6, 4, false));
     assert.equal(o.verdict, 'mismatch', show(o));
