@@ -1,5 +1,5 @@
 // The backward side of one @backward attempt: the upstream vectors `$dy` (K for the full and
-// grouped checks, P more for dot-product probes) and the backward's gradients for each, called
+// grouped checks, P for dot-product probes, the K among them) and the backward's gradients for each, called
 // with the instance state a method's forward left behind.
 
 import { F64, max, min } from './builtins';
@@ -72,7 +72,8 @@ function drawUpstream(h: OpHarness, m: number, count: number, random: RandomSour
 
 /**
  * Draws the upstream vectors (K, then the dot-product probes' beyond the K they share when a
- * parameter is probed) from one stream and calls the backward once for each distinct vector. Without `$dy` one call serves every probe.
+ * parameter is probed) from one stream and calls the backward once for each distinct vector.
+ * Without `$dy` one call serves every probe.
  */
 export function callUpstreamProbes(
   h: OpHarness,
