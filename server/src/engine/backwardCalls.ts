@@ -1,6 +1,6 @@
 // The backward side of one @backward attempt: the upstream vectors `$dy` (K for the full and
-// grouped checks, P for dot-product probes, the K among them) and the backward's gradients for each, called
-// with the instance state a method's forward left behind.
+// grouped checks, P for dot-product probes, the K among them) and the backward's gradients for
+// each, called with the instance state a method's forward left behind.
 
 import { F64, max, min } from './builtins';
 import { fail } from './failure';
