@@ -259,7 +259,7 @@ describe('engine: a probed parameter of an op with two named outputs (softmax an
         for (let i = 0; i < n; i++) q[i] = 2 * z[i];
         return { p, q };
       },
-      backward: (z: Float64Array, y: { p: Float64Array }, dy: { p: Float64Array; q: Float64Array }) => {
+      backward: (_z: Float64Array, y: { p: Float64Array }, dy: { p: Float64Array; q: Float64Array }) => {
         let dot = 0;
         for (let i = 0; i < n; i++) dot += dy.p[i] * y.p[i];
         const g = new Float64Array(n);
