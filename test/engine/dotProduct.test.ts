@@ -52,8 +52,9 @@ describe('engine: dot-product test on random linear maps (Griewank & Walther)', 
       // No probe disagreed, so no element needed a look of its own.
       assert.equal(o.params[0].checkedElements, 0);
       assert.ok((o.params[0].detectionFloor ?? Infinity) < 1e-4, show(o));
-      // K = 2 upstream probes plus one backward per dot-product probe.
-      assert.equal(o.calls.backward, 2 + 4);
+      // K = 2 upstream probes; the 4 dot-product probes take those 2 and draw 2 more: one
+      // backward per distinct upstream vector.
+      assert.equal(o.calls.backward, 2 + (4 - 2));
     });
 
     it(`A in place of Aᵀ (non-symmetric) is a mismatch (matrix seed ${seed})`, () => {
@@ -69,6 +70,26 @@ describe('engine: dot-product test on random linear maps (Griewank & Walther)', 
       assert.match(o.message, /disagrees at x\[\d+\]: backward/);
       const ok = check(linearMap(200, seed, true), { ...large, subsetElements: 0 });
       assert.equal(ok.verdict, 'pass', show(ok));
+    });
+  }
+
+  // The probes take the K upstream vectors first and draw only the rest: one backward call per
+  // distinct vector, and the adjoint identity still rejects A in place of Aᵀ whichever way the
+  // vectors are shared (fewer probe vectors than K, or more).
+  for (const [upstreamProbes, dotProductProbes, backwardCalls] of [
+    [2, 1, 2],
+    [1, 4, 4],
+    [3, 3, 3],
+  ]) {
+    it(`K = ${upstreamProbes} upstream vectors and ${dotProductProbes} for the probes: ${backwardCalls} backward calls, Aᵀ passes and A fails`, () => {
+      const settings = { ...large, upstreamProbes, dotProductProbes };
+      const ok = check(linearMap(200, 7, true), settings);
+      assert.equal(ok.verdict, 'pass', show(ok));
+      assert.equal(ok.params[0].method, 'dot-product');
+      assert.equal(ok.calls.backward, backwardCalls, show(ok));
+      const bad = check(linearMap(200, 7, false), settings);
+      assert.equal(bad.verdict, 'mismatch', show(bad));
+      assert.equal(bad.calls.backward, backwardCalls, show(bad));
     });
   }
 

@@ -240,3 +240,46 @@ describe('engine: dot-product probes split down to single elements (Dorfman 1943
     }
   });
 });
+
+describe('engine: a probed parameter of an op with two named outputs (softmax and 2·z)', function () {
+  this.timeout(120000);
+  // p = softmax(z) (Jacobian diag(p) − p pᵀ, The Matrix Cookbook §2.8 from memory) and q = 2·z
+  // (Jacobian 2·I): dz = p ⊙ (dy.p − ⟨dy.p, p⟩) + 2·dy.q. The bug scales one element of the
+  // softmax term only, so the report can say which output's term is wrong.
+  function twoOutputs(n: number, wrongAt: number) {
+    return functionOp({
+      forward: (z: Float64Array) => {
+        let top = -Infinity;
+        for (let i = 0; i < n; i++) top = Math.max(top, z[i]);
+        const p = new Float64Array(n);
+        let sum = 0;
+        for (let i = 0; i < n; i++) sum += p[i] = Math.exp(z[i] - top);
+        for (let i = 0; i < n; i++) p[i] /= sum;
+        const q = new Float64Array(n);
+        for (let i = 0; i < n; i++) q[i] = 2 * z[i];
+        return { p, q };
+      },
+      backward: (_z: Float64Array, y: { p: Float64Array }, dy: { p: Float64Array; q: Float64Array }) => {
+        let dot = 0;
+        for (let i = 0; i < n; i++) dot += dy.p[i] * y.p[i];
+        const g = new Float64Array(n);
+        for (let i = 0; i < n; i++) g[i] = y.p[i] * (dy.p[i] - dot) * (i === wrongAt ? 1 + 1e-2 : 1) + 2 * dy.q[i];
+        return g;
+      },
+      params: [['z', spec('f64', [n], [-2, 2])]],
+      backwardArgs: ['z', '$y', '$dy'],
+    });
+  }
+
+  it('a wrong element of the softmax term is located and blamed on output p, whichever probe upstream vector found it', () => {
+    const o = check(twoOutputs(5000, 1234));
+    assert.equal(o.verdict, 'mismatch', show(o));
+    assert.equal(o.params[0].method, 'dot-product', show(o));
+    assert.deepEqual(o.params[0].worst?.index, [1234], show(o));
+    // The blame splits the probe's upstream vector by output and finds the softmax term 1 % off.
+    assert.ok(
+      o.params[0].hints.some((t) => /output 'p' accounts for the disagreement/.test(t)),
+      show(o),
+    );
+  });
+});

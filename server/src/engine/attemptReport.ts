@@ -34,7 +34,7 @@ export interface AttemptReportContext {
 
 /** The outcome of an attempt whose parameters were all checked (no kink left to redraw). */
 export function attemptOutcome(at: AttemptReportContext, checks: ParamCheck[]): CheckOutcome {
-  const { h, settings, base, probes } = at;
+  const { h, settings, base } = at;
   const slots = base.slots;
   let anyMismatch = false;
   let anyInconclusive = false;
@@ -58,7 +58,8 @@ export function attemptOutcome(at: AttemptReportContext, checks: ParamCheck[]): 
     for (let s = 0; s < checks.length; s++) {
       const c = checks[s];
       if (c.result.verdict !== 'mismatch' || c.evidence === null || c.worstPos < 0) continue;
-      const blame = blameOutput(h, base.layout, slots[s], s, c.evidence.est.indices[c.worstPos], probes.ws[c.evidence.cmp.worstProbe[c.worstPos]], base.tol, at.callBackward);
+      const w = comparedUpstreams(at, c.result.method)[c.evidence.cmp.worstProbe[c.worstPos]];
+      const blame = blameOutput(h, base.layout, slots[s], s, c.evidence.est.indices[c.worstPos], w, base.tol, at.callBackward);
       if (blame !== null) {
         c.result.hints[c.result.hints.length] = blame;
         c.note += ` — ${blame}`;
@@ -140,7 +141,15 @@ function addReportData(at: AttemptReportContext, s: number, c: ParamCheck, pictu
   const i = ev.est.indices[pos];
   const k = ev.cmp.worstProbe[pos];
   const line = elementLine(at.h, slot, i);
-  // Probed parameters compared their elements under the probes' upstream vectors.
-  const ws = r.method === 'dot-product' && at.probes.dotUs.length > 0 ? at.probes.dotUs : at.probes.ws;
-  r.stepScan = stepScan(line, ws[k], ev.analytic[k][i], max(1, abs(slot.get(i))));
+  r.stepScan = stepScan(line, comparedUpstreams(at, r.method)[k], ev.analytic[k][i], max(1, abs(slot.get(i))));
+}
+
+/**
+ * The upstream vectors a parameter's elements were compared under (what cmp.worstProbe indexes):
+ * the probes' for a probed parameter, which can outnumber the K others (seen: an op with two
+ * named outputs whose probed parameter was wrong ended in an internal error when its blame read
+ * the K vectors at a probe's index).
+ */
+function comparedUpstreams(at: AttemptReportContext, method: string): Float64Array[] {
+  return method === 'dot-product' && at.probes.dotUs.length > 0 ? at.probes.dotUs : at.probes.ws;
 }

@@ -1,8 +1,8 @@
 // The backward side of one @backward attempt: the upstream vectors `$dy` (K for the full and
-// grouped checks, P more for dot-product probes) and the backward's gradients for each, called
-// with the instance state a method's forward left behind.
+// grouped checks, P for dot-product probes, the K among them) and the backward's gradients for
+// each, called with the instance state a method's forward left behind.
 
-import { F64, max } from './builtins';
+import { F64, max, min } from './builtins';
 import { fail } from './failure';
 import type { InstanceSnapshot } from './instanceState';
 import type { Baseline } from './kindBaseline';
@@ -17,7 +17,7 @@ export interface UpstreamProbes {
   ws: Float64Array[];
   /** analytic[s][k]: gradient of slot s for upstream vector k. */
   analytic: Float64Array[][];
-  /** Upstream vectors of the dot-product probes (none when no parameter is probed). */
+  /** Upstream vectors of the dot-product probes (none when no parameter is probed): the K first, then fresh draws. */
   dotUs: Float64Array[];
   /** dotGrads[s][p]: gradient of slot s for dot-product upstream vector p. */
   dotGrads: Float64Array[][];
@@ -71,8 +71,9 @@ function drawUpstream(h: OpHarness, m: number, count: number, random: RandomSour
 }
 
 /**
- * Draws the upstream vectors (K, then the dot-product probes' when a parameter is probed) from
- * one stream and calls the backward for each. Without `$dy` one call serves every probe.
+ * Draws the upstream vectors (K, then the dot-product probes' beyond the K they share when a
+ * parameter is probed) from one stream and calls the backward once for each distinct vector.
+ * Without `$dy` one call serves every probe.
  */
 export function callUpstreamProbes(
   h: OpHarness,
@@ -87,7 +88,15 @@ export function callUpstreamProbes(
   const ws = drawUpstream(h, m, h.takesUpstream ? max(1, settings.upstreamProbes) : 1, random);
   let needsDot = false;
   for (let s = 0; s < slots.length; s++) if (methods[s] === 'dot-product') needsDot = true;
-  const dotUs = drawUpstream(h, m, needsDot ? max(1, settings.dotProductProbes) : 0, random);
+  // The probes take the K vectors first and draw only the rest: every vector is an independent
+  // uniform draw either way, and each one shared saves a backward call with its input guard and
+  // gradient read (measured: softmax over 1,000,000, 6 backward calls per check before, 4 after).
+  const dotCount = needsDot ? max(1, settings.dotProductProbes) : 0;
+  const shared = min(ws.length, dotCount);
+  const dotUs: Float64Array[] = [];
+  for (let p = 0; p < shared; p++) dotUs[p] = ws[p];
+  const fresh = drawUpstream(h, m, dotCount - shared, random);
+  for (let p = 0; p < fresh.length; p++) dotUs[shared + p] = fresh[p];
   const analytic: Float64Array[][] = [];
   const dotGrads: Float64Array[][] = [];
   for (let s = 0; s < slots.length; s++) {
@@ -99,8 +108,8 @@ export function callUpstreamProbes(
     for (let s = 0; s < slots.length; s++) analytic[s][k] = grads[s];
   }
   for (let p = 0; p < dotUs.length; p++) {
-    const grads = h.takesUpstream ? callBackward(dotUs[p]) : null;
-    for (let s = 0; s < slots.length; s++) dotGrads[s][p] = grads !== null ? grads[s] : analytic[s][0];
+    const grads = p < shared ? null : h.takesUpstream ? callBackward(dotUs[p]) : null;
+    for (let s = 0; s < slots.length; s++) dotGrads[s][p] = grads !== null ? grads[s] : analytic[s][p < shared ? p : 0];
   }
   return { ws, analytic, dotUs, dotGrads };
 }

@@ -33,7 +33,7 @@ export interface CheckSettings {
   largeParamElements: number;
   /** Random upstream gradients per op (one backward call each). */
   upstreamProbes: number;
-  /** Upstream gradients of the dot-product probes (one backward call each); the probes take turns with them. */
+  /** Upstream gradients of the dot-product probes, the upstreamProbes ones first (a backward call for each beyond them); the probes take turns with them. */
   dotProductProbes: number;
   /** No longer used: probes split down to single elements replaced the random subset. Kept so older configuration files load. */
   subsetElements: number;
