@@ -80,3 +80,19 @@ describe('cli: Node built-ins in the import graph', function () {
     assert.deepEqual(logged.thrownAt, { file: `${FIXTURES}/imports/log.ts`, ...call });
   });
 });
+
+describe('cli: backwards called as their parameter names say', function () {
+  this.timeout(120_000);
+  // Fixture: test/fixtures/realcode/signatures/ops.ts, no @backward argument lists. The correct
+  // ops pass only if each backward got the arguments its names ask for (eps after dy, a loss's
+  // gradient without $dy, parameters in another order); the planted twins must still be caught.
+  it('(x, dy, eps), a loss gradient without dy, a reordered list: pass; the planted twins: mismatch', async () => {
+    const run = await runCli(['check', `${FIXTURES}/signatures/ops.ts`, '--json']);
+    const report = JSON.parse(run.stdout) as Report;
+    const verdicts = Object.fromEntries(report.pairs.map((p) => [p.forward, p.verdict]));
+    assert.deepEqual(verdicts, { layerNorm: 'pass', layerNormHalf: 'mismatch', peakLoss: 'pass', peakSlipLoss: 'mismatch', scale: 'pass' });
+    assert.equal(run.code, 1);
+    const slip = report.pairs.find((p) => p.forward === 'peakSlipLoss')!;
+    assert.equal(slip.params.find((p) => p.verdict === 'mismatch')?.name, 'width');
+  });
+});

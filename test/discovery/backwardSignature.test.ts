@@ -1,48 +1,91 @@
 // The backward's declared parameters against the call the check will make (README, "Annotating
-// an op": mistakes get a diagnosis): each mistake seen in user code is an annotation problem at the
-// @backward tag that spells out the call and the fix; correct declarations are left alone.
+// an op"): a default call that does not fit is made as the backward's own parameter names say when
+// they settle it; otherwise the mistake is an annotation problem at the @backward tag that spells
+// out the call and the fix. Correct declarations are left alone.
 import assert from 'node:assert/strict';
 import { discover, expectProblem, opNamed, withDoc } from './helpers';
 
 describe('discovery: backward signature against the call', () => {
-  it('backward (x, w, dy) for forward (w, x): names the swap and the explicit list that fixes it', () => {
-    // Shape: the backward lists the forward's parameters in another order.
+  it('backward (x, w, dy) for forward (w, x), no list: called as its parameter names say', () => {
+    // Shape: the backward lists the forward's parameters in another order. The default call would
+    // pass w where x is declared; the names spell out the call, so it is made that way.
     const text = withDoc(
       ['@backward scaleBackward', '@sample w f64[3]', '@sample x f64[3]'],
       'export function scale(w: Float64Array, x: Float64Array) { return x.map((v, i) => v * w[i]); }\n' +
         'export function scaleBackward(x: Float64Array, w: Float64Array, dy: Float64Array) { return [dy.map((g, i) => g * x[i]), dy.map((g, i) => g * w[i])]; }',
     );
-    const p = expectProblem(text, opNamed(discover(text), 'scale'), '@backward', /will call scaleBackward\(w, x, \$dy\)/);
-    assert.match(p.message, /every forward parameter, then `\$dy`/);
+    const op = opNamed(discover(text), 'scale');
+    assert.deepEqual(op.problems, []);
+    assert.deepEqual(op.backwardArgs, [{ kind: 'param', name: 'x' }, { kind: 'param', name: 'w' }, { kind: 'upstream' }]);
+    assert.equal(op.backwardArgsFromNames, true);
+  });
+
+  it('the same backward under an explicit list that does not fit: a problem naming the list that does', () => {
+    const text = withDoc(
+      ['@backward scaleBackward(w, x, $dy)', '@sample w f64[3]', '@sample x f64[3]'],
+      'export function scale(w: Float64Array, x: Float64Array) { return x.map((v, i) => v * w[i]); }\n' +
+        'export function scaleBackward(x: Float64Array, w: Float64Array, dy: Float64Array) { return [dy, dy]; }',
+    );
+    const p = expectProblem(text, opNamed(discover(text), 'scale'), '@backward', /will call scaleBackward\(w, x, \$dy\) \(as the @backward list says\)/);
     assert.match(p.message, /declares \(x, w, dy\)/);
     assert.match(p.message, /`@backward scaleBackward\(x, w, \$dy\)`/);
   });
 
-  it('backward (dy, x): the upstream gradient declared first', () => {
-    // Shape: upstream gradient first, as some frameworks order it.
-    const text = withDoc(
-      ['@backward cubeBackward', '@sample x f64[4]'],
-      'export function cube(x: Float64Array) { return x.map((v) => v ** 3); }\nexport function cubeBackward(dy: Float64Array, x: Float64Array) { return x.map((v, i) => 3 * v * v * dy[i]); }',
-    );
-    const p = expectProblem(text, opNamed(discover(text), 'cube'), '@backward', /parameter 1 is 'dy', which looks like the upstream gradient/);
-    assert.match(p.message, /`@backward cubeBackward\(\$dy, x\)`/);
+  it('shapes read from names: (dy, x) upstream first; (x, dy, eps) an option after dy; a loss without dy; a method taking x again', () => {
+    const text = [
+      withDoc(
+        ['@backward cubeBackward', '@sample x f64[4]'],
+        'export function cube(x: Float64Array) { return x.map((v) => v ** 3); }\nexport function cubeBackward(dy: Float64Array, x: Float64Array) { return x.map((v, i) => 3 * v * v * dy[i]); }',
+      ),
+      withDoc(
+        ['@backward normBackward', '@sample x num[8]'],
+        'export function norm(x: number[], eps = 1e-5): number[] { return x; }\nexport function normBackward(x: number[], dy: number[], eps = 1e-5): number[] { return dy; }',
+      ),
+      withDoc(
+        ['@backward lossGrad', '@sample a num', '@sample b num'],
+        'export function loss(a: number, b: number): number { return a * a * b; }\nexport function lossGrad(a: number, b: number) { return [2 * a * b, a * a]; }',
+      ),
+      'export class Gate {\n  w = new Float64Array(3);\n  /**\n   * @backward back\n   * @sample x f64[3]\n   */\n  run(x: Float64Array) { return x.map((v, i) => v * this.w[i]); }\n  back(x: Float64Array, dy: Float64Array) { return dy.map((g, i) => g * this.w[i]); }\n}\n',
+    ].join('\n');
+    const r = discover(text);
+    const expected: Record<string, unknown[]> = {
+      cube: [{ kind: 'upstream' }, { kind: 'param', name: 'x' }],
+      norm: [{ kind: 'param', name: 'x' }, { kind: 'upstream' }, { kind: 'param', name: 'eps' }],
+      loss: [
+        { kind: 'param', name: 'a' },
+        { kind: 'param', name: 'b' },
+      ],
+      'Gate.run': [{ kind: 'param', name: 'x' }, { kind: 'upstream' }],
+    };
+    for (const [name, args] of Object.entries(expected)) {
+      const op = opNamed(r, name);
+      assert.deepEqual(op.problems, [], name);
+      assert.deepEqual(op.backwardArgs, args, name);
+      assert.equal(op.backwardArgsFromNames, true, name);
+    }
   });
 
-  it('a backward missing a parameter: the count, not a later shape error', () => {
-    // Shape: the backward forgot the second forward parameter.
-    const text = withDoc(
-      ['@backward mixBackward', '@sample a f64[2]', '@sample b f64[2]'],
-      'export function mix(a: Float64Array, b: Float64Array) { return a.map((v, i) => v * b[i]); }\nexport function mixBackward(a: Float64Array, dy: Float64Array) { return [dy, dy]; }',
-    );
-    expectProblem(text, opNamed(discover(text), 'mix'), '@backward', /declares 2 parameters but would receive 3, so '\$dy' would be dropped/);
-  });
-
-  it('a method backward (x, dy) under the method default ($dy alone) says which default applies', () => {
-    // Shape: a layer method whose backward takes the input again.
-    const text =
-      'export class Gate {\n  w = new Float64Array(3);\n  /**\n   * @backward back\n   * @sample x f64[3]\n   */\n  run(x: Float64Array) { return x.map((v, i) => v * this.w[i]); }\n  back(x: Float64Array, dy: Float64Array) { return dy.map((g, i) => g * this.w[i]); }\n}\n';
-    const p = expectProblem(text, opNamed(discover(text), 'Gate.run'), '@backward', /will call back\(\$dy\) \(the default for a method: `\$dy` alone\)/);
-    assert.match(p.message, /`@backward back\(x, \$dy\)`/);
+  it('names that do not settle the call stay a problem: an output-like name, an unknown name, no dy for a forward declared to return an array', () => {
+    const text = [
+      withDoc(
+        ['@backward tanhBackward', '@sample x f64[4]'],
+        'export function tanh(x: Float64Array) { return x.map(Math.tanh); }\nexport function tanhBackward(x: Float64Array, y: Float64Array, dy: Float64Array) { return dy.map((g, i) => g * (1 - y[i] * y[i])); }',
+      ),
+      withDoc(
+        ['@backward mixBackward', '@sample a f64[2]', '@sample b f64[2]'],
+        'export function mix(a: Float64Array, b: Float64Array) { return a.map((v, i) => v * b[i]); }\nexport function mixBackward(a: Float64Array, cache: Float64Array) { return [cache, cache]; }',
+      ),
+      withDoc(
+        ['@backward twiceBackward', '@sample x f64[4]'],
+        'export function twice(x: Float64Array): Float64Array { return x.map((v) => 2 * v); }\nexport function twiceBackward(x: Float64Array) { return x.map(() => 2); }',
+      ),
+    ].join('\n');
+    const r = discover(text);
+    const tanhProblem = expectProblem(text, opNamed(r, 'tanh'), '@backward', /declares 3 required parameters but would receive 2/);
+    assert.match(tanhProblem.message, /`@backward tanhBackward\(x, \$y, \$dy\)`/);
+    expectProblem(text, opNamed(r, 'mix'), '@backward', /declares 2 parameters but would receive 3, so '\$dy' would be dropped/, 1);
+    expectProblem(text, opNamed(r, 'twice'), '@backward', /declares 1 parameter but would receive 2, so '\$dy' would be dropped/, 2);
+    for (const name of ['tanh', 'mix', 'twice']) assert.equal(opNamed(r, name).backwardArgsFromNames, undefined, name);
   });
 
   it('declared types: a number where the call passes an array', () => {

@@ -53,6 +53,39 @@ describe('engine: layer state between backward calls', () => {
     assert.ok(o.calls.backward >= 2, 'the check calls the backward several times on one instance');
   });
 
+  it("a backward keying a field's gradient as the @sample tag names it ('this.weight') is read like 'weight'", () => {
+    class Keyed extends AccumulatingDense {
+      keyedLikeTag(dy: Float64Array): Record<string, Float64Array> {
+        const r = this.backward(dy);
+        return { x: r.x, 'this.weight': r.weight };
+      }
+      // Both keys: 'this.weight' is the field's (here the true gradient), 'weight' is ignored.
+      bothKeys(dy: Float64Array): Record<string, Float64Array> {
+        const r = this.backward(dy);
+        return { x: r.x, 'this.weight': r.weight, weight: r.weight.map((v) => 2 * v) };
+      }
+      noKey(dy: Float64Array): Record<string, Float64Array> {
+        return { x: this.backward(dy).x, w: new Float64Array(ROWS * COLS) };
+      }
+    }
+    const op = (backwardName: string) =>
+      methodOp({
+        cls: Keyed,
+        forwardName: 'forward',
+        backwardName,
+        params: [
+          ['x', spec('f64', [COLS])],
+          ['this.weight', spec('f64', [ROWS * COLS])],
+        ],
+      });
+    const keyed = check(op('keyedLikeTag'));
+    assert.equal(keyed.verdict, 'pass', show(keyed));
+    assert.equal(check(op('bothKeys')).verdict, 'pass');
+    const none = check(op('noKey'));
+    assert.equal(none.verdict, 'error');
+    assert.match(none.message, /no gradient 'weight' \(it has 'x', 'w'/);
+  });
+
   it('the same layer with a wrong weight gradient is still a mismatch', () => {
     class Wrong extends AccumulatingDense {
       override backward(dy: Float64Array): { x: Float64Array; weight: Float64Array } {

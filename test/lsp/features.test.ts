@@ -134,6 +134,24 @@ describe('editor features: a result in words', () => {
     assert.ok(text.includes('| level | f64[4] | mismatch | 2.5e-1 | 5.0e-1 | [2] | 0.5 | 0.25 | full |'), text);
   });
 
+  it('the hover: a backward called as its parameter names say shows that call; one called by default does not', () => {
+    const text = [
+      '/**',
+      ' * @backward shadeBackward',
+      ' * @sample x num[4]',
+      ' */',
+      'export function shade(x: number[], eps = 1e-3): number[] { return x.map((v) => v / (1 + eps)); }',
+      'export function shadeBackward(x: number[], dy: number[], eps = 1e-3): number[] { return dy.map((g) => g / (1 + eps)); }',
+      '',
+    ].join('\n');
+    const f = facts({ snapshot: snapshotOf('file:///work/lamps/shade.ts', '/work/lamps/shade.ts', text, () => undefined) });
+    const op = f.snapshot.ops[0]!;
+    assert.deepEqual(op.problems, []);
+    assert.match(opMarkdown(op, f), /^\*\*shade\*\* → backward `shadeBackward\(x, \$dy, eps\)` \(called as its parameter names say\)/);
+    const plain = facts();
+    assert.match(opMarkdown(plain.snapshot.ops[0]!, plain), /^\*\*dim\*\* → backward `dimBackward`\n/);
+  });
+
   it('the Testing view data: the verdict sentence, and the annotation error of a broken op', () => {
     const ops = opSummaries(facts({}, { dim: MISMATCH })).ops;
     assert.deepEqual(

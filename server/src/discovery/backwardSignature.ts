@@ -3,6 +3,7 @@
 // argument order is reported at the @backward tag with the call spelled out and the fix.
 import ts from 'typescript';
 import type { BackwardArg } from '../model/types';
+import { nonNumberReturn } from './returnType';
 
 /** Names people give an upstream gradient (common practice in hand-written layers). */
 const UPSTREAM_NAME = /^(d_?y|d_?out(put)?s?|dl_?d_?y|grad(_?out(put)?s?|_?y|_?upstream)?|gradients?|g_?y|g_?out|upstream(_?grad(ient)?)?|out_?grad|delta|d_?loss)$/i;
@@ -135,4 +136,25 @@ function describeRole(r: Role): string {
   if (r.kind === 'param') return `the forward's '${r.name}'`;
   if (r.kind === 'upstream') return 'the upstream gradient ($dy)';
   return "the forward's output ($y)";
+}
+
+/**
+ * The call read from the backward's own parameter names, for a tag without a list whose default
+ * call does not fit: every declared parameter is a forward parameter, a sampled `this.FIELD` or
+ * an upstream-gradient name (`dy`, `grad`, ...), each once. So `layerNormBackward(x, dy, eps)`
+ * is called as `(x, $dy, eps)` and a loss's `peakGrad(a, mu, sigma)` as `(a, mu, sigma)`, the
+ * list the problem message would otherwise ask for. Output-like names (`y`, `out`) are never
+ * read this way (they may name an input too), and a list without `$dy` is not read for a forward
+ * declared to return an array or object (without `$dy` the forward must return a number).
+ */
+export function backwardArgsFromNames(facts: SignatureFacts): BackwardArg[] | undefined {
+  if (facts.explicit) return undefined;
+  const declared = declaredParams(facts.backward);
+  if (declared.length === 0 || declared.some((p) => p.dotDotDotToken || !ts.isIdentifier(p.name))) return undefined;
+  const roles = declared.map((p) => roleOf((p.name as ts.Identifier).text, facts));
+  if (!roles.every((r) => r.kind === 'param' || r.kind === 'upstream')) return undefined;
+  if (new Set(roles.map(roleText)).size !== roles.length) return undefined;
+  const args = roles.map((r): BackwardArg => (r.kind === 'param' ? { kind: 'param', name: r.name } : { kind: 'upstream' }));
+  if (!args.some((a) => a.kind === 'upstream') && nonNumberReturn(facts.forward?.type) !== undefined) return undefined;
+  return args;
 }

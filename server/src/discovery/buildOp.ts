@@ -4,7 +4,7 @@
 // records each mistake where it stands.
 import { DEFAULT_EXPORT_BINDING, type OpDescriptor, type ParamDescriptor, type SampleSpec, type TagLocation } from '../model/types';
 import { defaultBackwardArgs, explicitBackwardArgs } from './backwardArgs';
-import { backwardSignatureProblem } from './backwardSignature';
+import { backwardArgsFromNames, backwardSignatureProblem } from './backwardSignature';
 import { DERIVATIVE_KINDS, defaultDerivativeArgs, explicitDerivativeArgs, parseDerivativeTag } from './derivativeTags';
 import type { ForwardSite } from './forwardSites';
 import { checkTopLevelFunction, functionFlavour, resolveBackward } from './functionLookup';
@@ -207,9 +207,10 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
   const backwardName = parsedBack.name ?? '';
   const resolved = parsedBack.name && parsedBack.nameSpan ? resolveBackward(parsedBack.name, parsedBack.nameSpan, site, ctx.bindings, problems) : undefined;
 
-  const backwardArgs = parsedBack.args ? explicitBackwardArgs(parsedBack, site, paramNames, samples, problems) : defaultBackwardArgs(isMethod, paramNames);
+  let backwardArgs = parsedBack.args ? explicitBackwardArgs(parsedBack, site, paramNames, samples, problems) : defaultBackwardArgs(isMethod, paramNames);
 
   // The backward's declaration against the call the check will make (only when the tag itself is sound).
+  let argsFromNames = false;
   if (
     backTag &&
     resolved?.fn &&
@@ -217,7 +218,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     parsedBack.problems.length === 0 &&
     !problems.some((p) => p.start >= backTag.raw.span.start && p.end <= backTag.raw.span.end)
   ) {
-    const mismatch = backwardSignatureProblem({
+    const facts = {
       backwardName,
       backward: resolved.fn,
       forward: site.fn,
@@ -226,8 +227,15 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
       args: backwardArgs,
       explicit: parsedBack.args !== undefined,
       isMethod,
-    });
-    if (mismatch) problems.push({ ...backTag.raw.span, message: mismatch });
+    };
+    const mismatch = backwardSignatureProblem(facts);
+    // A default call that does not fit, but whose fix the backward's own parameter names spell out
+    // unambiguously, is made that way instead of refused (backwardArgsFromNames).
+    const fromNames = mismatch ? backwardArgsFromNames(facts) : undefined;
+    if (fromNames) {
+      backwardArgs = fromNames;
+      argsFromNames = true;
+    } else if (mismatch) problems.push({ ...backTag.raw.span, message: mismatch });
   }
 
   const tags: TagLocation[] = ours.map((t) => {
@@ -255,6 +263,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     tags,
     problems: problems.sort((a, b) => a.start - b.start).map((p) => ctx.mapper.problem(p)),
   };
+  if (argsFromNames) op.backwardArgsFromNames = true;
   if (site.className !== undefined) op.target.className = site.className;
   if (site.objectName !== undefined) op.target.objectName = site.objectName;
   if (site.classNode && declaresPrivateMembers(site.classNode, ctx.bindings)) op.target.renewInstance = true;

@@ -118,6 +118,16 @@ function swapNote(entries: unknown[], slots: ParamSlot[], bad: number): string {
 }
 
 /**
+ * The key of a slot's gradient in an object-shaped result: its own key (`weight` for
+ * `this.weight`), or for a field the name as the @sample tag writes it (`this.weight`), which
+ * wins when both are present (a forward parameter `weight` may own the short key).
+ */
+function keyIn(obj: object, slot: ParamSlot): string | null {
+  if (slot.name !== slot.key && ownKey(obj, slot.name)) return slot.name;
+  return ownKey(obj, slot.key) ? slot.key : null;
+}
+
+/**
  * Splits a backward result into per-parameter gradients (the gradient itself for one
  * parameter; an array in declaration order or an object keyed by name for several).
  */
@@ -130,8 +140,9 @@ export function readGradients(result: unknown, slots: ParamSlot[], dests: Float6
     if (isArray(result) && result.length === 1 && typeof result[0] !== 'number') {
       if (readGradient(result[0], slots[0], dests[0]) === null) return;
     }
-    if (result !== null && typeof result === 'object' && !isArray(result) && !isView(result) && ownKey(result, slots[0].key)) {
-      const inner = readGradient((result as Record<string, unknown>)[slots[0].key], slots[0], dests[0]);
+    const single = result !== null && typeof result === 'object' && !isArray(result) && !isView(result) ? keyIn(result, slots[0]) : null;
+    if (single !== null) {
+      const inner = readGradient((result as Record<string, unknown>)[single], slots[0], dests[0]);
       if (inner === null) return;
       fail(`backward: ${inner}`);
     }
@@ -154,10 +165,11 @@ export function readGradients(result: unknown, slots: ParamSlot[], dests: Float6
     entries = [];
     const obj = result as Record<string, unknown>;
     for (let i = 0; i < n; i++) {
-      if (!ownKey(obj, slots[i].key)) {
+      const key = keyIn(obj, slots[i]);
+      if (key === null) {
         fail(`backward result has no gradient '${slots[i].key}' (it has ${quotedList(objectKeys(obj)) || 'no keys'}; expected ${quotedList(keyList)})`);
       }
-      entries[i] = obj[slots[i].key];
+      entries[i] = obj[key];
     }
   } else {
     fail(`backward returned ${describeValue(result)}; expected ${n} gradients (${names}) as an array in declaration order or an object keyed by parameter name`);

@@ -32,7 +32,8 @@ export function hoverAt(facts: DocumentFacts, position: Position): Hover | null 
 
 /** The hover text; `onlyParam` narrows the table to the parameter a `@sample` tag draws. */
 export function opMarkdown(op: OpDescriptor, facts: DocumentFacts, onlyParam?: string): string {
-  const head = `**${escape(op.forward)}** → ${op.kind ?? 'backward'} \`${op.backward}\``;
+  const call = op.backwardArgsFromNames ? `${op.backward}(${op.backwardArgs.map(callArgText).join(', ')})` : op.backward;
+  const head = `**${escape(op.forward)}** → ${op.kind ?? 'backward'} \`${call}\`${op.backwardArgsFromNames ? ' (called as its parameter names say)' : ''}`;
   const standing = opStanding(op, facts);
   if (!standing.may && standing.code === 'annotation-error') {
     return [head, '', 'Annotation errors (nothing runs until they are fixed):', '', ...op.problems.map((p) => `- line ${p.line}: ${escape(p.message)}`)].join('\n');
@@ -66,6 +67,10 @@ export function opMarkdown(op: OpDescriptor, facts: DocumentFacts, onlyParam?: s
   if (coverage) lines.push(escape(coverage), '');
   lines.push(`Reproduce with seed ${result.seed}${op.seed !== undefined ? ' (the op’s @seed)' : ''}.`);
   return lines.join('\n');
+}
+
+function callArgText(a: OpDescriptor['backwardArgs'][number]): string {
+  return a.kind === 'param' ? a.name : a.kind === 'upstream' ? '$dy' : a.kind === 'output' ? '$y' : a.kind === 'vector' ? '$v' : `$d${a.name}`;
 }
 
 function row(p: ParamResult): string {

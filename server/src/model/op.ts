@@ -160,8 +160,10 @@ export interface OpDescriptor {
   target: OpTarget;
   /** Forward parameters in declaration order, then `this.FIELD` entries in tag order. */
   params: ParamDescriptor[];
-  /** Arguments of the backward in order (explicit list or the default). */
+  /** Arguments of the backward in order (explicit list, the default, or read from its parameter names). */
   backwardArgs: BackwardArg[];
+  /** Set when the default call did not fit and backwardArgs was read from the backward's parameter names. */
+  backwardArgsFromNames?: true;
   /** `@fixed` names (with `@samples`). */
   fixed: string[];
   /** `@tolerance` override (relative). */
