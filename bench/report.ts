@@ -107,7 +107,9 @@ export function formatReport(r: BenchReport): string {
     out.push(`Ops (each size in its own process; check = Checker.checkFile wall time, median of ${reps} runs after one cold run and ${warm} untimed warm-up runs;`);
     out.push("floor = the forward/backward calls the picked method needs, timed directly on the same bundle in a vm context set up like the runner's, median;");
     out.push(`† = floor above ${FLOOR_FULL_RUN_MS / 1000} s: call count × median time of one call instead of a timed run of every call;`);
-    out.push('hand loop = per-element central difference, fixed step 1e-6, over a scalar projection; * = extrapolated from the elements reached in the time budget;');
+    out.push(
+      'hand loop = per-element central difference, fixed step 1e-6, over a scalar projection, the median of up to 5 complete runs; * = extrapolated (one run) from the elements reached in the time budget;',
+    );
     out.push('growth = exponent of check time against elements from the previous size)');
     out.push(opTable(r));
   }
