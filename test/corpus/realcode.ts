@@ -141,7 +141,8 @@ export function rowEnergyBackward(m: number[][], dy: number[]): number[][] {
 }
 
 /**
- * Shape: the backward declares the forward's parameters in another order (w, x vs x, w).
+ * Shape: the backward declares the forward's parameters in another order (w, x vs x, w);
+ * without a list in the tag it is called as its parameter names say.
  * @backward trayWeightBackward
  * @sample w f64[3]
  * @sample x f64[3]
