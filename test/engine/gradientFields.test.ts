@@ -17,7 +17,7 @@ class Linear {
   b = new Float64Array(N_OUT);
   dW = new Float64Array(N_OUT * N_IN);
   db = new Float64Array(N_OUT);
-  private x = new Float64Array(0);
+  private x: Float64Array = new Float64Array(0);
 
   forward(x: Float64Array): Float64Array {
     this.x = x;
@@ -293,7 +293,7 @@ describe('engine: gradients left in fields (@gradientField)', () => {
     /** Shape: the forward caches its point for the gradient, as a layer caches its input. */
     class Valley {
       g = new Float64Array(2);
-      at = new Float64Array(2);
+      at: Float64Array = new Float64Array(2);
       energy(v: Float64Array): number {
         this.at = v;
         return 100 * (v[1]! - v[0]! ** 2) ** 2 + (1 - v[0]!) ** 2;
