@@ -96,3 +96,31 @@ describe('cli: backwards called as their parameter names say', function () {
     assert.equal(slip.params.find((p) => p.verdict === 'mismatch')?.name, 'width');
   });
 });
+
+describe('cli: gradients left on the layer (@gradientField)', function () {
+  this.timeout(120_000);
+  // Fixture: test/fixtures/realcode/gradfields/layers.ts. The correct layers pass only if the
+  // check read dW, db (and a void backward's dx, dg) from the fields, zeroed before each call;
+  // the planted twins must still be caught on the parameter whose field is wrong.
+  it('Linear and Gate pass; their twins are mismatches on the planted field; the untagged layer says which tags to add', async () => {
+    const run = await runCli(['check', `${FIXTURES}/gradfields/layers.ts`, '--json']);
+    const report = JSON.parse(run.stdout) as Report;
+    const verdicts = Object.fromEntries(report.pairs.map((p) => [p.forward, p.verdict]));
+    assert.deepEqual(verdicts, {
+      'Linear.forward': 'pass',
+      'LinearTransposed.forward': 'mismatch',
+      'LinearUntagged.forward': 'error',
+      'Gate.forward': 'pass',
+      'GateSlip.forward': 'mismatch',
+    });
+    assert.equal(run.code, 1);
+    const byParam = (forward: string) => Object.fromEntries(report.pairs.find((p) => p.forward === forward)!.params.map((p) => [p.name, p.verdict]));
+    assert.deepEqual(byParam('LinearTransposed.forward'), { x: 'pass', 'this.W': 'mismatch', 'this.b': 'pass' });
+    assert.deepEqual(byParam('GateSlip.forward'), { x: 'pass', 'this.g': 'mismatch' });
+    const untagged = report.pairs.find((p) => p.forward === 'LinearUntagged.forward')!;
+    assert.match(
+      untagged.message,
+      /the backward changed this\.dW \(8 elements, like this\.W\) and this\.db \(2, like this\.b\): if they hold those gradients, add `@gradientField this\.W this\.dW` and `@gradientField this\.b this\.db`/,
+    );
+  });
+});

@@ -146,7 +146,7 @@ describe('discovery: forward forms', () => {
   });
 
   it('exports our tag names', () => {
-    assert.deepEqual([...OP_TAG_NAMES].sort(), ['backward', 'construct', 'fixed', 'hessian', 'jacobian', 'sample', 'samples', 'seed', 'tangent', 'tolerance']);
+    assert.deepEqual([...OP_TAG_NAMES].sort(), ['backward', 'construct', 'fixed', 'gradientField', 'hessian', 'jacobian', 'sample', 'samples', 'seed', 'tangent', 'tolerance']);
   });
 });
 

@@ -56,12 +56,32 @@ function run(text: string): void {
 }
 
 // Pieces of annotation: tag names (ours, near misses, ordinary ones) and body tokens.
-const tagName = fc.constantFrom('backward', 'sample', 'samples', 'fixed', 'construct', 'tolerance', 'seed', 'sampel', 'backwards', 'Seed', 'param', 'example', 'returns', 'x', '');
+const tagName = fc.constantFrom(
+  'backward',
+  'sample',
+  'samples',
+  'fixed',
+  'construct',
+  'tolerance',
+  'seed',
+  'gradientField',
+  'gradientfield',
+  'sampel',
+  'backwards',
+  'Seed',
+  'param',
+  'example',
+  'returns',
+  'x',
+  '',
+);
 const bodyToken = fc.oneof(
   fc.constantFrom(
     'x',
     'y',
     'this.w',
+    'this.dw',
+    '#',
     'this',
     '.',
     '$y',

@@ -100,6 +100,21 @@ describe('regression test snippet', function () {
     assert.equal(await runSnippet(snippet, fixed, ['Gain']), undefined);
   });
 
+  it('reproduces a mismatch in a gradient the backward leaves in a field (@gradientField) and passes once it is fixed', async () => {
+    const name = '../realcode/gradfields/layers.ts';
+    const snippet = await snippetFor(name, 'LinearTransposed.forward');
+    // The field is zeroed before the call and read after it, as the check does.
+    assert.match(snippet, /self\.dW = zero\(self\.dW\);/);
+    assert.match(snippet, /const analytic = flat\(self\.dW\)\[\d\];/);
+    const failure = await runSnippet(snippet, join(FIXTURES, name), ['LinearTransposed']);
+    assert.equal(failure?.name, 'AssertionError', String(failure));
+    assert.match(failure.message, /this\.W\[\d, \d\]/);
+    // The fix: W[o][i] sits at row-major index o·nIn + i, the layout the forward reads.
+    const text = readFileSync(join(FIXTURES, name), 'utf8');
+    const fixed = writeFixed('layers.ts', text, 'this.dW[i * this.nOut + o]', 'this.dW[o * this.nIn + i]');
+    assert.equal(await runSnippet(snippet, fixed, ['LinearTransposed']), undefined);
+  });
+
   it("reproduces a tf.customGrad op's mismatch through the library gradient and passes once it is fixed", async () => {
     const name = '../sandbox/tensor/customGrad.ts';
     const snippet = await snippetFor(name, 'doubledVentLimit', DEFAULT_SETTINGS.toleranceF32);

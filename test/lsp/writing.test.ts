@@ -63,7 +63,7 @@ describe('writing features: completion', () => {
   it('offers our tag names after @, including the derivative kinds', () => {
     const text = ORIGINAL.replace(' * @sample temp num in [5, 30]\n', ' * @sample temp num in [5, 30]\n * @\n');
     const labels = completionsAt(FILE, text, after(text, ' * @sample temp num in [5, 30]\n * @')).map((c) => c.label);
-    for (const tag of ['@backward', '@sample', '@samples', '@fixed', '@construct', '@tolerance', '@seed', '@jacobian', '@tangent', '@hessian'])
+    for (const tag of ['@backward', '@sample', '@samples', '@fixed', '@construct', '@gradientField', '@tolerance', '@seed', '@jacobian', '@tangent', '@hessian'])
       assert.ok(labels.includes(tag), `${tag} missing from ${labels.join(', ')}`);
   });
 
@@ -273,6 +273,19 @@ describe('writing features: navigation and tag hovers', () => {
     const value = (hover.contents as { value: string }).value;
     assert.match(value, /\*\*@construct\*\* — For a method op: the function that builds the instance/);
     assert.match(value, /@construct makeSmoother/);
+  });
+
+  it('after @gradientField offers the sampled parameters, then the unsampled fields; its hover shows an example', () => {
+    const text = ORIGINAL.replace('   * @construct makeFan\n', '   * @construct makeFan\n   * @sample this.blades f64[3]\n   * @gradientField \n');
+    const params = completionsAt(FILE, text, after(text, '@gradientField ')).map((c) => c.label);
+    assert.deepEqual(params.sort(), ['this.blades', 'x']);
+    const withParam = text.replace('@gradientField \n', '@gradientField this.blades this.\n');
+    const fields = completionsAt(FILE, withParam, after(withParam, '@gradientField this.blades this.')).map(newText);
+    assert.deepEqual(fields, ['this.speed']);
+    const hover = tagHoverAt(FILE, withParam, after(withParam, '   * @gradientF'));
+    const value = (hover?.contents as { value: string } | undefined)?.value ?? '';
+    assert.match(value, /\*\*@gradientField\*\* — For a method whose backward leaves a parameter's gradient on the instance/);
+    assert.match(value, /@gradientField this\.W this\.dW/);
   });
 
   it('guesses specs from types and initializers', () => {

@@ -17,6 +17,8 @@ import { parseSampleTag } from './sampleTag';
 import { displayName } from './siteNames';
 import { fixesField, suggestName, suggestionOf } from './suggestion';
 import { classifyTag, type OpTagName } from './tagNames';
+import { misplacedOp, opPlace } from './opShell';
+import { readGradientFieldTags } from './gradientFieldTag';
 import { libraryGradientTagNameProblem, markTensorParams, readLibraryGradientTag, tensorLibraryProblem, libraryOf, type SampleTagRef } from './tensorOps';
 import type { RawTag } from './tagText';
 
@@ -27,7 +29,7 @@ export interface BuildContext {
 }
 
 /** Tags that make a declaration an op, or show that one was meant (then reported as incomplete). */
-const OP_MARKING_TAGS: readonly OpTagName[] = ['backward', 'sample', 'samples', ...DERIVATIVE_KINDS];
+const OP_MARKING_TAGS: readonly OpTagName[] = ['backward', 'sample', 'samples', 'gradientField', ...DERIVATIVE_KINDS];
 /** Tags an op may carry once. */
 const SINGLE_TAGS: readonly OpTagName[] = ['backward', 'samples', 'construct', 'tolerance', 'seed', ...DERIVATIVE_KINDS];
 
@@ -238,6 +240,21 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     } else if (mismatch) problems.push({ ...backTag.raw.span, message: mismatch });
   }
 
+  // @gradientField: the backward op's own (reported on the other derivatives only when there is no @backward).
+  const gradientFields = readGradientFieldTags(
+    ours.filter((t) => t.name === 'gradientField').map((t) => t.raw),
+    {
+      forward: displayName(site),
+      isMethod,
+      backward: libraryGradient ? 'library' : backTag ? 'function' : 'none',
+      tensors: hasTensors,
+      params,
+      fixed,
+      usesSamplesFactory: samplesTag !== undefined,
+    },
+    backTag || derivativeTags.length === 0 ? problems : sharedProblems,
+  );
+
   const tags: TagLocation[] = ours.map((t) => {
     const start = ctx.mapper.at(t.raw.span.start);
     const end = ctx.mapper.at(t.raw.span.end);
@@ -264,6 +281,7 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
     problems: problems.sort((a, b) => a.start - b.start).map((p) => ctx.mapper.problem(p)),
   };
   if (argsFromNames) op.backwardArgsFromNames = true;
+  if (gradientFields.length > 0) op.gradientFields = gradientFields;
   if (site.className !== undefined) op.target.className = site.className;
   if (site.objectName !== undefined) op.target.objectName = site.objectName;
   if (site.classNode && declaresPrivateMembers(site.classNode, ctx.bindings)) op.target.renewInstance = true;
@@ -313,38 +331,13 @@ export function buildOp(site: ForwardSite, rawTags: RawTag[], ctx: BuildContext)
       problems: [...shared, ...own].sort((a, b) => a.start - b.start).map((p) => ctx.mapper.problem(p)),
     };
     delete variant.backwardLocation;
+    delete variant.gradientFields;
     if (where?.span) variant.backwardLocation = { file: ctx.fileName, ...ctx.mapper.at(where.span.start) };
     if (kind === 'hessian' && backwardOk) {
       variant.gradient = { name: backwardName, backwardName, backwardIsMethod: resolved?.isMethod ?? false, args: backwardArgs };
+      if (gradientFields.length > 0) variant.gradient.gradientFields = gradientFields;
     }
     ops.push(variant);
   }
   return ops;
-}
-
-/** The op's file and the span of its forward's name (1-based). */
-function opPlace(site: ForwardSite, ctx: BuildContext): Pick<OpDescriptor, 'file' | 'line' | 'column' | 'endLine' | 'endColumn'> {
-  const start = ctx.mapper.at(site.nameSpan.start);
-  const end = ctx.mapper.at(site.nameSpan.end);
-  return { file: ctx.fileName, line: start.line, column: start.column, endLine: end.line, endColumn: end.column };
-}
-
-/** An op whose tags stand where no op can be (on a class): its one problem, nothing parsed. */
-function misplacedOp(site: ForwardSite, ctx: BuildContext, problems: SpanProblem[], ours: OurTag[]): OpDescriptor {
-  const tags: TagLocation[] = ours.map((t) => {
-    const a = ctx.mapper.at(t.raw.span.start);
-    const b = ctx.mapper.at(t.raw.span.end);
-    return { tag: t.name, line: a.line, column: a.column, endLine: b.line, endColumn: b.column };
-  });
-  return {
-    ...opPlace(site, ctx),
-    forward: displayName(site),
-    backward: '',
-    target: { kind: site.kind, forwardName: site.name, backwardName: '', backwardIsMethod: false },
-    params: [],
-    backwardArgs: [],
-    fixed: [],
-    tags,
-    problems: problems.sort((a, b) => a.start - b.start).map((p) => ctx.mapper.problem(p)),
-  };
 }

@@ -3,7 +3,7 @@
 import { editDistance } from '../text/nearestName';
 
 /** Every tag Gradient Probe reads (docs/annotations.md). */
-export const OP_TAG_NAMES = ['backward', 'sample', 'samples', 'fixed', 'construct', 'tolerance', 'seed', 'jacobian', 'tangent', 'hessian'] as const;
+export const OP_TAG_NAMES = ['backward', 'sample', 'samples', 'fixed', 'construct', 'tolerance', 'seed', 'jacobian', 'tangent', 'hessian', 'gradientField'] as const;
 export type OpTagName = (typeof OP_TAG_NAMES)[number];
 
 /**
@@ -140,16 +140,17 @@ export function classifyTag(name: string): TagClass {
   if (exact) return { kind: 'ours', name: exact };
   const lower = name.toLowerCase();
   if (STANDARD_DOC_TAGS.has(lower)) return { kind: 'other' };
-  const sameLetters = OP_TAG_NAMES.find((t) => t === lower);
+  // Compared in lower case: `@gradientfield` is `@gradientField` misspelt.
+  const sameLetters = OP_TAG_NAMES.find((t) => t.toLowerCase() === lower);
   if (sameLetters) return { kind: 'misspelled', suggestion: sameLetters };
   // Longest of ours first, so `@samplesx` suggests `samples` rather than `sample`.
   const byLength = [...OP_TAG_NAMES].sort((a, b) => b.length - a.length);
-  const prefixed = byLength.find((t) => lower.startsWith(t));
+  const prefixed = byLength.find((t) => lower.startsWith(t.toLowerCase()));
   if (prefixed) return { kind: 'misspelled', suggestion: prefixed };
   let best: { name: OpTagName; distance: number } | undefined;
   for (const t of OP_TAG_NAMES) {
     const limit = t.length <= SHORT_TAG_LENGTH ? MAX_DISTANCE_SHORT : MAX_DISTANCE_LONG;
-    const d = editDistance(lower, t);
+    const d = editDistance(lower, t.toLowerCase());
     if (d <= limit && (!best || d < best.distance)) best = { name: t, distance: d };
   }
   return best ? { kind: 'misspelled', suggestion: best.name } : { kind: 'other' };

@@ -167,6 +167,7 @@ export const toStringCall = String;
 const numberToPrecision = Number.prototype.toPrecision;
 const stringSlice = String.prototype.slice;
 const stringIndexOf = String.prototype.indexOf;
+const stringToLower = String.prototype.toLowerCase;
 const jsonStringify = JSON.stringify;
 const jsonParse = JSON.parse;
 
@@ -186,6 +187,11 @@ export function sliceText(s: string, a: number, b?: number): string {
 /** `s.indexOf(sub)` with the captured original. */
 export function findText(s: string, sub: string): number {
   return reflectApply(stringIndexOf, s, [sub]) as number;
+}
+
+/** `s.toLowerCase()` with the captured original. */
+export function lowerText(s: string): string {
+  return reflectApply(stringToLower, s, NO_ARGS) as string;
 }
 
 /** Whether a list holds a value (no Array.prototype methods: user code may replace them). */

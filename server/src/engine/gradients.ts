@@ -71,10 +71,9 @@ function slotShapeText(slot: ParamSlot): string {
 /**
  * Reads one gradient into dest, or returns a message saying why it does not fit. Accepted: a
  * number for a scalar; a float typed array or number[] of the parameter's element count; a
- * nested number[] of the parameter's shape.
+ * nested number[] of the parameter's shape. `label` names the value in the message.
  */
-function readGradient(value: unknown, slot: ParamSlot, dest: Float64Array): string | null {
-  const label = `gradient of '${slot.name}'`;
+export function readGradient(value: unknown, slot: ParamSlot, dest: Float64Array, label = `gradient of '${slot.name}'`): string | null {
   if (slot.shape.length === 0) {
     if (typeof value === 'number') {
       dest[0] = value;

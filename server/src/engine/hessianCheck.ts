@@ -47,6 +47,8 @@ function chooseReference(op: OpDescriptor, settings: CheckSettings, runBackward:
     problems: [],
   };
   delete gradientOp.gradient;
+  // The @backward's own `@gradientField` tags (the @hessian op itself carries none).
+  if (g.gradientFields !== undefined) gradientOp.gradientFields = g.gradientFields;
   const outcome = runBackward(gradientOp, { ...settings, timeLimitMs: settings.timeLimitMs * REFERENCE_TIME_SHARE, stepScans: 'none' });
   if (outcome.verdict === 'pass') return { gradientOp, note: `reference: central differences of the @backward '${g.name}', which passes`, calls: outcome.calls };
   return {

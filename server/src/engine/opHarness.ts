@@ -6,7 +6,7 @@ import { F64, describeThrown, describeValue, formatIndex, formatNumber, position
 import { CheckStop, fail, failInternal, failThrown, stopAtTimeLimit } from './failure';
 import { ForwardMap } from './forwardMap';
 import { resolveBindings, type AnyFunction } from './opBindings';
-import { readGradients } from './gradients';
+import { GradientSource } from './gradientFields';
 import { InputGuard } from './inputGuard';
 import { InstanceSnapshot } from './instanceState';
 import { buildValue, describeOutputIndex, detectLayout, firstNonFinite, flattenInto, nonFiniteName, type OutputLayout } from './outputLayout';
@@ -43,6 +43,7 @@ export class OpHarness extends ForwardMap {
   private stopClock: (() => number) | null = null;
   private stopTime = Infinity;
   private stopLimitMs = 0;
+  private readonly gradientSource: GradientSource; // what the backward returns, and its @gradientField fields
 
   constructor(
     private readonly op: OpDescriptor,
@@ -60,6 +61,7 @@ export class OpHarness extends ForwardMap {
     this.holder = b.holder;
     this.constructFn = b.constructFn;
     this.samplesFn = b.samplesFn;
+    this.gradientSource = new GradientSource(op);
   }
 
   /**
@@ -286,7 +288,10 @@ export class OpHarness extends ForwardMap {
     this.calls.backward++;
     let result: unknown;
     const thisArg = this.op.target.backwardIsMethod ? (this.backwardThis ?? this.instance ?? this.holder ?? undefined) : undefined;
+    // The instance the backward runs on, as the caller put it back: its gradient fields are zeroed.
+    const instance = this.backwardThis ?? this.instance;
     this.backwardThis = null;
+    this.gradientSource.beforeCall(instance, slots);
     try {
       if (this.tensors !== null && this.op.target.libraryGradient) {
         const names: string[] = [];
@@ -308,12 +313,7 @@ export class OpHarness extends ForwardMap {
       const changed = madeGuard.firstChange(madeValues);
       if (changed !== null) fail(`backward changed its input ${changed} (the upstream gradient and the output are the check's, not the backward's to reuse: return a new array)`);
     }
-    try {
-      readGradients(result, slots, dests);
-    } catch (e) {
-      if (e instanceof CheckStop) throw e;
-      failThrown(`reading what the backward returned threw ${describeThrown(e)}`, e);
-    }
+    this.gradientSource.read(result, instance, slots, dests);
     for (let p = 0; p < slots.length; p++) {
       const j = firstNonFinite(dests[p]);
       if (j >= 0) {

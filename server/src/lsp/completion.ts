@@ -2,7 +2,8 @@
 // `this.` fields) still without a sample, then spec forms with dimensions guessed from the
 // TypeScript type; after a derivative tag the module's functions (the class's methods) whose
 // parameter counts fit the call the check will make, and inside its argument list the forward's
-// parameter names and the placeholders; after `@construct` / `@samples` the module's functions.
+// parameter names and the placeholders; after `@construct` / `@samples` the module's functions;
+// after `@gradientField` the sampled parameters, then the class's unsampled fields.
 
 import { CompletionItemKind, InsertTextFormat, MarkupKind, type CompletionItem, type Position, type Range } from 'vscode-languageserver';
 import ts from 'typescript';
@@ -54,6 +55,7 @@ export function completionsAt(fileName: string, text: string, position: Position
   if (tag === 'sample') return sampleCompletions(sm, rest, replace);
   if ((DERIVATIVE_TAGS as readonly string[]).includes(tag)) return derivativeCompletions(model, sm, tag, rest, replace);
   if ((tag === 'construct' || tag === 'samples') && /^[\w$]*$/.test(rest)) return factoryCompletions(model, sm, replace);
+  if (tag === 'gradientField') return gradientFieldCompletions(sm, rest, replace);
   if (tag === 'fixed' && /(^|,)\s*[\w$.]*$/.test(rest)) {
     return sm.params.map((p) => ({ label: p.name, kind: CompletionItemKind.Variable, textEdit: { range: replace, newText: p.name } }));
   }
@@ -190,6 +192,30 @@ function argumentCompletions(sm: SiteModel, kind: string, written: string, repla
     add('$v', 'the vector of a Hessian-vector product', CompletionItemKind.Constant, 2);
   }
   return items;
+}
+
+/** After `@gradientField`: the sampled parameters and fields, then the class's other fields (where the gradient is left). */
+function gradientFieldCompletions(sm: SiteModel, rest: string, replace: Range): CompletionItem[] {
+  const sampled = sampledNames(sm);
+  if (/^[\w$.]*$/.test(rest)) {
+    return [...sm.params, ...sm.fields]
+      .filter((p) => sampled.has(p.name))
+      .map((p) => ({
+        label: p.name,
+        kind: CompletionItemKind.Variable,
+        detail: 'parameter whose gradient the backward leaves in a field',
+        textEdit: { range: replace, newText: p.name },
+      }));
+  }
+  if (!/^(this\s*\.\s*[\w$]+|[\w$]+)\s+[\w$.]*$/.test(rest)) return [];
+  return sm.fields
+    .filter((f) => !sampled.has(f.name))
+    .map((f) => ({
+      label: f.name,
+      kind: CompletionItemKind.Field,
+      detail: 'field holding the gradient (zeroed before each backward call)',
+      textEdit: { range: replace, newText: f.name },
+    }));
 }
 
 function factoryCompletions(model: SourceModel, sm: SiteModel, replace: Range): CompletionItem[] {

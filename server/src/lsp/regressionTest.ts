@@ -85,6 +85,8 @@ export function regressionTestFor(op: OpDescriptor, result: OpResult): SnippetOu
   );
   push(1, `const y = forward();`);
   push(1, `const dy = onesLike(y);`);
+  // A gradient the backward leaves in a field (@gradientField) is read there; the rest come back from the call.
+  const inField = op.gradientFields?.find((g) => g.param === param.name);
   const callee =
     isMethod && op.target.backwardIsMethod
       ? `self.${op.target.backwardName}`
@@ -107,10 +109,15 @@ export function regressionTestFor(op: OpDescriptor, result: OpResult): SnippetOu
     push(1, `const grads: any = tf.tidy(() => { const t = toArgs(); return fromTensor(${callee}(${backwardArgs.join(', ')})); });`);
   } else {
     const backwardArgs = op.backwardArgs.map((a) => backwardArgText(a, plainParams));
-    push(1, `const grads: any = ${callee}(${backwardArgs.join(', ')});`);
+    zeroGradientFields(op, push);
+    push(1, `${inField ? '' : 'const grads: any = '}${callee}(${backwardArgs.join(', ')});`);
   }
-  const pick =
-    differentiated.length === 1 ? 'grads' : `(Array.isArray(grads) ? grads[${differentiated.indexOf(param.name)}] : grads[${JSON.stringify(param.name.replace(/^this\./, ''))}])`;
+  const returned = differentiated.filter((n) => !op.gradientFields?.some((g) => g.param === n));
+  const pick = inField
+    ? `self.${inField.field}`
+    : returned.length === 1
+      ? 'grads'
+      : `(Array.isArray(grads) ? grads[${returned.indexOf(param.name)}] : grads[${JSON.stringify(param.name.replace(/^this\./, ''))}])`;
   push(1, `const analytic = flat(${pick})[${flatIndex(param)}];`);
   push(1, `// The worst element, reached through its multi-index ${indexText(param.worst.index)}.`);
   const holder = param.name.startsWith('this.') ? `self.${param.name.slice(5)}` : `args[${plainParams.indexOf(param.name)}]`;
@@ -129,6 +136,17 @@ export function regressionTestFor(op: OpDescriptor, result: OpResult): SnippetOu
   push(2, `\`${quoteTemplate(param.name)}${indexText(param.worst.index)}: backward \${analytic}, central difference \${numeric}\`);`);
   push(0, `});`);
   return { snippet: lines.join('\n') + '\n' };
+}
+
+/** The snippet's copy of the check's rule: every @gradientField field set to zero, in place, before the backward call. */
+function zeroGradientFields(op: OpDescriptor, push: (depth: number, text: string) => void): void {
+  if (!op.gradientFields?.length) return;
+  push(1, `// As the check does (and a training loop between steps): the gradient fields start at zero.`);
+  push(
+    1,
+    `const zero = (v: any): any => { if (ArrayBuffer.isView(v)) (v as any).fill(0); else if (Array.isArray(v)) v.forEach((e, i) => { if (typeof e === 'number') v[i] = 0; else zero(e); }); return typeof v === 'number' ? 0 : v; };`,
+  );
+  for (const g of op.gradientFields) push(1, `self.${g.field} = zero(self.${g.field});`);
 }
 
 function importList(op: OpDescriptor): string[] {

@@ -48,6 +48,13 @@ export const TAG_DOCS: readonly TagDoc[] = [
     snippet: 'construct ${1:factory}',
   },
   {
+    name: 'gradientField',
+    summary:
+      "For a method whose backward leaves a parameter's gradient on the instance: read it from that field after each backward call. The check sets the field to zero before every call, as a training loop does; the return value holds the other gradients.",
+    example: '@gradientField this.W this.dW',
+    snippet: 'gradientField ${1:param} this.${2:field}',
+  },
+  {
     name: 'tolerance',
     summary: 'Relative tolerance of this op, overriding the setting and the project file.',
     example: '@tolerance 1e-7',

@@ -138,6 +138,14 @@ export const TENSOR_LIBRARY_BINDING = '__gradientProbeTensorLibrary';
  */
 export type OpKind = 'backward' | 'jacobian' | 'tangent' | 'hessian';
 
+/** One `@gradientField PARAM this.FIELD` tag: where the backward leaves PARAM's gradient. */
+export interface GradientField {
+  /** The differentiated parameter, as ParamDescriptor.name writes it (`x`, `this.W`). */
+  param: string;
+  /** The instance's field, without `this.` (`dW`). */
+  field: string;
+}
+
 /** An annotated forward/backward pair found by discovery. */
 export interface OpDescriptor {
   /** The derivative this op checks; absent means 'backward'. */
@@ -166,6 +174,12 @@ export interface OpDescriptor {
   backwardArgsFromNames?: true;
   /** `@fixed` names (with `@samples`). */
   fixed: string[];
+  /**
+   * `@gradientField PARAM this.FIELD` (a method op's @backward): the gradient of PARAM is read
+   * from the instance's field after each backward call, the field set to zero before it; the
+   * return value supplies only the other parameters' gradients (ignored when none is left).
+   */
+  gradientFields?: GradientField[];
   /** `@tolerance` override (relative). */
   tolerance?: number;
   /** `@seed` override. */
@@ -179,7 +193,7 @@ export interface OpDescriptor {
    * (name, binding, argument list). The Hessian is then checked against central differences of
    * this gradient when the gradient itself passes its check.
    */
-  gradient?: { name: string; backwardName: string; backwardIsMethod: boolean; args: BackwardArg[] };
+  gradient?: { name: string; backwardName: string; backwardIsMethod: boolean; args: BackwardArg[]; gradientFields?: GradientField[] };
   /** Annotation mistakes; non-empty means the op is reported as `error` without running. */
   problems: Problem[];
 }
