@@ -136,6 +136,33 @@ describe('engine: central-difference error against step (Nocedal & Wright §8.1)
     assert.equal(narrowed.calls.forward + o.calls.stepScanForward!, o.calls.forward);
   });
 
+  it('a forward that throws at a step of the picture costs the picture, never the verdict', () => {
+    // x is drawn at 0.5 only; the check's own steps stay within ~1e-5 of it (N&W §8.1), the
+    // picture's reach 0.1, where this forward throws.
+    const op = (factor: number) =>
+      functionOp({
+        forward: (x: number) => {
+          if (x > 0.58) throw new Error('beyond the cliff');
+          return x * x;
+        },
+        backward: (x: number) => factor * 2 * x,
+        params: [['x', spec('num', [], [0.5, 0.5])]],
+        backwardArgs: ['x'],
+      });
+    const plain = check(op(1));
+    assert.equal(plain.verdict, 'pass', show(plain));
+    const all = check(op(1), { stepScans: 'all' });
+    assert.equal(all.verdict, 'pass', show(all));
+    assert.equal(all.params[0].stepScan, undefined);
+    assert.equal(all.params[0].maxRelError, plain.params[0].maxRelError);
+    // A mismatch stays a mismatch, with the same figures, though its picture could not be drawn.
+    const wrong = check(op(1.01));
+    assert.equal(wrong.verdict, 'mismatch', show(wrong));
+    assert.equal(wrong.params[0].stepScan, undefined);
+    // |1.01 − 1| / max(1.01, 1) (the relative error of engine/settings.ts), 1 being d(x²)/dx at 0.5.
+    assert.ok(Math.abs(wrong.params[0].maxRelError - 0.01 / 1.01) < 1e-9, show(wrong));
+  });
+
   it('settings.stepScans: "mismatch" keeps the scan of a mismatch; "none" skips it', () => {
     const op = (factor: number) =>
       functionOp({
