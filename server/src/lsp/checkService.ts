@@ -21,6 +21,8 @@ interface StoredResult {
   key: string;
   /** The settings.stepScans its run drew pictures with (undefined: the default). */
   stepScans: CheckSettings['stepScans'];
+  /** A pictures-only re-check of this result ended otherwise and was dropped: it is not tried again. */
+  picturesTried?: boolean;
   result: OpResult;
   /** Size and modification time of every other file the bundle read, by path. */
   inputs: ReadonlyMap<string, string>;
@@ -69,11 +71,19 @@ export interface FileCheckRequest {
   /** Record which code each check ran (gradientProbe.showUnreached); default true. */
   coverage?: boolean;
   /**
-   * Run only when every wanted op's stored result is for this same text, settings (step
-   * pictures aside) and bundle inputs; otherwise resolve with no result. For a re-check that
-   * only adds step pictures (same seed and inputs, same verdict), never one of changed code.
+   * A re-check that only adds step pictures (same seed and inputs, so the same verdict): it runs
+   * only when every wanted op's stored result is for this same text, settings (pictures aside)
+   * and bundle inputs, else resolves with no result; and its result replaces the stored one only
+   * when it ends the same way (a run the time limit stopped on a loaded machine, or that crashed,
+   * says nothing new about the code), else it is dropped, the stored one stays and is not
+   * re-checked for pictures again.
    */
-  unchangedOnly?: boolean;
+  picturesOnly?: boolean;
+}
+
+/** Whether a re-check ended as the result it repeats did: the same verdict, stopped at the time limit or not. */
+function endsAlike(before: OpResult | undefined, after: OpResult): boolean {
+  return before !== undefined && before.verdict === after.verdict && (before.stoppedAtTimeLimit === undefined) === (after.stoppedAtTimeLimit === undefined);
 }
 
 /**
@@ -178,7 +188,7 @@ export class CheckService {
       const entry = stored?.get(f);
       return entry?.key === key && inputsUnchanged(entry.inputs);
     };
-    if (request.unchangedOnly && (wanted.length === 0 || !wanted.every(current))) return [];
+    if (request.picturesOnly && (wanted.length === 0 || !wanted.every((f) => current(f) && !stored!.get(f)!.picturesTried))) return [];
     const reusable = !request.force && wanted.length > 0 && wanted.every((f) => current(f) && picturesServe(stored!.get(f)!.stepScans, stepScans));
     if (reusable) return wanted.map((f) => stored!.get(f)!.result);
 
@@ -207,6 +217,13 @@ export class CheckService {
       if (controller.signal.aborted) return;
       const forward = result.forward ?? '';
       if (request.forwards && !request.forwards.includes(forward)) return; // `filter` is a substring match
+      const before = this.latest(request.uri, forward);
+      if (request.picturesOnly && !endsAlike(before, result)) {
+        this.log(`check ${label}: ${forward} ended ${result.verdict} where its result was ${before?.verdict ?? 'none'}; that result stays`);
+        const entry = this.results.get(request.uri)?.get(forward);
+        if (entry) entry.picturesTried = true;
+        return;
+      }
       collected.push(result);
       seqs.set(forward, this.store(request.uri, forward, { key, stepScans, result, inputs }));
       if (wanted.includes(forward) && !finished.has(forward)) {

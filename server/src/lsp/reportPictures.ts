@@ -24,13 +24,16 @@ export function lacksPassingPicture(result: OpResult): boolean {
  * The result the report page shows: `result` itself when it has its pictures, else the op's
  * re-check with every picture (now the op's latest result, so diagnostics, hovers and lenses
  * agree with the page). `result` when the re-check may not run, is not needed (the file changed
- * since, or that result already had every picture it could), fails or is cancelled.
+ * since, or that result already had every picture it could), fails, is cancelled, or ends
+ * otherwise than `result` (stopped by the time limit on a loaded machine): then `result` stays
+ * the op's latest too.
  */
 export async function withPassingPicture(session: Session, key: string, op: OpDescriptor, result: OpResult, permission: RunPermission, signal?: AbortSignal): Promise<OpResult> {
   if (!lacksPassingPicture(result) || !opStanding(op, permission).may) return result;
   try {
-    const [again] = await session.check(key, { forwards: [op.forward], stepScans: 'all', unchangedOnly: true, ...(signal ? { signal } : {}) });
-    return again && again.verdict !== 'error' ? again : result;
+    const [again] = await session.check(key, { forwards: [op.forward], stepScans: 'all', picturesOnly: true, ...(signal ? { signal } : {}) });
+    // None when it did not run, was cancelled, or ended otherwise than the result it repeats.
+    return again ?? result;
   } catch (err) {
     // CheckRefused (trust withdrawn, a broken project file) or a failed run: the page shows what it had.
     session.log(`report of ${op.forward}: no re-check for the step picture (${err instanceof Error ? err.message : String(err)})`);

@@ -36,8 +36,8 @@ export interface CheckOptions {
   signal?: AbortSignal;
   /** Step pictures to draw instead of the settings' (the report page asks for 'all'). */
   stepScans?: 'all';
-  /** Only re-check ops whose latest result is for the current text and settings (FileCheckRequest.unchangedOnly). */
-  unchangedOnly?: boolean;
+  /** A re-check that only adds step pictures to the latest results (FileCheckRequest.picturesOnly). */
+  picturesOnly?: boolean;
 }
 
 export class Session {
@@ -159,7 +159,7 @@ export class Session {
       ...(opts.forwards ? { forwards: opts.forwards.filter((f) => runnable.includes(f)) } : {}),
       ...(opts.force !== undefined ? { force: opts.force } : {}),
       ...(opts.signal ? { signal: opts.signal } : {}),
-      ...(opts.unchangedOnly ? { unchangedOnly: true } : {}),
+      ...(opts.picturesOnly ? { picturesOnly: true } : {}),
     });
     this.crashes.observe(fsPath, results);
     return results;
