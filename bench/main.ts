@@ -4,7 +4,8 @@
 // and every goal's figure with met / not met, and writes the same figures to
 // bench/results/latest.json. Flags: --quick (fewer sizes and trials), --skip=ops,detection,latency,workspace,memory,
 // --print=FILE (print the table of a saved run, measuring nothing), --settings=JSON (fields laid over the
-// defaults for every check, e.g. '{"stepScans":"mismatch"}'; such a run is never the figure of record),
+// defaults for every check, e.g. '{"stepScans":"all"}', which adds the passing op's step picture as
+// a report page asks for it; such a run is never the figure of record),
 // --kinds=matmul,softmaxVector and --sizes=1000000 (only those op families and sizes, in the op
 // table and the seeded-bug trials), --trials=N (at most N trials per seeded-bug row), --out=NAME
 // (file name under bench/results/ for a partial run). Any filter makes a partial run.

@@ -2,7 +2,8 @@
 // runner the CLI and the server use), the evaluation floor of the method it picked, and the
 // hand-written loop, side by side. Prints one JSON line (OpMeasurement) on stdout.
 // Usage: node dist/bench/opWorker.js KIND ELEMENTS REPS HAND_BUDGET_MS [SETTINGS_JSON] [WARMUP]
-// (SETTINGS_JSON: fields laid over DEFAULT_SETTINGS, e.g. '{"stepScans":"mismatch"}').
+// (SETTINGS_JSON: fields laid over DEFAULT_SETTINGS, e.g. '{"stepScans":"all"}': the passing op's
+// step picture too, as the editor's report page asks for it; '{}' the defaults).
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';

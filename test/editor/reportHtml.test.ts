@@ -32,17 +32,32 @@ function polyline(svg: string): { x: number; y: number }[] {
 describe('report page', function () {
   this.timeout(60_000);
   let pass: OpResult;
+  /** The same op checked with the default settings: a passing parameter gets no picture. */
+  let passPlain: OpResult;
   let mismatch: OpResult;
   before(async () => {
     const checker = new Checker({ settings: DEFAULT_SETTINGS, workers: 1 });
     try {
-      [pass] = (await checker.checkFile(join(FIXTURES, 'pass.ts'))) as [OpResult];
+      // The report page's own request: the language server re-checks with stepScans 'all' (lsp/commands.ts).
+      [pass] = (await checker.checkFile(join(FIXTURES, 'pass.ts'), { settings: { ...DEFAULT_SETTINGS, stepScans: 'all' } })) as [OpResult];
+      [passPlain] = (await checker.checkFile(join(FIXTURES, 'pass.ts'))) as [OpResult];
       [mismatch] = (await checker.checkFile(join(FIXTURES, 'mismatch.ts'))) as [OpResult];
     } finally {
       await checker.dispose();
     }
     assert.equal(pass.verdict, 'pass');
+    assert.equal(passPlain.verdict, 'pass');
     assert.equal(mismatch.verdict, 'mismatch');
+  });
+
+  it('says so in place of the plot when a parameter has no step scan', () => {
+    assert.equal(passPlain.params[0]!.stepScan, undefined);
+    const html = reportPage({ result: passPlain, fileLabel: 'pass.ts', nonce: 'n0nce', cspSource: 'vscode-webview:' });
+    assert.match(html, /No step scan recorded for this parameter\./);
+    assert.doesNotMatch(html, /<figure class="stepplot">/);
+    const pictured = reportPage({ result: pass, fileLabel: 'pass.ts', nonce: 'n0nce', cspSource: 'vscode-webview:' });
+    assert.match(pictured, /<figure class="stepplot">/);
+    assert.doesNotMatch(pictured, /No step scan recorded/);
   });
 
   it("has a strict content security policy, no script, and only its nonce'd style", () => {

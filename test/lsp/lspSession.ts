@@ -3,7 +3,8 @@
 // (diagnostics, op states, status) and answering its requests like an editor would.
 
 import { spawn, type ChildProcess } from 'node:child_process';
-import { existsSync, readdirSync, readFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import type * as ProtocolNode from 'vscode-languageserver-protocol/lib/node/main';
@@ -249,4 +250,27 @@ export class LspSession {
   private poke(): void {
     for (const w of [...this.waiters]) w();
   }
+}
+
+/** A trusted server on a temporary workspace folder; `close` stops the server and removes the folder. */
+export interface TempWorkspace {
+  dir: string;
+  s: LspSession;
+  close(): Promise<void>;
+}
+
+/** Makes a temporary folder (name starting with `prefix`), lets `fill` write it, and starts a trusted server on it. */
+export async function tempWorkspace(prefix: string, fill: (dir: string) => void, settings: Record<string, unknown>): Promise<TempWorkspace> {
+  const dir = mkdtempSync(join(tmpdir(), prefix));
+  fill(dir);
+  const s = new LspSession({ trusted: true, workspace: dir, filesRoot: dir, settings });
+  await s.initialize();
+  return {
+    dir,
+    s,
+    close: async () => {
+      await s.close();
+      rmSync(dir, { recursive: true, force: true });
+    },
+  };
 }

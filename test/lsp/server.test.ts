@@ -3,7 +3,15 @@
 
 import assert from 'node:assert/strict';
 import type { CodeLens, Hover, MarkupContent } from 'vscode-languageserver-protocol/lib/node/main';
-import { Methods, type CheckWorkspaceResult, type ListWorkspaceOpsResult, type OpReportResult, type WorkspaceProgressParams } from '../../server/src/lsp/protocol';
+import type { OpResult } from '../../server/src/model/types';
+import {
+  Methods,
+  type CheckOpsResult,
+  type CheckWorkspaceResult,
+  type ListWorkspaceOpsResult,
+  type OpReportResult,
+  type WorkspaceProgressParams,
+} from '../../server/src/lsp/protocol';
 import { LspSession, lsp } from './lspSession';
 
 const { CodeLensRequest, DiagnosticSeverity, HoverRequest } = lsp;
@@ -100,6 +108,61 @@ describe('language server over LSP (trusted workspace)', function () {
     assert.match(tagHover, /^\*\*@sample\*\* — How to draw one parameter[\s\S]*---[\s\S]*\| x \| f64\[8\] \|/);
     const report = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri, forward: 'softplus' });
     assert.ok(report.result!.params[0]!.maxRelError < USER_SETTINGS.tolerance.f64);
+  });
+
+  it("draws a passing op's step picture only when its report opens, with the same verdict and figures", async () => {
+    const uri = s.uri('pass.ts');
+    await s.waitFor('softplus to pass', () => s.opState(uri, 'softplus') === 'pass');
+    // A forced run with the default settings: no picture of a passing parameter.
+    const checked = await s.connection.sendRequest<CheckOpsResult>(Methods.checkOps, { uri, forwards: ['softplus'], force: true });
+    const first = checked.results[0]!;
+    assert.equal(first.verdict, 'pass');
+    assert.equal(first.params[0]!.stepScan, undefined);
+    assert.equal(first.calls.stepScanForward, undefined);
+    await s.waitFor('nothing left checking', () => s.lastStatus!.checking === 0);
+    const before = s.lastStatus!.opsRun;
+    // The report asks: the op is checked once more, with the picture (stepScans 'all').
+    const report = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri, forward: 'softplus' });
+    const pictured = report.result!;
+    const scan = pictured.params[0]!.stepScan;
+    assert.ok(scan && scan.steps.length > 1, JSON.stringify(pictured.params[0]));
+    await s.waitFor('the re-check to be counted', () => s.lastStatus!.opsRun === before + 1);
+    // Same seed, same inputs: the same verdict and figures; only the picture's 26 forward calls differ.
+    assert.equal(pictured.verdict, first.verdict);
+    assert.equal(pictured.seed, first.seed);
+    assert.deepEqual(pictured.inputs, first.inputs);
+    const figures = (r: OpResult) => r.params.map((p) => [p.name, p.verdict, p.maxAbsError, p.maxRelError, p.worst, p.detectionFloor, p.tolerance]);
+    assert.deepEqual(figures(pictured), figures(first));
+    assert.equal(pictured.calls.stepScanForward, 26);
+    assert.equal(pictured.calls.forward, first.calls.forward + 26);
+    // It is the op's latest now: asking again runs nothing, and a plain check reuses it.
+    const again = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri, forward: 'softplus' });
+    assert.deepEqual(again.result!.params[0]!.stepScan, scan);
+    const reused = await s.connection.sendRequest<CheckOpsResult>(Methods.checkOps, { uri, forwards: ['softplus'] });
+    assert.deepEqual(reused.results[0]!.params[0]!.stepScan, scan);
+    assert.equal(s.lastStatus!.opsRun, before + 1);
+    // A mismatch has its picture from the first check: its report runs nothing.
+    const growth = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri: s.uri('mismatch.ts'), forward: 'growth' });
+    assert.ok(growth.result!.params[0]!.stepScan);
+    await new Promise((r) => setTimeout(r, 300));
+    assert.equal(s.lastStatus!.opsRun, before + 1);
+  });
+
+  it('re-checks nothing for the picture once the text changed since the result (the same inputs would no longer be checked)', async () => {
+    const uri = s.uri('pass.ts');
+    const text = s.text('pass.ts');
+    const checked = await s.connection.sendRequest<CheckOpsResult>(Methods.checkOps, { uri, forwards: ['softplus'], force: true });
+    assert.equal(checked.results[0]!.params[0]!.stepScan, undefined);
+    await s.waitFor('nothing left checking', () => s.lastStatus!.checking === 0);
+    const before = s.lastStatus!.opsRun;
+    // An unsaved edit (open-and-save: no check of it starts).
+    await s.insert(uri, { line: text.split('\n').length - 1, character: 0 }, '// edited\n');
+    const report = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri, forward: 'softplus' });
+    assert.equal(report.result?.verdict, 'pass', report.reason);
+    assert.equal(report.result.params[0]!.stepScan, undefined);
+    await new Promise((r) => setTimeout(r, 300));
+    assert.equal(s.lastStatus!.opsRun, before);
+    await s.replaceText(uri, text);
   });
 
   it('reuses the result when a save changes nothing, and re-checks when forced', async () => {
@@ -270,6 +333,19 @@ describe('language server over LSP (untrusted workspace)', function () {
     await s.waitFor('softplus to pass once trusted', () => s.opState(uri, 'softplus') === 'pass');
     assert.ok(s.runnerChildren().length > 0, 'runner processes start once the workspace is trusted');
   });
+
+  it('once trust is withdrawn, the report answers the result it has and re-checks nothing for the picture', async () => {
+    const uri = s.uri('pass.ts');
+    await s.waitFor('softplus to pass', () => s.opState(uri, 'softplus') === 'pass' && s.lastStatus!.checking === 0);
+    await s.connection.sendNotification(Methods.trustChanged, { workspaceTrusted: false });
+    await s.waitFor('the status to say untrusted', () => s.lastStatus?.trusted === false);
+    const before = s.lastStatus!.opsRun;
+    const report = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri, forward: 'softplus' });
+    assert.equal(report.result?.verdict, 'pass', report.reason);
+    assert.equal(report.result.params[0]!.stepScan, undefined, 'no picture: the re-check it needs may not run');
+    await new Promise((r) => setTimeout(r, 300));
+    assert.equal(s.lastStatus!.opsRun, before);
+  });
 });
 
 describe('language server over LSP (untrusted, isolated interpreter opted in)', function () {
@@ -297,5 +373,15 @@ describe('language server over LSP (untrusted, isolated interpreter opted in)', 
     // esbuild's service may run (it bundles, running no user code); no sandbox runner may.
     assert.deepEqual(s.runnerChildren(), [], 'no runner process: the interpreter runs in a worker thread');
     await s.waitFor('the status to say isolated', () => s.lastStatus?.isolated === true && s.lastStatus.trusted === false);
+  });
+
+  it("re-checks a passing op for its report's picture in the interpreter too, never in a runner process", async () => {
+    const uri = await s.open('pass.ts');
+    await s.waitFor('softplus to pass in the interpreter', () => s.opState(uri, 'softplus') === 'pass');
+    const report = await s.connection.sendRequest<OpReportResult>(Methods.opReport, { uri, forward: 'softplus' });
+    assert.equal(report.result?.verdict, 'pass', report.reason);
+    assert.equal(report.result.isolation, 'interpreter');
+    assert.ok(report.result.params[0]!.stepScan, 'the picture, drawn by the interpreter');
+    assert.deepEqual(s.runnerChildren(), []);
   });
 });

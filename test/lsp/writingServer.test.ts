@@ -2,11 +2,10 @@
 // process spoken to over LSP), on a copy of test/fixtures/lsp-writing/ so files can be rewritten.
 
 import assert from 'node:assert/strict';
-import { cpSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { cpSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { CodeAction, CompletionItem, CompletionList, Diagnostic, DocumentSymbol, Hover, Location, SymbolInformation } from 'vscode-languageserver-protocol/lib/node/main';
-import { FIXTURES, LspSession, lsp } from './lspSession';
+import { FIXTURES, lsp, tempWorkspace, type LspSession, type TempWorkspace } from './lspSession';
 
 const {
   CodeActionRequest,
@@ -29,18 +28,16 @@ function positionAfter(text: string, needle: string): { line: number; character:
 
 describe('writing features over LSP', function () {
   this.timeout(300_000);
+  let ws: TempWorkspace;
   let dir: string;
   let s: LspSession;
 
   before(async () => {
-    dir = mkdtempSync(join(tmpdir(), 'gp-writing-'));
-    cpSync(join(FIXTURES, '..', 'lsp-writing'), dir, { recursive: true });
-    s = new LspSession({ trusted: true, workspace: dir, filesRoot: dir, settings: { timeLimitMs: 5000 } });
-    await s.initialize();
+    ws = await tempWorkspace('gp-writing-', (d) => cpSync(join(FIXTURES, '..', 'lsp-writing'), d, { recursive: true }), { timeLimitMs: 5000 });
+    ({ dir, s } = ws);
   });
   after(async () => {
-    await s.close();
-    rmSync(dir, { recursive: true, force: true });
+    await ws.close();
   });
 
   it('completes @sample with the unsampled parameters and their guessed specs', async () => {

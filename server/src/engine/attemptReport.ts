@@ -4,6 +4,7 @@
 
 import { abs, max } from './builtins';
 import type { BackwardCaller, UpstreamProbes } from './backwardCalls';
+import { CheckStop, EngineFault } from './failure';
 import { float32OutputHint, paramHints, swapHints, type ParamEvidence } from './hints';
 import type { Baseline } from './kindBaseline';
 import { elementLine } from './lines';
@@ -68,8 +69,10 @@ export function attemptOutcome(at: AttemptReportContext, checks: ParamCheck[]): 
   }
   // Forward calls the error-against-step pictures cost: part of `calls.forward`, not of the verdict.
   const beforeScans = h.calls.forward;
-  const pictured = passingPicture(checks);
-  for (let s = 0; s < checks.length; s++) addReportData(at, s, checks[s], s === pictured);
+  // A passing parameter's picture only when asked for ('all': the editor's report page asks).
+  const pictured = settings.stepScans === 'all' ? passingPicture(checks) : -1;
+  let drawing = true;
+  for (let s = 0; s < checks.length; s++) drawing = addReportData(at, s, checks[s], s === pictured, drawing);
   const stepScanForward = h.calls.forward - beforeScans;
 
   const verdict: Verdict = anyMismatch ? 'mismatch' : anyInconclusive ? 'inconclusive' : 'pass';
@@ -103,11 +106,13 @@ export function attemptOutcome(at: AttemptReportContext, checks: ParamCheck[]): 
 }
 
 /**
- * The one passing parameter whose picture a passing op's report shows: the one nearest its
- * tolerance (largest relative error), or -1. On a pass the picture shows where the step sat on
- * the V of truncation against roundoff, and one parameter shows it as well as three; each is 26
- * forward calls, more than the whole check of a small grouped op (our choice: at 100 elements a
- * three-field layer spent 78 of its 115 forward calls on pictures).
+ * The one passing parameter whose picture the report shows under settings.stepScans 'all': the
+ * one nearest its tolerance (largest relative error), or -1. On a pass the picture shows where
+ * the step sat on the V of truncation against roundoff, and one parameter shows it as well as
+ * three; each is 26 forward calls, more than the whole check of a small grouped op (our choice:
+ * at 100 elements a three-field layer spent 78 of its 115 forward calls on pictures). By default
+ * no passing parameter is pictured: the picture plays no part in the verdict, and at 100
+ * elements an elementwise op's check was 31 forward calls with it, 7 without.
  */
 function passingPicture(checks: ParamCheck[]): number {
   let best = -1;
@@ -121,27 +126,39 @@ function passingPicture(checks: ParamCheck[]): number {
 
 /**
  * The error map of a 2-D parameter, and the step scan at the worst element: for every parameter
- * that does not pass, and for the passing one `pictured` names (settings.stepScans 'all').
+ * that does not pass (unless settings.stepScans narrows that), and for the passing one
+ * `pictured` names (settings.stepScans 'all'), while `drawing`. Returns whether later
+ * parameters may still be pictured: not after a scan stopped.
  */
-function addReportData(at: AttemptReportContext, s: number, c: ParamCheck, pictured: boolean): void {
+function addReportData(at: AttemptReportContext, s: number, c: ParamCheck, pictured: boolean, drawing: boolean): boolean {
   const r = c.result;
   const pos = c.worstPos;
   const ev = c.evidence;
-  if (ev === null || pos < 0) return;
+  if (ev === null || pos < 0) return drawing;
   const slot = at.base.slots[s];
   if (ev.complete && slot.shape.length === 2 && slot.size <= ERROR_MAP_MAX_ELEMENTS) {
     const map: number[] = [];
     for (let p = 0; p < ev.est.indices.length; p++) map[ev.est.indices[p]] = ev.cmp.rel[p];
     r.errorMap = map;
   }
-  const scans = at.settings.stepScans ?? 'all';
-  if (scans === 'none' || (scans === 'mismatch' && r.verdict !== 'mismatch')) return;
-  if (r.verdict === 'pass' && !pictured) return;
-  if (26 * at.base.forwardMs > STEP_SCAN_BUDGET_MS || at.outOfTime()) return;
+  const scans = at.settings.stepScans;
+  if (!drawing || scans === 'none' || (scans === 'mismatch' && r.verdict !== 'mismatch')) return drawing;
+  if (r.verdict === 'pass' && !pictured) return true;
+  if (26 * at.base.forwardMs > STEP_SCAN_BUDGET_MS || at.outOfTime()) return true;
   const i = ev.est.indices[pos];
   const k = ev.cmp.worstProbe[pos];
   const line = elementLine(at.h, slot, i);
-  r.stepScan = stepScan(line, comparedUpstreams(at, r.method)[k], ev.analytic[k][i], max(1, abs(slot.get(i))));
+  try {
+    r.stepScan = stepScan(line, comparedUpstreams(at, r.method)[k], ev.analytic[k][i], max(1, abs(slot.get(i))));
+  } catch (e) {
+    // The picture plays no part in the verdict: a forward that throws at one of its steps (they
+    // reach 0.1·max(1, |x|), beyond a sample range of one point), or the engine's hard stop at
+    // the time limit between its calls, costs the pictures, never the outcome. Seen: a passing
+    // op whose forward threw beyond its one sample point ended in `error` when asked for 'all'.
+    if (!(e instanceof CheckStop) || e instanceof EngineFault) throw e;
+    return false;
+  }
+  return true;
 }
 
 /**

@@ -55,11 +55,11 @@ export interface CheckSettings {
   isolation?: 'process' | 'interpreter';
   /**
    * Optional (added by the engine): which parameters get the error-against-step scan shown in
-   * the editor's report, 26 extra forward calls each. 'all' (the default when absent: every
-   * parameter that does not pass, and of the passing ones the one nearest its tolerance; skipped
-   * when those calls would take more than 150 ms), 'mismatch' (only parameters that disagree) or
-   * 'none'. Verdicts never depend on it; benchmarks that measure a check against its evaluation
-   * floor use 'mismatch'.
+   * the editor's report, 26 extra forward calls each, skipped when those calls would take more
+   * than 150 ms. Absent (the default): every parameter that does not pass. 'all': those, and of
+   * the passing ones the one nearest its tolerance (the language server asks for it when the
+   * report page of an op opens). 'mismatch': only parameters that disagree. 'none': no scan.
+   * Verdicts never depend on it.
    */
   stepScans?: 'all' | 'mismatch' | 'none';
 }

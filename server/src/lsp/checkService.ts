@@ -2,6 +2,7 @@
 // every op per document, which ops are running, cancellation of stale runs, and reuse of a
 // result when neither the text, the settings nor any other file of its bundle changed since it
 // was computed (the bundle's inputs are remembered, so a saved helper file re-checks its users).
+// A result drawn with every step picture (settings.stepScans 'all') also serves a plain request.
 
 import { createHash } from 'node:crypto';
 import { statSync } from 'node:fs';
@@ -16,7 +17,12 @@ import type { ReasonCode } from './protocol';
 
 /** A result, the (text, settings) it was computed for, and the other input files' stamps then. */
 interface StoredResult {
+  /** Text, settings but settings.stepScans, and coverage: what the verdict depends on. */
   key: string;
+  /** The settings.stepScans its run drew pictures with (undefined: the default). */
+  stepScans: CheckSettings['stepScans'];
+  /** A pictures-only re-check of this result ended otherwise and was dropped: it is not tried again. */
+  picturesTried?: boolean;
   result: OpResult;
   /** Size and modification time of every other file the bundle read, by path. */
   inputs: ReadonlyMap<string, string>;
@@ -64,6 +70,29 @@ export interface FileCheckRequest {
   signal?: AbortSignal;
   /** Record which code each check ran (gradientProbe.showUnreached); default true. */
   coverage?: boolean;
+  /**
+   * A re-check that only adds step pictures (same seed and inputs, so the same verdict): it runs
+   * only when every wanted op's stored result is for this same text, settings (pictures aside)
+   * and bundle inputs, else resolves with no result; and its result replaces the stored one only
+   * when it ends the same way (a run the time limit stopped on a loaded machine, or that crashed,
+   * says nothing new about the code), else it is dropped, the stored one stays and is not
+   * re-checked for pictures again.
+   */
+  picturesOnly?: boolean;
+}
+
+/** Whether a re-check ended as the result it repeats did: the same verdict, stopped at the time limit or not. */
+function endsAlike(before: OpResult | undefined, after: OpResult): boolean {
+  return before !== undefined && before.verdict === after.verdict && (before.stoppedAtTimeLimit === undefined) === (after.stoppedAtTimeLimit === undefined);
+}
+
+/**
+ * Whether a result drawn with `stored` step pictures serves a request for `wanted`: the pictures
+ * change no verdict or figure, so a result with every picture ('all') serves any request, and a
+ * result with fewer never serves a request for all of them.
+ */
+function picturesServe(stored: CheckSettings['stepScans'], wanted: CheckSettings['stepScans']): boolean {
+  return stored === wanted || stored === 'all';
 }
 
 export class CheckService {
@@ -150,17 +179,17 @@ export class CheckService {
   async check(request: FileCheckRequest): Promise<OpResult[]> {
     // Untrusted: only the isolated interpreter may run code (the session decides when).
     if (!this.trusted && request.settings.isolation !== 'interpreter') throw new CheckRefused(UNTRUSTED_REASON, 'untrusted');
-    const key = `${hashText(request.text)}|${settingsKey(request.settings)}|${request.coverage === false ? 'no-coverage' : 'coverage'}`;
+    const { stepScans, ...verdictSettings } = request.settings;
+    const key = `${hashText(request.text)}|${settingsKey(verdictSettings)}|${request.coverage === false ? 'no-coverage' : 'coverage'}`;
     // Unique names: a client may name an op twice (a file and its op both selected).
     const wanted = [...new Set(request.forwards ?? request.knownForwards)];
     const stored = this.results.get(request.uri);
-    const reusable =
-      !request.force &&
-      wanted.length > 0 &&
-      wanted.every((f) => {
-        const entry = stored?.get(f);
-        return entry?.key === key && inputsUnchanged(entry.inputs);
-      });
+    const current = (f: string): boolean => {
+      const entry = stored?.get(f);
+      return entry?.key === key && inputsUnchanged(entry.inputs);
+    };
+    if (request.picturesOnly && (wanted.length === 0 || !wanted.every((f) => current(f) && !stored!.get(f)!.picturesTried))) return [];
+    const reusable = !request.force && wanted.length > 0 && wanted.every((f) => current(f) && picturesServe(stored!.get(f)!.stepScans, stepScans));
     if (reusable) return wanted.map((f) => stored!.get(f)!.result);
 
     this.started += wanted.length;
@@ -175,6 +204,8 @@ export class CheckService {
     this.markRunning(request.uri, wanted, +1);
     const finished = new Set<string>();
     const collected: OpResult[] = [];
+    /** The number each op's result of this run was stored under. */
+    const seqs = new Map<string, number>();
     // Stamps of the bundle's other inputs, taken when it was built (before any op ran).
     let inputs: ReadonlyMap<string, string> = new Map();
     const onBundle = (paths: string[]): void => {
@@ -186,8 +217,15 @@ export class CheckService {
       if (controller.signal.aborted) return;
       const forward = result.forward ?? '';
       if (request.forwards && !request.forwards.includes(forward)) return; // `filter` is a substring match
+      const before = this.latest(request.uri, forward);
+      if (request.picturesOnly && !endsAlike(before, result)) {
+        this.log(`check ${label}: ${forward} ended ${result.verdict} where its result was ${before?.verdict ?? 'none'}; that result stays`);
+        const entry = this.results.get(request.uri)?.get(forward);
+        if (entry) entry.picturesTried = true;
+        return;
+      }
       collected.push(result);
-      this.store(request.uri, forward, key, result, inputs);
+      seqs.set(forward, this.store(request.uri, forward, { key, stepScans, result, inputs }));
       if (wanted.includes(forward) && !finished.has(forward)) {
         finished.add(forward);
         this.markRunning(request.uri, [forward], -1);
@@ -208,9 +246,12 @@ export class CheckService {
         coverage: request.coverage !== false,
         // Verdicts show at once; an op's coverage (hints, hover line) follows when its run ends.
         onCoverage: (result) => {
-          if (controller.signal.aborted) return;
+          const forward = result.forward ?? '';
+          const seq = seqs.get(forward);
+          // A newer run's result (a re-check for the report's step picture) stays: it was not replaced by this run's coverage.
+          if (controller.signal.aborted || seq === undefined || this.latestSeq(request.uri, forward) !== seq) return;
           // The same run's result with its coverage: the same number, so it is not recorded twice.
-          this.store(request.uri, result.forward ?? '', key, result, inputs, true);
+          this.store(request.uri, forward, { key, stepScans, result, inputs }, seq);
           this.onChange(request.uri);
         },
         ...(filter !== undefined ? { filter } : {}),
@@ -257,12 +298,12 @@ export class CheckService {
     return this.checker;
   }
 
-  /** `sameRun`: the result of a run already stored (now with its coverage) keeps its number. */
-  private store(uri: string, forward: string, key: string, result: OpResult, inputs: ReadonlyMap<string, string>, sameRun = false): void {
+  /** Stores a result under a new number, or under `seq`: a stored run's result, now with its coverage. Returns the number. */
+  private store(uri: string, forward: string, entry: Omit<StoredResult, 'seq'>, seq = ++this.storedCount): number {
     let perDoc = this.results.get(uri);
     if (!perDoc) this.results.set(uri, (perDoc = new Map()));
-    const previous = perDoc.get(forward)?.seq;
-    perDoc.set(forward, { key, result, inputs, seq: sameRun && previous !== undefined ? previous : ++this.storedCount });
+    perDoc.set(forward, { ...entry, seq });
+    return seq;
   }
 
   private markRunning(uri: string, forwards: string[], delta: number): void {

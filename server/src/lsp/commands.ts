@@ -7,6 +7,7 @@ import type { OpDescriptor, OpResult } from '../model/types';
 import { CheckRefused } from './checkService';
 import { opStanding } from './opStanding';
 import type { CheckOpsParams, CheckOpsResult, OpReportParams, OpReportResult, RegressionTestResult } from './protocol';
+import { withPassingPicture } from './reportPictures';
 import { regressionTestFor } from './regressionTest';
 import type { Session } from './session';
 
@@ -35,13 +36,20 @@ export async function recheck(session: Session, args: unknown[] | undefined): Pr
   return checkOps(session, params, new AbortController().signal);
 }
 
-export async function opReport(session: Session, params: OpReportParams): Promise<OpReportResult> {
+/**
+ * The report page's data: the op's latest result, re-checked first with the step picture of a
+ * passing parameter when that result has none (reportPictures.ts).
+ */
+export async function opReport(session: Session, params: OpReportParams, signal?: AbortSignal): Promise<OpReportResult> {
   const key = session.keyOf(params.uri);
   const facts = await session.facts(key);
   const op = facts?.snapshot.ops.find((o) => o.forward === params.forward);
   if (!facts || !op) return { result: null, reason: `no annotated op named ${params.forward} in this file`, reasonCode: 'unknown-op' };
-  const result = facts.latest(op.forward);
-  if (result) return { result, tolerance: await toleranceOf(session, key, op, result) };
+  const latest = facts.latest(op.forward);
+  if (latest) {
+    const result = await withPassingPicture(session, key, op, latest, facts, signal);
+    return { result, tolerance: await toleranceOf(session, key, op, result) };
+  }
   const standing = opStanding(op, facts);
   if (!standing.may) return { result: null, reason: standing.reason, reasonCode: standing.code };
   return { result: null, reason: `${op.forward} has not been checked yet`, reasonCode: 'not-checked' };

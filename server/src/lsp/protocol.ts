@@ -111,7 +111,12 @@ export interface WorkspaceProgressParams {
   file: string;
 }
 
-/** client → server request: the last result of one op, for the report webview. */
+/**
+ * client → server request: the last result of one op, for the report webview. When that result
+ * has a passing parameter but no passing parameter's step picture (checks draw none by
+ * default), the server first re-checks the op with every picture, when it may run and its text
+ * is unchanged, and answers with that result. Cancellable.
+ */
 export interface OpReportParams {
   uri: string;
   forward: string;

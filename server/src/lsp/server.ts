@@ -243,7 +243,7 @@ export function startServer(connection: Connection): void {
     ),
   );
 
-  connection.onRequest(Methods.opReport, (params: OpReportParams) => guardRequest('report', () => opReport(need(), params)));
+  connection.onRequest(Methods.opReport, (params: OpReportParams, token: CancellationToken) => guardRequest('report', () => opReport(need(), params, signalOf(token))));
   connection.onRequest(Methods.regressionTest, (params: OpReportParams) => guardRequest('regression test', () => regressionTest(need(), params)));
 
   connection.onShutdown(async () => {

@@ -27,6 +27,19 @@ export interface SessionOptions {
   codeLensRefresh: boolean;
 }
 
+/** What a check of one file may be asked for besides its text and settings. */
+export interface CheckOptions {
+  /** Display names of the ops to check; default every op of the file. */
+  forwards?: string[];
+  /** Run even when a result for the same text and settings exists. */
+  force?: boolean;
+  signal?: AbortSignal;
+  /** Step pictures to draw instead of the settings' (the report page asks for 'all'). */
+  stepScans?: 'all';
+  /** A re-check that only adds step pictures to the latest results (FileCheckRequest.picturesOnly). */
+  picturesOnly?: boolean;
+}
+
 export class Session {
   readonly checks: CheckService;
   readonly settings: SettingsCache;
@@ -126,7 +139,7 @@ export class Session {
    * Checks a file (all its ops or those named) with its current text and settings.
    * Throws CheckRefused when nothing may run, saying why.
    */
-  async check(fsPath: string, opts: { forwards?: string[]; force?: boolean; signal?: AbortSignal } = {}): Promise<OpResult[]> {
+  async check(fsPath: string, opts: CheckOptions = {}): Promise<OpResult[]> {
     const settings = await this.effectiveSettings(fsPath);
     const isolated = !this.checks.isTrusted && settings.isolatedWhenUntrusted;
     const standing = folderStanding({ trusted: this.checks.isTrusted, isolated, ...(settings.configError ? { configError: settings.configError } : {}) });
@@ -140,12 +153,13 @@ export class Session {
       fsPath,
       text: snapshot.text,
       // Untrusted with the user's opt-in: the isolated interpreter, never the runner processes.
-      settings: isolated ? { ...settings.settings, isolation: 'interpreter' } : settings.settings,
+      settings: { ...settings.settings, ...(isolated ? { isolation: 'interpreter' } : {}), ...(opts.stepScans ? { stepScans: opts.stepScans } : {}) },
       knownForwards: runnable,
       coverage: settings.showUnreached,
       ...(opts.forwards ? { forwards: opts.forwards.filter((f) => runnable.includes(f)) } : {}),
       ...(opts.force !== undefined ? { force: opts.force } : {}),
       ...(opts.signal ? { signal: opts.signal } : {}),
+      ...(opts.picturesOnly ? { picturesOnly: true } : {}),
     });
     this.crashes.observe(fsPath, results);
     return results;
