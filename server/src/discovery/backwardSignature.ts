@@ -33,8 +33,9 @@ export interface SignatureFacts {
   isMethod: boolean;
 }
 
-function argText(a: BackwardArg): string {
-  return a.kind === 'param' ? a.name : a.kind === 'output' ? '$y' : '$dy';
+/** How an argument of the backward's call is written in a tag's list (`x`, `this.w`, `$y`, `$dy`, `$v`, `$dNAME`). */
+export function backwardArgText(a: BackwardArg): string {
+  return a.kind === 'param' ? a.name : a.kind === 'output' ? '$y' : a.kind === 'upstream' ? '$dy' : a.kind === 'vector' ? '$v' : `$d${a.name}`;
 }
 
 function roleOf(name: string | undefined, facts: SignatureFacts): Role {
@@ -102,23 +103,23 @@ export function backwardSignatureProblem(facts: SignatureFacts): string | undefi
   if (args.length < required) {
     why = `it declares ${required} required parameter${required === 1 ? '' : 's'} but would receive ${args.length}`;
   } else if (args.length > declared.length) {
-    why = `it declares ${declared.length} parameter${declared.length === 1 ? '' : 's'} but would receive ${args.length}, so '${argText(args[declared.length]!)}' would be dropped`;
+    why = `it declares ${declared.length} parameter${declared.length === 1 ? '' : 's'} but would receive ${args.length}, so '${backwardArgText(args[declared.length]!)}' would be dropped`;
   } else {
     for (let i = 0; i < args.length && !why; i++) {
       const r = roles[i]!;
-      if (!sameRole(r, args[i]!)) why = `its parameter ${i + 1} is '${names[i]}', which looks like ${describeRole(r)}, but the check passes '${argText(args[i]!)}' there`;
+      if (!sameRole(r, args[i]!)) why = `its parameter ${i + 1} is '${names[i]}', which looks like ${describeRole(r)}, but the check passes '${backwardArgText(args[i]!)}' there`;
     }
     for (let i = 0; i < args.length && !why; i++) {
       const want = typeKind(declared[i]!.type);
       const got = passedKind(args[i]!, facts);
       if (want !== 'unknown' && got !== 'unknown' && want !== got) {
-        why = `its parameter ${i + 1} ('${names[i] ?? declared[i]!.name.getText()}') is declared ${want === 'number' ? 'a number' : 'an array'}, but '${argText(args[i]!)}' is ${got === 'number' ? 'a number' : 'an array'}`;
+        why = `its parameter ${i + 1} ('${names[i] ?? declared[i]!.name.getText()}') is declared ${want === 'number' ? 'a number' : 'an array'}, but '${backwardArgText(args[i]!)}' is ${got === 'number' ? 'a number' : 'an array'}`;
       }
     }
   }
   if (!why) return undefined;
 
-  const call = `${facts.backwardName}(${args.map(argText).join(', ')})`;
+  const call = `${facts.backwardName}(${args.map(backwardArgText).join(', ')})`;
   const rule = facts.explicit
     ? 'as the @backward list says'
     : facts.isMethod

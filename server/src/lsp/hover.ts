@@ -3,6 +3,7 @@
 // method), the hints and the seed, so a result can be read and reproduced where the code is.
 
 import { MarkupKind, type Hover, type Position } from 'vscode-languageserver';
+import { backwardArgText } from '../discovery/backwardSignature';
 import type { OpDescriptor, ParamResult } from '../model/types';
 import { coverageHoverLine } from './coverageMarks';
 import { formatIndex, formatNumber, formatRelError, formatShape, formatTime, NO_FIGURE } from '../present/format';
@@ -32,7 +33,7 @@ export function hoverAt(facts: DocumentFacts, position: Position): Hover | null 
 
 /** The hover text; `onlyParam` narrows the table to the parameter a `@sample` tag draws. */
 export function opMarkdown(op: OpDescriptor, facts: DocumentFacts, onlyParam?: string): string {
-  const call = op.backwardArgsFromNames ? `${op.backward}(${op.backwardArgs.map(callArgText).join(', ')})` : op.backward;
+  const call = op.backwardArgsFromNames ? `${op.backward}(${op.backwardArgs.map(backwardArgText).join(', ')})` : op.backward;
   const head = `**${escape(op.forward)}** → ${op.kind ?? 'backward'} \`${call}\`${op.backwardArgsFromNames ? ' (called as its parameter names say)' : ''}`;
   const standing = opStanding(op, facts);
   if (!standing.may && standing.code === 'annotation-error') {
@@ -67,10 +68,6 @@ export function opMarkdown(op: OpDescriptor, facts: DocumentFacts, onlyParam?: s
   if (coverage) lines.push(escape(coverage), '');
   lines.push(`Reproduce with seed ${result.seed}${op.seed !== undefined ? ' (the op’s @seed)' : ''}.`);
   return lines.join('\n');
-}
-
-function callArgText(a: OpDescriptor['backwardArgs'][number]): string {
-  return a.kind === 'param' ? a.name : a.kind === 'upstream' ? '$dy' : a.kind === 'output' ? '$y' : a.kind === 'vector' ? '$v' : `$d${a.name}`;
 }
 
 function row(p: ParamResult): string {
